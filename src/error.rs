@@ -1,0 +1,126 @@
+//! Errors and diagnostics. Invalid input is collected as a list of
+//! diagnostics (so `check` can report every problem in one pass, sorted by
+//! location); failures during a run are a single typed error. `main` maps the
+//! first kind to exit code 2 and the second to exit code 1 (SPEC §1).
+
+use std::fmt;
+use std::path::PathBuf;
+
+/// Where a problem was found: a file, and optionally a line and column as an
+/// editor shows them (1-based).
+#[derive(Debug, Clone, PartialEq, Eq, PartialOrd, Ord)]
+pub struct Location {
+    pub file: PathBuf,
+    pub line: Option<usize>,
+    pub column: Option<usize>,
+}
+
+/// One problem with the experiment file or its data.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Diagnostic {
+    pub location: Option<Location>,
+    pub message: String,
+}
+
+impl Diagnostic {
+    pub fn new(location: Option<Location>, message: impl Into<String>) -> Self {
+        Diagnostic { location, message: message.into() }
+    }
+}
+
+impl fmt::Display for Diagnostic {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match &self.location {
+            Some(loc) => {
+                write!(f, "{}", loc.file.display())?;
+                if let Some(line) = loc.line {
+                    write!(f, ":{line}")?;
+                    if let Some(col) = loc.column {
+                        write!(f, ":{col}")?;
+                    }
+                }
+                write!(f, ": {}", self.message)
+            }
+            None => write!(f, "{}", self.message),
+        }
+    }
+}
+
+#[derive(Debug, thiserror::Error)]
+pub enum Error {
+    /// The experiment or its data is invalid; nothing was written.
+    #[error("{}", render_diagnostics(.0))]
+    Invalid(Vec<Diagnostic>),
+    /// The run failed (I/O, numerics).
+    #[error("{0}")]
+    Run(String),
+    #[error("{context}: {source}")]
+    Io { context: String, source: std::io::Error },
+}
+
+impl Error {
+    pub fn invalid(location: Option<Location>, message: impl Into<String>) -> Self {
+        Error::Invalid(vec![Diagnostic::new(location, message)])
+    }
+    pub fn io(context: impl Into<String>, source: std::io::Error) -> Self {
+        Error::Io { context: context.into(), source }
+    }
+    /// Exit code per SPEC §1.
+    pub fn exit_code(&self) -> i32 {
+        match self {
+            Error::Invalid(_) => 2,
+            _ => 1,
+        }
+    }
+}
+
+fn render_diagnostics(diags: &[Diagnostic]) -> String {
+    let mut sorted: Vec<&Diagnostic> = diags.iter().collect();
+    sorted.sort_by(|a, b| a.location.cmp(&b.location).then(a.message.cmp(&b.message)));
+    sorted.dedup_by(|a, b| a == b);
+    let lines: Vec<String> = sorted.iter().map(|d| format!("error: {d}")).collect();
+    lines.join("\n")
+}
+
+pub type Result<T> = std::result::Result<T, Error>;
+
+/// Levenshtein distance, for "did you mean" suggestions.
+pub fn edit_distance(a: &str, b: &str) -> usize {
+    let a: Vec<char> = a.chars().collect();
+    let b: Vec<char> = b.chars().collect();
+    let mut prev: Vec<usize> = (0..=b.len()).collect();
+    let mut cur = vec![0; b.len() + 1];
+    for i in 1..=a.len() {
+        cur[0] = i;
+        for j in 1..=b.len() {
+            let cost = usize::from(a[i - 1] != b[j - 1]);
+            cur[j] = (prev[j] + 1).min(cur[j - 1] + 1).min(prev[j - 1] + cost);
+        }
+        std::mem::swap(&mut prev, &mut cur);
+    }
+    prev[b.len()]
+}
+
+/// The closest of `options` to `word`, if any is reasonably close.
+pub fn nearest<'a>(word: &str, options: &[&'a str]) -> Option<&'a str> {
+    let lw = word.to_lowercase();
+    options
+        .iter()
+        .map(|o| (edit_distance(&lw, &o.to_lowercase()), *o))
+        .filter(|(d, o)| *d <= (o.len().max(word.len()) / 2).max(2))
+        .min()
+        .map(|(_, o)| o)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    #[test]
+    fn edit_distance_known_values() {
+        // Classic textbook pair (kitten/sitting = 3), common practice.
+        assert_eq!(edit_distance("kitten", "sitting"), 3);
+        assert_eq!(edit_distance("", "abc"), 3);
+        assert_eq!(nearest("horizon", &["horizons", "schemes"]), Some("horizons"));
+        assert_eq!(nearest("zzzzzz", &["horizons", "schemes"]), None);
+    }
+}

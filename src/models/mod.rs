@@ -1,0 +1,55 @@
+//! models: one file per family. Each family turns a cell's target data and
+//! scheme into forecast rows; shared least squares lives in `crate::linalg`.
+
+pub mod linear;
+pub mod simple;
+
+/// One forecast of a backtest.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ForecastRow {
+    pub horizon: usize,
+    /// Origin position T.
+    pub origin: usize,
+    pub forecast: f64,
+    /// In-sample MSE of the estimation that produced it (SPEC §4), if any.
+    pub is_mse: Option<f64>,
+}
+
+/// One forecast beyond the data, from origin N.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct OutlookRow {
+    pub horizon: usize,
+    /// None when an input it needs is not in the data (a known-ahead predictor's future value).
+    pub forecast: Option<f64>,
+}
+
+/// Why a cell could not be estimated at some origin.
+#[derive(Debug, Clone, PartialEq)]
+pub struct EstimationProblem {
+    pub horizon: usize,
+    pub origin: usize,
+    pub message: String,
+}
+
+/// Where a cell's estimation sample ends at each origin and how it is cut.
+#[derive(Debug, Clone, Copy)]
+pub struct Schedule<'a> {
+    pub scheme: &'a crate::spec::Scheme,
+    pub first_origin: usize,
+    pub n: usize,
+}
+
+impl Schedule<'_> {
+    pub fn origins(&self, horizon: usize) -> std::ops::RangeInclusive<usize> {
+        crate::plan::origins(self.scheme, self.first_origin, self.n, horizon)
+    }
+    pub fn estimation_end(&self, origin: usize) -> usize {
+        crate::plan::estimation_end(self.scheme, self.first_origin, origin)
+    }
+    pub fn window(&self) -> Option<usize> {
+        match self.scheme.kind {
+            crate::spec::SchemeKind::Rolling => self.scheme.window,
+            _ => None,
+        }
+    }
+}

@@ -1,0 +1,94 @@
+//! plan: the grid expanded into cells (target × candidate × scheme, all
+//! horizons; SPEC §6) with stable ids, and each scheme's origins and
+//! estimation ends (SPEC §4).
+
+use crate::spec::{Experiment, Scheme, SchemeKind};
+
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Cell {
+    pub target: usize,
+    pub candidate: usize,
+    pub scheme: usize,
+    /// `target/candidate/scheme`, stable across runs and shards.
+    pub id: String,
+}
+
+/// Cells in output order: targets as listed, candidates as expanded, schemes as listed.
+pub fn cells(exp: &Experiment) -> Vec<Cell> {
+    let mut out = Vec::with_capacity(exp.targets.len() * exp.candidates.len() * exp.schemes.len());
+    for (t, target) in exp.targets.iter().enumerate() {
+        for (c, cand) in exp.candidates.iter().enumerate() {
+            for (s, scheme) in exp.schemes.iter().enumerate() {
+                out.push(Cell { target: t, candidate: c, scheme: s, id: format!("{}/{}/{}", target.name, cand.id, scheme.id) });
+            }
+        }
+    }
+    out
+}
+
+/// Origins of a scheme at horizon h: T0..=N−h, or T0 alone with `origins: first`.
+pub fn origins(scheme: &Scheme, first_origin: usize, n: usize, horizon: usize) -> std::ops::RangeInclusive<usize> {
+    let last = n.saturating_sub(horizon);
+    if scheme.origins_first {
+        first_origin..=first_origin.min(last)
+    } else {
+        first_origin..=last
+    }
+}
+
+/// Estimation end E at origin T (SPEC §4): T0 for fixed, else
+/// T0 + k·⌊(T − T0)/k⌋ with k = refit_every (k = 1 gives E = T).
+pub fn estimation_end(scheme: &Scheme, first_origin: usize, origin: usize) -> usize {
+    match scheme.kind {
+        SchemeKind::Fixed => first_origin,
+        SchemeKind::Expanding | SchemeKind::Rolling => {
+            let k = scheme.refit_every.max(1);
+            first_origin + k * ((origin - first_origin) / k)
+        }
+    }
+}
+
+/// First position of the estimation sample of observation-based models
+/// (mean, drift): 1, or the start of the last `window` observations.
+pub fn sample_start(scheme: &Scheme, estimation_end: usize) -> usize {
+    match (scheme.kind, scheme.window) {
+        (SchemeKind::Rolling, Some(w)) if estimation_end > w => estimation_end - w + 1,
+        _ => 1,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::spec::SchemeStart;
+
+    fn scheme(kind: SchemeKind, window: Option<usize>, refit_every: usize, origins_first: bool) -> Scheme {
+        Scheme { id: "s".into(), kind, start: SchemeStart::Half, window, refit_every, origins_first, line: 1 }
+    }
+
+    #[test]
+    fn origins_run_from_t0_to_n_minus_h() {
+        // Hand-worked from SPEC §4: N = 20, T0 = 10, h = 4 gives origins 10..=16 (7 origins),
+        // the first forecasting position 14 and the last 20.
+        let s = scheme(SchemeKind::Expanding, None, 1, false);
+        let o = origins(&s, 10, 20, 4);
+        assert_eq!(o.clone().count(), 7);
+        assert_eq!((o.start() + 4, o.end() + 4), (14, 20));
+        let first = scheme(SchemeKind::Fixed, None, 1, true);
+        assert_eq!(origins(&first, 10, 20, 4).count(), 1);
+    }
+
+    #[test]
+    fn estimation_ends_per_scheme() {
+        // SPEC §4: fixed E = T0; expanding E = T; refit_every k: E = T0 + k⌊(T−T0)/k⌋.
+        let fixed = scheme(SchemeKind::Fixed, None, 1, false);
+        assert_eq!(estimation_end(&fixed, 10, 15), 10);
+        let exp = scheme(SchemeKind::Expanding, None, 1, false);
+        assert_eq!(estimation_end(&exp, 10, 15), 15);
+        let every4 = scheme(SchemeKind::Expanding, None, 4, false);
+        assert_eq!([10, 13, 14, 17, 18].map(|t| estimation_end(&every4, 10, t)), [10, 10, 14, 14, 18]);
+        let rolling = scheme(SchemeKind::Rolling, Some(6), 1, false);
+        assert_eq!(sample_start(&rolling, 15), 10);
+        assert_eq!(sample_start(&rolling, 4), 1);
+    }
+}

@@ -1,0 +1,55 @@
+//! manifest.json (SPEC §5): what was run, on which inputs, producing which
+//! outputs. Everything except the `run` section is deterministic; timing,
+//! threads and host live in `run` alone.
+
+use crate::spec::{sha256_hex, Experiment};
+use serde_json::{json, Value};
+
+pub struct RunFacts {
+    pub seconds: f64,
+    pub threads: usize,
+    pub host: String,
+    pub started_unix: u64,
+    pub shard: String,
+}
+
+pub fn manifest(exp: &Experiment, cell_ids: &[String], templates: &[(String, String)], outputs: &[(String, Vec<u8>)], run: &RunFacts) -> Vec<u8> {
+    let file_name = |p: &std::path::Path| p.file_name().map(|f| f.to_string_lossy().to_string()).unwrap_or_default();
+    let value: Value = json!({
+        "tool": {
+            "name": "outturn",
+            "version": env!("CARGO_PKG_VERSION"),
+            "profile": if cfg!(debug_assertions) { "debug" } else { "release" },
+        },
+        "experiment": {
+            "name": exp.name,
+            "file": file_name(&exp.source_path),
+            "sha256": sha256_hex(exp.source_text.as_bytes()),
+        },
+        "data": [{
+            "file": file_name(&exp.data_path),
+            "sha256": exp.data_bytes_sha256,
+        }],
+        "templates": templates.iter().map(|(name, text)| json!({"name": name, "sha256": sha256_hex(text.as_bytes())})).collect::<Vec<_>>(),
+        "seed": exp.seed,
+        "grid": {
+            "targets": exp.targets.iter().map(|t| t.name.clone()).collect::<Vec<_>>(),
+            "candidates": exp.candidates.iter().map(|c| c.id.clone()).collect::<Vec<_>>(),
+            "schemes": exp.schemes.iter().map(|s| s.id.clone()).collect::<Vec<_>>(),
+            "horizons": exp.horizons,
+            "benchmark": exp.candidates[exp.benchmark].id,
+            "cells": cell_ids,
+        },
+        "outputs": outputs.iter().map(|(name, bytes)| json!({"file": name, "sha256": sha256_hex(bytes), "bytes": bytes.len()})).collect::<Vec<_>>(),
+        "run": {
+            "started_unix": run.started_unix,
+            "seconds": run.seconds,
+            "threads": run.threads,
+            "host": run.host,
+            "shard": run.shard,
+        },
+    });
+    let mut bytes = serde_json::to_vec_pretty(&value).unwrap_or_default();
+    bytes.push(b'\n');
+    bytes
+}

@@ -1,0 +1,690 @@
+//! spec: the experiment file (SPEC §2) and its data, parsed and checked into
+//! a typed [`Experiment`]. Raw strings and options never leave this module:
+//! periods are resolved to positions, candidate ids are built, and every
+//! problem points at a key, line or row.
+
+pub mod data;
+pub mod decode;
+pub mod model;
+pub mod period;
+pub mod yaml;
+
+pub use model::*;
+
+use crate::error::{nearest, Diagnostic, Error, Location, Result};
+use decode::Ctx;
+use period::Frequency;
+use sha2::{Digest, Sha256};
+use std::path::{Path, PathBuf};
+use yaml::{Kind, Node};
+
+const TOP_KEYS: &[&str] = &[
+    "version", "experiment", "notes", "data", "target", "transform", "predictors", "candidates", "backtest",
+    "scoring", "report", "seed",
+];
+const FAMILIES: &[&str] = &["naive", "mean", "drift", "seasonal_naive", "ar", "ardl", "arima", "smoothing", "combination"];
+const LATER_FAMILIES: &[&str] = &["arima", "smoothing", "combination"];
+
+pub fn sha256_hex(bytes: &[u8]) -> String {
+    let digest = Sha256::digest(bytes);
+    digest.iter().map(|b| format!("{b:02x}")).collect()
+}
+
+/// Read, parse and check an experiment file and its data.
+pub fn load(path: &Path) -> Result<Experiment> {
+    let file_loc = || Some(Location { file: path.to_path_buf(), line: None, column: None });
+    let bytes = std::fs::read(path).map_err(|e| Error::invalid(file_loc(), format!("cannot read the experiment file: {e}")))?;
+    let text = String::from_utf8(bytes).map_err(|_| Error::invalid(file_loc(), "the experiment file is not UTF-8 text"))?;
+    let root = yaml::parse(&text).map_err(|e| {
+        Error::invalid(
+            Some(Location { file: path.to_path_buf(), line: Some(e.line), column: Some(e.column) }),
+            format!("the file is not valid YAML: {}", e.message),
+        )
+    })?;
+    let mut ctx = Ctx::new(path);
+    let exp = decode_experiment(&mut ctx, &root, path, &text);
+    match exp {
+        Some(exp) if ctx.diags.is_empty() => Ok(exp),
+        _ => {
+            if ctx.diags.is_empty() {
+                ctx.diags.push(Diagnostic::new(file_loc(), "the experiment is invalid"));
+            }
+            Err(Error::Invalid(ctx.diags))
+        }
+    }
+}
+
+struct PendingScheme {
+    scheme: Scheme,
+    node: Node,
+}
+
+fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Option<Experiment> {
+    let top = ctx.map(root, "the experiment", TOP_KEYS, &[])?;
+    let anchor = top.anchor();
+    let need = |ctx: &mut Ctx, key: &str| -> Option<&Node> {
+        let node = top.get(key);
+        if node.is_none() {
+            ctx.error(&anchor, format!("the experiment needs the key '{key}'"));
+        }
+        node
+    };
+
+    // version
+    if let Some(v) = need(ctx, "version") {
+        if let Some(s) = ctx.string(v, "version") {
+            if s != "1" {
+                ctx.error(v, format!("version {s} is not known; this outturn reads experiment files of version 1"));
+            }
+        }
+    }
+    // experiment name
+    let name = need(ctx, "experiment").and_then(|n| {
+        let s = ctx.string(n, "experiment")?;
+        if s.is_empty() || !s.bytes().all(|b| b.is_ascii_lowercase() || b.is_ascii_digit() || b == b'_' || b == b'-') {
+            ctx.error(n, format!("experiment '{s}' must use only a-z, 0-9, '_' and '-' (it names the results folder)"));
+            return None;
+        }
+        Some(s)
+    });
+    let notes = top.get("notes").and_then(|n| if n.is_null() { None } else { ctx.string(n, "notes") });
+
+    // report
+    let mut title = None;
+    let mut formats = vec![ReportFormat::Html, ReportFormat::Markdown];
+    if let Some(r) = top.get("report") {
+        if let Some(view) = ctx.map(r, "report", &["formats", "title"], &[]) {
+            if let Some(t) = view.get("title") {
+                title = ctx.string(t, "report.title");
+            }
+            if let Some(f) = view.get("formats") {
+                let mut out = Vec::new();
+                for item in ctx.list(f) {
+                    match ctx.choice(item, "report format", &["html", "markdown"]).as_deref() {
+                        Some("html") if !out.contains(&ReportFormat::Html) => out.push(ReportFormat::Html),
+                        Some("markdown") if !out.contains(&ReportFormat::Markdown) => out.push(ReportFormat::Markdown),
+                        _ => {}
+                    }
+                }
+                formats = out;
+            }
+        }
+    }
+
+    let seed = match top.get("seed") {
+        Some(n) => ctx.integer(n, "seed", 0).map(|v| v as u64).unwrap_or(0),
+        None => 0,
+    };
+
+    let transform = match top.get("transform") {
+        Some(n) => ctx.choice(n, "transform", &Transform::NAMES).and_then(|s| Transform::parse(&s)),
+        None => Some(Transform::None),
+    };
+
+    // data
+    let data_node = need(ctx, "data");
+    let mut data_file = None;
+    let mut time_col = None;
+    let mut frequency = None;
+    let mut start = None;
+    let mut end = None;
+    if let Some(d) = data_node {
+        if let Some(view) = ctx.map(d, "data", &["file", "time", "frequency", "start", "end"], &[]) {
+            let a = view.anchor();
+            match view.get("file") {
+                Some(n) => data_file = ctx.string(n, "data.file").map(|s| (s, n.clone())),
+                None => ctx.error(&a, "data needs 'file': the path of the CSV, relative to the experiment file"),
+            }
+            match view.get("time") {
+                Some(n) => time_col = ctx.string(n, "data.time").map(|s| (s, n.clone())),
+                None => ctx.error(&a, "data needs 'time': the column holding the period labels"),
+            }
+            match view.get("frequency") {
+                Some(n) => frequency = ctx.choice(n, "data.frequency", &Frequency::NAMES).and_then(|s| Frequency::parse(&s)),
+                None => ctx.error(&a, format!("data needs 'frequency': one of {}", Frequency::NAMES.join(", "))),
+            }
+            start = view.get("start").and_then(|n| ctx.string(n, "data.start").map(|s| (s, n.clone())));
+            end = view.get("end").and_then(|n| ctx.string(n, "data.end").map(|s| (s, n.clone())));
+        }
+    }
+
+    // targets
+    let mut targets: Vec<(String, Node)> = Vec::new();
+    if let Some(t) = need(ctx, "target") {
+        let items = ctx.list(t);
+        if items.is_empty() {
+            ctx.error(t, "target is an empty list; name at least one column");
+        }
+        for item in items {
+            if let Some(s) = ctx.string(item, "target") {
+                if targets.iter().any(|(n, _)| *n == s) {
+                    ctx.error(item, format!("target '{s}' is listed twice"));
+                } else {
+                    targets.push((s, item.clone()));
+                }
+            }
+        }
+    }
+
+    // predictors
+    let mut predictors: Vec<Predictor> = Vec::new();
+    let mut predictor_nodes: Vec<Node> = Vec::new();
+    if let Some(p) = top.get("predictors") {
+        if !p.is_null() {
+            let items = match &p.kind {
+                Kind::Seq(items) => items.iter().collect::<Vec<_>>(),
+                _ => {
+                    ctx.error(p, "predictors must be a list of entries, each with a 'column'");
+                    Vec::new()
+                }
+            };
+            for (i, item) in items.into_iter().enumerate() {
+                let path = format!("predictors[{}]", i + 1);
+                let Some(view) = ctx.map(item, &path, &["column", "transform", "release_lag", "known_ahead"], &[]) else {
+                    continue;
+                };
+                let Some(column) = view.get("column").and_then(|n| ctx.string(n, &format!("{path}.column"))) else {
+                    if view.get("column").is_none() {
+                        ctx.error(item, format!("{path} needs 'column': the data column to use"));
+                    }
+                    continue;
+                };
+                let transform = match view.get("transform") {
+                    Some(n) => ctx.choice(n, &format!("{path}.transform"), &Transform::NAMES).and_then(|s| Transform::parse(&s)),
+                    None => Some(Transform::None),
+                };
+                let release_lag = match view.get("release_lag") {
+                    Some(n) => ctx.integer(n, &format!("{path}.release_lag"), 0).map(|v| v as usize),
+                    None => Some(0),
+                };
+                let known_ahead = match view.get("known_ahead") {
+                    Some(n) => ctx.boolean(n, &format!("{path}.known_ahead")),
+                    None => Some(false),
+                };
+                let (Some(transform), Some(release_lag), Some(known_ahead)) = (transform, release_lag, known_ahead) else {
+                    continue;
+                };
+                if known_ahead && release_lag > 0 {
+                    ctx.error(item, format!("{path}: known_ahead cannot be combined with release_lag (a value known in advance is not published late)"));
+                }
+                if predictors.iter().any(|p| p.column == column) {
+                    ctx.error(item, format!("{path}: column '{column}' is declared as a predictor twice"));
+                    continue;
+                }
+                if targets.iter().any(|(t, _)| *t == column) {
+                    ctx.error(item, format!("{path}: '{column}' is a target; its own lags enter through ar and ardl 'lags'"));
+                }
+                predictors.push(Predictor { column, transform, release_lag, known_ahead, line: item.line });
+                predictor_nodes.push(item.clone());
+            }
+        }
+    }
+
+    // backtest (before candidates: multi_step matters there)
+    let mut schemes: Vec<PendingScheme> = Vec::new();
+    let mut horizons: Vec<usize> = Vec::new();
+    let mut multi_step = MultiStep::Direct;
+    if let Some(b) = need(ctx, "backtest") {
+        if let Some(view) = ctx.map(b, "backtest", &["schemes", "horizons", "multi_step"], &[]) {
+            let a = view.anchor();
+            match view.get("horizons") {
+                Some(h) => {
+                    for item in ctx.list(h) {
+                        if let Some(v) = ctx.integer(item, "backtest.horizons", 1) {
+                            if horizons.contains(&(v as usize)) {
+                                ctx.error(item, format!("horizon {v} is listed twice"));
+                            } else if v > 100_000 {
+                                ctx.error(item, format!("horizon {v} is larger than any data set could support"));
+                            } else {
+                                horizons.push(v as usize);
+                            }
+                        }
+                    }
+                    if horizons.is_empty() && !matches!(&h.kind, Kind::Seq(v) if !v.is_empty()) {
+                        ctx.error(h, "backtest.horizons is empty; list at least one horizon, e.g. [1, 4]");
+                    }
+                }
+                None => ctx.error(&a, "backtest needs 'horizons': the steps ahead to forecast, e.g. [1, 4]"),
+            }
+            horizons.sort_unstable();
+            if let Some(m) = view.get("multi_step") {
+                if let Some(s) = ctx.choice(m, "backtest.multi_step", &["direct", "iterated"]) {
+                    multi_step = if s == "iterated" { MultiStep::Iterated } else { MultiStep::Direct };
+                }
+            }
+            match view.get("schemes") {
+                Some(s) => schemes = decode_schemes(ctx, s),
+                None => ctx.error(&a, "backtest needs 'schemes': a list of fixed, expanding or rolling entries"),
+            }
+        }
+    }
+
+    // candidates
+    let mut candidates: Vec<Candidate> = Vec::new();
+    if let Some(c) = need(ctx, "candidates") {
+        match &c.kind {
+            Kind::Seq(items) if !items.is_empty() => {
+                for (i, item) in items.iter().enumerate() {
+                    decode_candidate(ctx, item, i + 1, &predictors, &mut candidates);
+                }
+            }
+            _ => ctx.error(c, "candidates must be a non-empty list of model entries, each with a 'family'"),
+        }
+    }
+    for (i, c) in candidates.iter().enumerate() {
+        if let Some(first) = candidates[..i].iter().find(|o| o.id == c.id) {
+            let node = Node { kind: Kind::Scalar(String::new(), false), line: c.line, column: 1 };
+            ctx.error(
+                &node,
+                format!("candidate id '{}' is produced twice (also by the entry on line {}); give one entry a 'label'", c.id, first.line),
+            );
+        }
+    }
+
+    // scoring
+    let mut metrics: Vec<Metric> = vec![Metric::Rmse, Metric::Mae, Metric::Bias, Metric::Mape, Metric::Smape, Metric::Mase, Metric::R2Oos];
+    let mut rank_by = Metric::Rmse;
+    let mut benchmark_name: Option<(String, Node)> = None;
+    let mut rank_node = None;
+    if let Some(s) = top.get("scoring") {
+        if let Some(view) = ctx.map(s, "scoring", &["metrics", "rank_by", "benchmark"], &["intervals", "tests", "periods"]) {
+            if let Some(m) = view.get("metrics") {
+                let mut out = Vec::new();
+                for item in ctx.list(m) {
+                    let Some(name) = ctx.string(item, "scoring.metrics") else { continue };
+                    if ["interval_score", "coverage", "crps"].contains(&name.as_str()) {
+                        ctx.error(item, format!("metric '{name}' needs prediction intervals, which are not supported yet by this version of outturn"));
+                        continue;
+                    }
+                    if let Some(metric) = ctx.choice(item, "metric", &Metric::NAMES).and_then(|s| Metric::parse(&s)) {
+                        if out.contains(&metric) {
+                            ctx.error(item, format!("metric '{name}' is listed twice"));
+                        } else {
+                            out.push(metric);
+                        }
+                    }
+                }
+                if out.is_empty() && ctx.diags.is_empty() {
+                    ctx.error(m, "scoring.metrics is empty; list at least one metric, e.g. [rmse, mae]");
+                }
+                metrics = out;
+            }
+            if let Some(r) = view.get("rank_by") {
+                rank_node = Some(r.clone());
+                if let Some(metric) = ctx.choice(r, "scoring.rank_by", &Metric::NAMES).and_then(|s| Metric::parse(&s)) {
+                    rank_by = metric;
+                }
+            } else if !metrics.is_empty() && !metrics.contains(&Metric::Rmse) {
+                rank_by = metrics[0];
+            }
+            if let Some(b) = view.get("benchmark") {
+                benchmark_name = ctx.string(b, "scoring.benchmark").map(|s| (s, b.clone()));
+            }
+        }
+    }
+    if !metrics.contains(&rank_by) {
+        if let Some(r) = &rank_node {
+            ctx.error(r, format!("rank_by '{}' must also be listed in scoring.metrics", rank_by.name()));
+        }
+    }
+    // SPEC §4: the id named, else naive when it is a candidate, else the first candidate.
+    let benchmark = match &benchmark_name {
+        Some((name, node)) => match candidates.iter().position(|c| c.id == *name) {
+            Some(i) => i,
+            None => {
+                let ids: Vec<&str> = candidates.iter().map(|c| c.id.as_str()).collect();
+                let hint = nearest(name, &ids).map(|n| format!("did you mean '{n}'? ")).unwrap_or_default();
+                ctx.error(node, format!("benchmark '{name}' names no candidate; {hint}candidate ids are: {}", ids.join(", ")));
+                0
+            }
+        },
+        None => candidates.iter().position(|c| c.id == "naive").unwrap_or(0),
+    };
+
+    // Everything below needs the data.
+    let (Some(name), Some((data_file, data_file_node)), Some((time_col, time_node)), Some(frequency), Some(transform)) =
+        (name, data_file, time_col, frequency, transform)
+    else {
+        return None;
+    };
+    if !ctx.diags.is_empty() {
+        return None;
+    }
+    let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
+    let data_path: PathBuf = base.join(&data_file);
+    let bytes = match std::fs::read(&data_path) {
+        Ok(b) => b,
+        Err(e) => {
+            ctx.error(&data_file_node, format!("cannot read the data file {}: {e}", data_path.display()));
+            return None;
+        }
+    };
+    let table = match data::read_table(&data_path, &bytes) {
+        Ok(t) => t,
+        Err(d) => {
+            ctx.diags.push(d);
+            return None;
+        }
+    };
+    let resolved = resolve::resolve_data(
+        ctx,
+        &table,
+        resolve::DataRequest {
+            time: (&time_col, &time_node),
+            frequency,
+            start: start.as_ref().map(|(s, n)| (s.as_str(), n)),
+            end: end.as_ref().map(|(s, n)| (s.as_str(), n)),
+            targets: &targets,
+            transform,
+            predictors: &predictors,
+            predictor_nodes: &predictor_nodes,
+            schemes: &schemes.iter().map(|p| (&p.scheme, &p.node)).collect::<Vec<_>>(),
+            horizons: &horizons,
+        },
+    )?;
+    if candidates.is_empty() || schemes.is_empty() || horizons.is_empty() {
+        return None;
+    }
+    for c in &candidates {
+        if c.family == Family::SeasonalNaive && frequency.season_length().is_none() {
+            let node = Node { kind: Kind::Scalar(String::new(), false), line: c.line, column: 1 };
+            ctx.error(&node, format!("seasonal_naive needs seasonal data; {} data have no season length", frequency.name()));
+        }
+    }
+    if transform == Transform::SeasonalDiff && frequency.season_length().is_none() {
+        if let Some(n) = top.get("transform") {
+            ctx.error(n, format!("seasonal_diff needs seasonal data; {} data have no season length", frequency.name()));
+        }
+    }
+    let title = title.unwrap_or_else(|| name.clone());
+    Some(Experiment {
+        name,
+        notes,
+        title,
+        source_path: path.to_path_buf(),
+        source_text: text.to_string(),
+        data_path,
+        data_bytes_sha256: sha256_hex(&bytes),
+        time_column: time_col,
+        frequency,
+        label_style: resolved.label_style,
+        transform,
+        predictors,
+        targets: resolved.targets,
+        candidates,
+        schemes: schemes.into_iter().map(|p| p.scheme).collect(),
+        horizons,
+        multi_step,
+        metrics,
+        rank_by,
+        benchmark,
+        formats,
+        seed,
+    })
+}
+
+fn decode_schemes(ctx: &mut Ctx, node: &Node) -> Vec<PendingScheme> {
+    let Kind::Seq(items) = &node.kind else {
+        ctx.error(node, "backtest.schemes must be a list, e.g. [{expanding: {first_origin: 1995Q4}}]");
+        return Vec::new();
+    };
+    if items.is_empty() {
+        ctx.error(node, "backtest.schemes is empty; list at least one of fixed, expanding, rolling");
+    }
+    let mut out: Vec<PendingScheme> = Vec::new();
+    for (i, item) in items.iter().enumerate() {
+        let path = format!("backtest.schemes[{}]", i + 1);
+        let kind_name = match &item.kind {
+            Kind::Scalar(s, _) if !item.is_null() => Some((s.clone(), None)),
+            Kind::Map(entries) if entries.len() == 1 => match &entries[0].0.kind {
+                Kind::Scalar(s, _) => Some((s.clone(), Some(&entries[0].1))),
+                _ => None,
+            },
+            _ => None,
+        };
+        let Some((kind_name, settings)) = kind_name else {
+            ctx.error(item, format!("{path} must be one of fixed, expanding or rolling with its settings, e.g. {{expanding: {{first_origin: 1995Q4}}}}"));
+            continue;
+        };
+        let kind = match ctx.choice(&entry_key(item), &format!("{path}: scheme"), &["fixed", "expanding", "rolling"]).as_deref() {
+            Some("fixed") => SchemeKind::Fixed,
+            Some("expanding") => SchemeKind::Expanding,
+            Some("rolling") => SchemeKind::Rolling,
+            _ => continue,
+        };
+        let allowed: &[&str] = match kind {
+            SchemeKind::Fixed => &["test_start", "first_origin", "train_share", "origins"],
+            SchemeKind::Expanding => &["test_start", "first_origin", "train_share", "refit_every"],
+            SchemeKind::Rolling => &["test_start", "first_origin", "train_share", "window", "refit_every"],
+        };
+        let empty = Node { kind: Kind::Map(Vec::new()), line: item.line, column: item.column };
+        let settings = settings.unwrap_or(&empty);
+        let Some(view) = ctx.map(settings, &format!("{path}.{kind_name}"), allowed, &[]) else { continue };
+        let mut start = SchemeStart::Half;
+        let mut count = 0;
+        for key in ["test_start", "first_origin", "train_share"] {
+            let Some(n) = view.get(key) else { continue };
+            count += 1;
+            let Some(text) = ctx.string(n, &format!("{path}.{kind_name}.{key}")) else { continue };
+            start = match key {
+                "test_start" => SchemeStart::TestStart { label: text, ordinal: 0 },
+                "first_origin" => SchemeStart::FirstOrigin { label: text, ordinal: 0 },
+                _ => match parse_share(&text) {
+                    Some((numerator, denominator)) => SchemeStart::TrainShare { text, numerator, denominator },
+                    None => {
+                        ctx.error(n, format!("{path}.{kind_name}.train_share must be a decimal strictly between 0 and 1, e.g. 0.5; found '{text}'"));
+                        continue;
+                    }
+                },
+            };
+        }
+        if count > 1 {
+            ctx.error(settings, format!("{path}: give at most one of test_start, first_origin and train_share"));
+        }
+        let window = match view.get("window") {
+            Some(n) => ctx.integer(n, &format!("{path}.rolling.window"), 1).map(|v| v as usize),
+            None => {
+                if kind == SchemeKind::Rolling {
+                    ctx.error(settings, format!("{path}: rolling needs 'window': the number of most recent regression rows to keep"));
+                }
+                None
+            }
+        };
+        let refit_every = match view.get("refit_every") {
+            Some(n) => ctx.integer(n, &format!("{path}.{kind_name}.refit_every"), 1).unwrap_or(1) as usize,
+            None => 1,
+        };
+        let origins_first = match view.get("origins") {
+            Some(n) => ctx.choice(n, &format!("{path}.fixed.origins"), &["all", "first"]).as_deref() == Some("first"),
+            None => false,
+        };
+        let id = match kind {
+            SchemeKind::Fixed => "fixed".to_string(),
+            SchemeKind::Expanding => "expanding".to_string(),
+            SchemeKind::Rolling => format!("rolling({})", window.unwrap_or(0)),
+        };
+        if kind == SchemeKind::Rolling && window.is_none() {
+            continue;
+        }
+        if let Some(prev) = out.iter().find(|p| p.scheme.id == id) {
+            ctx.error(item, format!("{path}: a second scheme with the id '{id}' (the first is on line {}); scheme ids must differ", prev.node.line));
+            continue;
+        }
+        out.push(PendingScheme {
+            scheme: Scheme { id, kind, start, window, refit_every, origins_first, line: item.line },
+            node: item.clone(),
+        });
+    }
+    out
+}
+
+fn entry_key(item: &Node) -> Node {
+    match &item.kind {
+        Kind::Map(entries) if !entries.is_empty() => entries[0].0.clone(),
+        _ => item.clone(),
+    }
+}
+
+/// Parse a decimal share like `0.5` or `.75` exactly as a fraction.
+fn parse_share(text: &str) -> Option<(u128, u128)> {
+    let t = text.trim();
+    let (int, frac) = t.split_once('.').unwrap_or((t, ""));
+    if frac.len() > 30 || !int.bytes().all(|b| b.is_ascii_digit()) || !frac.bytes().all(|b| b.is_ascii_digit()) {
+        return None;
+    }
+    if int.is_empty() && frac.is_empty() {
+        return None;
+    }
+    let int_v: u128 = if int.is_empty() { 0 } else { int.parse().ok()? };
+    let frac_v: u128 = if frac.is_empty() { 0 } else { frac.parse().ok()? };
+    let den = 10u128.checked_pow(frac.len() as u32)?;
+    let num = int_v.checked_mul(den)?.checked_add(frac_v)?;
+    if num == 0 || num >= den {
+        return None;
+    }
+    Some((num, den))
+}
+
+fn decode_candidate(ctx: &mut Ctx, item: &Node, index: usize, predictors: &[Predictor], out: &mut Vec<Candidate>) {
+    let path = format!("candidates[{index}]");
+    let family_name = match &item.kind {
+        Kind::Map(_) => None,
+        _ => {
+            ctx.error(item, format!("{path} must be a mapping with a 'family', e.g. {{family: ar, lags: [1, 2]}}"));
+            return;
+        }
+    }
+    .or_else(|| {
+        if let Kind::Map(entries) = &item.kind {
+            entries.iter().find(|(k, _)| matches!(&k.kind, Kind::Scalar(s, _) if s == "family")).map(|(_, v)| v.clone())
+        } else {
+            None
+        }
+    });
+    let Some(family_node) = family_name else {
+        ctx.error(item, format!("{path} needs 'family': one of {}", FAMILIES.join(", ")));
+        return;
+    };
+    let Some(family) = ctx.choice(&family_node, &format!("{path}.family"), FAMILIES) else { return };
+    if LATER_FAMILIES.contains(&family.as_str()) {
+        ctx.error(&family_node, format!("{path}: family '{family}' is not supported yet by this version of outturn"));
+        return;
+    }
+    let (allowed, later): (&[&str], &[&str]) = match family.as_str() {
+        "ar" => (&["family", "label", "lags", "trend"], &["select", "max_lags"]),
+        "ardl" => (&["family", "label", "lags", "trend", "predictors", "predictor_lags"], &["select", "max_lags"]),
+        _ => (&["family", "label"], &[]),
+    };
+    let Some(view) = ctx.map(item, &path, allowed, later) else { return };
+    if later.iter().any(|k| view.get(k).is_some()) {
+        return;
+    }
+    let label = match view.get("label") {
+        Some(n) => match ctx.string(n, &format!("{path}.label")) {
+            Some(s) if !s.is_empty() && s.bytes().all(|b| b.is_ascii_alphanumeric() || b == b'_' || b == b'-' || b == b'.') => Some(s),
+            Some(s) => {
+                ctx.error(n, format!("{path}.label '{s}' must use only letters, digits, '_', '-' and '.'"));
+                return;
+            }
+            None => return,
+        },
+        None => None,
+    };
+    let base = label.unwrap_or_else(|| family.clone());
+    let trend = match view.get("trend") {
+        Some(n) => match ctx.choice(n, &format!("{path}.trend"), &Trend::NAMES).and_then(|s| Trend::parse(&s)) {
+            Some(t) => t,
+            None => return,
+        },
+        None => Trend::Constant,
+    };
+    let trend_suffix = if trend == Trend::Constant { String::new() } else { format!(",{}", trend.name()) };
+    let line = item.line;
+    match family.as_str() {
+        "naive" => out.push(Candidate { id: base, family: Family::Naive, line }),
+        "mean" => out.push(Candidate { id: base, family: Family::Mean, line }),
+        "drift" => out.push(Candidate { id: base, family: Family::Drift, line }),
+        "seasonal_naive" => out.push(Candidate { id: base, family: Family::SeasonalNaive, line }),
+        "ar" => {
+            let Some(lags_node) = view.get("lags") else {
+                ctx.error(item, format!("{path}: ar needs 'lags': a list of orders like [1, 2, 4] or {{from: 1, to: 8}}"));
+                return;
+            };
+            let Some(orders) = ctx.orders(lags_node, &format!("{path}.lags"), 1) else { return };
+            for p in orders {
+                out.push(Candidate { id: format!("{base}({p}{trend_suffix})"), family: Family::Ar { lags: p, trend }, line });
+            }
+        }
+        "ardl" => {
+            let lags = match view.get("lags") {
+                Some(n) => ctx.orders(n, &format!("{path}.lags"), 0),
+                None => {
+                    ctx.error(item, format!("{path}: ardl needs 'lags': the orders p of the target's own lags (0 allowed)"));
+                    None
+                }
+            };
+            let qs = match view.get("predictor_lags") {
+                Some(n) => ctx.orders(n, &format!("{path}.predictor_lags"), 1),
+                None => {
+                    ctx.error(item, format!("{path}: ardl needs 'predictor_lags': the orders q of each predictor's lags"));
+                    None
+                }
+            };
+            let mut chosen = Vec::new();
+            match view.get("predictors") {
+                Some(n) => {
+                    let items = ctx.list(n);
+                    if items.is_empty() {
+                        ctx.error(n, format!("{path}.predictors is empty; name at least one declared predictor"));
+                    }
+                    for p in items {
+                        let Some(col) = ctx.string(p, &format!("{path}.predictors")) else { continue };
+                        match predictors.iter().position(|d| d.column == col) {
+                            Some(i) if chosen.contains(&i) => ctx.error(p, format!("{path}.predictors names '{col}' twice")),
+                            Some(i) => chosen.push(i),
+                            None => {
+                                let names: Vec<&str> = predictors.iter().map(|d| d.column.as_str()).collect();
+                                let hint = nearest(&col, &names).map(|n| format!(" did you mean '{n}'?")).unwrap_or_default();
+                                ctx.error(
+                                    p,
+                                    format!("{path}.predictors: '{col}' is not declared under the top-level 'predictors' key.{hint} Declared: {}",
+                                        if names.is_empty() { "none".to_string() } else { names.join(", ") }),
+                                );
+                            }
+                        }
+                    }
+                }
+                None => ctx.error(item, format!("{path}: ardl needs 'predictors': the declared predictor columns it uses")),
+            }
+            let (Some(lags), Some(qs)) = (lags, qs) else { return };
+            if chosen.is_empty() {
+                return;
+            }
+            for &p in &lags {
+                for &q in &qs {
+                    out.push(Candidate {
+                        id: format!("{base}({p},{q}{trend_suffix})"),
+                        family: Family::Ardl { lags: p, predictor_lags: q, predictors: chosen.clone(), trend },
+                        line,
+                    });
+                }
+            }
+        }
+        _ => {}
+    }
+}
+
+pub mod resolve;
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    #[test]
+    fn train_share_is_read_exactly() {
+        assert_eq!(parse_share("0.5"), Some((5, 10)));
+        assert_eq!(parse_share(".75"), Some((75, 100)));
+        assert_eq!(parse_share("1"), None);
+        assert_eq!(parse_share("0"), None);
+        assert_eq!(parse_share("1e-1"), None);
+    }
+}

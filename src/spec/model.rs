@@ -1,0 +1,262 @@
+//! The checked experiment: typed, resolved, and free of raw strings and
+//! options that later stages would have to interpret again.
+
+use super::period::{Frequency, LabelStyle};
+use std::path::PathBuf;
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Transform {
+    None,
+    Log,
+    Diff,
+    LogDiff,
+    PctChange,
+    SeasonalDiff,
+}
+
+impl Transform {
+    pub const NAMES: [&'static str; 6] = ["none", "log", "diff", "log_diff", "pct_change", "seasonal_diff"];
+    pub fn parse(s: &str) -> Option<Transform> {
+        Some(match s {
+            "none" => Transform::None,
+            "log" => Transform::Log,
+            "diff" => Transform::Diff,
+            "log_diff" => Transform::LogDiff,
+            "pct_change" => Transform::PctChange,
+            "seasonal_diff" => Transform::SeasonalDiff,
+            _ => return None,
+        })
+    }
+    pub fn name(self) -> &'static str {
+        Self::NAMES[self as usize]
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
+pub enum Trend {
+    None,
+    Constant,
+    Linear,
+}
+
+impl Trend {
+    pub const NAMES: [&'static str; 3] = ["none", "constant", "linear"];
+    pub fn parse(s: &str) -> Option<Trend> {
+        Some(match s {
+            "none" => Trend::None,
+            "constant" => Trend::Constant,
+            "linear" => Trend::Linear,
+            _ => return None,
+        })
+    }
+    pub fn name(self) -> &'static str {
+        Self::NAMES[self as usize]
+    }
+    /// Number of deterministic regressors.
+    pub fn terms(self) -> usize {
+        self as usize
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum MultiStep {
+    Direct,
+    Iterated,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum Metric {
+    Rmse,
+    Mae,
+    Bias,
+    Mape,
+    Smape,
+    Mase,
+    R2Oos,
+}
+
+impl Metric {
+    pub const ALL: [Metric; 7] =
+        [Metric::Rmse, Metric::Mae, Metric::Bias, Metric::Mape, Metric::Smape, Metric::Mase, Metric::R2Oos];
+    pub const NAMES: [&'static str; 7] = ["rmse", "mae", "bias", "mape", "smape", "mase", "r2_oos"];
+    pub fn parse(s: &str) -> Option<Metric> {
+        Self::NAMES.iter().position(|n| *n == s).map(|i| Self::ALL[i])
+    }
+    pub fn name(self) -> &'static str {
+        Self::NAMES[self as usize]
+    }
+    /// Orientation for ranking: rank 1 is the best value.
+    pub fn higher_is_better(self) -> bool {
+        matches!(self, Metric::R2Oos)
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SchemeKind {
+    Fixed,
+    Expanding,
+    Rolling,
+}
+
+/// How the first origin T0 of a scheme is set (SPEC §4).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum SchemeStart {
+    /// T0 = ⌊N/2⌋.
+    Half,
+    /// First target period for h = 1: T0 = its position − 1.
+    TestStart { label: String, ordinal: i64 },
+    /// T0's own period.
+    FirstOrigin { label: String, ordinal: i64 },
+    /// T0 = ⌊f·N⌋ with f = numerator/denominator read exactly from its decimal text.
+    TrainShare { text: String, numerator: u128, denominator: u128 },
+}
+
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Scheme {
+    pub id: String,
+    pub kind: SchemeKind,
+    pub start: SchemeStart,
+    pub window: Option<usize>,
+    pub refit_every: usize,
+    pub origins_first: bool,
+    pub line: usize,
+}
+
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Predictor {
+    pub column: String,
+    pub transform: Transform,
+    pub release_lag: usize,
+    pub known_ahead: bool,
+    pub line: usize,
+}
+
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum Family {
+    Naive,
+    Mean,
+    Drift,
+    SeasonalNaive,
+    Ar { lags: usize, trend: Trend },
+    /// `predictors` index into [`Experiment::predictors`].
+    Ardl { lags: usize, predictor_lags: usize, predictors: Vec<usize>, trend: Trend },
+}
+
+impl Family {
+    /// Number of least-squares coefficients, if the family is estimated by least squares.
+    pub fn coefficients(&self) -> Option<usize> {
+        match self {
+            Family::Ar { lags, trend } => Some(trend.terms() + lags),
+            Family::Ardl { lags, predictor_lags, predictors, trend } => {
+                Some(trend.terms() + lags + predictor_lags * predictors.len())
+            }
+            _ => None,
+        }
+    }
+
+    /// Parameters counted for the complexity curve: least-squares
+    /// coefficients, 1 for mean and drift, 0 for naive and seasonal naive.
+    pub fn parameters(&self) -> usize {
+        match self {
+            Family::Naive | Family::SeasonalNaive => 0,
+            Family::Mean | Family::Drift => 1,
+            _ => self.coefficients().unwrap_or(0),
+        }
+    }
+
+    pub fn family_name(&self) -> &'static str {
+        match self {
+            Family::Naive => "naive",
+            Family::Mean => "mean",
+            Family::Drift => "drift",
+            Family::SeasonalNaive => "seasonal_naive",
+            Family::Ar { .. } => "ar",
+            Family::Ardl { .. } => "ardl",
+        }
+    }
+}
+
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Candidate {
+    pub id: String,
+    pub family: Family,
+    /// Line of the candidate entry in the experiment file.
+    pub line: usize,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum ReportFormat {
+    Html,
+    Markdown,
+}
+
+/// One target's data in position space (SPEC §4): index i holds position i + 1.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TargetData {
+    pub name: String,
+    /// N: the last position with a target value.
+    pub n: usize,
+    /// The transformed target at positions 1..N.
+    pub y: Vec<f64>,
+    /// Period labels of positions 1..N+F, as written in the data file (F future rows).
+    pub labels: Vec<String>,
+    /// Period ordinals of positions 1..N+F.
+    pub ordinals: Vec<i64>,
+    /// Transformed predictor values at positions 1..N+F, one vector per declared predictor.
+    pub predictors: Vec<Vec<Option<f64>>>,
+    /// First origin T0 per scheme (same order as [`Experiment::schemes`]).
+    pub first_origins: Vec<usize>,
+    /// Raw (untransformed) target values at positions 1..N, for the report's data chart.
+    pub raw: Vec<f64>,
+}
+
+#[derive(Debug, Clone)]
+pub struct Experiment {
+    pub name: String,
+    pub notes: Option<String>,
+    pub title: String,
+    pub source_path: PathBuf,
+    pub source_text: String,
+    pub data_path: PathBuf,
+    pub data_bytes_sha256: String,
+    pub time_column: String,
+    pub frequency: Frequency,
+    pub label_style: LabelStyle,
+    pub transform: Transform,
+    pub predictors: Vec<Predictor>,
+    pub targets: Vec<TargetData>,
+    pub candidates: Vec<Candidate>,
+    pub schemes: Vec<Scheme>,
+    pub horizons: Vec<usize>,
+    pub multi_step: MultiStep,
+    pub metrics: Vec<Metric>,
+    pub rank_by: Metric,
+    /// Index into `candidates`.
+    pub benchmark: usize,
+    pub formats: Vec<ReportFormat>,
+    pub seed: u64,
+}
+
+impl Experiment {
+    pub fn period_label(&self, target: &TargetData, position: usize) -> String {
+        if position >= 1 && position <= target.labels.len() {
+            return target.labels[position - 1].clone();
+        }
+        let last = target.ordinals.len();
+        let base = target.ordinals[last - 1];
+        let steps = position as i64 - last as i64;
+        super::period::format_label(self.frequency, base + steps * self.frequency.step(), self.label_style)
+    }
+
+    pub fn season_length(&self) -> Option<usize> {
+        self.frequency.season_length()
+    }
+
+    /// Whether any predictor of a candidate is known ahead (its forecasts are conditional).
+    pub fn is_conditional(&self, candidate: &Candidate) -> bool {
+        match &candidate.family {
+            Family::Ardl { predictors, .. } => predictors.iter().any(|&p| self.predictors[p].known_ahead),
+            _ => false,
+        }
+    }
+}

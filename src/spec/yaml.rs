@@ -1,0 +1,164 @@
+//! A YAML tree that remembers where every node stands in the file, so that
+//! every problem with an experiment file can name its line and column.
+//! Built from the marked event stream of `yaml-rust2`.
+
+use yaml_rust2::parser::{Event, MarkedEventReceiver, Parser};
+use yaml_rust2::scanner::{Marker, TScalarStyle};
+
+#[derive(Debug, Clone, PartialEq)]
+pub enum Kind {
+    /// A scalar and whether it was quoted (quoted scalars are always strings).
+    Scalar(String, bool),
+    Seq(Vec<Node>),
+    Map(Vec<(Node, Node)>),
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct Node {
+    pub kind: Kind,
+    /// 1-based line and column.
+    pub line: usize,
+    pub column: usize,
+}
+
+impl Node {
+    pub fn is_null(&self) -> bool {
+        matches!(&self.kind, Kind::Scalar(s, false) if s.is_empty() || s == "~" || s == "null" || s == "Null" || s == "NULL")
+    }
+    pub fn describe(&self) -> &'static str {
+        match &self.kind {
+            Kind::Scalar(_, _) if self.is_null() => "nothing",
+            Kind::Scalar(_, _) => "a single value",
+            Kind::Seq(_) => "a list",
+            Kind::Map(_) => "a mapping",
+        }
+    }
+}
+
+#[derive(Debug)]
+pub struct YamlError {
+    pub line: usize,
+    pub column: usize,
+    pub message: String,
+}
+
+struct Builder {
+    stack: Vec<(Node, Option<usize>)>,
+    keys: Vec<Option<Node>>,
+    anchors: std::collections::HashMap<usize, Node>,
+    docs: Vec<Node>,
+    error: Option<YamlError>,
+}
+
+impl Builder {
+    fn push_value(&mut self, node: Node) {
+        match self.stack.last_mut() {
+            None => self.docs.push(node),
+            Some((parent, _)) => match &mut parent.kind {
+                Kind::Seq(items) => items.push(node),
+                Kind::Map(entries) => {
+                    let slot = self.keys.last_mut();
+                    match slot {
+                        Some(slot @ None) => *slot = Some(node),
+                        Some(slot) => {
+                            if let Some(key) = slot.take() {
+                                entries.push((key, node));
+                            }
+                        }
+                        None => {}
+                    }
+                }
+                Kind::Scalar(..) => {}
+            },
+        }
+    }
+}
+
+impl MarkedEventReceiver for Builder {
+    fn on_event(&mut self, ev: Event, mark: Marker) {
+        if self.error.is_some() {
+            return;
+        }
+        let line = mark.line();
+        let column = mark.col() + 1;
+        match ev {
+            Event::Scalar(value, style, anchor, _) => {
+                let quoted = !matches!(style, TScalarStyle::Plain);
+                let node = Node { kind: Kind::Scalar(value, quoted), line, column };
+                if anchor > 0 {
+                    self.anchors.insert(anchor, node.clone());
+                }
+                self.push_value(node);
+            }
+            Event::SequenceStart(anchor, _) => {
+                self.stack.push((Node { kind: Kind::Seq(Vec::new()), line, column }, Some(anchor)));
+            }
+            Event::MappingStart(anchor, _) => {
+                self.stack.push((Node { kind: Kind::Map(Vec::new()), line, column }, Some(anchor)));
+                self.keys.push(None);
+            }
+            Event::SequenceEnd | Event::MappingEnd => {
+                if let Some((node, anchor)) = self.stack.pop() {
+                    if matches!(node.kind, Kind::Map(_)) {
+                        self.keys.pop();
+                    }
+                    if let Some(a) = anchor.filter(|a| *a > 0) {
+                        self.anchors.insert(a, node.clone());
+                    }
+                    self.push_value(node);
+                }
+            }
+            Event::Alias(id) => match self.anchors.get(&id).cloned() {
+                Some(node) => self.push_value(node),
+                None => {
+                    self.error = Some(YamlError { line, column, message: "alias to an unknown anchor".into() })
+                }
+            },
+            _ => {}
+        }
+    }
+}
+
+/// Parse one YAML document into a positioned tree. An empty file gives an
+/// empty mapping at line 1.
+pub fn parse(text: &str) -> Result<Node, YamlError> {
+    let mut builder =
+        Builder { stack: Vec::new(), keys: Vec::new(), anchors: Default::default(), docs: Vec::new(), error: None };
+    let mut parser = Parser::new_from_str(text);
+    if let Err(e) = parser.load(&mut builder, true) {
+        let m = e.marker();
+        return Err(YamlError { line: m.line(), column: m.col() + 1, message: e.info().to_string() });
+    }
+    if let Some(err) = builder.error {
+        return Err(err);
+    }
+    if builder.docs.len() > 1 {
+        let second = &builder.docs[1];
+        return Err(YamlError {
+            line: second.line,
+            column: second.column,
+            message: "the file holds more than one YAML document; an experiment is one document".into(),
+        });
+    }
+    Ok(builder.docs.pop().unwrap_or(Node { kind: Kind::Map(Vec::new()), line: 1, column: 1 }))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    #[test]
+    fn positions_are_one_based_lines() {
+        let node = parse("a: 1\nb:\n  - x\n  - 'y'\n").expect("valid yaml");
+        let Kind::Map(entries) = &node.kind else { panic!("map") };
+        assert_eq!(entries.len(), 2);
+        assert_eq!(entries[1].0.line, 2);
+        let Kind::Seq(items) = &entries[1].1.kind else { panic!("seq") };
+        assert_eq!(items[1].line, 4);
+        assert_eq!(items[1].kind, Kind::Scalar("y".into(), true));
+    }
+    #[test]
+    fn malformed_yaml_reports_line() {
+        let err = parse("a: [1, 2\nb: 3\n").unwrap_err();
+        assert!(err.line >= 1);
+    }
+}
