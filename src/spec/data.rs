@@ -38,6 +38,9 @@ pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
     if bytes.iter().all(|b| b.is_ascii_whitespace()) {
         return Err(at(None, "the data file is empty; it needs a header row naming the columns".into()));
     }
+    // Line numbers from byte offsets: the csv reader's own line count skips blank lines.
+    let newlines: Vec<usize> = bytes.iter().enumerate().filter(|(_, b)| **b == b'\n').map(|(i, _)| i).collect();
+    let line_of = |byte: u64| newlines.partition_point(|&i| (i as u64) < byte) + 1;
     let mut reader = csv::ReaderBuilder::new().has_headers(false).flexible(true).from_reader(bytes);
     let mut headers: Option<Vec<String>> = None;
     let mut rows = Vec::new();
@@ -46,7 +49,7 @@ pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
         match reader.read_record(&mut record) {
             Ok(false) => break,
             Ok(true) => {
-                let line = record.position().map(|p| p.line() as usize).unwrap_or(0);
+                let line = record.position().map(|p| line_of(p.byte())).unwrap_or(0);
                 let cells: Vec<String> = record.iter().map(|c| c.trim().to_string()).collect();
                 if cells.iter().all(|c| c.is_empty()) {
                     continue;
@@ -84,7 +87,7 @@ pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
                 }
             }
             Err(e) => {
-                let line = e.position().map(|p| p.line() as usize);
+                let line = e.position().map(|p| line_of(p.byte()));
                 let msg = match e.kind() {
                     csv::ErrorKind::Utf8 { .. } => "the data file is not valid UTF-8 text".to_string(),
                     _ => format!("the data file is not a readable CSV: {e}"),
