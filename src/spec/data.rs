@@ -40,7 +40,14 @@ pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
     }
     // Line numbers from byte offsets: the csv reader's own line count skips blank lines.
     let newlines: Vec<usize> = bytes.iter().enumerate().filter(|(_, b)| **b == b'\n').map(|(i, _)| i).collect();
-    let line_of = |byte: u64| newlines.partition_point(|&i| (i as u64) < byte) + 1;
+    let line_of = |byte: u64| {
+        // A record's recorded start can sit on blank lines the reader skipped.
+        let mut at = byte as usize;
+        while at < bytes.len() && (bytes[at] == b'\n' || bytes[at] == b'\r') {
+            at += 1;
+        }
+        newlines.partition_point(|&i| i < at) + 1
+    };
     let mut reader = csv::ReaderBuilder::new().has_headers(false).flexible(true).from_reader(bytes);
     let mut headers: Option<Vec<String>> = None;
     let mut rows = Vec::new();
