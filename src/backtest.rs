@@ -25,29 +25,47 @@ pub fn outlook_window(exp: &Experiment) -> Option<usize> {
     }
 }
 
-pub fn run_cell(exp: &Experiment, cell: &Cell) -> std::result::Result<CellOutput, EstimationProblem> {
+pub fn run_cell(
+    exp: &Experiment,
+    cell: &Cell,
+) -> std::result::Result<CellOutput, EstimationProblem> {
     let target = &exp.targets[cell.target];
     let candidate = &exp.candidates[cell.candidate];
     let scheme = &exp.schemes[cell.scheme];
-    let sched = Schedule { scheme, first_origin: target.first_origins[cell.scheme], n: target.n };
+    let sched = Schedule {
+        scheme,
+        first_origin: target.first_origins[cell.scheme],
+        n: target.n,
+    };
     let season = exp.season_length();
     let with_outlook = cell.scheme == 0;
     let window = outlook_window(exp);
     match &candidate.family {
         Family::Ar { .. } | Family::Ardl { .. } => {
-            let design = linear::Design::new(exp, &candidate.family, target).ok_or_else(|| EstimationProblem {
-                horizon: 0,
-                origin: 0,
-                message: "not a least-squares family".into(),
+            let design = linear::Design::new(exp, &candidate.family, target).ok_or_else(|| {
+                EstimationProblem {
+                    horizon: 0,
+                    origin: 0,
+                    message: "not a least-squares family".into(),
+                }
             })?;
-            let iterated = exp.multi_step == MultiStep::Iterated && matches!(candidate.family, Family::Ar { .. });
+            let iterated = exp.multi_step == MultiStep::Iterated
+                && matches!(candidate.family, Family::Ar { .. });
             let forecasts = linear::backtest(&design, &sched, &exp.horizons, iterated)?;
-            let outlook = if with_outlook { linear::outlook(&design, window, &exp.horizons, iterated) } else { Vec::new() };
+            let outlook = if with_outlook {
+                linear::outlook(&design, window, &exp.horizons, iterated)
+            } else {
+                Vec::new()
+            };
             Ok(CellOutput { forecasts, outlook })
         }
         family => {
             let forecasts = simple::backtest(family, target, &sched, &exp.horizons, season)?;
-            let outlook = if with_outlook { simple::outlook(family, target, window, &exp.horizons, season) } else { Vec::new() };
+            let outlook = if with_outlook {
+                simple::outlook(family, target, window, &exp.horizons, season)
+            } else {
+                Vec::new()
+            };
             Ok(CellOutput { forecasts, outlook })
         }
     }
@@ -58,14 +76,22 @@ pub fn problem_diagnostic(exp: &Experiment, cell: &Cell, p: &EstimationProblem) 
     let target = &exp.targets[cell.target];
     let cand = &exp.candidates[cell.candidate];
     let scheme = &exp.schemes[cell.scheme];
-    let at = if p.origin >= 1 { format!(", origin {}", exp.period_label(target, p.origin)) } else { String::new() };
+    let at = if p.origin >= 1 {
+        format!(", origin {}", exp.period_label(target, p.origin))
+    } else {
+        String::new()
+    };
     let hint = if cand.family.coefficients().is_some() {
         " — start the scheme later, widen the window, or use fewer lags"
     } else {
         " — start the scheme later"
     };
     Diagnostic::new(
-        Some(Location { file: exp.source_path.clone(), line: Some(cand.line), column: None }),
+        Some(Location {
+            file: exp.source_path.clone(),
+            line: Some(cand.line),
+            column: None,
+        }),
         format!(
             "candidate {} on target '{}' under scheme {} (horizon {}{at}): {}{hint}",
             cand.id, target.name, scheme.id, p.horizon, p.message
@@ -76,7 +102,11 @@ pub fn problem_diagnostic(exp: &Experiment, cell: &Cell, p: &EstimationProblem) 
 /// Run cells in parallel and return their outputs in the given order.
 /// Estimation problems make the experiment invalid (SPEC §4), and all of
 /// them are reported together.
-pub fn run(exp: &Experiment, cells: &[Cell], progress: &(dyn Fn() + Sync)) -> Result<Vec<CellOutput>> {
+pub fn run(
+    exp: &Experiment,
+    cells: &[Cell],
+    progress: &(dyn Fn() + Sync),
+) -> Result<Vec<CellOutput>> {
     let results: Vec<std::result::Result<CellOutput, EstimationProblem>> = cells
         .par_iter()
         .map(|cell| {

@@ -24,7 +24,10 @@ pub struct Diagnostic {
 
 impl Diagnostic {
     pub fn new(location: Option<Location>, message: impl Into<String>) -> Self {
-        Diagnostic { location, message: message.into() }
+        Diagnostic {
+            location,
+            message: message.into(),
+        }
     }
 }
 
@@ -55,7 +58,10 @@ pub enum Error {
     #[error("{0}")]
     Run(String),
     #[error("{context}: {source}")]
-    Io { context: String, source: std::io::Error },
+    Io {
+        context: String,
+        source: std::io::Error,
+    },
 }
 
 impl Error {
@@ -63,7 +69,10 @@ impl Error {
         Error::Invalid(vec![Diagnostic::new(location, message)])
     }
     pub fn io(context: impl Into<String>, source: std::io::Error) -> Self {
-        Error::Io { context: context.into(), source }
+        Error::Io {
+            context: context.into(),
+            source,
+        }
     }
     /// Exit code per SPEC §1.
     pub fn exit_code(&self) -> i32 {
@@ -120,7 +129,10 @@ mod tests {
         // Classic textbook pair (kitten/sitting = 3), common practice.
         assert_eq!(edit_distance("kitten", "sitting"), 3);
         assert_eq!(edit_distance("", "abc"), 3);
-        assert_eq!(nearest("horizon", &["horizons", "schemes"]), Some("horizons"));
+        assert_eq!(
+            nearest("horizon", &["horizons", "schemes"]),
+            Some("horizons")
+        );
         assert_eq!(nearest("zzzzzz", &["horizons", "schemes"]), None);
     }
 }

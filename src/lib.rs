@@ -80,11 +80,21 @@ pub fn default_folder(exp: &Experiment) -> PathBuf {
 
 pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
     let started = Instant::now();
-    let started_unix = std::time::SystemTime::now().duration_since(std::time::UNIX_EPOCH).map(|d| d.as_secs()).unwrap_or(0);
+    let started_unix = std::time::SystemTime::now()
+        .duration_since(std::time::UNIX_EPOCH)
+        .map(|d| d.as_secs())
+        .unwrap_or(0);
     let exp = spec::load(path)?;
     let folder = opts.out.clone().unwrap_or_else(|| default_folder(&exp));
     let cells = plan::cells(&exp);
-    let threads = opts.jobs.unwrap_or_else(|| std::thread::available_parallelism().map(|n| n.get()).unwrap_or(1)).max(1);
+    let threads = opts
+        .jobs
+        .unwrap_or_else(|| {
+            std::thread::available_parallelism()
+                .map(|n| n.get())
+                .unwrap_or(1)
+        })
+        .max(1);
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(threads)
         .build()
@@ -94,9 +104,11 @@ pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
     let bar = if !opts.quiet && std::io::stderr().is_terminal() {
         let pb = indicatif::ProgressBar::new(cells.len() as u64);
         pb.set_style(
-            indicatif::ProgressStyle::with_template("{spinner} backtesting [{bar:30}] {pos}/{len} cells {elapsed}")
-                .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar())
-                .progress_chars("=> "),
+            indicatif::ProgressStyle::with_template(
+                "{spinner} backtesting [{bar:30}] {pos}/{len} cells {elapsed}",
+            )
+            .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar())
+            .progress_chars("=> "),
         );
         Some(pb)
     } else {
@@ -116,9 +128,18 @@ pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
     let errors = score::cell_errors(&exp, &cells, &outputs);
     let scores = score::scores(&exp, &cells, &errors);
     let mut files: Vec<(String, Vec<u8>)> = vec![
-        ("forecasts.csv".into(), report::tables::forecasts_csv(&exp, &cells, &outputs)),
-        ("scores.csv".into(), report::tables::scores_csv(&exp, &scores)),
-        ("outlook.csv".into(), report::tables::outlook_csv(&exp, &cells, &outputs)),
+        (
+            "forecasts.csv".into(),
+            report::tables::forecasts_csv(&exp, &cells, &outputs),
+        ),
+        (
+            "scores.csv".into(),
+            report::tables::scores_csv(&exp, &scores),
+        ),
+        (
+            "outlook.csv".into(),
+            report::tables::outlook_csv(&exp, &cells, &outputs),
+        ),
     ];
     let data = report::report_data(&exp, &cells, &outputs, &scores);
     let mut templates_used = Vec::new();
@@ -139,7 +160,9 @@ pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
     let facts = report::manifest::RunFacts {
         seconds: started.elapsed().as_secs_f64(),
         threads,
-        host: std::fs::read_to_string("/etc/hostname").map(|s| s.trim().to_string()).unwrap_or_default(),
+        host: std::fs::read_to_string("/etc/hostname")
+            .map(|s| s.trim().to_string())
+            .unwrap_or_default(),
         started_unix,
         shard: "1/1".into(),
     };
@@ -147,5 +170,10 @@ pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
     let manifest = report::manifest::manifest(&exp, &cell_ids, &templates_used, &files, &facts);
     files.push(("manifest.json".into(), manifest));
     output::write_folder(&folder, &files)?;
-    Ok(RunSummary { folder, cells: cells.len(), forecasts, seconds: started.elapsed().as_secs_f64() })
+    Ok(RunSummary {
+        folder,
+        cells: cells.len(),
+        forecasts,
+        seconds: started.elapsed().as_secs_f64(),
+    })
 }

@@ -124,6 +124,7 @@ impl LeastSquares {
     }
 
     /// Fold one row (x, y) into the factorisation.
+    #[allow(clippy::needless_range_loop)]
     pub fn add_row(&mut self, x: &[f64], y: f64) {
         debug_assert_eq!(x.len(), self.k);
         let k = self.k;
@@ -169,7 +170,10 @@ impl LeastSquares {
             return Err(LinalgError::NonFinite);
         }
         if self.rows < self.k + 1 {
-            return Err(LinalgError::TooFewRows { rows: self.rows, coefficients: self.k });
+            return Err(LinalgError::TooFewRows {
+                rows: self.rows,
+                coefficients: self.k,
+            });
         }
         for j in 0..self.k {
             let diag = self.r[j * self.k + j].abs();
@@ -181,6 +185,7 @@ impl LeastSquares {
     }
 
     /// Solve R b = Qᵀy by back substitution into `coef` (no allocation).
+    #[allow(clippy::needless_range_loop)]
     pub fn solve_into(&self, coef: &mut Vec<f64>) -> Result<(), LinalgError> {
         self.check()?;
         let k = self.k;
@@ -199,7 +204,11 @@ impl LeastSquares {
     pub fn solve(&self) -> Result<Solution, LinalgError> {
         let mut coef = Vec::with_capacity(self.k);
         self.solve_into(&mut coef)?;
-        Ok(Solution { coef, ssr: self.ssr, rows: self.rows })
+        Ok(Solution {
+            coef,
+            ssr: self.ssr,
+            rows: self.rows,
+        })
     }
 
     pub fn ssr(&self) -> f64 {
@@ -226,7 +235,9 @@ impl LeastSquares {
                 inv[i * k + col] = acc / self.r[i * k + i];
             }
         }
-        Ok((0..k).map(|i| (i..k).map(|j| inv[i * k + j] * inv[i * k + j]).sum()).collect())
+        Ok((0..k)
+            .map(|i| (i..k).map(|j| inv[i * k + j] * inv[i * k + j]).sum())
+            .collect())
     }
 }
 
@@ -249,7 +260,10 @@ pub struct OlsFit {
 pub fn ols_fit(x: &nalgebra::DMatrix<f64>, y: &[f64]) -> Result<OlsFit, LinalgError> {
     let k = x.ncols();
     if x.nrows() != y.len() {
-        return Err(LinalgError::TooFewRows { rows: y.len().min(x.nrows()), coefficients: k });
+        return Err(LinalgError::TooFewRows {
+            rows: y.len().min(x.nrows()),
+            coefficients: k,
+        });
     }
     let mut ls = LeastSquares::new(k);
     let mut row = vec![0.0; k];
@@ -261,10 +275,21 @@ pub fn ols_fit(x: &nalgebra::DMatrix<f64>, y: &[f64]) -> Result<OlsFit, LinalgEr
     }
     let sol = ls.solve()?;
     let sigma2 = sol.sigma2();
-    let se = ls.inverse_gram_diagonal()?.into_iter().map(|d| (sigma2 * d).sqrt()).collect();
+    let se = ls
+        .inverse_gram_diagonal()?
+        .into_iter()
+        .map(|d| (sigma2 * d).sqrt())
+        .collect();
     let mean = y.iter().sum::<f64>() / y.len() as f64;
     let sst: f64 = y.iter().map(|v| (v - mean) * (v - mean)).sum();
-    Ok(OlsFit { coef: sol.coef, se, resid_sd: sigma2.sqrt(), r2: 1.0 - sol.ssr / sst, ssr: sol.ssr, rows: sol.rows })
+    Ok(OlsFit {
+        coef: sol.coef,
+        se,
+        resid_sd: sigma2.sqrt(),
+        r2: 1.0 - sol.ssr / sst,
+        ssr: sol.ssr,
+        rows: sol.rows,
+    })
 }
 
 #[cfg(test)]
@@ -294,7 +319,10 @@ mod tests {
         for _ in 0..5 {
             constant.add_row(&[1.0, 4.0], 1.0);
         }
-        assert_eq!(constant.check(), Err(LinalgError::RankDeficient { column: 1 }));
+        assert_eq!(
+            constant.check(),
+            Err(LinalgError::RankDeficient { column: 1 })
+        );
     }
 
     #[test]
@@ -302,6 +330,12 @@ mod tests {
         let mut ls = LeastSquares::new(2);
         ls.add_row(&[1.0, 1.0], 1.0);
         ls.add_row(&[1.0, 2.0], 3.0);
-        assert_eq!(ls.check(), Err(LinalgError::TooFewRows { rows: 2, coefficients: 2 }));
+        assert_eq!(
+            ls.check(),
+            Err(LinalgError::TooFewRows {
+                rows: 2,
+                coefficients: 2
+            })
+        );
     }
 }

@@ -6,7 +6,11 @@ use std::path::PathBuf;
 use std::process::ExitCode;
 
 #[derive(Parser)]
-#[command(name = "outturn", version, about = "Run declarative forecast experiments: backtest a grid of models without look-ahead, score and report.")]
+#[command(
+    name = "outturn",
+    version,
+    about = "Run declarative forecast experiments: backtest a grid of models without look-ahead, score and report."
+)]
 struct Cli {
     #[command(subcommand)]
     command: Command,

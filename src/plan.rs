@@ -19,7 +19,12 @@ pub fn cells(exp: &Experiment) -> Vec<Cell> {
     for (t, target) in exp.targets.iter().enumerate() {
         for (c, cand) in exp.candidates.iter().enumerate() {
             for (s, scheme) in exp.schemes.iter().enumerate() {
-                out.push(Cell { target: t, candidate: c, scheme: s, id: format!("{}/{}/{}", target.name, cand.id, scheme.id) });
+                out.push(Cell {
+                    target: t,
+                    candidate: c,
+                    scheme: s,
+                    id: format!("{}/{}/{}", target.name, cand.id, scheme.id),
+                });
             }
         }
     }
@@ -27,7 +32,12 @@ pub fn cells(exp: &Experiment) -> Vec<Cell> {
 }
 
 /// Origins of a scheme at horizon h: T0..=N−h, or T0 alone with `origins: first`.
-pub fn origins(scheme: &Scheme, first_origin: usize, n: usize, horizon: usize) -> std::ops::RangeInclusive<usize> {
+pub fn origins(
+    scheme: &Scheme,
+    first_origin: usize,
+    n: usize,
+    horizon: usize,
+) -> std::ops::RangeInclusive<usize> {
     let last = n.saturating_sub(horizon);
     if scheme.origins_first {
         first_origin..=first_origin.min(last)
@@ -62,8 +72,21 @@ mod tests {
     use super::*;
     use crate::spec::SchemeStart;
 
-    fn scheme(kind: SchemeKind, window: Option<usize>, refit_every: usize, origins_first: bool) -> Scheme {
-        Scheme { id: "s".into(), kind, start: SchemeStart::Half, window, refit_every, origins_first, line: 1 }
+    fn scheme(
+        kind: SchemeKind,
+        window: Option<usize>,
+        refit_every: usize,
+        origins_first: bool,
+    ) -> Scheme {
+        Scheme {
+            id: "s".into(),
+            kind,
+            start: SchemeStart::Half,
+            window,
+            refit_every,
+            origins_first,
+            line: 1,
+        }
     }
 
     #[test]
@@ -86,7 +109,10 @@ mod tests {
         let exp = scheme(SchemeKind::Expanding, None, 1, false);
         assert_eq!(estimation_end(&exp, 10, 15), 15);
         let every4 = scheme(SchemeKind::Expanding, None, 4, false);
-        assert_eq!([10, 13, 14, 17, 18].map(|t| estimation_end(&every4, 10, t)), [10, 10, 14, 14, 18]);
+        assert_eq!(
+            [10, 13, 14, 17, 18].map(|t| estimation_end(&every4, 10, t)),
+            [10, 10, 14, 14, 18]
+        );
         let rolling = scheme(SchemeKind::Rolling, Some(6), 1, false);
         assert_eq!(sample_start(&rolling, 15), 10);
         assert_eq!(sample_start(&rolling, 4), 1);

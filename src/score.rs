@@ -45,10 +45,14 @@ pub fn bias(e: &Errors) -> Option<f64> {
 }
 /// mape = 100·mean |e/actual|; undefined when an actual is 0.
 pub fn mape(e: &Errors) -> Option<f64> {
-    if e.actual.iter().any(|&a| a == 0.0) {
+    if e.actual.contains(&0.0) {
         return None;
     }
-    mean((0..e.len()).map(|i| (e.error(i) / e.actual[i]).abs()), e.len()).map(|v| 100.0 * v)
+    mean(
+        (0..e.len()).map(|i| (e.error(i) / e.actual[i]).abs()),
+        e.len(),
+    )
+    .map(|v| 100.0 * v)
 }
 /// smape = 200·mean |e|/(|actual|+|forecast|); a 0/0 term counts as 0.
 pub fn smape(e: &Errors) -> Option<f64> {
@@ -78,7 +82,9 @@ pub fn r2_oos(e: &Errors, benchmark: &Errors) -> Option<f64> {
         return None;
     }
     let num: f64 = (0..e.len()).map(|i| e.error(i).powi(2)).sum();
-    let den: f64 = (0..benchmark.len()).map(|i| benchmark.error(i).powi(2)).sum();
+    let den: f64 = (0..benchmark.len())
+        .map(|i| benchmark.error(i).powi(2))
+        .sum();
     if den > 0.0 {
         Some(1.0 - num / den)
     } else {
@@ -95,10 +101,17 @@ fn mean(values: impl Iterator<Item = f64>, n: usize) -> Option<f64> {
 
 /// The MASE scale: mean |y_t − y_{t−m}| over the estimation sample of the
 /// scheme's first origin (positions a..=T0), m the season length or 1.
-pub fn mase_scale(y: &[f64], scheme: &Scheme, first_origin: usize, season: Option<usize>) -> Option<f64> {
+pub fn mase_scale(
+    y: &[f64],
+    scheme: &Scheme,
+    first_origin: usize,
+    season: Option<usize>,
+) -> Option<f64> {
     let m = season.unwrap_or(1);
     let start = crate::plan::sample_start(scheme, first_origin);
-    let terms: Vec<f64> = ((start + m)..=first_origin).map(|t| (y[t - 1] - y[t - 1 - m]).abs()).collect();
+    let terms: Vec<f64> = ((start + m)..=first_origin)
+        .map(|t| (y[t - 1] - y[t - 1 - m]).abs())
+        .collect();
     mean(terms.iter().copied(), terms.len())
 }
 
@@ -186,7 +199,12 @@ pub fn scores(exp: &Experiment, cells: &[Cell], errors: &[Vec<Errors>]) -> Vec<S
     let mut rows = Vec::new();
     for (t, target) in exp.targets.iter().enumerate() {
         for (s, scheme) in exp.schemes.iter().enumerate() {
-            let scale = mase_scale(&target.y, scheme, target.first_origins[s], exp.season_length());
+            let scale = mase_scale(
+                &target.y,
+                scheme,
+                target.first_origins[s],
+                exp.season_length(),
+            );
             for &hi in &horizons {
                 let pooled = |c: usize| -> Errors {
                     let per_h = &errors[index(t, c, s)];
@@ -203,7 +221,11 @@ pub fn scores(exp: &Experiment, cells: &[Cell], errors: &[Vec<Errors>]) -> Vec<S
                 let mut group: Vec<ScoreRow> = (0..n_c)
                     .map(|c| {
                         let e = pooled(c);
-                        let metrics = exp.metrics.iter().map(|&m| metric_value(m, &e, &bench, scale)).collect();
+                        let metrics = exp
+                            .metrics
+                            .iter()
+                            .map(|&m| metric_value(m, &e, &bench, scale))
+                            .collect();
                         let is_rmse = in_sample_rmse(&e);
                         let gap = match (rmse(&e), is_rmse) {
                             (Some(o), Some(i)) if i > 0.0 => Some(o / i),
@@ -225,9 +247,14 @@ pub fn scores(exp: &Experiment, cells: &[Cell], errors: &[Vec<Errors>]) -> Vec<S
                     .collect();
                 let mut order: Vec<usize> = (0..n_c).collect();
                 order.sort_by(|&a, &b| {
-                    let va = rank_pos.map(|p| rank_key(exp.rank_by, group[a].metrics[p])).unwrap_or(0.0);
-                    let vb = rank_pos.map(|p| rank_key(exp.rank_by, group[b].metrics[p])).unwrap_or(0.0);
-                    va.total_cmp(&vb).then_with(|| exp.candidates[a].id.cmp(&exp.candidates[b].id))
+                    let va = rank_pos
+                        .map(|p| rank_key(exp.rank_by, group[a].metrics[p]))
+                        .unwrap_or(0.0);
+                    let vb = rank_pos
+                        .map(|p| rank_key(exp.rank_by, group[b].metrics[p]))
+                        .unwrap_or(0.0);
+                    va.total_cmp(&vb)
+                        .then_with(|| exp.candidates[a].id.cmp(&exp.candidates[b].id))
                 });
                 for (r, &c) in order.iter().enumerate() {
                     group[c].rank = r + 1;
@@ -237,7 +264,14 @@ pub fn scores(exp: &Experiment, cells: &[Cell], errors: &[Vec<Errors>]) -> Vec<S
         }
     }
     // Output order: targets, candidates, schemes, horizons (all last).
-    rows.sort_by_key(|r| (r.target, r.candidate, r.scheme, r.horizon.map_or(usize::MAX, |h| h)));
+    rows.sort_by_key(|r| {
+        (
+            r.target,
+            r.candidate,
+            r.scheme,
+            r.horizon.map_or(usize::MAX, |h| h),
+        )
+    });
     rows
 }
 
@@ -246,7 +280,11 @@ mod tests {
     use super::*;
 
     fn errs(actual: &[f64], forecast: &[f64]) -> Errors {
-        Errors { actual: actual.to_vec(), forecast: forecast.to_vec(), is_mse: vec![None; actual.len()] }
+        Errors {
+            actual: actual.to_vec(),
+            forecast: forecast.to_vec(),
+            is_mse: vec![None; actual.len()],
+        }
     }
 
     #[test]
@@ -278,7 +316,15 @@ mod tests {
     #[test]
     fn mase_scale_uses_the_first_estimation_sample() {
         use crate::spec::{SchemeKind, SchemeStart};
-        let s = Scheme { id: "expanding".into(), kind: SchemeKind::Expanding, start: SchemeStart::Half, window: None, refit_every: 1, origins_first: false, line: 1 };
+        let s = Scheme {
+            id: "expanding".into(),
+            kind: SchemeKind::Expanding,
+            start: SchemeStart::Half,
+            window: None,
+            refit_every: 1,
+            origins_first: false,
+            line: 1,
+        };
         // y = 1, 3, 2, 6, 5; T0 = 4, m = 1: mean(|3−1|, |2−3|, |6−2|) = 7/3
         let y = [1.0, 3.0, 2.0, 6.0, 5.0];
         assert!((mase_scale(&y, &s, 4, None).unwrap() - 7.0 / 3.0).abs() < 1e-15);

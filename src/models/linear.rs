@@ -23,14 +23,32 @@ impl<'a> Design<'a> {
     pub fn new(exp: &'a Experiment, family: &Family, target: &'a TargetData) -> Option<Design<'a>> {
         let (lags, predictor_lags, preds, trend) = match family {
             Family::Ar { lags, trend } => (*lags, 0, Vec::new(), *trend),
-            Family::Ardl { lags, predictor_lags, predictors, trend } => (*lags, *predictor_lags, predictors.clone(), *trend),
+            Family::Ardl {
+                lags,
+                predictor_lags,
+                predictors,
+                trend,
+            } => (*lags, *predictor_lags, predictors.clone(), *trend),
             _ => return None,
         };
         let predictors = preds
             .iter()
-            .map(|&i| (target.predictors[i].as_slice(), exp.predictors[i].release_lag, exp.predictors[i].known_ahead))
+            .map(|&i| {
+                (
+                    target.predictors[i].as_slice(),
+                    exp.predictors[i].release_lag,
+                    exp.predictors[i].known_ahead,
+                )
+            })
             .collect();
-        Some(Design { y: &target.y, n: target.n, trend, lags, predictors, predictor_lags })
+        Some(Design {
+            y: &target.y,
+            n: target.n,
+            trend,
+            lags,
+            predictors,
+            predictor_lags,
+        })
     }
 
     pub fn coefficients(&self) -> usize {
@@ -57,7 +75,13 @@ impl<'a> Design<'a> {
             i += 1;
         }
         for &(values, release_lag, known_ahead) in &self.predictors {
-            let latest = if known_ahead { s + h } else if s > release_lag { s - release_lag } else { return false };
+            let latest = if known_ahead {
+                s + h
+            } else if s > release_lag {
+                s - release_lag
+            } else {
+                return false;
+            };
             for j in 0..self.predictor_lags {
                 if latest <= j {
                     return false;
@@ -115,7 +139,16 @@ struct Estimator<'r> {
 
 impl<'r> Estimator<'r> {
     fn new(rows: &'r Rows, y: &'r [f64], h: usize, window: Option<usize>) -> Self {
-        Estimator { rows, y, h, window, ls: LeastSquares::new(rows.k), next_s: 1, last_end: None, solution: None }
+        Estimator {
+            rows,
+            y,
+            h,
+            window,
+            ls: LeastSquares::new(rows.k),
+            next_s: 1,
+            last_end: None,
+            solution: None,
+        }
     }
 
     fn at(&mut self, end: usize) -> Result<&Solution, LinalgError> {
@@ -155,7 +188,11 @@ impl<'r> Estimator<'r> {
 }
 
 fn problem(h: usize, origin: usize, e: impl ToString) -> EstimationProblem {
-    EstimationProblem { horizon: h, origin, message: e.to_string() }
+    EstimationProblem {
+        horizon: h,
+        origin,
+        message: e.to_string(),
+    }
 }
 
 fn missing_regressors(h: usize, origin: usize) -> EstimationProblem {
@@ -163,7 +200,12 @@ fn missing_regressors(h: usize, origin: usize) -> EstimationProblem {
 }
 
 /// Direct forecasts (and iterated ones for ar under `multi_step: iterated`).
-pub fn backtest(design: &Design, sched: &Schedule, horizons: &[usize], iterated: bool) -> Result<Vec<ForecastRow>, EstimationProblem> {
+pub fn backtest(
+    design: &Design,
+    sched: &Schedule,
+    horizons: &[usize],
+    iterated: bool,
+) -> Result<Vec<ForecastRow>, EstimationProblem> {
     let mut out = Vec::new();
     if iterated {
         let rows = Rows::build(design, 1);
@@ -174,16 +216,24 @@ pub fn backtest(design: &Design, sched: &Schedule, horizons: &[usize], iterated:
         let last = sched.origins(horizons[0]).end().to_owned();
         let mut path = vec![0.0; max_h];
         for origin in first..=last {
-            let wanted: Vec<usize> = (0..horizons.len()).filter(|&i| sched.origins(horizons[i]).contains(&origin)).collect();
+            let wanted: Vec<usize> = (0..horizons.len())
+                .filter(|&i| sched.origins(horizons[i]).contains(&origin))
+                .collect();
             if wanted.is_empty() {
                 continue;
             }
             let end = sched.estimation_end(origin);
             let sol = est.at(end).map_err(|e| problem(1, origin, e))?;
-            iterate_path(design, sol, origin, &mut path).ok_or_else(|| missing_regressors(1, origin))?;
+            iterate_path(design, sol, origin, &mut path)
+                .ok_or_else(|| missing_regressors(1, origin))?;
             for i in wanted {
                 let h = horizons[i];
-                per_h[i].push(ForecastRow { horizon: h, origin, forecast: path[h - 1], is_mse: Some(sol.mse()) });
+                per_h[i].push(ForecastRow {
+                    horizon: h,
+                    origin,
+                    forecast: path[h - 1],
+                    is_mse: Some(sol.mse()),
+                });
             }
         }
         out.extend(per_h.into_iter().flatten());
@@ -195,8 +245,15 @@ pub fn backtest(design: &Design, sched: &Schedule, horizons: &[usize], iterated:
         for origin in sched.origins(h) {
             let end = sched.estimation_end(origin);
             let sol = est.at(end).map_err(|e| problem(h, origin, e))?;
-            let x = rows.at(origin).ok_or_else(|| missing_regressors(h, origin))?;
-            out.push(ForecastRow { horizon: h, origin, forecast: sol.predict(x), is_mse: Some(sol.mse()) });
+            let x = rows
+                .at(origin)
+                .ok_or_else(|| missing_regressors(h, origin))?;
+            out.push(ForecastRow {
+                horizon: h,
+                origin,
+                forecast: sol.predict(x),
+                is_mse: Some(sol.mse()),
+            });
         }
     }
     Ok(out)
@@ -222,7 +279,11 @@ fn iterate_path(design: &Design, sol: &Solution, origin: usize, path: &mut [f64]
         }
         for j in 1..=design.lags {
             let pos = origin + step - j;
-            x[i] = if pos > origin { path[pos - origin - 1] } else { design.y[pos - 1] };
+            x[i] = if pos > origin {
+                path[pos - origin - 1]
+            } else {
+                design.y[pos - 1]
+            };
             i += 1;
         }
         path[step - 1] = sol.predict(&x);
@@ -231,7 +292,12 @@ fn iterate_path(design: &Design, sol: &Solution, origin: usize, path: &mut [f64]
 }
 
 /// Forecasts beyond the data from origin N with E = N.
-pub fn outlook(design: &Design, window: Option<usize>, horizons: &[usize], iterated: bool) -> Vec<OutlookRow> {
+pub fn outlook(
+    design: &Design,
+    window: Option<usize>,
+    horizons: &[usize],
+    iterated: bool,
+) -> Vec<OutlookRow> {
     let n = design.n;
     if iterated {
         let rows = Rows::build(design, 1);
@@ -242,7 +308,13 @@ pub fn outlook(design: &Design, window: Option<usize>, horizons: &[usize], itera
             Ok(sol) => iterate_path(design, sol, n, &mut path).is_some(),
             Err(_) => false,
         };
-        return horizons.iter().map(|&h| OutlookRow { horizon: h, forecast: ok.then(|| path[h - 1]) }).collect();
+        return horizons
+            .iter()
+            .map(|&h| OutlookRow {
+                horizon: h,
+                forecast: ok.then(|| path[h - 1]),
+            })
+            .collect();
     }
     horizons
         .iter()
@@ -254,7 +326,10 @@ pub fn outlook(design: &Design, window: Option<usize>, horizons: &[usize], itera
                 Ok(sol) if design.row(n, h, &mut x) => Some(sol.predict(&x)),
                 _ => None,
             };
-            OutlookRow { horizon: h, forecast }
+            OutlookRow {
+                horizon: h,
+                forecast,
+            }
         })
         .collect()
 }

@@ -20,7 +20,8 @@ fn simple_forecast(
         Family::Mean => {
             let sample = &y[start - 1..end];
             let mean = sample.iter().sum::<f64>() / sample.len() as f64;
-            let mse = sample.iter().map(|v| (v - mean) * (v - mean)).sum::<f64>() / sample.len() as f64;
+            let mse =
+                sample.iter().map(|v| (v - mean) * (v - mean)).sum::<f64>() / sample.len() as f64;
             Ok((mean, Some(mse)))
         }
         Family::Drift => {
@@ -28,14 +29,19 @@ fn simple_forecast(
                 return Err("drift needs an estimation sample of at least two observations".into());
             }
             let slope = (at(end) - at(start)) / (end - start) as f64;
-            let mse = ((start + 1)..=end).map(|t| (at(t) - at(t - 1) - slope).powi(2)).sum::<f64>() / (end - start) as f64;
+            let mse = ((start + 1)..=end)
+                .map(|t| (at(t) - at(t - 1) - slope).powi(2))
+                .sum::<f64>()
+                / (end - start) as f64;
             Ok((at(origin) + horizon as f64 * slope, Some(mse)))
         }
         Family::SeasonalNaive => {
             let m = season.ok_or("seasonal_naive needs seasonal data")?;
             let back = m * horizon.div_ceil(m);
             if origin + horizon <= back {
-                return Err(format!("seasonal_naive needs {m} observations before the origin"));
+                return Err(format!(
+                    "seasonal_naive needs {m} observations before the origin"
+                ));
             }
             Ok((at(origin + horizon - back), None))
         }
@@ -55,9 +61,20 @@ pub fn backtest(
         for origin in sched.origins(h) {
             let end = sched.estimation_end(origin);
             let start = crate::plan::sample_start(sched.scheme, end);
-            let (forecast, is_mse) = simple_forecast(family, &target.y, origin, h, start, end, season)
-                .map_err(|message| EstimationProblem { horizon: h, origin, message })?;
-            rows.push(ForecastRow { horizon: h, origin, forecast, is_mse });
+            let (forecast, is_mse) = simple_forecast(
+                family, &target.y, origin, h, start, end, season,
+            )
+            .map_err(|message| EstimationProblem {
+                horizon: h,
+                origin,
+                message,
+            })?;
+            rows.push(ForecastRow {
+                horizon: h,
+                origin,
+                forecast,
+                is_mse,
+            });
         }
     }
     Ok(rows)
@@ -65,7 +82,13 @@ pub fn backtest(
 
 /// Forecasts beyond the data from origin N with E = N (the last `window`
 /// observations when `window` is given).
-pub fn outlook(family: &Family, target: &TargetData, window: Option<usize>, horizons: &[usize], season: Option<usize>) -> Vec<OutlookRow> {
+pub fn outlook(
+    family: &Family,
+    target: &TargetData,
+    window: Option<usize>,
+    horizons: &[usize],
+    season: Option<usize>,
+) -> Vec<OutlookRow> {
     let n = target.n;
     let start = match window {
         Some(w) if n > w => n - w + 1,
@@ -73,7 +96,12 @@ pub fn outlook(family: &Family, target: &TargetData, window: Option<usize>, hori
     };
     horizons
         .iter()
-        .map(|&h| OutlookRow { horizon: h, forecast: simple_forecast(family, &target.y, n, h, start, n, season).ok().map(|r| r.0) })
+        .map(|&h| OutlookRow {
+            horizon: h,
+            forecast: simple_forecast(family, &target.y, n, h, start, n, season)
+                .ok()
+                .map(|r| r.0),
+        })
         .collect()
 }
 
@@ -86,7 +114,9 @@ mod tests {
 
     #[test]
     fn naive_mean_drift_seasonal_naive_by_hand() {
-        let f = |fam: Family, origin, h, start, end, m| simple_forecast(&fam, &Y, origin, h, start, end, m).unwrap();
+        let f = |fam: Family, origin, h, start, end, m| {
+            simple_forecast(&fam, &Y, origin, h, start, end, m).unwrap()
+        };
         assert_eq!(f(Family::Naive, 4, 2, 1, 4, None).0, 6.0);
         // mean of 1,3,2,6 = 3; squared deviations 4,0,1,9 → mse 3.5
         assert_eq!(f(Family::Mean, 4, 1, 1, 4, None), (3.0, Some(3.5)));

@@ -13,8 +13,18 @@ pub struct RunFacts {
     pub shard: String,
 }
 
-pub fn manifest(exp: &Experiment, cell_ids: &[String], templates: &[(String, String)], outputs: &[(String, Vec<u8>)], run: &RunFacts) -> Vec<u8> {
-    let file_name = |p: &std::path::Path| p.file_name().map(|f| f.to_string_lossy().to_string()).unwrap_or_default();
+pub fn manifest(
+    exp: &Experiment,
+    cell_ids: &[String],
+    templates: &[(String, String)],
+    outputs: &[(String, Vec<u8>)],
+    run: &RunFacts,
+) -> Vec<u8> {
+    let file_name = |p: &std::path::Path| {
+        p.file_name()
+            .map(|f| f.to_string_lossy().to_string())
+            .unwrap_or_default()
+    };
     let value: Value = json!({
         "tool": {
             "name": "outturn",

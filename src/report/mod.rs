@@ -16,7 +16,10 @@ pub const CAUTION: &str = "Backtest accuracy describes how these models would ha
 /// Built-in templates, embedded at compile time from `templates/`.
 pub const DEFAULT_TEMPLATES: [(&str, &str); 2] = [
     ("report.md.j2", include_str!("../../templates/report.md.j2")),
-    ("report.html.j2", include_str!("../../templates/report.html.j2")),
+    (
+        "report.html.j2",
+        include_str!("../../templates/report.html.j2"),
+    ),
 ];
 
 /// A number for people: four significant digits, no exponent for ordinary magnitudes.
@@ -24,7 +27,7 @@ pub fn show(v: Option<f64>) -> String {
     match v {
         None => "–".into(),
         Some(v) if !v.is_finite() => "–".into(),
-        Some(v) if v == 0.0 => "0".into(),
+        Some(0.0) => "0".into(),
         Some(v) => {
             let a = v.abs();
             if !(1e-4..1e9).contains(&a) {
@@ -42,7 +45,12 @@ fn metric_index(exp: &Experiment, m: Metric) -> Option<usize> {
 }
 
 /// The report-data value both templates render.
-pub fn report_data(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput], scores: &[ScoreRow]) -> Value {
+pub fn report_data(
+    exp: &Experiment,
+    cells: &[Cell],
+    outputs: &[CellOutput],
+    scores: &[ScoreRow],
+) -> Value {
     let rmse_i = metric_index(exp, Metric::Rmse);
     let rank_i = metric_index(exp, exp.rank_by);
     let bench = exp.benchmark;
@@ -55,8 +63,12 @@ pub fn report_data(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput], sco
                 hs.push(None);
             }
             for h in hs {
-                let mut group: Vec<&ScoreRow> =
-                    scores.iter().filter(|r| r.target == t && r.scheme == s && r.horizon == h && r.period_set == "all").collect();
+                let mut group: Vec<&ScoreRow> = scores
+                    .iter()
+                    .filter(|r| {
+                        r.target == t && r.scheme == s && r.horizon == h && r.period_set == "all"
+                    })
+                    .collect();
                 group.sort_by_key(|r| r.rank);
                 let bench_row = group.iter().find(|r| r.candidate == bench);
                 let bench_rmse = bench_row.and_then(|r| rmse_i.and_then(|i| r.metrics[i]));
@@ -87,7 +99,11 @@ pub fn report_data(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput], sco
                 if let Some(best) = group.first() {
                     let relv = rel(best);
                     let sentence = if best.candidate == bench {
-                        format!("the benchmark {} itself ranks first by {}", exp.candidates[bench].id, exp.rank_by.name())
+                        format!(
+                            "the benchmark {} itself ranks first by {}",
+                            exp.candidates[bench].id,
+                            exp.rank_by.name()
+                        )
                     } else {
                         match relv {
                             Some(r) if r < 1.0 => format!(
@@ -104,7 +120,11 @@ pub fn report_data(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput], sco
                                 (r - 1.0) * 100.0,
                                 exp.candidates[bench].id
                             ),
-                            None => format!("{} ranks first by {}", exp.candidates[best.candidate].id, exp.rank_by.name()),
+                            None => format!(
+                                "{} ranks first by {}",
+                                exp.candidates[best.candidate].id,
+                                exp.rank_by.name()
+                            ),
                         }
                     };
                     verdicts.push(json!({
@@ -136,16 +156,28 @@ pub fn report_data(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput], sco
     // Outlook: the leading candidates of the pooled ranking of the first scheme.
     let mut outlook = Vec::new();
     for (t, target) in exp.targets.iter().enumerate() {
-        let pooled_h = if exp.horizons.len() > 1 { None } else { Some(exp.horizons[0]) };
-        let mut lead: Vec<&ScoreRow> =
-            scores.iter().filter(|r| r.target == t && r.scheme == 0 && r.horizon == pooled_h && r.period_set == "all").collect();
+        let pooled_h = if exp.horizons.len() > 1 {
+            None
+        } else {
+            Some(exp.horizons[0])
+        };
+        let mut lead: Vec<&ScoreRow> = scores
+            .iter()
+            .filter(|r| {
+                r.target == t && r.scheme == 0 && r.horizon == pooled_h && r.period_set == "all"
+            })
+            .collect();
         lead.sort_by_key(|r| r.rank);
         let mut chosen: Vec<usize> = lead.iter().take(3).map(|r| r.candidate).collect();
         if !chosen.contains(&bench) {
             chosen.push(bench);
         }
         for c in chosen {
-            let Some((_, out)) = cells.iter().zip(outputs).find(|(cell, _)| cell.target == t && cell.candidate == c && cell.scheme == 0) else {
+            let Some((_, out)) = cells
+                .iter()
+                .zip(outputs)
+                .find(|(cell, _)| cell.target == t && cell.candidate == c && cell.scheme == 0)
+            else {
                 continue;
             };
             let rows: Vec<Value> = out
@@ -156,7 +188,12 @@ pub fn report_data(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput], sco
             outlook.push(json!({"target": target.name, "candidate": exp.candidates[c].id, "is_benchmark": c == bench, "rows": rows}));
         }
     }
-    let conditional: Vec<String> = exp.candidates.iter().filter(|c| exp.is_conditional(c)).map(|c| c.id.clone()).collect();
+    let conditional: Vec<String> = exp
+        .candidates
+        .iter()
+        .filter(|c| exp.is_conditional(c))
+        .map(|c| c.id.clone())
+        .collect();
     json!({
         "title": exp.title,
         "experiment": exp.name,
@@ -202,7 +239,11 @@ pub fn render(name: &str, source: &str, data: &Value) -> Result<String, String> 
             minijinja::AutoEscape::None
         }
     });
-    env.add_template(name, source).map_err(|e| format!("template {name}: {e}"))?;
-    let tmpl = env.get_template(name).map_err(|e| format!("template {name}: {e}"))?;
-    tmpl.render(data).map_err(|e| format!("template {name}: {e}"))
+    env.add_template(name, source)
+        .map_err(|e| format!("template {name}: {e}"))?;
+    let tmpl = env
+        .get_template(name)
+        .map_err(|e| format!("template {name}: {e}"))?;
+    tmpl.render(data)
+        .map_err(|e| format!("template {name}: {e}"))
 }

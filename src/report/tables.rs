@@ -27,7 +27,9 @@ pub fn opt(v: Option<f64>) -> String {
 }
 
 fn writer() -> csv::Writer<Vec<u8>> {
-    csv::WriterBuilder::new().terminator(csv::Terminator::Any(b'\n')).from_writer(Vec::new())
+    csv::WriterBuilder::new()
+        .terminator(csv::Terminator::Any(b'\n'))
+        .from_writer(Vec::new())
 }
 
 fn finish(w: csv::Writer<Vec<u8>>) -> Vec<u8> {
@@ -36,7 +38,18 @@ fn finish(w: csv::Writer<Vec<u8>>) -> Vec<u8> {
 
 pub fn forecasts_csv(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8> {
     let mut w = writer();
-    let _ = w.write_record(["target", "candidate", "scheme", "horizon", "origin", "period", "forecast", "actual", "error", "is_mse"]);
+    let _ = w.write_record([
+        "target",
+        "candidate",
+        "scheme",
+        "horizon",
+        "origin",
+        "period",
+        "forecast",
+        "actual",
+        "error",
+        "is_mse",
+    ]);
     for (cell, out) in cells.iter().zip(outputs) {
         let target = &exp.targets[cell.target];
         let cand = &exp.candidates[cell.candidate].id;
@@ -63,7 +76,14 @@ pub fn forecasts_csv(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -
 
 pub fn outlook_csv(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8> {
     let mut w = writer();
-    let _ = w.write_record(["target", "candidate", "horizon", "origin", "period", "forecast"]);
+    let _ = w.write_record([
+        "target",
+        "candidate",
+        "horizon",
+        "origin",
+        "period",
+        "forecast",
+    ]);
     for (cell, out) in cells.iter().zip(outputs) {
         let target = &exp.targets[cell.target];
         for r in &out.outlook {
@@ -82,7 +102,14 @@ pub fn outlook_csv(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> 
 
 pub fn scores_csv(exp: &Experiment, rows: &[ScoreRow]) -> Vec<u8> {
     let mut w = writer();
-    let mut header: Vec<&str> = vec!["target", "candidate", "scheme", "horizon", "period_set", "n"];
+    let mut header: Vec<&str> = vec![
+        "target",
+        "candidate",
+        "scheme",
+        "horizon",
+        "period_set",
+        "n",
+    ];
     header.extend(exp.metrics.iter().map(|m| m.name()));
     header.extend(["is_rmse", "gap", "rank"]);
     let _ = w.write_record(&header);
@@ -91,7 +118,9 @@ pub fn scores_csv(exp: &Experiment, rows: &[ScoreRow]) -> Vec<u8> {
             exp.targets[r.target].name.clone(),
             exp.candidates[r.candidate].id.clone(),
             exp.schemes[r.scheme].id.clone(),
-            r.horizon.map(|h| h.to_string()).unwrap_or_else(|| "all".into()),
+            r.horizon
+                .map(|h| h.to_string())
+                .unwrap_or_else(|| "all".into()),
             r.period_set.clone(),
             r.n.to_string(),
         ];
@@ -108,7 +137,16 @@ mod tests {
     #[test]
     fn numbers_round_trip() {
         // Property by construction: the text parses back to the same f64.
-        for v in [0.1, 1.0 / 3.0, -2.5e-9, 1e300, 123456789.125, 0.0, -0.0, 5e-324] {
+        for v in [
+            0.1,
+            1.0 / 3.0,
+            -2.5e-9,
+            1e300,
+            123456789.125,
+            0.0,
+            -0.0,
+            5e-324,
+        ] {
             let s = num(v);
             assert_eq!(s.parse::<f64>().unwrap().to_bits(), v.to_bits(), "{s}");
         }

@@ -25,21 +25,40 @@ impl RawTable {
     }
 
     pub fn location(&self, line: usize, column: Option<usize>) -> Option<Location> {
-        Some(Location { file: self.path.clone(), line: Some(line), column: column.map(|c| c + 1) })
+        Some(Location {
+            file: self.path.clone(),
+            line: Some(line),
+            column: column.map(|c| c + 1),
+        })
     }
 }
 
 /// Read a CSV file. Blank lines are skipped; a UTF-8 byte-order mark is ignored.
 pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
     let at = |line: Option<usize>, msg: String| {
-        Diagnostic::new(Some(Location { file: path.to_path_buf(), line, column: None }), msg)
+        Diagnostic::new(
+            Some(Location {
+                file: path.to_path_buf(),
+                line,
+                column: None,
+            }),
+            msg,
+        )
     };
     let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
     if bytes.iter().all(|b| b.is_ascii_whitespace()) {
-        return Err(at(None, "the data file is empty; it needs a header row naming the columns".into()));
+        return Err(at(
+            None,
+            "the data file is empty; it needs a header row naming the columns".into(),
+        ));
     }
     // Line numbers from byte offsets: the csv reader's own line count skips blank lines.
-    let newlines: Vec<usize> = bytes.iter().enumerate().filter(|(_, b)| **b == b'\n').map(|(i, _)| i).collect();
+    let newlines: Vec<usize> = bytes
+        .iter()
+        .enumerate()
+        .filter(|(_, b)| **b == b'\n')
+        .map(|(i, _)| i)
+        .collect();
     let line_of = |byte: u64| {
         // A record's recorded start can sit on blank lines the reader skipped.
         let mut at = byte as usize;
@@ -48,7 +67,10 @@ pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
         }
         newlines.partition_point(|&i| i < at) + 1
     };
-    let mut reader = csv::ReaderBuilder::new().has_headers(false).flexible(true).from_reader(bytes);
+    let mut reader = csv::ReaderBuilder::new()
+        .has_headers(false)
+        .flexible(true)
+        .from_reader(bytes);
     let mut headers: Option<Vec<String>> = None;
     let mut rows = Vec::new();
     let mut record = csv::StringRecord::new();
@@ -64,7 +86,10 @@ pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
                 match &headers {
                     None => {
                         if let Some(pos) = cells.iter().position(|c| c.is_empty()) {
-                            return Err(at(Some(line), format!("the header row has an empty name in column {}", pos + 1)));
+                            return Err(at(
+                                Some(line),
+                                format!("the header row has an empty name in column {}", pos + 1),
+                            ));
                         }
                         if cells.iter().all(|c| c.parse::<f64>().is_ok()) {
                             return Err(at(
@@ -75,7 +100,10 @@ pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
                         }
                         for (i, c) in cells.iter().enumerate() {
                             if cells[..i].contains(c) {
-                                return Err(at(Some(line), format!("the header names column '{c}' twice")));
+                                return Err(at(
+                                    Some(line),
+                                    format!("the header names column '{c}' twice"),
+                                ));
                             }
                         }
                         headers = Some(cells);
@@ -84,7 +112,11 @@ pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
                         if cells.len() > h.len() {
                             return Err(at(
                                 Some(line),
-                                format!("this row has {} cells but the header names {} columns", cells.len(), h.len()),
+                                format!(
+                                    "this row has {} cells but the header names {} columns",
+                                    cells.len(),
+                                    h.len()
+                                ),
                             ));
                         }
                         let mut cells = cells;
@@ -96,7 +128,9 @@ pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
             Err(e) => {
                 let line = e.position().map(|p| line_of(p.byte()));
                 let msg = match e.kind() {
-                    csv::ErrorKind::Utf8 { .. } => "the data file is not valid UTF-8 text".to_string(),
+                    csv::ErrorKind::Utf8 { .. } => {
+                        "the data file is not valid UTF-8 text".to_string()
+                    }
                     _ => format!("the data file is not a readable CSV: {e}"),
                 };
                 return Err(at(line, msg));
@@ -104,12 +138,22 @@ pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
         }
     }
     let Some(headers) = headers else {
-        return Err(at(None, "the data file is empty; it needs a header row naming the columns".into()));
+        return Err(at(
+            None,
+            "the data file is empty; it needs a header row naming the columns".into(),
+        ));
     };
     if rows.is_empty() {
-        return Err(at(None, "the data file has a header but no data rows".into()));
+        return Err(at(
+            None,
+            "the data file has a header but no data rows".into(),
+        ));
     }
-    Ok(RawTable { path: path.to_path_buf(), headers, rows })
+    Ok(RawTable {
+        path: path.to_path_buf(),
+        headers,
+        rows,
+    })
 }
 
 /// Parse a numeric cell. Empty cells give `Ok(None)`; NaN and infinity

@@ -12,11 +12,18 @@ pub struct Ctx<'a> {
 
 impl<'a> Ctx<'a> {
     pub fn new(file: &'a Path) -> Self {
-        Ctx { file, diags: Vec::new() }
+        Ctx {
+            file,
+            diags: Vec::new(),
+        }
     }
 
     pub fn loc(&self, node: &Node) -> Option<Location> {
-        Some(Location { file: self.file.to_path_buf(), line: Some(node.line), column: Some(node.column) })
+        Some(Location {
+            file: self.file.to_path_buf(),
+            line: Some(node.line),
+            column: Some(node.column),
+        })
     }
 
     pub fn error(&mut self, node: &Node, message: impl Into<String>) {
@@ -27,12 +34,28 @@ impl<'a> Ctx<'a> {
     /// View a node as a mapping with a closed set of keys. Unknown keys are
     /// reported with the nearest valid key; keys listed in `later` are
     /// accepted by the grammar but refused as not supported yet.
-    pub fn map<'n>(&mut self, node: &'n Node, path: &str, allowed: &[&str], later: &[&str]) -> Option<MapView<'n>> {
+    pub fn map<'n>(
+        &mut self,
+        node: &'n Node,
+        path: &str,
+        allowed: &[&str],
+        later: &[&str],
+    ) -> Option<MapView<'n>> {
         let Kind::Map(entries) = &node.kind else {
             if node.is_null() {
-                return Some(MapView { entries: &[], line: node.line, column: node.column });
+                return Some(MapView {
+                    entries: &[],
+                    line: node.line,
+                    column: node.column,
+                });
             }
-            self.error(node, format!("{path} must be a mapping of keys to values, found {}", node.describe()));
+            self.error(
+                node,
+                format!(
+                    "{path} must be a mapping of keys to values, found {}",
+                    node.describe()
+                ),
+            );
             return None;
         };
         let mut seen: Vec<&str> = Vec::new();
@@ -60,14 +83,21 @@ impl<'a> Ctx<'a> {
                 self.error(key, format!("unknown key '{name}' in {path}{hint}"));
             }
         }
-        Some(MapView { entries, line: node.line, column: node.column })
+        Some(MapView {
+            entries,
+            line: node.line,
+            column: node.column,
+        })
     }
 
     pub fn string(&mut self, node: &Node, what: &str) -> Option<String> {
         match &node.kind {
             Kind::Scalar(s, _) if !node.is_null() => Some(s.clone()),
             _ => {
-                self.error(node, format!("{what} must be a single value, found {}", node.describe()));
+                self.error(
+                    node,
+                    format!("{what} must be a single value, found {}", node.describe()),
+                );
                 None
             }
         }
@@ -110,7 +140,13 @@ impl<'a> Ctx<'a> {
             Some(n) => format!("did you mean '{n}'? "),
             None => String::new(),
         };
-        self.error(node, format!("{what} '{s}' is not known; {hint}choose one of: {}", options.join(", ")));
+        self.error(
+            node,
+            format!(
+                "{what} '{s}' is not known; {hint}choose one of: {}",
+                options.join(", ")
+            ),
+        );
         None
     }
 
@@ -129,19 +165,28 @@ impl<'a> Ctx<'a> {
             let from = match view.get("from") {
                 Some(n) => self.integer(n, &format!("{what}.from"), min)?,
                 None => {
-                    self.error(node, format!("{what} as a range needs both 'from' and 'to'"));
+                    self.error(
+                        node,
+                        format!("{what} as a range needs both 'from' and 'to'"),
+                    );
                     return None;
                 }
             };
             let to = match view.get("to") {
                 Some(n) => self.integer(n, &format!("{what}.to"), min)?,
                 None => {
-                    self.error(node, format!("{what} as a range needs both 'from' and 'to'"));
+                    self.error(
+                        node,
+                        format!("{what} as a range needs both 'from' and 'to'"),
+                    );
                     return None;
                 }
             };
             if to < from {
-                self.error(node, format!("{what}: 'to' ({to}) is below 'from' ({from})"));
+                self.error(
+                    node,
+                    format!("{what}: 'to' ({to}) is below 'from' ({from})"),
+                );
                 return None;
             }
             if to - from > 10_000 {
@@ -152,7 +197,10 @@ impl<'a> Ctx<'a> {
         }
         let items = self.list(node);
         if items.is_empty() {
-            self.error(node, format!("{what} is an empty list; give at least one order"));
+            self.error(
+                node,
+                format!("{what} is an empty list; give at least one order"),
+            );
             return None;
         }
         let mut out = Vec::new();
@@ -190,7 +238,10 @@ impl<'n> MapView<'n> {
             .map(|(_, v)| v)
     }
     pub fn key_node(&self, key: &str) -> Option<&'n Node> {
-        self.entries.iter().find(|(k, _)| matches!(&k.kind, Kind::Scalar(s, _) if s == key)).map(|(k, _)| k)
+        self.entries
+            .iter()
+            .find(|(k, _)| matches!(&k.kind, Kind::Scalar(s, _) if s == key))
+            .map(|(k, _)| k)
     }
     pub fn keys(&self) -> impl Iterator<Item = &'n str> {
         self.entries.iter().filter_map(|(k, _)| match &k.kind {
@@ -199,6 +250,10 @@ impl<'n> MapView<'n> {
         })
     }
     pub fn anchor(&self) -> Node {
-        Node { kind: Kind::Scalar(String::new(), false), line: self.line, column: self.column }
+        Node {
+            kind: Kind::Scalar(String::new(), false),
+            line: self.line,
+            column: self.column,
+        }
     }
 }

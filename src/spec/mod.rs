@@ -19,10 +19,30 @@ use std::path::{Path, PathBuf};
 use yaml::{Kind, Node};
 
 const TOP_KEYS: &[&str] = &[
-    "version", "experiment", "notes", "data", "target", "transform", "predictors", "candidates", "backtest",
-    "scoring", "report", "seed",
+    "version",
+    "experiment",
+    "notes",
+    "data",
+    "target",
+    "transform",
+    "predictors",
+    "candidates",
+    "backtest",
+    "scoring",
+    "report",
+    "seed",
 ];
-const FAMILIES: &[&str] = &["naive", "mean", "drift", "seasonal_naive", "ar", "ardl", "arima", "smoothing", "combination"];
+const FAMILIES: &[&str] = &[
+    "naive",
+    "mean",
+    "drift",
+    "seasonal_naive",
+    "ar",
+    "ardl",
+    "arima",
+    "smoothing",
+    "combination",
+];
 const LATER_FAMILIES: &[&str] = &["arima", "smoothing", "combination"];
 
 pub fn sha256_hex(bytes: &[u8]) -> String {
@@ -32,12 +52,24 @@ pub fn sha256_hex(bytes: &[u8]) -> String {
 
 /// Read, parse and check an experiment file and its data.
 pub fn load(path: &Path) -> Result<Experiment> {
-    let file_loc = || Some(Location { file: path.to_path_buf(), line: None, column: None });
-    let bytes = std::fs::read(path).map_err(|e| Error::invalid(file_loc(), format!("cannot read the experiment file: {e}")))?;
-    let text = String::from_utf8(bytes).map_err(|_| Error::invalid(file_loc(), "the experiment file is not UTF-8 text"))?;
+    let file_loc = || {
+        Some(Location {
+            file: path.to_path_buf(),
+            line: None,
+            column: None,
+        })
+    };
+    let bytes = std::fs::read(path)
+        .map_err(|e| Error::invalid(file_loc(), format!("cannot read the experiment file: {e}")))?;
+    let text = String::from_utf8(bytes)
+        .map_err(|_| Error::invalid(file_loc(), "the experiment file is not UTF-8 text"))?;
     let root = yaml::parse(&text).map_err(|e| {
         Error::invalid(
-            Some(Location { file: path.to_path_buf(), line: Some(e.line), column: Some(e.column) }),
+            Some(Location {
+                file: path.to_path_buf(),
+                line: Some(e.line),
+                column: Some(e.column),
+            }),
             format!("the file is not valid YAML: {}", e.message),
         )
     })?;
@@ -47,7 +79,8 @@ pub fn load(path: &Path) -> Result<Experiment> {
         Some(exp) if ctx.diags.is_empty() => Ok(exp),
         _ => {
             if ctx.diags.is_empty() {
-                ctx.diags.push(Diagnostic::new(file_loc(), "the experiment is invalid"));
+                ctx.diags
+                    .push(Diagnostic::new(file_loc(), "the experiment is invalid"));
             }
             Err(Error::Invalid(ctx.diags))
         }
@@ -87,7 +120,13 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
         }
         Some(s)
     });
-    let notes = top.get("notes").and_then(|n| if n.is_null() { None } else { ctx.string(n, "notes") });
+    let notes = top.get("notes").and_then(|n| {
+        if n.is_null() {
+            None
+        } else {
+            ctx.string(n, "notes")
+        }
+    });
 
     // report
     let mut title = None;
@@ -100,9 +139,16 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
             if let Some(f) = view.get("formats") {
                 let mut out = Vec::new();
                 for item in ctx.list(f) {
-                    match ctx.choice(item, "report format", &["html", "markdown"]).as_deref() {
-                        Some("html") if !out.contains(&ReportFormat::Html) => out.push(ReportFormat::Html),
-                        Some("markdown") if !out.contains(&ReportFormat::Markdown) => out.push(ReportFormat::Markdown),
+                    match ctx
+                        .choice(item, "report format", &["html", "markdown"])
+                        .as_deref()
+                    {
+                        Some("html") if !out.contains(&ReportFormat::Html) => {
+                            out.push(ReportFormat::Html)
+                        }
+                        Some("markdown") if !out.contains(&ReportFormat::Markdown) => {
+                            out.push(ReportFormat::Markdown)
+                        }
                         _ => {}
                     }
                 }
@@ -117,7 +163,9 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
     };
 
     let transform = match top.get("transform") {
-        Some(n) => ctx.choice(n, "transform", &Transform::NAMES).and_then(|s| Transform::parse(&s)),
+        Some(n) => ctx
+            .choice(n, "transform", &Transform::NAMES)
+            .and_then(|s| Transform::parse(&s)),
         None => Some(Transform::None),
     };
 
@@ -129,22 +177,47 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
     let mut start = None;
     let mut end = None;
     if let Some(d) = data_node {
-        if let Some(view) = ctx.map(d, "data", &["file", "time", "frequency", "start", "end"], &[]) {
+        if let Some(view) = ctx.map(
+            d,
+            "data",
+            &["file", "time", "frequency", "start", "end"],
+            &[],
+        ) {
             let a = view.anchor();
             match view.get("file") {
                 Some(n) => data_file = ctx.string(n, "data.file").map(|s| (s, n.clone())),
-                None => ctx.error(&a, "data needs 'file': the path of the CSV, relative to the experiment file"),
+                None => ctx.error(
+                    &a,
+                    "data needs 'file': the path of the CSV, relative to the experiment file",
+                ),
             }
             match view.get("time") {
                 Some(n) => time_col = ctx.string(n, "data.time").map(|s| (s, n.clone())),
-                None => ctx.error(&a, "data needs 'time': the column holding the period labels"),
+                None => ctx.error(
+                    &a,
+                    "data needs 'time': the column holding the period labels",
+                ),
             }
             match view.get("frequency") {
-                Some(n) => frequency = ctx.choice(n, "data.frequency", &Frequency::NAMES).and_then(|s| Frequency::parse(&s)),
-                None => ctx.error(&a, format!("data needs 'frequency': one of {}", Frequency::NAMES.join(", "))),
+                Some(n) => {
+                    frequency = ctx
+                        .choice(n, "data.frequency", &Frequency::NAMES)
+                        .and_then(|s| Frequency::parse(&s))
+                }
+                None => ctx.error(
+                    &a,
+                    format!(
+                        "data needs 'frequency': one of {}",
+                        Frequency::NAMES.join(", ")
+                    ),
+                ),
             }
-            start = view.get("start").and_then(|n| ctx.string(n, "data.start").map(|s| (s, n.clone())));
-            end = view.get("end").and_then(|n| ctx.string(n, "data.end").map(|s| (s, n.clone())));
+            start = view
+                .get("start")
+                .and_then(|n| ctx.string(n, "data.start").map(|s| (s, n.clone())));
+            end = view
+                .get("end")
+                .and_then(|n| ctx.string(n, "data.end").map(|s| (s, n.clone())));
         }
     }
 
@@ -174,47 +247,76 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
             let items = match &p.kind {
                 Kind::Seq(items) => items.iter().collect::<Vec<_>>(),
                 _ => {
-                    ctx.error(p, "predictors must be a list of entries, each with a 'column'");
+                    ctx.error(
+                        p,
+                        "predictors must be a list of entries, each with a 'column'",
+                    );
                     Vec::new()
                 }
             };
             for (i, item) in items.into_iter().enumerate() {
                 let path = format!("predictors[{}]", i + 1);
-                let Some(view) = ctx.map(item, &path, &["column", "transform", "release_lag", "known_ahead"], &[]) else {
+                let Some(view) = ctx.map(
+                    item,
+                    &path,
+                    &["column", "transform", "release_lag", "known_ahead"],
+                    &[],
+                ) else {
                     continue;
                 };
-                let Some(column) = view.get("column").and_then(|n| ctx.string(n, &format!("{path}.column"))) else {
+                let Some(column) = view
+                    .get("column")
+                    .and_then(|n| ctx.string(n, &format!("{path}.column")))
+                else {
                     if view.get("column").is_none() {
-                        ctx.error(item, format!("{path} needs 'column': the data column to use"));
+                        ctx.error(
+                            item,
+                            format!("{path} needs 'column': the data column to use"),
+                        );
                     }
                     continue;
                 };
                 let transform = match view.get("transform") {
-                    Some(n) => ctx.choice(n, &format!("{path}.transform"), &Transform::NAMES).and_then(|s| Transform::parse(&s)),
+                    Some(n) => ctx
+                        .choice(n, &format!("{path}.transform"), &Transform::NAMES)
+                        .and_then(|s| Transform::parse(&s)),
                     None => Some(Transform::None),
                 };
                 let release_lag = match view.get("release_lag") {
-                    Some(n) => ctx.integer(n, &format!("{path}.release_lag"), 0).map(|v| v as usize),
+                    Some(n) => ctx
+                        .integer(n, &format!("{path}.release_lag"), 0)
+                        .map(|v| v as usize),
                     None => Some(0),
                 };
                 let known_ahead = match view.get("known_ahead") {
                     Some(n) => ctx.boolean(n, &format!("{path}.known_ahead")),
                     None => Some(false),
                 };
-                let (Some(transform), Some(release_lag), Some(known_ahead)) = (transform, release_lag, known_ahead) else {
+                let (Some(transform), Some(release_lag), Some(known_ahead)) =
+                    (transform, release_lag, known_ahead)
+                else {
                     continue;
                 };
                 if known_ahead && release_lag > 0 {
                     ctx.error(item, format!("{path}: known_ahead cannot be combined with release_lag (a value known in advance is not published late)"));
                 }
                 if predictors.iter().any(|p| p.column == column) {
-                    ctx.error(item, format!("{path}: column '{column}' is declared as a predictor twice"));
+                    ctx.error(
+                        item,
+                        format!("{path}: column '{column}' is declared as a predictor twice"),
+                    );
                     continue;
                 }
                 if targets.iter().any(|(t, _)| *t == column) {
                     ctx.error(item, format!("{path}: '{column}' is a target; its own lags enter through ar and ardl 'lags'"));
                 }
-                predictors.push(Predictor { column, transform, release_lag, known_ahead, line: item.line });
+                predictors.push(Predictor {
+                    column,
+                    transform,
+                    release_lag,
+                    known_ahead,
+                    line: item.line,
+                });
                 predictor_nodes.push(item.clone());
             }
         }
@@ -234,27 +336,45 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
                             if horizons.contains(&(v as usize)) {
                                 ctx.error(item, format!("horizon {v} is listed twice"));
                             } else if v > 100_000 {
-                                ctx.error(item, format!("horizon {v} is larger than any data set could support"));
+                                ctx.error(
+                                    item,
+                                    format!(
+                                        "horizon {v} is larger than any data set could support"
+                                    ),
+                                );
                             } else {
                                 horizons.push(v as usize);
                             }
                         }
                     }
                     if horizons.is_empty() && !matches!(&h.kind, Kind::Seq(v) if !v.is_empty()) {
-                        ctx.error(h, "backtest.horizons is empty; list at least one horizon, e.g. [1, 4]");
+                        ctx.error(
+                            h,
+                            "backtest.horizons is empty; list at least one horizon, e.g. [1, 4]",
+                        );
                     }
                 }
-                None => ctx.error(&a, "backtest needs 'horizons': the steps ahead to forecast, e.g. [1, 4]"),
+                None => ctx.error(
+                    &a,
+                    "backtest needs 'horizons': the steps ahead to forecast, e.g. [1, 4]",
+                ),
             }
             horizons.sort_unstable();
             if let Some(m) = view.get("multi_step") {
                 if let Some(s) = ctx.choice(m, "backtest.multi_step", &["direct", "iterated"]) {
-                    multi_step = if s == "iterated" { MultiStep::Iterated } else { MultiStep::Direct };
+                    multi_step = if s == "iterated" {
+                        MultiStep::Iterated
+                    } else {
+                        MultiStep::Direct
+                    };
                 }
             }
             match view.get("schemes") {
                 Some(s) => schemes = decode_schemes(ctx, s),
-                None => ctx.error(&a, "backtest needs 'schemes': a list of fixed, expanding or rolling entries"),
+                None => ctx.error(
+                    &a,
+                    "backtest needs 'schemes': a list of fixed, expanding or rolling entries",
+                ),
             }
         }
     }
@@ -268,12 +388,19 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
                     decode_candidate(ctx, item, i + 1, &predictors, &mut candidates);
                 }
             }
-            _ => ctx.error(c, "candidates must be a non-empty list of model entries, each with a 'family'"),
+            _ => ctx.error(
+                c,
+                "candidates must be a non-empty list of model entries, each with a 'family'",
+            ),
         }
     }
     for (i, c) in candidates.iter().enumerate() {
         if let Some(first) = candidates[..i].iter().find(|o| o.id == c.id) {
-            let node = Node { kind: Kind::Scalar(String::new(), false), line: c.line, column: 1 };
+            let node = Node {
+                kind: Kind::Scalar(String::new(), false),
+                line: c.line,
+                column: 1,
+            };
             ctx.error(
                 &node,
                 format!("candidate id '{}' is produced twice (also by the entry on line {}); give one entry a 'label'", c.id, first.line),
@@ -282,21 +409,39 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
     }
 
     // scoring
-    let mut metrics: Vec<Metric> = vec![Metric::Rmse, Metric::Mae, Metric::Bias, Metric::Mape, Metric::Smape, Metric::Mase, Metric::R2Oos];
+    let mut metrics: Vec<Metric> = vec![
+        Metric::Rmse,
+        Metric::Mae,
+        Metric::Bias,
+        Metric::Mape,
+        Metric::Smape,
+        Metric::Mase,
+        Metric::R2Oos,
+    ];
     let mut rank_by = Metric::Rmse;
     let mut benchmark_name: Option<(String, Node)> = None;
     let mut rank_node = None;
     if let Some(s) = top.get("scoring") {
-        if let Some(view) = ctx.map(s, "scoring", &["metrics", "rank_by", "benchmark"], &["intervals", "tests", "periods"]) {
+        if let Some(view) = ctx.map(
+            s,
+            "scoring",
+            &["metrics", "rank_by", "benchmark"],
+            &["intervals", "tests", "periods"],
+        ) {
             if let Some(m) = view.get("metrics") {
                 let mut out = Vec::new();
                 for item in ctx.list(m) {
-                    let Some(name) = ctx.string(item, "scoring.metrics") else { continue };
+                    let Some(name) = ctx.string(item, "scoring.metrics") else {
+                        continue;
+                    };
                     if ["interval_score", "coverage", "crps"].contains(&name.as_str()) {
                         ctx.error(item, format!("metric '{name}' needs prediction intervals, which are not supported yet by this version of outturn"));
                         continue;
                     }
-                    if let Some(metric) = ctx.choice(item, "metric", &Metric::NAMES).and_then(|s| Metric::parse(&s)) {
+                    if let Some(metric) = ctx
+                        .choice(item, "metric", &Metric::NAMES)
+                        .and_then(|s| Metric::parse(&s))
+                    {
                         if out.contains(&metric) {
                             ctx.error(item, format!("metric '{name}' is listed twice"));
                         } else {
@@ -305,13 +450,19 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
                     }
                 }
                 if out.is_empty() && ctx.diags.is_empty() {
-                    ctx.error(m, "scoring.metrics is empty; list at least one metric, e.g. [rmse, mae]");
+                    ctx.error(
+                        m,
+                        "scoring.metrics is empty; list at least one metric, e.g. [rmse, mae]",
+                    );
                 }
                 metrics = out;
             }
             if let Some(r) = view.get("rank_by") {
                 rank_node = Some(r.clone());
-                if let Some(metric) = ctx.choice(r, "scoring.rank_by", &Metric::NAMES).and_then(|s| Metric::parse(&s)) {
+                if let Some(metric) = ctx
+                    .choice(r, "scoring.rank_by", &Metric::NAMES)
+                    .and_then(|s| Metric::parse(&s))
+                {
                     rank_by = metric;
                 }
             } else if !metrics.is_empty() && !metrics.contains(&Metric::Rmse) {
@@ -324,7 +475,13 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
     }
     if !metrics.contains(&rank_by) {
         if let Some(r) = &rank_node {
-            ctx.error(r, format!("rank_by '{}' must also be listed in scoring.metrics", rank_by.name()));
+            ctx.error(
+                r,
+                format!(
+                    "rank_by '{}' must also be listed in scoring.metrics",
+                    rank_by.name()
+                ),
+            );
         }
     }
     // SPEC §4: the id named, else naive when it is a candidate, else the first candidate.
@@ -333,8 +490,16 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
             Some(i) => i,
             None => {
                 let ids: Vec<&str> = candidates.iter().map(|c| c.id.as_str()).collect();
-                let hint = nearest(name, &ids).map(|n| format!("did you mean '{n}'? ")).unwrap_or_default();
-                ctx.error(node, format!("benchmark '{name}' names no candidate; {hint}candidate ids are: {}", ids.join(", ")));
+                let hint = nearest(name, &ids)
+                    .map(|n| format!("did you mean '{n}'? "))
+                    .unwrap_or_default();
+                ctx.error(
+                    node,
+                    format!(
+                        "benchmark '{name}' names no candidate; {hint}candidate ids are: {}",
+                        ids.join(", ")
+                    ),
+                );
                 0
             }
         },
@@ -342,8 +507,13 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
     };
 
     // Everything below needs the data.
-    let (Some(name), Some((data_file, data_file_node)), Some((time_col, time_node)), Some(frequency), Some(transform)) =
-        (name, data_file, time_col, frequency, transform)
+    let (
+        Some(name),
+        Some((data_file, data_file_node)),
+        Some((time_col, time_node)),
+        Some(frequency),
+        Some(transform),
+    ) = (name, data_file, time_col, frequency, transform)
     else {
         return None;
     };
@@ -355,7 +525,10 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
     let bytes = match std::fs::read(&data_path) {
         Ok(b) => b,
         Err(e) => {
-            ctx.error(&data_file_node, format!("cannot read the data file {}: {e}", data_path.display()));
+            ctx.error(
+                &data_file_node,
+                format!("cannot read the data file {}: {e}", data_path.display()),
+            );
             return None;
         }
     };
@@ -378,7 +551,10 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
             transform,
             predictors: &predictors,
             predictor_nodes: &predictor_nodes,
-            schemes: &schemes.iter().map(|p| (&p.scheme, &p.node)).collect::<Vec<_>>(),
+            schemes: &schemes
+                .iter()
+                .map(|p| (&p.scheme, &p.node))
+                .collect::<Vec<_>>(),
             horizons: &horizons,
         },
     )?;
@@ -387,13 +563,29 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
     }
     for c in &candidates {
         if c.family == Family::SeasonalNaive && frequency.season_length().is_none() {
-            let node = Node { kind: Kind::Scalar(String::new(), false), line: c.line, column: 1 };
-            ctx.error(&node, format!("seasonal_naive needs seasonal data; {} data have no season length", frequency.name()));
+            let node = Node {
+                kind: Kind::Scalar(String::new(), false),
+                line: c.line,
+                column: 1,
+            };
+            ctx.error(
+                &node,
+                format!(
+                    "seasonal_naive needs seasonal data; {} data have no season length",
+                    frequency.name()
+                ),
+            );
         }
     }
     if transform == Transform::SeasonalDiff && frequency.season_length().is_none() {
         if let Some(n) = top.get("transform") {
-            ctx.error(n, format!("seasonal_diff needs seasonal data; {} data have no season length", frequency.name()));
+            ctx.error(
+                n,
+                format!(
+                    "seasonal_diff needs seasonal data; {} data have no season length",
+                    frequency.name()
+                ),
+            );
         }
     }
     let title = title.unwrap_or_else(|| name.clone());
@@ -425,11 +617,17 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
 
 fn decode_schemes(ctx: &mut Ctx, node: &Node) -> Vec<PendingScheme> {
     let Kind::Seq(items) = &node.kind else {
-        ctx.error(node, "backtest.schemes must be a list, e.g. [{expanding: {first_origin: 1995Q4}}]");
+        ctx.error(
+            node,
+            "backtest.schemes must be a list, e.g. [{expanding: {first_origin: 1995Q4}}]",
+        );
         return Vec::new();
     };
     if items.is_empty() {
-        ctx.error(node, "backtest.schemes is empty; list at least one of fixed, expanding, rolling");
+        ctx.error(
+            node,
+            "backtest.schemes is empty; list at least one of fixed, expanding, rolling",
+        );
     }
     let mut out: Vec<PendingScheme> = Vec::new();
     for (i, item) in items.iter().enumerate() {
@@ -446,7 +644,14 @@ fn decode_schemes(ctx: &mut Ctx, node: &Node) -> Vec<PendingScheme> {
             ctx.error(item, format!("{path} must be one of fixed, expanding or rolling with its settings, e.g. {{expanding: {{first_origin: 1995Q4}}}}"));
             continue;
         };
-        let kind = match ctx.choice(&entry_key(item), &format!("{path}: scheme"), &["fixed", "expanding", "rolling"]).as_deref() {
+        let kind = match ctx
+            .choice(
+                &entry_key(item),
+                &format!("{path}: scheme"),
+                &["fixed", "expanding", "rolling"],
+            )
+            .as_deref()
+        {
             Some("fixed") => SchemeKind::Fixed,
             Some("expanding") => SchemeKind::Expanding,
             Some("rolling") => SchemeKind::Rolling,
@@ -455,22 +660,46 @@ fn decode_schemes(ctx: &mut Ctx, node: &Node) -> Vec<PendingScheme> {
         let allowed: &[&str] = match kind {
             SchemeKind::Fixed => &["test_start", "first_origin", "train_share", "origins"],
             SchemeKind::Expanding => &["test_start", "first_origin", "train_share", "refit_every"],
-            SchemeKind::Rolling => &["test_start", "first_origin", "train_share", "window", "refit_every"],
+            SchemeKind::Rolling => &[
+                "test_start",
+                "first_origin",
+                "train_share",
+                "window",
+                "refit_every",
+            ],
         };
-        let empty = Node { kind: Kind::Map(Vec::new()), line: item.line, column: item.column };
+        let empty = Node {
+            kind: Kind::Map(Vec::new()),
+            line: item.line,
+            column: item.column,
+        };
         let settings = settings.unwrap_or(&empty);
-        let Some(view) = ctx.map(settings, &format!("{path}.{kind_name}"), allowed, &[]) else { continue };
+        let Some(view) = ctx.map(settings, &format!("{path}.{kind_name}"), allowed, &[]) else {
+            continue;
+        };
         let mut start = SchemeStart::Half;
         let mut count = 0;
         for key in ["test_start", "first_origin", "train_share"] {
             let Some(n) = view.get(key) else { continue };
             count += 1;
-            let Some(text) = ctx.string(n, &format!("{path}.{kind_name}.{key}")) else { continue };
+            let Some(text) = ctx.string(n, &format!("{path}.{kind_name}.{key}")) else {
+                continue;
+            };
             start = match key {
-                "test_start" => SchemeStart::TestStart { label: text, ordinal: 0 },
-                "first_origin" => SchemeStart::FirstOrigin { label: text, ordinal: 0 },
+                "test_start" => SchemeStart::TestStart {
+                    label: text,
+                    ordinal: 0,
+                },
+                "first_origin" => SchemeStart::FirstOrigin {
+                    label: text,
+                    ordinal: 0,
+                },
                 _ => match parse_share(&text) {
-                    Some((numerator, denominator)) => SchemeStart::TrainShare { text, numerator, denominator },
+                    Some((numerator, denominator)) => SchemeStart::TrainShare {
+                        text,
+                        numerator,
+                        denominator,
+                    },
                     None => {
                         ctx.error(n, format!("{path}.{kind_name}.train_share must be a decimal strictly between 0 and 1, e.g. 0.5; found '{text}'"));
                         continue;
@@ -479,10 +708,15 @@ fn decode_schemes(ctx: &mut Ctx, node: &Node) -> Vec<PendingScheme> {
             };
         }
         if count > 1 {
-            ctx.error(settings, format!("{path}: give at most one of test_start, first_origin and train_share"));
+            ctx.error(
+                settings,
+                format!("{path}: give at most one of test_start, first_origin and train_share"),
+            );
         }
         let window = match view.get("window") {
-            Some(n) => ctx.integer(n, &format!("{path}.rolling.window"), 1).map(|v| v as usize),
+            Some(n) => ctx
+                .integer(n, &format!("{path}.rolling.window"), 1)
+                .map(|v| v as usize),
             None => {
                 if kind == SchemeKind::Rolling {
                     ctx.error(settings, format!("{path}: rolling needs 'window': the number of most recent regression rows to keep"));
@@ -491,11 +725,17 @@ fn decode_schemes(ctx: &mut Ctx, node: &Node) -> Vec<PendingScheme> {
             }
         };
         let refit_every = match view.get("refit_every") {
-            Some(n) => ctx.integer(n, &format!("{path}.{kind_name}.refit_every"), 1).unwrap_or(1) as usize,
+            Some(n) => ctx
+                .integer(n, &format!("{path}.{kind_name}.refit_every"), 1)
+                .unwrap_or(1) as usize,
             None => 1,
         };
         let origins_first = match view.get("origins") {
-            Some(n) => ctx.choice(n, &format!("{path}.fixed.origins"), &["all", "first"]).as_deref() == Some("first"),
+            Some(n) => {
+                ctx.choice(n, &format!("{path}.fixed.origins"), &["all", "first"])
+                    .as_deref()
+                    == Some("first")
+            }
             None => false,
         };
         let id = match kind {
@@ -511,7 +751,15 @@ fn decode_schemes(ctx: &mut Ctx, node: &Node) -> Vec<PendingScheme> {
             continue;
         }
         out.push(PendingScheme {
-            scheme: Scheme { id, kind, start, window, refit_every, origins_first, line: item.line },
+            scheme: Scheme {
+                id,
+                kind,
+                start,
+                window,
+                refit_every,
+                origins_first,
+                line: item.line,
+            },
             node: item.clone(),
         });
     }
@@ -529,14 +777,21 @@ fn entry_key(item: &Node) -> Node {
 fn parse_share(text: &str) -> Option<(u128, u128)> {
     let t = text.trim();
     let (int, frac) = t.split_once('.').unwrap_or((t, ""));
-    if frac.len() > 30 || !int.bytes().all(|b| b.is_ascii_digit()) || !frac.bytes().all(|b| b.is_ascii_digit()) {
+    if frac.len() > 30
+        || !int.bytes().all(|b| b.is_ascii_digit())
+        || !frac.bytes().all(|b| b.is_ascii_digit())
+    {
         return None;
     }
     if int.is_empty() && frac.is_empty() {
         return None;
     }
     let int_v: u128 = if int.is_empty() { 0 } else { int.parse().ok()? };
-    let frac_v: u128 = if frac.is_empty() { 0 } else { frac.parse().ok()? };
+    let frac_v: u128 = if frac.is_empty() {
+        0
+    } else {
+        frac.parse().ok()?
+    };
     let den = 10u128.checked_pow(frac.len() as u32)?;
     let num = int_v.checked_mul(den)?.checked_add(frac_v)?;
     if num == 0 || num >= den {
@@ -545,45 +800,92 @@ fn parse_share(text: &str) -> Option<(u128, u128)> {
     Some((num, den))
 }
 
-fn decode_candidate(ctx: &mut Ctx, item: &Node, index: usize, predictors: &[Predictor], out: &mut Vec<Candidate>) {
+fn decode_candidate(
+    ctx: &mut Ctx,
+    item: &Node,
+    index: usize,
+    predictors: &[Predictor],
+    out: &mut Vec<Candidate>,
+) {
     let path = format!("candidates[{index}]");
     let family_name = match &item.kind {
         Kind::Map(_) => None,
         _ => {
-            ctx.error(item, format!("{path} must be a mapping with a 'family', e.g. {{family: ar, lags: [1, 2]}}"));
+            ctx.error(
+                item,
+                format!(
+                    "{path} must be a mapping with a 'family', e.g. {{family: ar, lags: [1, 2]}}"
+                ),
+            );
             return;
         }
     }
     .or_else(|| {
         if let Kind::Map(entries) = &item.kind {
-            entries.iter().find(|(k, _)| matches!(&k.kind, Kind::Scalar(s, _) if s == "family")).map(|(_, v)| v.clone())
+            entries
+                .iter()
+                .find(|(k, _)| matches!(&k.kind, Kind::Scalar(s, _) if s == "family"))
+                .map(|(_, v)| v.clone())
         } else {
             None
         }
     });
     let Some(family_node) = family_name else {
-        ctx.error(item, format!("{path} needs 'family': one of {}", FAMILIES.join(", ")));
+        ctx.error(
+            item,
+            format!("{path} needs 'family': one of {}", FAMILIES.join(", ")),
+        );
         return;
     };
-    let Some(family) = ctx.choice(&family_node, &format!("{path}.family"), FAMILIES) else { return };
+    let Some(family) = ctx.choice(&family_node, &format!("{path}.family"), FAMILIES) else {
+        return;
+    };
     if LATER_FAMILIES.contains(&family.as_str()) {
-        ctx.error(&family_node, format!("{path}: family '{family}' is not supported yet by this version of outturn"));
+        ctx.error(
+            &family_node,
+            format!("{path}: family '{family}' is not supported yet by this version of outturn"),
+        );
         return;
     }
     let (allowed, later): (&[&str], &[&str]) = match family.as_str() {
-        "ar" => (&["family", "label", "lags", "trend"], &["select", "max_lags"]),
-        "ardl" => (&["family", "label", "lags", "trend", "predictors", "predictor_lags"], &["select", "max_lags"]),
+        "ar" => (
+            &["family", "label", "lags", "trend"],
+            &["select", "max_lags"],
+        ),
+        "ardl" => (
+            &[
+                "family",
+                "label",
+                "lags",
+                "trend",
+                "predictors",
+                "predictor_lags",
+            ],
+            &["select", "max_lags"],
+        ),
         _ => (&["family", "label"], &[]),
     };
-    let Some(view) = ctx.map(item, &path, allowed, later) else { return };
+    let Some(view) = ctx.map(item, &path, allowed, later) else {
+        return;
+    };
     if later.iter().any(|k| view.get(k).is_some()) {
         return;
     }
     let label = match view.get("label") {
         Some(n) => match ctx.string(n, &format!("{path}.label")) {
-            Some(s) if !s.is_empty() && s.bytes().all(|b| b.is_ascii_alphanumeric() || b == b'_' || b == b'-' || b == b'.') => Some(s),
+            Some(s)
+                if !s.is_empty()
+                    && s.bytes().all(|b| {
+                        b.is_ascii_alphanumeric() || b == b'_' || b == b'-' || b == b'.'
+                    }) =>
+            {
+                Some(s)
+            }
             Some(s) => {
-                ctx.error(n, format!("{path}.label '{s}' must use only letters, digits, '_', '-' and '.'"));
+                ctx.error(
+                    n,
+                    format!("{path}.label '{s}' must use only letters, digits, '_', '-' and '.'"),
+                );
                 return;
             }
             None => return,
@@ -592,27 +894,56 @@ fn decode_candidate(ctx: &mut Ctx, item: &Node, index: usize, predictors: &[Pred
     };
     let base = label.unwrap_or_else(|| family.clone());
     let trend = match view.get("trend") {
-        Some(n) => match ctx.choice(n, &format!("{path}.trend"), &Trend::NAMES).and_then(|s| Trend::parse(&s)) {
+        Some(n) => match ctx
+            .choice(n, &format!("{path}.trend"), &Trend::NAMES)
+            .and_then(|s| Trend::parse(&s))
+        {
             Some(t) => t,
             None => return,
         },
         None => Trend::Constant,
     };
-    let trend_suffix = if trend == Trend::Constant { String::new() } else { format!(",{}", trend.name()) };
+    let trend_suffix = if trend == Trend::Constant {
+        String::new()
+    } else {
+        format!(",{}", trend.name())
+    };
     let line = item.line;
     match family.as_str() {
-        "naive" => out.push(Candidate { id: base, family: Family::Naive, line }),
-        "mean" => out.push(Candidate { id: base, family: Family::Mean, line }),
-        "drift" => out.push(Candidate { id: base, family: Family::Drift, line }),
-        "seasonal_naive" => out.push(Candidate { id: base, family: Family::SeasonalNaive, line }),
+        "naive" => out.push(Candidate {
+            id: base,
+            family: Family::Naive,
+            line,
+        }),
+        "mean" => out.push(Candidate {
+            id: base,
+            family: Family::Mean,
+            line,
+        }),
+        "drift" => out.push(Candidate {
+            id: base,
+            family: Family::Drift,
+            line,
+        }),
+        "seasonal_naive" => out.push(Candidate {
+            id: base,
+            family: Family::SeasonalNaive,
+            line,
+        }),
         "ar" => {
             let Some(lags_node) = view.get("lags") else {
                 ctx.error(item, format!("{path}: ar needs 'lags': a list of orders like [1, 2, 4] or {{from: 1, to: 8}}"));
                 return;
             };
-            let Some(orders) = ctx.orders(lags_node, &format!("{path}.lags"), 1) else { return };
+            let Some(orders) = ctx.orders(lags_node, &format!("{path}.lags"), 1) else {
+                return;
+            };
             for p in orders {
-                out.push(Candidate { id: format!("{base}({p}{trend_suffix})"), family: Family::Ar { lags: p, trend }, line });
+                out.push(Candidate {
+                    id: format!("{base}({p}{trend_suffix})"),
+                    family: Family::Ar { lags: p, trend },
+                    line,
+                });
             }
         }
         "ardl" => {
@@ -635,16 +966,28 @@ fn decode_candidate(ctx: &mut Ctx, item: &Node, index: usize, predictors: &[Pred
                 Some(n) => {
                     let items = ctx.list(n);
                     if items.is_empty() {
-                        ctx.error(n, format!("{path}.predictors is empty; name at least one declared predictor"));
+                        ctx.error(
+                            n,
+                            format!(
+                                "{path}.predictors is empty; name at least one declared predictor"
+                            ),
+                        );
                     }
                     for p in items {
-                        let Some(col) = ctx.string(p, &format!("{path}.predictors")) else { continue };
+                        let Some(col) = ctx.string(p, &format!("{path}.predictors")) else {
+                            continue;
+                        };
                         match predictors.iter().position(|d| d.column == col) {
-                            Some(i) if chosen.contains(&i) => ctx.error(p, format!("{path}.predictors names '{col}' twice")),
+                            Some(i) if chosen.contains(&i) => {
+                                ctx.error(p, format!("{path}.predictors names '{col}' twice"))
+                            }
                             Some(i) => chosen.push(i),
                             None => {
-                                let names: Vec<&str> = predictors.iter().map(|d| d.column.as_str()).collect();
-                                let hint = nearest(&col, &names).map(|n| format!(" did you mean '{n}'?")).unwrap_or_default();
+                                let names: Vec<&str> =
+                                    predictors.iter().map(|d| d.column.as_str()).collect();
+                                let hint = nearest(&col, &names)
+                                    .map(|n| format!(" did you mean '{n}'?"))
+                                    .unwrap_or_default();
                                 ctx.error(
                                     p,
                                     format!("{path}.predictors: '{col}' is not declared under the top-level 'predictors' key.{hint} Declared: {}",
@@ -654,9 +997,16 @@ fn decode_candidate(ctx: &mut Ctx, item: &Node, index: usize, predictors: &[Pred
                         }
                     }
                 }
-                None => ctx.error(item, format!("{path}: ardl needs 'predictors': the declared predictor columns it uses")),
+                None => ctx.error(
+                    item,
+                    format!(
+                        "{path}: ardl needs 'predictors': the declared predictor columns it uses"
+                    ),
+                ),
             }
-            let (Some(lags), Some(qs)) = (lags, qs) else { return };
+            let (Some(lags), Some(qs)) = (lags, qs) else {
+                return;
+            };
             if chosen.is_empty() {
                 return;
             }
@@ -664,7 +1014,12 @@ fn decode_candidate(ctx: &mut Ctx, item: &Node, index: usize, predictors: &[Pred
                 for &q in &qs {
                     out.push(Candidate {
                         id: format!("{base}({p},{q}{trend_suffix})"),
-                        family: Family::Ardl { lags: p, predictor_lags: q, predictors: chosen.clone(), trend },
+                        family: Family::Ardl {
+                            lags: p,
+                            predictor_lags: q,
+                            predictors: chosen.clone(),
+                            trend,
+                        },
                         line,
                     });
                 }

@@ -15,7 +15,14 @@ pub enum Transform {
 }
 
 impl Transform {
-    pub const NAMES: [&'static str; 6] = ["none", "log", "diff", "log_diff", "pct_change", "seasonal_diff"];
+    pub const NAMES: [&'static str; 6] = [
+        "none",
+        "log",
+        "diff",
+        "log_diff",
+        "pct_change",
+        "seasonal_diff",
+    ];
     pub fn parse(s: &str) -> Option<Transform> {
         Some(match s {
             "none" => Transform::None,
@@ -76,11 +83,21 @@ pub enum Metric {
 }
 
 impl Metric {
-    pub const ALL: [Metric; 7] =
-        [Metric::Rmse, Metric::Mae, Metric::Bias, Metric::Mape, Metric::Smape, Metric::Mase, Metric::R2Oos];
+    pub const ALL: [Metric; 7] = [
+        Metric::Rmse,
+        Metric::Mae,
+        Metric::Bias,
+        Metric::Mape,
+        Metric::Smape,
+        Metric::Mase,
+        Metric::R2Oos,
+    ];
     pub const NAMES: [&'static str; 7] = ["rmse", "mae", "bias", "mape", "smape", "mase", "r2_oos"];
     pub fn parse(s: &str) -> Option<Metric> {
-        Self::NAMES.iter().position(|n| *n == s).map(|i| Self::ALL[i])
+        Self::NAMES
+            .iter()
+            .position(|n| *n == s)
+            .map(|i| Self::ALL[i])
     }
     pub fn name(self) -> &'static str {
         Self::NAMES[self as usize]
@@ -108,7 +125,11 @@ pub enum SchemeStart {
     /// T0's own period.
     FirstOrigin { label: String, ordinal: i64 },
     /// T0 = ⌊f·N⌋ with f = numerator/denominator read exactly from its decimal text.
-    TrainShare { text: String, numerator: u128, denominator: u128 },
+    TrainShare {
+        text: String,
+        numerator: u128,
+        denominator: u128,
+    },
 }
 
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -137,9 +158,17 @@ pub enum Family {
     Mean,
     Drift,
     SeasonalNaive,
-    Ar { lags: usize, trend: Trend },
+    Ar {
+        lags: usize,
+        trend: Trend,
+    },
     /// `predictors` index into [`Experiment::predictors`].
-    Ardl { lags: usize, predictor_lags: usize, predictors: Vec<usize>, trend: Trend },
+    Ardl {
+        lags: usize,
+        predictor_lags: usize,
+        predictors: Vec<usize>,
+        trend: Trend,
+    },
 }
 
 impl Family {
@@ -147,9 +176,12 @@ impl Family {
     pub fn coefficients(&self) -> Option<usize> {
         match self {
             Family::Ar { lags, trend } => Some(trend.terms() + lags),
-            Family::Ardl { lags, predictor_lags, predictors, trend } => {
-                Some(trend.terms() + lags + predictor_lags * predictors.len())
-            }
+            Family::Ardl {
+                lags,
+                predictor_lags,
+                predictors,
+                trend,
+            } => Some(trend.terms() + lags + predictor_lags * predictors.len()),
             _ => None,
         }
     }
@@ -245,7 +277,11 @@ impl Experiment {
         let last = target.ordinals.len();
         let base = target.ordinals[last - 1];
         let steps = position as i64 - last as i64;
-        super::period::format_label(self.frequency, base + steps * self.frequency.step(), self.label_style)
+        super::period::format_label(
+            self.frequency,
+            base + steps * self.frequency.step(),
+            self.label_style,
+        )
     }
 
     pub fn season_length(&self) -> Option<usize> {
@@ -255,7 +291,9 @@ impl Experiment {
     /// Whether any predictor of a candidate is known ahead (its forecasts are conditional).
     pub fn is_conditional(&self, candidate: &Candidate) -> bool {
         match &candidate.family {
-            Family::Ardl { predictors, .. } => predictors.iter().any(|&p| self.predictors[p].known_ahead),
+            Family::Ardl { predictors, .. } => {
+                predictors.iter().any(|&p| self.predictors[p].known_ahead)
+            }
             _ => false,
         }
     }

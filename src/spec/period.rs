@@ -15,7 +15,8 @@ pub enum Frequency {
 }
 
 impl Frequency {
-    pub const NAMES: [&'static str; 6] = ["annual", "quarterly", "monthly", "weekly", "daily", "index"];
+    pub const NAMES: [&'static str; 6] =
+        ["annual", "quarterly", "monthly", "weekly", "daily", "index"];
 
     pub fn parse(s: &str) -> Option<Frequency> {
         Some(match s {
@@ -166,15 +167,21 @@ pub fn parse_label(freq: Frequency, label: &str) -> Result<(i64, LabelStyle), Pe
                 return bad("");
             };
             match (year(ys), digits(qs)) {
-                (Some(y), Some(q)) if (1..=4).contains(&q) && qs.len() == 1 => Ok((y * 4 + q - 1, style)),
+                (Some(y), Some(q)) if (1..=4).contains(&q) && qs.len() == 1 => {
+                    Ok((y * 4 + q - 1, style))
+                }
                 (Some(_), Some(_)) => bad(": the quarter must be 1 to 4"),
                 _ => bad(""),
             }
         }
         Frequency::Monthly => {
-            let Some((ys, ms)) = s.split_once('-') else { return bad("") };
+            let Some((ys, ms)) = s.split_once('-') else {
+                return bad("");
+            };
             match (year(ys), digits(ms)) {
-                (Some(y), Some(m)) if ms.len() == 2 && (1..=12).contains(&m) => Ok((y * 12 + m - 1, LabelStyle::Plain)),
+                (Some(y), Some(m)) if ms.len() == 2 && (1..=12).contains(&m) => {
+                    Ok((y * 12 + m - 1, LabelStyle::Plain))
+                }
                 (Some(_), Some(_)) if ms.len() == 2 => bad(": the month must be 01 to 12"),
                 _ => bad(""),
             }
@@ -185,7 +192,9 @@ pub fn parse_label(freq: Frequency, label: &str) -> Result<(i64, LabelStyle), Pe
                 return bad("");
             }
             match (year(parts[0]), digits(parts[1]), digits(parts[2])) {
-                (Some(y), Some(m), Some(d)) if (1..=12).contains(&m) && d >= 1 && d <= days_in_month(y, m) => {
+                (Some(y), Some(m), Some(d))
+                    if (1..=12).contains(&m) && d >= 1 && d <= days_in_month(y, m) =>
+                {
                     Ok((days_from_civil(y, m, d), LabelStyle::Plain))
                 }
                 (Some(_), Some(_), Some(_)) => bad(": no such date"),
@@ -216,7 +225,11 @@ pub fn format_label(freq: Frequency, ordinal: i64, style: LabelStyle) -> String 
                 LabelStyle::Plain => format!("{y:04}Q{q}"),
             }
         }
-        Frequency::Monthly => format!("{:04}-{:02}", ordinal.div_euclid(12), ordinal.rem_euclid(12) + 1),
+        Frequency::Monthly => format!(
+            "{:04}-{:02}",
+            ordinal.div_euclid(12),
+            ordinal.rem_euclid(12) + 1
+        ),
         Frequency::Weekly | Frequency::Daily => {
             let (y, m, d) = civil_from_days(ordinal);
             format!("{y:04}-{m:02}-{d:02}")
@@ -237,9 +250,15 @@ mod tests {
         assert_eq!(a, b);
         assert_eq!(style, LabelStyle::QuarterDash);
         assert_eq!(format_label(Frequency::Quarterly, a + 3, style), "2004-Q4");
-        assert_eq!(format_label(Frequency::Quarterly, a + 4, LabelStyle::Plain), "2005Q1");
+        assert_eq!(
+            format_label(Frequency::Quarterly, a + 4, LabelStyle::Plain),
+            "2005Q1"
+        );
         let (m, _) = parse_label(Frequency::Monthly, "2004-12").unwrap();
-        assert_eq!(format_label(Frequency::Monthly, m + 1, LabelStyle::Plain), "2005-01");
+        assert_eq!(
+            format_label(Frequency::Monthly, m + 1, LabelStyle::Plain),
+            "2005-01"
+        );
         assert_eq!(parse_label(Frequency::Index, "17").unwrap().0, 17);
     }
 
@@ -261,7 +280,10 @@ mod tests {
             assert_eq!(days_from_civil(y, m, d), z);
         }
         let (d, _) = parse_label(Frequency::Weekly, "2004-01-05").unwrap();
-        assert_eq!(format_label(Frequency::Weekly, d + 7, LabelStyle::Plain), "2004-01-12");
+        assert_eq!(
+            format_label(Frequency::Weekly, d + 7, LabelStyle::Plain),
+            "2004-01-12"
+        );
     }
 
     #[test]

@@ -27,7 +27,13 @@ pub struct Resolved {
     pub label_style: LabelStyle,
 }
 
-fn column_or_error(ctx: &mut Ctx, table: &RawTable, name: &str, node: &Node, what: &str) -> Option<usize> {
+fn column_or_error(
+    ctx: &mut Ctx,
+    table: &RawTable,
+    name: &str,
+    node: &Node,
+    what: &str,
+) -> Option<usize> {
     match table.column(name) {
         Some(i) => Some(i),
         None => {
@@ -36,14 +42,23 @@ fn column_or_error(ctx: &mut Ctx, table: &RawTable, name: &str, node: &Node, wha
                 Some(n) => format!("the closest is '{n}'"),
                 None => format!("its columns are: {}", headers.join(", ")),
             };
-            ctx.error(node, format!("{what} column '{name}' is not in {}; {hint}", table.path.display()));
+            ctx.error(
+                node,
+                format!(
+                    "{what} column '{name}' is not in {}; {hint}",
+                    table.path.display()
+                ),
+            );
             None
         }
     }
 }
 
 fn cell_error(table: &RawTable, line: usize, column: usize, message: String) -> Diagnostic {
-    Diagnostic::new(table.location(line, Some(column)), format!("column '{}': {message}", table.headers[column]))
+    Diagnostic::new(
+        table.location(line, Some(column)),
+        format!("column '{}': {message}", table.headers[column]),
+    )
 }
 
 /// Lag of a transform in periods: how many leading values it cannot produce.
@@ -58,7 +73,11 @@ pub fn transform_lag(t: Transform, season: Option<usize>) -> usize {
 /// Apply a transform to a column of optional values (SPEC §2). A value that
 /// cannot be produced is None; a value that cannot be transformed (log of a
 /// non-positive number, division by zero) is reported with its row index.
-pub fn apply_transform(t: Transform, raw: &[Option<f64>], season: Option<usize>) -> Result<Vec<Option<f64>>, (usize, String)> {
+pub fn apply_transform(
+    t: Transform,
+    raw: &[Option<f64>],
+    season: Option<usize>,
+) -> Result<Vec<Option<f64>>, (usize, String)> {
     let lag = transform_lag(t, season);
     let mut out = vec![None; raw.len()];
     for i in 0..raw.len() {
@@ -77,7 +96,12 @@ pub fn apply_transform(t: Transform, raw: &[Option<f64>], season: Option<usize>)
             Transform::Diff | Transform::SeasonalDiff => prev.map(|p| x - p),
             Transform::LogDiff => prev.map(|p| x.ln() - p.ln()),
             Transform::PctChange => match prev {
-                Some(p) if p == 0.0 => return Err((i, "pct_change divides by the previous value, which is 0".to_string())),
+                Some(0.0) => {
+                    return Err((
+                        i,
+                        "pct_change divides by the previous value, which is 0".to_string(),
+                    ))
+                }
                 Some(p) => Some(x / p - 1.0),
                 None => None,
             },
@@ -103,7 +127,11 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
                 ordinals.push(o);
             }
             Err(e) => {
-                let msg = if label.is_empty() { "the period label is empty".to_string() } else { e.0 };
+                let msg = if label.is_empty() {
+                    "the period label is empty".to_string()
+                } else {
+                    e.0
+                };
                 ctx.diags.push(cell_error(table, row.line, time_idx, msg));
                 bad = true;
                 ordinals.push(i64::MIN);
@@ -118,9 +146,16 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
         let (prev, cur) = (ordinals[i - 1], ordinals[i]);
         let row = &table.rows[i];
         let msg = if cur == prev {
-            Some(format!("period '{}' repeats the previous row's period", row.cells[time_idx]))
+            Some(format!(
+                "period '{}' repeats the previous row's period",
+                row.cells[time_idx]
+            ))
         } else if cur < prev {
-            Some(format!("period '{}' comes before the previous row's '{}'; rows must be in time order", row.cells[time_idx], table.rows[i - 1].cells[time_idx]))
+            Some(format!(
+                "period '{}' comes before the previous row's '{}'; rows must be in time order",
+                row.cells[time_idx],
+                table.rows[i - 1].cells[time_idx]
+            ))
         } else if cur - prev != step {
             let missing = (cur - prev) / step - 1;
             Some(format!(
@@ -157,11 +192,29 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
     };
     let lo = bound(ctx, req.start, "start")?;
     let hi = bound(ctx, req.end, "end")?;
-    let first_row = lo.map(|l| ordinals.iter().position(|&o| o >= l).unwrap_or(ordinals.len())).unwrap_or(0);
-    let end_row = hi.map(|h| ordinals.iter().rposition(|&o| o <= h).map(|i| i + 1).unwrap_or(0)).unwrap_or(ordinals.len());
+    let first_row = lo
+        .map(|l| {
+            ordinals
+                .iter()
+                .position(|&o| o >= l)
+                .unwrap_or(ordinals.len())
+        })
+        .unwrap_or(0);
+    let end_row = hi
+        .map(|h| {
+            ordinals
+                .iter()
+                .rposition(|&o| o <= h)
+                .map(|i| i + 1)
+                .unwrap_or(0)
+        })
+        .unwrap_or(ordinals.len());
     if first_row >= end_row {
         let node = req.start.or(req.end).map(|(_, n)| n).unwrap_or(req.time.1);
-        ctx.error(node, "data.start and data.end select no rows of the data file");
+        ctx.error(
+            node,
+            "data.start and data.end select no rows of the data file",
+        );
         return None;
     }
     let rows = &table.rows[first_row..end_row];
@@ -176,7 +229,9 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
 
     let mut targets = Vec::new();
     for (name, node) in req.targets {
-        let Some(col) = column_or_error(ctx, table, name, node, "the target") else { continue };
+        let Some(col) = column_or_error(ctx, table, name, node, "the target") else {
+            continue;
+        };
         // Parse the target column; the last non-empty cell ends it.
         let mut raw: Vec<Option<f64>> = Vec::with_capacity(rows.len());
         let mut ok = true;
@@ -194,7 +249,10 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
             continue;
         }
         let Some(last) = raw.iter().rposition(Option::is_some) else {
-            ctx.error(node, format!("target column '{name}' has no values in the selected rows"));
+            ctx.error(
+                node,
+                format!("target column '{name}' has no values in the selected rows"),
+            );
             continue;
         };
         let mut empty_inside = false;
@@ -216,25 +274,50 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
         let transformed = match apply_transform(req.transform, &raw[..=last], season) {
             Ok(t) => t,
             Err((i, m)) => {
-                ctx.diags.push(cell_error(table, rows[i].line, col, format!("transform {}: {m}", req.transform.name())));
+                ctx.diags.push(cell_error(
+                    table,
+                    rows[i].line,
+                    col,
+                    format!("transform {}: {m}", req.transform.name()),
+                ));
                 continue;
             }
         };
         if last < lag + 1 {
-            ctx.error(node, format!("target '{name}' has too few values for the transform {}", req.transform.name()));
+            ctx.error(
+                node,
+                format!(
+                    "target '{name}' has too few values for the transform {}",
+                    req.transform.name()
+                ),
+            );
             continue;
         }
         let n = last + 1 - lag;
-        let y: Vec<f64> = transformed[lag..=last].iter().map(|v| v.unwrap_or(f64::NAN)).collect();
+        let y: Vec<f64> = transformed[lag..=last]
+            .iter()
+            .map(|v| v.unwrap_or(f64::NAN))
+            .collect();
         let total = rows.len() - lag;
-        let labels: Vec<String> = rows[lag..].iter().map(|r| r.cells[time_idx].clone()).collect();
+        let labels: Vec<String> = rows[lag..]
+            .iter()
+            .map(|r| r.cells[time_idx].clone())
+            .collect();
         let pos_ordinals: Vec<i64> = ords[lag..].to_vec();
-        let raw_target: Vec<f64> = raw[lag..=last].iter().map(|v| v.unwrap_or(f64::NAN)).collect();
+        let raw_target: Vec<f64> = raw[lag..=last]
+            .iter()
+            .map(|v| v.unwrap_or(f64::NAN))
+            .collect();
 
         // Predictors in this target's position space.
         let mut pred_values = Vec::new();
         let mut pred_ok = true;
-        for ((p, pcol), pnode) in req.predictors.iter().zip(&pred_cols).zip(req.predictor_nodes) {
+        for ((p, pcol), pnode) in req
+            .predictors
+            .iter()
+            .zip(&pred_cols)
+            .zip(req.predictor_nodes)
+        {
             let Some(pcol) = *pcol else {
                 pred_ok = false;
                 continue;
@@ -255,7 +338,13 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
             let allowed_tail = p.release_lag;
             match last_present {
                 None => {
-                    ctx.error(pnode, format!("predictor '{}' has no values in the rows of target '{name}'", p.column));
+                    ctx.error(
+                        pnode,
+                        format!(
+                            "predictor '{}' has no values in the rows of target '{name}'",
+                            p.column
+                        ),
+                    );
                     pred_ok = false;
                     continue;
                 }
@@ -289,7 +378,12 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
             let transformed = match apply_transform(p.transform, &praw, season) {
                 Ok(t) => t,
                 Err((i, m)) => {
-                    ctx.diags.push(cell_error(table, rows[i].line, pcol, format!("transform {}: {m}", p.transform.name())));
+                    ctx.diags.push(cell_error(
+                        table,
+                        rows[i].line,
+                        pcol,
+                        format!("transform {}: {m}", p.transform.name()),
+                    ));
                     pred_ok = false;
                     continue;
                 }
@@ -330,9 +424,11 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
                 SchemeStart::Half => Some(n / 2),
                 SchemeStart::TestStart { label, .. } => pos_of(ctx, label).map(|p| p - 1),
                 SchemeStart::FirstOrigin { label, .. } => pos_of(ctx, label),
-                SchemeStart::TrainShare { numerator, denominator, .. } => {
-                    Some(((*numerator * n as u128) / *denominator) as usize)
-                }
+                SchemeStart::TrainShare {
+                    numerator,
+                    denominator,
+                    ..
+                } => Some(((*numerator * n as u128) / *denominator) as usize),
             };
             let Some(t0) = t0 else { continue };
             if t0 < 1 {
@@ -368,7 +464,10 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
     if targets.len() != req.targets.len() {
         return None;
     }
-    Some(Resolved { targets, label_style })
+    Some(Resolved {
+        targets,
+        label_style,
+    })
 }
 
 #[cfg(test)]
@@ -379,11 +478,20 @@ mod tests {
     fn transforms_follow_the_spec_definitions() {
         // Definitions of SPEC §2 worked by hand on 1, 2, 4, 8.
         let raw = [Some(1.0), Some(2.0), Some(4.0), Some(8.0)];
-        assert_eq!(apply_transform(Transform::Diff, &raw, None).unwrap(), vec![None, Some(1.0), Some(2.0), Some(4.0)]);
-        assert_eq!(apply_transform(Transform::PctChange, &raw, None).unwrap(), vec![None, Some(1.0), Some(1.0), Some(1.0)]);
+        assert_eq!(
+            apply_transform(Transform::Diff, &raw, None).unwrap(),
+            vec![None, Some(1.0), Some(2.0), Some(4.0)]
+        );
+        assert_eq!(
+            apply_transform(Transform::PctChange, &raw, None).unwrap(),
+            vec![None, Some(1.0), Some(1.0), Some(1.0)]
+        );
         let ld = apply_transform(Transform::LogDiff, &raw, None).unwrap();
         assert!((ld[3].unwrap() - 2f64.ln()).abs() < 1e-15);
-        assert_eq!(apply_transform(Transform::SeasonalDiff, &raw, Some(2)).unwrap(), vec![None, None, Some(3.0), Some(6.0)]);
+        assert_eq!(
+            apply_transform(Transform::SeasonalDiff, &raw, Some(2)).unwrap(),
+            vec![None, None, Some(3.0), Some(6.0)]
+        );
         assert!(apply_transform(Transform::Log, &[Some(0.0)], None).is_err());
         assert!(apply_transform(Transform::PctChange, &[Some(0.0), Some(1.0)], None).is_err());
     }

@@ -84,17 +84,35 @@ impl MarkedEventReceiver for Builder {
         match ev {
             Event::Scalar(value, style, anchor, _) => {
                 let quoted = !matches!(style, TScalarStyle::Plain);
-                let node = Node { kind: Kind::Scalar(value, quoted), line, column };
+                let node = Node {
+                    kind: Kind::Scalar(value, quoted),
+                    line,
+                    column,
+                };
                 if anchor > 0 {
                     self.anchors.insert(anchor, node.clone());
                 }
                 self.push_value(node);
             }
             Event::SequenceStart(anchor, _) => {
-                self.stack.push((Node { kind: Kind::Seq(Vec::new()), line, column }, Some(anchor)));
+                self.stack.push((
+                    Node {
+                        kind: Kind::Seq(Vec::new()),
+                        line,
+                        column,
+                    },
+                    Some(anchor),
+                ));
             }
             Event::MappingStart(anchor, _) => {
-                self.stack.push((Node { kind: Kind::Map(Vec::new()), line, column }, Some(anchor)));
+                self.stack.push((
+                    Node {
+                        kind: Kind::Map(Vec::new()),
+                        line,
+                        column,
+                    },
+                    Some(anchor),
+                ));
                 self.keys.push(None);
             }
             Event::SequenceEnd | Event::MappingEnd => {
@@ -111,7 +129,11 @@ impl MarkedEventReceiver for Builder {
             Event::Alias(id) => match self.anchors.get(&id).cloned() {
                 Some(node) => self.push_value(node),
                 None => {
-                    self.error = Some(YamlError { line, column, message: "alias to an unknown anchor".into() })
+                    self.error = Some(YamlError {
+                        line,
+                        column,
+                        message: "alias to an unknown anchor".into(),
+                    })
                 }
             },
             _ => {}
@@ -122,12 +144,21 @@ impl MarkedEventReceiver for Builder {
 /// Parse one YAML document into a positioned tree. An empty file gives an
 /// empty mapping at line 1.
 pub fn parse(text: &str) -> Result<Node, YamlError> {
-    let mut builder =
-        Builder { stack: Vec::new(), keys: Vec::new(), anchors: Default::default(), docs: Vec::new(), error: None };
+    let mut builder = Builder {
+        stack: Vec::new(),
+        keys: Vec::new(),
+        anchors: Default::default(),
+        docs: Vec::new(),
+        error: None,
+    };
     let mut parser = Parser::new_from_str(text);
     if let Err(e) = parser.load(&mut builder, true) {
         let m = e.marker();
-        return Err(YamlError { line: m.line(), column: m.col() + 1, message: e.info().to_string() });
+        return Err(YamlError {
+            line: m.line(),
+            column: m.col() + 1,
+            message: e.info().to_string(),
+        });
     }
     if let Some(err) = builder.error {
         return Err(err);
@@ -137,10 +168,15 @@ pub fn parse(text: &str) -> Result<Node, YamlError> {
         return Err(YamlError {
             line: second.line,
             column: second.column,
-            message: "the file holds more than one YAML document; an experiment is one document".into(),
+            message: "the file holds more than one YAML document; an experiment is one document"
+                .into(),
         });
     }
-    Ok(builder.docs.pop().unwrap_or(Node { kind: Kind::Map(Vec::new()), line: 1, column: 1 }))
+    Ok(builder.docs.pop().unwrap_or(Node {
+        kind: Kind::Map(Vec::new()),
+        line: 1,
+        column: 1,
+    }))
 }
 
 #[cfg(test)]
@@ -149,10 +185,14 @@ mod tests {
     #[test]
     fn positions_are_one_based_lines() {
         let node = parse("a: 1\nb:\n  - x\n  - 'y'\n").expect("valid yaml");
-        let Kind::Map(entries) = &node.kind else { panic!("map") };
+        let Kind::Map(entries) = &node.kind else {
+            panic!("map")
+        };
         assert_eq!(entries.len(), 2);
         assert_eq!(entries[1].0.line, 2);
-        let Kind::Seq(items) = &entries[1].1.kind else { panic!("seq") };
+        let Kind::Seq(items) = &entries[1].1.kind else {
+            panic!("seq")
+        };
         assert_eq!(items[1].line, 4);
         assert_eq!(items[1].kind, Kind::Scalar("y".into(), true));
     }
