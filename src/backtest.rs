@@ -41,7 +41,10 @@ pub fn run_cell(
     let with_outlook = cell.scheme == 0;
     let window = outlook_window(exp);
     match &candidate.family {
-        Family::Ar { .. } | Family::Ardl { .. } => {
+        Family::Ar { .. }
+        | Family::Ardl { .. }
+        | Family::ArSelect { .. }
+        | Family::ArdlSelect { .. } => {
             let design = linear::Design::new(exp, &candidate.family, target).ok_or_else(|| {
                 EstimationProblem {
                     horizon: 0,
@@ -50,10 +53,14 @@ pub fn run_cell(
                 }
             })?;
             let iterated = exp.multi_step == MultiStep::Iterated
-                && matches!(candidate.family, Family::Ar { .. });
-            let forecasts = linear::backtest(&design, &sched, &exp.horizons, iterated)?;
+                && matches!(
+                    candidate.family,
+                    Family::Ar { .. } | Family::ArSelect { .. }
+                );
+            let forecasts =
+                linear::backtest(&design, &candidate.family, &sched, &exp.horizons, iterated)?;
             let outlook = if with_outlook {
-                linear::outlook(&design, window, &exp.horizons, iterated)
+                linear::outlook(&design, &candidate.family, window, &exp.horizons, iterated)
             } else {
                 Vec::new()
             };

@@ -126,7 +126,8 @@ pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
     let outputs = outputs?;
 
     let errors = score::cell_errors(&exp, &cells, &outputs);
-    let scores = score::scores(&exp, &cells, &errors);
+    let scores = score::scores(&exp, &errors);
+    let tests = score::comparison::run(&exp, &errors);
     let mut files: Vec<(String, Vec<u8>)> = vec![
         (
             "forecasts.csv".into(),
@@ -136,6 +137,7 @@ pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
             "scores.csv".into(),
             report::tables::scores_csv(&exp, &scores),
         ),
+        ("tests.csv".into(), report::tables::tests_csv(&exp, &tests)),
         (
             "outlook.csv".into(),
             report::tables::outlook_csv(&exp, &cells, &outputs),

@@ -72,6 +72,8 @@ pub struct Solution {
     pub coef: Vec<f64>,
     pub ssr: f64,
     pub rows: usize,
+    /// Σ(y − ȳ)² of the dependent values.
+    pub sst: f64,
 }
 
 impl Solution {
@@ -208,6 +210,7 @@ impl LeastSquares {
             coef,
             ssr: self.ssr,
             rows: self.rows,
+            sst: self.y_m2,
         })
     }
 

@@ -3,10 +3,18 @@
 //! estimation schedule of each scheme. Expanding windows fold one new row
 //! into the QR factor per origin; rolling windows refactorise their last
 //! `window` rows; the fixed scheme estimates once.
+//!
+//! Order selection (`select`) fits every order on the common estimation
+//! sample of the largest order — the rows where all of its regressors exist
+//! — and keeps the order with the smallest information criterion
+//! n·ln(SSR/n) + penalty·k (AIC: 2, BIC: ln n, HQIC: 2 ln ln n per
+//! coefficient; ties go to the smaller order). The chosen order's estimate
+//! on that sample gives the forecast, so nothing after the estimation end is
+//! ever looked at.
 
-use super::{EstimationProblem, ForecastRow, OutlookRow, Schedule};
+use super::{EstimationProblem, ForecastRow, Order, OutlookRow, Schedule};
 use crate::linalg::{LeastSquares, LinalgError, Solution};
-use crate::spec::{Experiment, Family, TargetData, Trend};
+use crate::spec::{Criterion, Experiment, Family, TargetData, Trend};
 
 /// The regressors of an ar or ardl candidate for one target.
 pub struct Design<'a> {
@@ -29,6 +37,15 @@ impl<'a> Design<'a> {
                 predictors,
                 trend,
             } => (*lags, *predictor_lags, predictors.clone(), *trend),
+            Family::ArSelect {
+                max_lags, trend, ..
+            } => (*max_lags, 0, Vec::new(), *trend),
+            Family::ArdlSelect {
+                max_lags,
+                predictors,
+                trend,
+                ..
+            } => (*max_lags, *max_lags, predictors.clone(), *trend),
             _ => return None,
         };
         let predictors = preds
@@ -97,6 +114,73 @@ impl<'a> Design<'a> {
     }
 }
 
+/// The candidate orders of a design: column subsets of its largest-order row.
+#[derive(Debug, Clone)]
+pub struct Submodel {
+    pub columns: Vec<usize>,
+    pub order: Order,
+    pub lags: usize,
+}
+
+/// Submodels of a family: one (all columns) unless it selects its order.
+pub fn submodels(family: &Family, design: &Design) -> (Vec<Submodel>, Option<Criterion>) {
+    let t = design.trend.terms();
+    let max_p = design.lags;
+    let max_q = design.predictor_lags;
+    let n_pred = design.predictors.len();
+    let build = |p: usize, q: usize| -> Vec<usize> {
+        let mut cols: Vec<usize> = (0..t).collect();
+        cols.extend(t..t + p);
+        for k in 0..n_pred {
+            let base = t + max_p + k * max_q;
+            cols.extend(base..base + q);
+        }
+        cols
+    };
+    match family {
+        Family::ArSelect { criterion, .. } => (
+            (1..=max_p)
+                .map(|p| Submodel {
+                    columns: build(p, 0),
+                    order: Order {
+                        lags: p,
+                        predictor_lags: None,
+                    },
+                    lags: p,
+                })
+                .collect(),
+            Some(*criterion),
+        ),
+        Family::ArdlSelect { criterion, .. } => {
+            let mut subs = Vec::new();
+            for p in 0..=max_p {
+                for q in 1..=max_q {
+                    subs.push(Submodel {
+                        columns: build(p, q),
+                        order: Order {
+                            lags: p,
+                            predictor_lags: Some(q),
+                        },
+                        lags: p,
+                    });
+                }
+            }
+            (subs, Some(*criterion))
+        }
+        _ => (
+            vec![Submodel {
+                columns: (0..design.coefficients()).collect(),
+                order: Order {
+                    lags: max_p,
+                    predictor_lags: (n_pred > 0).then_some(max_q),
+                },
+                lags: max_p,
+            }],
+            None,
+        ),
+    }
+}
+
 /// Regressor rows of one horizon at every origin s = 1..=N, laid out flat.
 struct Rows {
     k: usize,
@@ -124,47 +208,80 @@ impl Rows {
     }
 }
 
-/// Solves the regression of y_{s+h} on the rows at s for a nondecreasing
-/// sequence of estimation ends E (rows with s + h ≤ E).
+/// A solved submodel at one estimation end.
+struct Chosen {
+    index: usize,
+    solution: Solution,
+}
+
+/// Solves the regressions of y_{s+h} on the rows at s for a nondecreasing
+/// sequence of estimation ends E (rows with s + h ≤ E), for every submodel,
+/// and picks one.
 struct Estimator<'r> {
     rows: &'r Rows,
     y: &'r [f64],
     h: usize,
     window: Option<usize>,
-    ls: LeastSquares,
+    subs: &'r [Submodel],
+    criterion: Option<Criterion>,
+    ls: Vec<LeastSquares>,
+    scratch: Vec<f64>,
     next_s: usize,
     last_end: Option<usize>,
-    solution: Option<Solution>,
+    chosen: Option<Chosen>,
 }
 
 impl<'r> Estimator<'r> {
-    fn new(rows: &'r Rows, y: &'r [f64], h: usize, window: Option<usize>) -> Self {
+    fn new(
+        rows: &'r Rows,
+        y: &'r [f64],
+        h: usize,
+        window: Option<usize>,
+        subs: &'r [Submodel],
+        criterion: Option<Criterion>,
+    ) -> Self {
         Estimator {
             rows,
             y,
             h,
             window,
-            ls: LeastSquares::new(rows.k),
+            subs,
+            criterion,
+            ls: subs
+                .iter()
+                .map(|s| LeastSquares::new(s.columns.len()))
+                .collect(),
+            scratch: vec![0.0; rows.k],
             next_s: 1,
             last_end: None,
-            solution: None,
+            chosen: None,
         }
     }
 
-    fn at(&mut self, end: usize) -> Result<&Solution, LinalgError> {
-        if self.last_end != Some(end) || self.solution.is_none() {
+    fn add(&mut self, s: usize) {
+        let Some(x) = self.rows.at(s) else { return };
+        let dep = self.y[s + self.h - 1];
+        for (ls, sub) in self.ls.iter_mut().zip(self.subs) {
+            let buf = &mut self.scratch[..sub.columns.len()];
+            for (b, &c) in buf.iter_mut().zip(&sub.columns) {
+                *b = x[c];
+            }
+            ls.add_row(buf, dep);
+        }
+    }
+
+    fn at(&mut self, end: usize) -> Result<&Chosen, LinalgError> {
+        if self.last_end != Some(end) || self.chosen.is_none() {
             match self.window {
                 None => {
                     while self.next_s + self.h <= end {
-                        if let Some(x) = self.rows.at(self.next_s) {
-                            self.ls.add_row(x, self.y[self.next_s + self.h - 1]);
-                        }
+                        self.add(self.next_s);
                         self.next_s += 1;
                     }
                 }
                 Some(w) => {
                     // The last `w` regression rows with s + h ≤ E (all while fewer exist).
-                    self.ls.clear();
+                    self.ls.iter_mut().for_each(LeastSquares::clear);
                     let mut chosen = Vec::with_capacity(w);
                     let mut s = end.saturating_sub(self.h);
                     while s >= 1 && chosen.len() < w {
@@ -174,16 +291,42 @@ impl<'r> Estimator<'r> {
                         s -= 1;
                     }
                     for &s in chosen.iter().rev() {
-                        if let Some(x) = self.rows.at(s) {
-                            self.ls.add_row(x, self.y[s + self.h - 1]);
-                        }
+                        self.add(s);
                     }
                 }
             }
-            self.solution = Some(self.ls.solve()?);
+            self.chosen = Some(self.choose()?);
             self.last_end = Some(end);
         }
-        self.solution.as_ref().ok_or(LinalgError::NonFinite)
+        self.chosen.as_ref().ok_or(LinalgError::NonFinite)
+    }
+
+    fn choose(&self) -> Result<Chosen, LinalgError> {
+        let Some(criterion) = self.criterion else {
+            return Ok(Chosen {
+                index: 0,
+                solution: self.ls[0].solve()?,
+            });
+        };
+        // The largest order must be estimable: it fixes the common sample.
+        self.ls[self.ls.len() - 1].check()?;
+        let mut best: Option<(f64, usize)> = None;
+        for (i, ls) in self.ls.iter().enumerate() {
+            if ls.check().is_err() {
+                continue;
+            }
+            let n = ls.rows() as f64;
+            let ic =
+                n * (ls.ssr() / n).ln() + criterion.penalty(ls.rows()) * ls.coefficients() as f64;
+            if best.is_none_or(|(b, _)| ic < b) {
+                best = Some((ic, i));
+            }
+        }
+        let (_, index) = best.ok_or(LinalgError::RankDeficient { column: 0 })?;
+        Ok(Chosen {
+            index,
+            solution: self.ls[index].solve()?,
+        })
     }
 }
 
@@ -199,21 +342,58 @@ fn missing_regressors(h: usize, origin: usize) -> EstimationProblem {
     problem(h, origin, "the regressors at this origin do not exist yet (too few earlier observations for the lags)")
 }
 
+fn predict(sol: &Solution, x: &[f64], columns: &[usize]) -> f64 {
+    sol.coef.iter().zip(columns).map(|(b, &c)| b * x[c]).sum()
+}
+
+/// ψ-weights of an AR polynomial: ψ_0 = 1, ψ_j = Σ_{i=1}^{min(j,p)} φ_i ψ_{j−i}
+/// (Box & Jenkins; Hamilton 1994, §3.5).
+pub fn psi_weights(phi: &[f64], count: usize) -> Vec<f64> {
+    let mut psi = vec![0.0; count];
+    if count > 0 {
+        psi[0] = 1.0;
+    }
+    for j in 1..count {
+        psi[j] = (1..=phi.len().min(j))
+            .map(|i| phi[i - 1] * psi[j - i])
+            .sum();
+    }
+    psi
+}
+
+/// h-step variances of iterated AR forecasts: σ̂²·Σ_{j<h} ψ_j².
+fn iterated_variances(design: &Design, sub: &Submodel, sol: &Solution, max_h: usize) -> Vec<f64> {
+    let t = design.trend.terms();
+    let phi = &sol.coef[t..t + sub.lags];
+    let psi = psi_weights(phi, max_h);
+    let sigma2 = sol.sigma2();
+    let mut acc = 0.0;
+    psi.iter()
+        .map(|p| {
+            acc += p * p;
+            sigma2 * acc
+        })
+        .collect()
+}
+
 /// Direct forecasts (and iterated ones for ar under `multi_step: iterated`).
 pub fn backtest(
     design: &Design,
+    family: &Family,
     sched: &Schedule,
     horizons: &[usize],
     iterated: bool,
 ) -> Result<Vec<ForecastRow>, EstimationProblem> {
+    let (subs, criterion) = submodels(family, design);
+    let record_order = criterion.is_some();
     let mut out = Vec::new();
     if iterated {
         let rows = Rows::build(design, 1);
-        let mut est = Estimator::new(&rows, design.y, 1, sched.window());
+        let mut est = Estimator::new(&rows, design.y, 1, sched.window(), &subs, criterion);
         let max_h = horizons.iter().copied().max().unwrap_or(1);
         let mut per_h: Vec<Vec<ForecastRow>> = vec![Vec::new(); horizons.len()];
         let first = sched.first_origin;
-        let last = sched.origins(horizons[0]).end().to_owned();
+        let last = *sched.origins(horizons[0]).end();
         let mut path = vec![0.0; max_h];
         for origin in first..=last {
             let wanted: Vec<usize> = (0..horizons.len())
@@ -223,16 +403,21 @@ pub fn backtest(
                 continue;
             }
             let end = sched.estimation_end(origin);
-            let sol = est.at(end).map_err(|e| problem(1, origin, e))?;
-            iterate_path(design, sol, origin, &mut path)
+            let chosen = est.at(end).map_err(|e| problem(1, origin, e))?;
+            let sub = &subs[chosen.index];
+            iterate_path(design, sub, &chosen.solution, origin, &mut path)
                 .ok_or_else(|| missing_regressors(1, origin))?;
+            let variances = iterated_variances(design, sub, &chosen.solution, max_h);
             for i in wanted {
                 let h = horizons[i];
                 per_h[i].push(ForecastRow {
                     horizon: h,
                     origin,
                     forecast: path[h - 1],
-                    is_mse: Some(sol.mse()),
+                    is_mse: Some(chosen.solution.mse()),
+                    is_var: Some(chosen.solution.sst / chosen.solution.rows as f64),
+                    variance: Some(variances[h - 1]),
+                    order: record_order.then_some(sub.order),
                 });
             }
         }
@@ -241,18 +426,22 @@ pub fn backtest(
     }
     for &h in horizons {
         let rows = Rows::build(design, h);
-        let mut est = Estimator::new(&rows, design.y, h, sched.window());
+        let mut est = Estimator::new(&rows, design.y, h, sched.window(), &subs, criterion);
         for origin in sched.origins(h) {
             let end = sched.estimation_end(origin);
-            let sol = est.at(end).map_err(|e| problem(h, origin, e))?;
+            let chosen = est.at(end).map_err(|e| problem(h, origin, e))?;
+            let sub = &subs[chosen.index];
             let x = rows
                 .at(origin)
                 .ok_or_else(|| missing_regressors(h, origin))?;
             out.push(ForecastRow {
                 horizon: h,
                 origin,
-                forecast: sol.predict(x),
-                is_mse: Some(sol.mse()),
+                forecast: predict(&chosen.solution, x, &sub.columns),
+                is_mse: Some(chosen.solution.mse()),
+                is_var: Some(chosen.solution.sst / chosen.solution.rows as f64),
+                variance: Some(chosen.solution.sigma2()),
+                order: record_order.then_some(sub.order),
             });
         }
     }
@@ -261,32 +450,35 @@ pub fn backtest(
 
 /// Iterated forecasts ŷ_{T+1..T+H} of an ar design from origin T: earlier
 /// forecasts stand in for values after T; nothing after T is read.
-fn iterate_path(design: &Design, sol: &Solution, origin: usize, path: &mut [f64]) -> Option<()> {
-    let k = design.coefficients();
-    let mut x = vec![0.0; k];
-    if origin < design.lags {
+fn iterate_path(
+    design: &Design,
+    sub: &Submodel,
+    sol: &Solution,
+    origin: usize,
+    path: &mut [f64],
+) -> Option<()> {
+    let t = design.trend.terms();
+    if origin < sub.lags {
         return None;
     }
     for step in 1..=path.len() {
-        let mut i = 0;
+        let mut f = 0.0;
         if design.trend != Trend::None {
-            x[i] = 1.0;
-            i += 1;
+            f += sol.coef[0];
         }
         if design.trend == Trend::Linear {
-            x[i] = (origin + step) as f64;
-            i += 1;
+            f += sol.coef[1] * (origin + step) as f64;
         }
-        for j in 1..=design.lags {
+        for j in 1..=sub.lags {
             let pos = origin + step - j;
-            x[i] = if pos > origin {
+            let v = if pos > origin {
                 path[pos - origin - 1]
             } else {
                 design.y[pos - 1]
             };
-            i += 1;
+            f += sol.coef[t + j - 1] * v;
         }
-        path[step - 1] = sol.predict(&x);
+        path[step - 1] = f;
     }
     Some(())
 }
@@ -294,25 +486,37 @@ fn iterate_path(design: &Design, sol: &Solution, origin: usize, path: &mut [f64]
 /// Forecasts beyond the data from origin N with E = N.
 pub fn outlook(
     design: &Design,
+    family: &Family,
     window: Option<usize>,
     horizons: &[usize],
     iterated: bool,
 ) -> Vec<OutlookRow> {
     let n = design.n;
+    let (subs, criterion) = submodels(family, design);
+    let none = |h| OutlookRow {
+        horizon: h,
+        forecast: None,
+        variance: None,
+    };
     if iterated {
         let rows = Rows::build(design, 1);
-        let mut est = Estimator::new(&rows, design.y, 1, window);
+        let mut est = Estimator::new(&rows, design.y, 1, window, &subs, criterion);
         let max_h = horizons.iter().copied().max().unwrap_or(1);
         let mut path = vec![0.0; max_h];
-        let ok = match est.at(n) {
-            Ok(sol) => iterate_path(design, sol, n, &mut path).is_some(),
-            Err(_) => false,
+        let Ok(chosen) = est.at(n) else {
+            return horizons.iter().map(|&h| none(h)).collect();
         };
+        let sub = &subs[chosen.index];
+        if iterate_path(design, sub, &chosen.solution, n, &mut path).is_none() {
+            return horizons.iter().map(|&h| none(h)).collect();
+        }
+        let variances = iterated_variances(design, sub, &chosen.solution, max_h);
         return horizons
             .iter()
             .map(|&h| OutlookRow {
                 horizon: h,
-                forecast: ok.then(|| path[h - 1]),
+                forecast: Some(path[h - 1]),
+                variance: Some(variances[h - 1]),
             })
             .collect();
     }
@@ -320,16 +524,31 @@ pub fn outlook(
         .iter()
         .map(|&h| {
             let rows = Rows::build(design, h);
-            let mut est = Estimator::new(&rows, design.y, h, window);
+            let mut est = Estimator::new(&rows, design.y, h, window, &subs, criterion);
             let mut x = vec![0.0; rows.k];
-            let forecast = match est.at(n) {
-                Ok(sol) if design.row(n, h, &mut x) => Some(sol.predict(&x)),
-                _ => None,
-            };
-            OutlookRow {
-                horizon: h,
-                forecast,
+            match est.at(n) {
+                Ok(chosen) if design.row(n, h, &mut x) => OutlookRow {
+                    horizon: h,
+                    forecast: Some(predict(&chosen.solution, &x, &subs[chosen.index].columns)),
+                    variance: Some(chosen.solution.sigma2()),
+                },
+                _ => none(h),
             }
         })
         .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn psi_weights_of_an_ar1_are_powers() {
+        // AR(1): ψ_j = φ^j (Hamilton 1994, eq. 3.4.xx; common practice).
+        let psi = psi_weights(&[0.5], 4);
+        assert_eq!(psi, vec![1.0, 0.5, 0.25, 0.125]);
+        // AR(2) with φ = (0.5, 0.3): ψ_2 = 0.5·0.5 + 0.3 = 0.55
+        let psi = psi_weights(&[0.5, 0.3], 3);
+        assert!((psi[2] - 0.55).abs() < 1e-15);
+    }
 }

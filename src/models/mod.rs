@@ -13,6 +13,29 @@ pub struct ForecastRow {
     pub forecast: f64,
     /// In-sample MSE of the estimation that produced it (SPEC §4), if any.
     pub is_mse: Option<f64>,
+    /// Σ(y − ȳ)²/rows of the dependent values of that estimation, so that
+    /// 1 − is_mse/is_var is its centred in-sample R².
+    pub is_var: Option<f64>,
+    /// Forecast variance σ̂_h² for Gaussian intervals, if the family has one.
+    pub variance: Option<f64>,
+    /// The order chosen inside the training window, for candidates with `select`.
+    pub order: Option<Order>,
+}
+
+/// Lag orders of an ar (p) or ardl (p, q) fit.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Order {
+    pub lags: usize,
+    pub predictor_lags: Option<usize>,
+}
+
+impl std::fmt::Display for Order {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self.predictor_lags {
+            Some(q) => write!(f, "{},{}", self.lags, q),
+            None => write!(f, "{}", self.lags),
+        }
+    }
 }
 
 /// One forecast beyond the data, from origin N.
@@ -21,6 +44,7 @@ pub struct OutlookRow {
     pub horizon: usize,
     /// None when an input it needs is not in the data (a known-ahead predictor's future value).
     pub forecast: Option<f64>,
+    pub variance: Option<f64>,
 }
 
 /// Why a cell could not be estimated at some origin.

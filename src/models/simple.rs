@@ -1,10 +1,33 @@
 //! The benchmark families of SPEC §4: naive, mean, drift and seasonal naive.
+//!
+//! Their h-step forecast variances ignore parameter uncertainty, like the
+//! least-squares intervals of SPEC §4 (common practice), and follow the
+//! random-walk algebra of each method (Hyndman & Athanasopoulos, "Forecasting:
+//! Principles and Practice", benchmark methods' prediction intervals):
+//! mean σ̂² with σ̂² = Σ(y − ȳ)²/(n − 1); naive h·σ̂² with σ̂² the mean squared
+//! one-step change; drift h·σ̂² with σ̂² = Σ(one-step residual)²/(n − 1);
+//! seasonal naive (⌊(h − 1)/m⌋ + 1)·σ̂² with σ̂² the mean squared seasonal
+//! change, all over the estimation sample.
 
 use super::{EstimationProblem, ForecastRow, OutlookRow, Schedule};
 use crate::spec::{Family, TargetData};
 
-/// Forecast of a simple family at origin T for horizon h with estimation
-/// sample a..=E (positions). Returns (forecast, in-sample MSE).
+/// A simple family's forecast at origin T for horizon h with estimation
+/// sample a..=E (positions).
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct Simple {
+    forecast: f64,
+    is_mse: Option<f64>,
+    variance: Option<f64>,
+}
+
+fn mean_square(values: impl Iterator<Item = f64>, divisor: usize) -> Option<f64> {
+    if divisor == 0 {
+        return None;
+    }
+    Some(values.map(|v| v * v).sum::<f64>() / divisor as f64)
+}
+
 fn simple_forecast(
     family: &Family,
     y: &[f64],
@@ -13,27 +36,48 @@ fn simple_forecast(
     start: usize,
     end: usize,
     season: Option<usize>,
-) -> Result<(f64, Option<f64>), String> {
+) -> Result<Simple, String> {
     let at = |pos: usize| y[pos - 1];
+    let h = horizon as f64;
     match family {
-        Family::Naive => Ok((at(origin), None)),
+        Family::Naive => {
+            let steps = end - start;
+            let sigma2 = mean_square(((start + 1)..=end).map(|t| at(t) - at(t - 1)), steps);
+            Ok(Simple {
+                forecast: at(origin),
+                is_mse: None,
+                variance: sigma2.map(|s| h * s),
+            })
+        }
         Family::Mean => {
             let sample = &y[start - 1..end];
-            let mean = sample.iter().sum::<f64>() / sample.len() as f64;
-            let mse =
-                sample.iter().map(|v| (v - mean) * (v - mean)).sum::<f64>() / sample.len() as f64;
-            Ok((mean, Some(mse)))
+            let n = sample.len();
+            let mean = sample.iter().sum::<f64>() / n as f64;
+            let ssq: f64 = sample.iter().map(|v| (v - mean) * (v - mean)).sum();
+            Ok(Simple {
+                forecast: mean,
+                is_mse: Some(ssq / n as f64),
+                variance: (n > 1).then(|| ssq / (n - 1) as f64),
+            })
         }
         Family::Drift => {
             if end <= start {
                 return Err("drift needs an estimation sample of at least two observations".into());
             }
-            let slope = (at(end) - at(start)) / (end - start) as f64;
-            let mse = ((start + 1)..=end)
-                .map(|t| (at(t) - at(t - 1) - slope).powi(2))
-                .sum::<f64>()
-                / (end - start) as f64;
-            Ok((at(origin) + horizon as f64 * slope, Some(mse)))
+            let steps = end - start;
+            let slope = (at(end) - at(start)) / steps as f64;
+            let resid = || ((start + 1)..=end).map(|t| at(t) - at(t - 1) - slope);
+            let is_mse = mean_square(resid(), steps);
+            let sigma2 = if steps > 1 {
+                mean_square(resid(), steps - 1)
+            } else {
+                None
+            };
+            Ok(Simple {
+                forecast: at(origin) + h * slope,
+                is_mse,
+                variance: sigma2.map(|s| h * s),
+            })
         }
         Family::SeasonalNaive => {
             let m = season.ok_or("seasonal_naive needs seasonal data")?;
@@ -43,7 +87,14 @@ fn simple_forecast(
                     "seasonal_naive needs {m} observations before the origin"
                 ));
             }
-            Ok((at(origin + horizon - back), None))
+            let terms = (end + 1).saturating_sub(start + m);
+            let sigma2 = mean_square(((start + m)..=end).map(|t| at(t) - at(t - m)), terms);
+            let k = ((horizon - 1) / m + 1) as f64;
+            Ok(Simple {
+                forecast: at(origin + horizon - back),
+                is_mse: None,
+                variance: sigma2.map(|s| k * s),
+            })
         }
         _ => Err("not a simple family".into()),
     }
@@ -61,19 +112,21 @@ pub fn backtest(
         for origin in sched.origins(h) {
             let end = sched.estimation_end(origin);
             let start = crate::plan::sample_start(sched.scheme, end);
-            let (forecast, is_mse) = simple_forecast(
-                family, &target.y, origin, h, start, end, season,
-            )
-            .map_err(|message| EstimationProblem {
-                horizon: h,
-                origin,
-                message,
-            })?;
+            let f = simple_forecast(family, &target.y, origin, h, start, end, season).map_err(
+                |message| EstimationProblem {
+                    horizon: h,
+                    origin,
+                    message,
+                },
+            )?;
             rows.push(ForecastRow {
                 horizon: h,
                 origin,
-                forecast,
-                is_mse,
+                forecast: f.forecast,
+                is_mse: f.is_mse,
+                is_var: matches!(family, Family::Mean).then_some(f.is_mse).flatten(),
+                variance: f.variance,
+                order: None,
             });
         }
     }
@@ -96,11 +149,13 @@ pub fn outlook(
     };
     horizons
         .iter()
-        .map(|&h| OutlookRow {
-            horizon: h,
-            forecast: simple_forecast(family, &target.y, n, h, start, n, season)
-                .ok()
-                .map(|r| r.0),
+        .map(|&h| {
+            let f = simple_forecast(family, &target.y, n, h, start, n, season).ok();
+            OutlookRow {
+                horizon: h,
+                forecast: f.map(|f| f.forecast),
+                variance: f.and_then(|f| f.variance),
+            }
         })
         .collect()
 }
@@ -117,19 +172,28 @@ mod tests {
         let f = |fam: Family, origin, h, start, end, m| {
             simple_forecast(&fam, &Y, origin, h, start, end, m).unwrap()
         };
-        assert_eq!(f(Family::Naive, 4, 2, 1, 4, None).0, 6.0);
-        // mean of 1,3,2,6 = 3; squared deviations 4,0,1,9 → mse 3.5
-        assert_eq!(f(Family::Mean, 4, 1, 1, 4, None), (3.0, Some(3.5)));
+        let naive = f(Family::Naive, 4, 2, 1, 4, None);
+        assert_eq!(naive.forecast, 6.0);
+        // one-step changes 2, −1, 4 → σ̂² = 21/3 = 7; h = 2 → variance 14
+        assert!((naive.variance.unwrap() - 14.0).abs() < 1e-12);
+        // mean of 1,3,2,6 = 3; squared deviations 4,0,1,9 → mse 3.5, σ̂² = 14/3
+        let mean = f(Family::Mean, 4, 1, 1, 4, None);
+        assert_eq!((mean.forecast, mean.is_mse), (3.0, Some(3.5)));
+        assert!((mean.variance.unwrap() - 14.0 / 3.0).abs() < 1e-12);
         // drift from a=1..E=4: slope (6−1)/3; forecast y_4 + 2·5/3
-        let (d, mse) = f(Family::Drift, 4, 2, 1, 4, None);
-        assert!((d - (6.0 + 10.0 / 3.0)).abs() < 1e-12);
+        let drift = f(Family::Drift, 4, 2, 1, 4, None);
+        assert!((drift.forecast - (6.0 + 10.0 / 3.0)).abs() < 1e-12);
         // one-step residuals: (2−5/3), (−1−5/3), (4−5/3)
-        let want = ((1.0f64 / 3.0).powi(2) + (8.0f64 / 3.0).powi(2) + (7.0f64 / 3.0).powi(2)) / 3.0;
-        assert!((mse.unwrap() - want).abs() < 1e-12);
+        let ssq = (1.0f64 / 3.0).powi(2) + (8.0f64 / 3.0).powi(2) + (7.0f64 / 3.0).powi(2);
+        assert!((drift.is_mse.unwrap() - ssq / 3.0).abs() < 1e-12);
+        assert!((drift.variance.unwrap() - 2.0 * ssq / 2.0).abs() < 1e-12);
         // m = 2: h = 1 → y_{T+1−2} = y_{T−1}; h = 3 → y_{T+3−4} = y_{T−1}; h = 2 → y_T
-        assert_eq!(f(Family::SeasonalNaive, 4, 1, 1, 4, Some(2)).0, 2.0);
-        assert_eq!(f(Family::SeasonalNaive, 4, 2, 1, 4, Some(2)).0, 6.0);
-        assert_eq!(f(Family::SeasonalNaive, 4, 3, 1, 4, Some(2)).0, 2.0);
+        assert_eq!(f(Family::SeasonalNaive, 4, 1, 1, 4, Some(2)).forecast, 2.0);
+        assert_eq!(f(Family::SeasonalNaive, 4, 2, 1, 4, Some(2)).forecast, 6.0);
+        let sn = f(Family::SeasonalNaive, 4, 3, 1, 4, Some(2));
+        assert_eq!(sn.forecast, 2.0);
+        // seasonal changes (m = 2): 2−1 = 1, 6−3 = 3 → σ̂² = 5; h = 3 → k = 2 → 10
+        assert!((sn.variance.unwrap() - 10.0).abs() < 1e-12);
     }
 
     #[test]

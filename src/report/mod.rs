@@ -41,7 +41,9 @@ pub fn show(v: Option<f64>) -> String {
 }
 
 fn metric_index(exp: &Experiment, m: Metric) -> Option<usize> {
-    exp.metrics.iter().position(|x| *x == m)
+    exp.metric_columns()
+        .iter()
+        .position(|c| c.metric == m && c.level.is_none())
 }
 
 /// The report-data value both templates render.
@@ -66,7 +68,7 @@ pub fn report_data(
                 let mut group: Vec<&ScoreRow> = scores
                     .iter()
                     .filter(|r| {
-                        r.target == t && r.scheme == s && r.horizon == h && r.period_set == "all"
+                        r.target == t && r.scheme == s && r.horizon == h && r.period_set.is_none()
                     })
                     .collect();
                 group.sort_by_key(|r| r.rank);
@@ -164,7 +166,7 @@ pub fn report_data(
         let mut lead: Vec<&ScoreRow> = scores
             .iter()
             .filter(|r| {
-                r.target == t && r.scheme == 0 && r.horizon == pooled_h && r.period_set == "all"
+                r.target == t && r.scheme == 0 && r.horizon == pooled_h && r.period_set.is_none()
             })
             .collect();
         lead.sort_by_key(|r| r.rank);
@@ -201,7 +203,7 @@ pub fn report_data(
         "caution": CAUTION,
         "benchmark": exp.candidates[bench].id,
         "rank_by": exp.rank_by.name(),
-        "metrics": exp.metrics.iter().map(|m| m.name()).collect::<Vec<_>>(),
+        "metrics": exp.metric_columns().iter().map(|c| exp.metric_column_name(c)).collect::<Vec<_>>(),
         "multi_step": match exp.multi_step { crate::spec::MultiStep::Direct => "direct", crate::spec::MultiStep::Iterated => "iterated" },
         "data": {
             "file": exp.data_path.file_name().map(|f| f.to_string_lossy().to_string()).unwrap_or_default(),

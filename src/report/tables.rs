@@ -36,9 +36,43 @@ fn finish(w: csv::Writer<Vec<u8>>) -> Vec<u8> {
     w.into_inner().unwrap_or_default()
 }
 
+/// `lower_<c>,upper_<c>` per interval level, ascending (SPEC §5).
+fn interval_headers(exp: &Experiment) -> Vec<String> {
+    exp.intervals
+        .iter()
+        .flat_map(|l| {
+            [
+                format!("lower_{}", l.percent),
+                format!("upper_{}", l.percent),
+            ]
+        })
+        .collect()
+}
+
+fn push_intervals(
+    rec: &mut Vec<String>,
+    exp: &Experiment,
+    forecast: Option<f64>,
+    variance: Option<f64>,
+) {
+    for level in &exp.intervals {
+        match (forecast, variance) {
+            (Some(f), Some(v)) if v >= 0.0 => {
+                let (lo, hi) = crate::score::interval(f, v.sqrt(), level.level);
+                rec.push(num(lo));
+                rec.push(num(hi));
+            }
+            _ => {
+                rec.push(String::new());
+                rec.push(String::new());
+            }
+        }
+    }
+}
+
 pub fn forecasts_csv(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8> {
     let mut w = writer();
-    let _ = w.write_record([
+    let mut header: Vec<String> = [
         "target",
         "candidate",
         "scheme",
@@ -49,7 +83,16 @@ pub fn forecasts_csv(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -
         "actual",
         "error",
         "is_mse",
-    ]);
+    ]
+    .map(String::from)
+    .to_vec();
+    header.extend(interval_headers(exp));
+    let with_order = exp.candidates.iter().any(|c| c.family.selects());
+    if with_order {
+        header.push("order".into());
+    }
+    let _ = w.write_record(&header);
+    let mut rec: Vec<String> = Vec::with_capacity(header.len());
     for (cell, out) in cells.iter().zip(outputs) {
         let target = &exp.targets[cell.target];
         let cand = &exp.candidates[cell.candidate].id;
@@ -57,18 +100,24 @@ pub fn forecasts_csv(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -
         for r in &out.forecasts {
             let pos = r.origin + r.horizon;
             let actual = target.y[pos - 1];
-            let _ = w.write_record([
-                target.name.as_str(),
-                cand,
-                scheme,
-                &r.horizon.to_string(),
-                &target.labels[r.origin - 1],
-                &target.labels[pos - 1],
-                &num(r.forecast),
-                &num(actual),
-                &num(actual - r.forecast),
-                &opt(r.is_mse),
+            rec.clear();
+            rec.extend([
+                target.name.clone(),
+                cand.clone(),
+                scheme.clone(),
+                r.horizon.to_string(),
+                target.labels[r.origin - 1].clone(),
+                target.labels[pos - 1].clone(),
+                num(r.forecast),
+                num(actual),
+                num(actual - r.forecast),
+                opt(r.is_mse),
             ]);
+            push_intervals(&mut rec, exp, Some(r.forecast), r.variance);
+            if with_order {
+                rec.push(r.order.map(|o| o.to_string()).unwrap_or_default());
+            }
+            let _ = w.write_record(&rec);
         }
     }
     finish(w)
@@ -76,25 +125,31 @@ pub fn forecasts_csv(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -
 
 pub fn outlook_csv(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8> {
     let mut w = writer();
-    let _ = w.write_record([
+    let mut header: Vec<String> = [
         "target",
         "candidate",
         "horizon",
         "origin",
         "period",
         "forecast",
-    ]);
+    ]
+    .map(String::from)
+    .to_vec();
+    header.extend(interval_headers(exp));
+    let _ = w.write_record(&header);
     for (cell, out) in cells.iter().zip(outputs) {
         let target = &exp.targets[cell.target];
         for r in &out.outlook {
-            let _ = w.write_record([
-                target.name.as_str(),
-                &exp.candidates[cell.candidate].id,
-                &r.horizon.to_string(),
-                &target.labels[target.n - 1],
-                &exp.period_label(target, target.n + r.horizon),
-                &opt(r.forecast),
-            ]);
+            let mut rec = vec![
+                target.name.clone(),
+                exp.candidates[cell.candidate].id.clone(),
+                r.horizon.to_string(),
+                target.labels[target.n - 1].clone(),
+                exp.period_label(target, target.n + r.horizon),
+                opt(r.forecast),
+            ];
+            push_intervals(&mut rec, exp, r.forecast, r.variance);
+            let _ = w.write_record(&rec);
         }
     }
     finish(w)
@@ -110,8 +165,13 @@ pub fn scores_csv(exp: &Experiment, rows: &[ScoreRow]) -> Vec<u8> {
         "period_set",
         "n",
     ];
-    header.extend(exp.metrics.iter().map(|m| m.name()));
-    header.extend(["is_rmse", "gap", "rank"]);
+    let names: Vec<String> = exp
+        .metric_columns()
+        .iter()
+        .map(|c| exp.metric_column_name(c))
+        .collect();
+    header.extend(names.iter().map(String::as_str));
+    header.extend(["is_rmse", "gap", "rank", "parameters", "is_r2"]);
     let _ = w.write_record(&header);
     for r in rows {
         let mut rec: Vec<String> = vec![
@@ -121,12 +181,50 @@ pub fn scores_csv(exp: &Experiment, rows: &[ScoreRow]) -> Vec<u8> {
             r.horizon
                 .map(|h| h.to_string())
                 .unwrap_or_else(|| "all".into()),
-            r.period_set.clone(),
+            r.period_set
+                .map(|p| exp.periods[p].name.clone())
+                .unwrap_or_else(|| "all".into()),
             r.n.to_string(),
         ];
         rec.extend(r.metrics.iter().map(|v| opt(*v)));
-        rec.extend([opt(r.is_rmse), opt(r.gap), r.rank.to_string()]);
+        rec.extend([
+            opt(r.is_rmse),
+            opt(r.gap),
+            r.rank.to_string(),
+            exp.candidates[r.candidate].family.parameters().to_string(),
+            opt(r.is_r2),
+        ]);
         let _ = w.write_record(&rec);
+    }
+    finish(w)
+}
+
+pub fn tests_csv(exp: &Experiment, rows: &[crate::score::comparison::TestRow]) -> Vec<u8> {
+    let mut w = writer();
+    let _ = w.write_record([
+        "target",
+        "scheme",
+        "horizon",
+        "test",
+        "candidate",
+        "versus",
+        "statistic",
+        "p_value",
+        "in_set",
+    ]);
+    let id = |c: Option<usize>| c.map(|c| exp.candidates[c].id.clone()).unwrap_or_default();
+    for r in rows {
+        let _ = w.write_record([
+            exp.targets[r.target].name.clone(),
+            exp.schemes[r.scheme].id.clone(),
+            r.horizon.to_string(),
+            r.test.to_string(),
+            id(r.candidate),
+            id(r.versus),
+            opt(r.statistic),
+            opt(r.p_value),
+            r.in_set.map(|b| b.to_string()).unwrap_or_default(),
+        ]);
     }
     finish(w)
 }

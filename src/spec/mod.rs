@@ -409,81 +409,18 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
     }
 
     // scoring
-    let mut metrics: Vec<Metric> = vec![
-        Metric::Rmse,
-        Metric::Mae,
-        Metric::Bias,
-        Metric::Mape,
-        Metric::Smape,
-        Metric::Mase,
-        Metric::R2Oos,
-    ];
-    let mut rank_by = Metric::Rmse;
-    let mut benchmark_name: Option<(String, Node)> = None;
-    let mut rank_node = None;
-    if let Some(s) = top.get("scoring") {
-        if let Some(view) = ctx.map(
-            s,
-            "scoring",
-            &["metrics", "rank_by", "benchmark"],
-            &["intervals", "tests", "periods"],
-        ) {
-            if let Some(m) = view.get("metrics") {
-                let mut out = Vec::new();
-                for item in ctx.list(m) {
-                    let Some(name) = ctx.string(item, "scoring.metrics") else {
-                        continue;
-                    };
-                    if ["interval_score", "coverage", "crps"].contains(&name.as_str()) {
-                        ctx.error(item, format!("metric '{name}' needs prediction intervals, which are not supported yet by this version of outturn"));
-                        continue;
-                    }
-                    if let Some(metric) = ctx
-                        .choice(item, "metric", &Metric::NAMES)
-                        .and_then(|s| Metric::parse(&s))
-                    {
-                        if out.contains(&metric) {
-                            ctx.error(item, format!("metric '{name}' is listed twice"));
-                        } else {
-                            out.push(metric);
-                        }
-                    }
-                }
-                if out.is_empty() && ctx.diags.is_empty() {
-                    ctx.error(
-                        m,
-                        "scoring.metrics is empty; list at least one metric, e.g. [rmse, mae]",
-                    );
-                }
-                metrics = out;
-            }
-            if let Some(r) = view.get("rank_by") {
-                rank_node = Some(r.clone());
-                if let Some(metric) = ctx
-                    .choice(r, "scoring.rank_by", &Metric::NAMES)
-                    .and_then(|s| Metric::parse(&s))
-                {
-                    rank_by = metric;
-                }
-            } else if !metrics.is_empty() && !metrics.contains(&Metric::Rmse) {
-                rank_by = metrics[0];
-            }
-            if let Some(b) = view.get("benchmark") {
-                benchmark_name = ctx.string(b, "scoring.benchmark").map(|s| (s, b.clone()));
-            }
-        }
-    }
-    if !metrics.contains(&rank_by) {
-        if let Some(r) = &rank_node {
-            ctx.error(
-                r,
-                format!(
-                    "rank_by '{}' must also be listed in scoring.metrics",
-                    rank_by.name()
-                ),
-            );
-        }
-    }
+    let scoring = match top.get("scoring") {
+        Some(node) => decode_scoring(ctx, node, frequency),
+        None => Scoring::default(),
+    };
+    let Scoring {
+        metrics,
+        rank_by,
+        benchmark: benchmark_name,
+        intervals,
+        tests,
+        periods,
+    } = scoring;
     // SPEC §4: the id named, else naive when it is a candidate, else the first candidate.
     let benchmark = match &benchmark_name {
         Some((name, node)) => match candidates.iter().position(|c| c.id == *name) {
@@ -610,6 +547,9 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
         metrics,
         rank_by,
         benchmark,
+        intervals,
+        tests,
+        periods,
         formats,
         seed,
     })
@@ -849,8 +789,8 @@ fn decode_candidate(
     }
     let (allowed, later): (&[&str], &[&str]) = match family.as_str() {
         "ar" => (
-            &["family", "label", "lags", "trend"],
-            &["select", "max_lags"],
+            &["family", "label", "lags", "trend", "select", "max_lags"],
+            &[],
         ),
         "ardl" => (
             &[
@@ -860,8 +800,10 @@ fn decode_candidate(
                 "trend",
                 "predictors",
                 "predictor_lags",
+                "select",
+                "max_lags",
             ],
-            &["select", "max_lags"],
+            &[],
         ),
         _ => (&["family", "label"], &[]),
     };
@@ -909,6 +851,61 @@ fn decode_candidate(
         format!(",{}", trend.name())
     };
     let line = item.line;
+    // Order selection: `select` with `max_lags` replaces `lags` (and `predictor_lags`).
+    let select = match view.get("select") {
+        Some(n) => {
+            let Some(criterion) = ctx
+                .choice(n, &format!("{path}.select"), &Criterion::NAMES)
+                .and_then(|s| Criterion::parse(&s))
+            else {
+                return;
+            };
+            for key in ["lags", "predictor_lags"] {
+                if let Some(k) = view.key_node(key) {
+                    ctx.error(k, format!("{path}: '{key}' cannot be combined with 'select'; the order is chosen up to 'max_lags'"));
+                }
+            }
+            let Some(max) = (match view.get("max_lags") {
+                Some(m) => ctx.integer(m, &format!("{path}.max_lags"), 1),
+                None => {
+                    ctx.error(
+                        item,
+                        format!("{path}: 'select' needs 'max_lags': the largest order to consider"),
+                    );
+                    None
+                }
+            }) else {
+                return;
+            };
+            if max > 1000 {
+                ctx.error(
+                    item,
+                    format!("{path}.max_lags {max} is larger than any data set could support"),
+                );
+                return;
+            }
+            Some((criterion, max as usize))
+        }
+        None => {
+            if let Some(k) = view.key_node("max_lags") {
+                ctx.error(k, format!("{path}: 'max_lags' goes with 'select: aic|bic|hqic'; without select, list the orders under 'lags'"));
+                return;
+            }
+            None
+        }
+    };
+    if let (Some((criterion, max_lags)), "ar") = (select, family.as_str()) {
+        out.push(Candidate {
+            id: format!("{base}({},{max_lags}{trend_suffix})", criterion.name()),
+            family: Family::ArSelect {
+                criterion,
+                max_lags,
+                trend,
+            },
+            line,
+        });
+        return;
+    }
     match family.as_str() {
         "naive" => out.push(Candidate {
             id: base,
@@ -946,6 +943,24 @@ fn decode_candidate(
                 });
             }
         }
+        "ardl" if select.is_some() => {
+            let Some((criterion, max_lags)) = select else {
+                return;
+            };
+            let Some(chosen) = ardl_predictors(ctx, item, &view, &path, predictors) else {
+                return;
+            };
+            out.push(Candidate {
+                id: format!("{base}({},{max_lags}{trend_suffix})", criterion.name()),
+                family: Family::ArdlSelect {
+                    criterion,
+                    max_lags,
+                    predictors: chosen,
+                    trend,
+                },
+                line,
+            });
+        }
         "ardl" => {
             let lags = match view.get("lags") {
                 Some(n) => ctx.orders(n, &format!("{path}.lags"), 0),
@@ -961,55 +976,10 @@ fn decode_candidate(
                     None
                 }
             };
-            let mut chosen = Vec::new();
-            match view.get("predictors") {
-                Some(n) => {
-                    let items = ctx.list(n);
-                    if items.is_empty() {
-                        ctx.error(
-                            n,
-                            format!(
-                                "{path}.predictors is empty; name at least one declared predictor"
-                            ),
-                        );
-                    }
-                    for p in items {
-                        let Some(col) = ctx.string(p, &format!("{path}.predictors")) else {
-                            continue;
-                        };
-                        match predictors.iter().position(|d| d.column == col) {
-                            Some(i) if chosen.contains(&i) => {
-                                ctx.error(p, format!("{path}.predictors names '{col}' twice"))
-                            }
-                            Some(i) => chosen.push(i),
-                            None => {
-                                let names: Vec<&str> =
-                                    predictors.iter().map(|d| d.column.as_str()).collect();
-                                let hint = nearest(&col, &names)
-                                    .map(|n| format!(" did you mean '{n}'?"))
-                                    .unwrap_or_default();
-                                ctx.error(
-                                    p,
-                                    format!("{path}.predictors: '{col}' is not declared under the top-level 'predictors' key.{hint} Declared: {}",
-                                        if names.is_empty() { "none".to_string() } else { names.join(", ") }),
-                                );
-                            }
-                        }
-                    }
-                }
-                None => ctx.error(
-                    item,
-                    format!(
-                        "{path}: ardl needs 'predictors': the declared predictor columns it uses"
-                    ),
-                ),
-            }
-            let (Some(lags), Some(qs)) = (lags, qs) else {
+            let chosen = ardl_predictors(ctx, item, &view, &path, predictors);
+            let (Some(lags), Some(qs), Some(chosen)) = (lags, qs, chosen) else {
                 return;
             };
-            if chosen.is_empty() {
-                return;
-            }
             for &p in &lags {
                 for &q in &qs {
                     out.push(Candidate {
@@ -1027,6 +997,325 @@ fn decode_candidate(
         }
         _ => {}
     }
+}
+
+/// The declared predictors an ardl entry names, as indices; None when
+/// missing, empty or unknown (each reported).
+fn ardl_predictors(
+    ctx: &mut Ctx,
+    item: &Node,
+    view: &decode::MapView,
+    path: &str,
+    predictors: &[Predictor],
+) -> Option<Vec<usize>> {
+    let mut chosen = Vec::new();
+    match view.get("predictors") {
+        Some(n) => {
+            let items = ctx.list(n);
+            if items.is_empty() {
+                ctx.error(
+                    n,
+                    format!("{path}.predictors is empty; name at least one declared predictor"),
+                );
+            }
+            for p in items {
+                let Some(col) = ctx.string(p, &format!("{path}.predictors")) else {
+                    continue;
+                };
+                match predictors.iter().position(|d| d.column == col) {
+                    Some(i) if chosen.contains(&i) => {
+                        ctx.error(p, format!("{path}.predictors names '{col}' twice"))
+                    }
+                    Some(i) => chosen.push(i),
+                    None => {
+                        let names: Vec<&str> =
+                            predictors.iter().map(|d| d.column.as_str()).collect();
+                        let hint = nearest(&col, &names)
+                            .map(|n| format!(" did you mean '{n}'?"))
+                            .unwrap_or_default();
+                        ctx.error(
+                                    p,
+                                    format!("{path}.predictors: '{col}' is not declared under the top-level 'predictors' key.{hint} Declared: {}",
+                                        if names.is_empty() { "none".to_string() } else { names.join(", ") }),
+                                );
+                    }
+                }
+            }
+        }
+        None => ctx.error(
+            item,
+            format!("{path}: ardl needs 'predictors': the declared predictor columns it uses"),
+        ),
+    }
+    if chosen.is_empty() {
+        None
+    } else {
+        Some(chosen)
+    }
+}
+
+struct Scoring {
+    metrics: Vec<Metric>,
+    rank_by: Metric,
+    benchmark: Option<(String, Node)>,
+    intervals: Vec<IntervalLevel>,
+    tests: TestsSpec,
+    periods: Vec<PeriodSet>,
+}
+
+impl Default for Scoring {
+    fn default() -> Self {
+        Scoring {
+            metrics: Metric::ALL[..7].to_vec(),
+            rank_by: Metric::Rmse,
+            benchmark: None,
+            intervals: Vec::new(),
+            tests: TestsSpec::default(),
+            periods: Vec::new(),
+        }
+    }
+}
+
+/// A positive count such as a number of bootstrap resamples.
+fn count(ctx: &mut Ctx, node: &Node, what: &str, min: i64, max: i64) -> Option<usize> {
+    let v = ctx.integer(node, what, min)?;
+    if v > max {
+        ctx.error(node, format!("{what} must be at most {max}, found {v}"));
+        return None;
+    }
+    Some(v as usize)
+}
+
+/// A probability strictly between 0 and 1.
+fn share(ctx: &mut Ctx, node: &Node, what: &str) -> Option<f64> {
+    let text = ctx.string(node, what)?;
+    match text.trim().parse::<f64>() {
+        Ok(v) if v > 0.0 && v < 1.0 => Some(v),
+        _ => {
+            ctx.error(
+                node,
+                format!("{what} must be a number strictly between 0 and 1, found '{text}'"),
+            );
+            None
+        }
+    }
+}
+
+/// `80` for 0.8, `97.5` for 0.975: the level in percent without trailing zeros.
+fn percent_text(level: f64) -> String {
+    let p = format!("{:.6}", level * 100.0);
+    p.trim_end_matches('0').trim_end_matches('.').to_string()
+}
+
+fn decode_scoring(ctx: &mut Ctx, node: &Node, frequency: Option<Frequency>) -> Scoring {
+    let mut out = Scoring::default();
+    let Some(view) = ctx.map(
+        node,
+        "scoring",
+        &[
+            "metrics",
+            "rank_by",
+            "benchmark",
+            "intervals",
+            "tests",
+            "periods",
+        ],
+        &[],
+    ) else {
+        return out;
+    };
+    if let Some(i) = view.get("intervals") {
+        for item in ctx.list(i) {
+            if let Some(level) = share(ctx, item, "scoring.intervals") {
+                let percent = percent_text(level);
+                if out.intervals.iter().any(|l| l.percent == percent) {
+                    ctx.error(item, format!("interval level {level} is listed twice"));
+                } else {
+                    out.intervals.push(IntervalLevel { level, percent });
+                }
+            }
+        }
+        out.intervals.sort_by(|a, b| a.level.total_cmp(&b.level));
+    }
+    if let Some(m) = view.get("metrics") {
+        let mut metrics = Vec::new();
+        for item in ctx.list(m) {
+            let Some(name) = ctx.string(item, "scoring.metrics") else {
+                continue;
+            };
+            if let Some(metric) = ctx
+                .choice(item, "metric", &Metric::NAMES)
+                .and_then(|s| Metric::parse(&s))
+            {
+                if metrics.contains(&metric) {
+                    ctx.error(item, format!("metric '{name}' is listed twice"));
+                } else if metric.per_level() && out.intervals.is_empty() {
+                    ctx.error(item, format!("metric '{name}' is scored per interval level; list the levels under scoring.intervals, e.g. [0.8, 0.95]"));
+                } else {
+                    metrics.push(metric);
+                }
+            }
+        }
+        if metrics.is_empty() && !matches!(&m.kind, Kind::Seq(v) if !v.is_empty()) {
+            ctx.error(
+                m,
+                "scoring.metrics is empty; list at least one metric, e.g. [rmse, mae]",
+            );
+        }
+        out.metrics = metrics;
+    }
+    match view.get("rank_by") {
+        Some(r) => {
+            if let Some(metric) = ctx
+                .choice(r, "scoring.rank_by", &Metric::NAMES)
+                .and_then(|s| Metric::parse(&s))
+            {
+                if metric.per_level() {
+                    ctx.error(r, format!("rank_by '{}' has one value per interval level; rank by rmse, mae, crps or another single-valued metric", metric.name()));
+                } else if !out.metrics.contains(&metric) {
+                    ctx.error(
+                        r,
+                        format!(
+                            "rank_by '{}' must also be listed in scoring.metrics",
+                            metric.name()
+                        ),
+                    );
+                }
+                out.rank_by = metric;
+            }
+        }
+        None => {
+            if !out.metrics.contains(&Metric::Rmse) {
+                if let Some(m) = out.metrics.iter().find(|m| !m.per_level()) {
+                    out.rank_by = *m;
+                }
+            }
+        }
+    }
+    if let Some(b) = view.get("benchmark") {
+        out.benchmark = ctx.string(b, "scoring.benchmark").map(|s| (s, b.clone()));
+    }
+    if let Some(t) = view.get("tests") {
+        if let Some(tv) = ctx.map(
+            t,
+            "scoring.tests",
+            &[
+                "diebold_mariano",
+                "clark_west",
+                "confidence_set",
+                "snooping",
+            ],
+            &[],
+        ) {
+            if let Some(n) = tv.get("diebold_mariano") {
+                out.tests.diebold_mariano = ctx
+                    .boolean(n, "scoring.tests.diebold_mariano")
+                    .unwrap_or(false);
+            }
+            if let Some(n) = tv.get("clark_west") {
+                // true: pairs with the benchmark; all_pairs: every nested pair.
+                match ctx.string(n, "scoring.tests.clark_west").as_deref() {
+                    Some("true") => out.tests.clark_west = true,
+                    Some("false") => {}
+                    Some("all_pairs") => {
+                        out.tests.clark_west = true;
+                        out.tests.clark_west_all_pairs = true;
+                    }
+                    Some(other) => ctx.error(n, format!("scoring.tests.clark_west must be true, false or all_pairs, found '{other}'")),
+                    None => {}
+                }
+            }
+            if let Some(n) = tv.get("confidence_set") {
+                if let Some(cv) = ctx.map(
+                    n,
+                    "scoring.tests.confidence_set",
+                    &["alpha", "resamples"],
+                    &[],
+                ) {
+                    let alpha = match cv.get("alpha") {
+                        Some(a) => share(ctx, a, "scoring.tests.confidence_set.alpha"),
+                        None => Some(0.10),
+                    };
+                    let resamples = match cv.get("resamples") {
+                        Some(r) => count(
+                            ctx,
+                            r,
+                            "scoring.tests.confidence_set.resamples",
+                            1,
+                            1_000_000,
+                        ),
+                        None => Some(2000),
+                    };
+                    if let (Some(alpha), Some(resamples)) = (alpha, resamples) {
+                        out.tests.confidence_set = Some(ConfidenceSetSpec { alpha, resamples });
+                    }
+                }
+            }
+            if let Some(n) = tv.get("snooping") {
+                if let Some(sv) = ctx.map(n, "scoring.tests.snooping", &["resamples"], &[]) {
+                    let resamples = match sv.get("resamples") {
+                        Some(r) => count(ctx, r, "scoring.tests.snooping.resamples", 1, 1_000_000),
+                        None => Some(2000),
+                    };
+                    if let Some(resamples) = resamples {
+                        out.tests.snooping = Some(SnoopingSpec { resamples });
+                    }
+                }
+            }
+        }
+    }
+    if let Some(p) = view.get("periods") {
+        match &p.kind {
+            Kind::Map(entries) => {
+                for (key, value) in entries {
+                    let Some(name) = ctx.string(key, "scoring.periods name") else {
+                        continue;
+                    };
+                    if name == "all" || name.is_empty() || !name.bytes().all(|b| b.is_ascii_alphanumeric() || b == b'_' || b == b'-') {
+                        ctx.error(key, format!("scoring.periods: '{name}' cannot name a period set (use letters, digits, '_' or '-', and not 'all')"));
+                        continue;
+                    }
+                    if out.periods.iter().any(|p| p.name == name) {
+                        ctx.error(key, format!("scoring.periods: '{name}' is given twice"));
+                        continue;
+                    }
+                    let bounds: Vec<&Node> = match &value.kind {
+                        Kind::Seq(items) => items.iter().collect(),
+                        _ => Vec::new(),
+                    };
+                    if bounds.len() != 2 {
+                        ctx.error(value, format!("scoring.periods.{name} must be [first, last] target periods, e.g. [1996Q1, 2003Q4]"));
+                        continue;
+                    }
+                    let (Some(from), Some(to)) = (
+                        ctx.string(bounds[0], &format!("scoring.periods.{name}")),
+                        ctx.string(bounds[1], &format!("scoring.periods.{name}")),
+                    ) else {
+                        continue;
+                    };
+                    let Some(freq) = frequency else { continue };
+                    let parse = |ctx: &mut Ctx, text: &str, node: &Node| match period::parse_label(freq, text) {
+                        Ok((o, _)) => Some(o),
+                        Err(e) => {
+                            ctx.error(node, format!("scoring.periods.{name}: {e}"));
+                            None
+                        }
+                    };
+                    let (Some(from_ordinal), Some(to_ordinal)) = (parse(ctx, &from, bounds[0]), parse(ctx, &to, bounds[1])) else {
+                        continue;
+                    };
+                    if to_ordinal < from_ordinal {
+                        ctx.error(value, format!("scoring.periods.{name}: '{to}' comes before '{from}'"));
+                        continue;
+                    }
+                    out.periods.push(PeriodSet { name, from, to, from_ordinal, to_ordinal });
+                }
+            }
+            _ if p.is_null() => {}
+            _ => ctx.error(p, "scoring.periods must map names to [first, last] periods, e.g. calm: [1996Q1, 2003Q4]"),
+        }
+    }
+    out
 }
 
 pub mod resolve;

@@ -80,10 +80,13 @@ pub enum Metric {
     Smape,
     Mase,
     R2Oos,
+    Coverage,
+    IntervalScore,
+    Crps,
 }
 
 impl Metric {
-    pub const ALL: [Metric; 7] = [
+    pub const ALL: [Metric; 10] = [
         Metric::Rmse,
         Metric::Mae,
         Metric::Bias,
@@ -91,8 +94,22 @@ impl Metric {
         Metric::Smape,
         Metric::Mase,
         Metric::R2Oos,
+        Metric::Coverage,
+        Metric::IntervalScore,
+        Metric::Crps,
     ];
-    pub const NAMES: [&'static str; 7] = ["rmse", "mae", "bias", "mape", "smape", "mase", "r2_oos"];
+    pub const NAMES: [&'static str; 10] = [
+        "rmse",
+        "mae",
+        "bias",
+        "mape",
+        "smape",
+        "mase",
+        "r2_oos",
+        "coverage",
+        "interval_score",
+        "crps",
+    ];
     pub fn parse(s: &str) -> Option<Metric> {
         Self::NAMES
             .iter()
@@ -105,6 +122,98 @@ impl Metric {
     /// Orientation for ranking: rank 1 is the best value.
     pub fn higher_is_better(self) -> bool {
         matches!(self, Metric::R2Oos)
+    }
+    /// Metrics with one column per interval level.
+    pub fn per_level(self) -> bool {
+        matches!(self, Metric::Coverage | Metric::IntervalScore)
+    }
+    /// Metrics that need forecast variances.
+    pub fn needs_variance(self) -> bool {
+        matches!(
+            self,
+            Metric::Coverage | Metric::IntervalScore | Metric::Crps
+        )
+    }
+}
+
+/// One column of the scores table's metric block: a metric, and for
+/// per-level metrics the interval level's index in `Experiment::intervals`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct MetricColumn {
+    pub metric: Metric,
+    pub level: Option<usize>,
+}
+
+/// An interval level c (0 < c < 1) and its column suffix in percent.
+#[derive(Debug, Clone, PartialEq)]
+pub struct IntervalLevel {
+    pub level: f64,
+    /// `80` for 0.8, `97.5` for 0.975.
+    pub percent: String,
+}
+
+/// Forecast-comparison tests requested under `scoring.tests` (SPEC §4).
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct TestsSpec {
+    pub diebold_mariano: bool,
+    /// Clark-West for candidates in which the benchmark is nested.
+    pub clark_west: bool,
+    /// Clark-West for every nested pair, not only those with the benchmark.
+    pub clark_west_all_pairs: bool,
+    pub confidence_set: Option<ConfidenceSetSpec>,
+    pub snooping: Option<SnoopingSpec>,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct ConfidenceSetSpec {
+    pub alpha: f64,
+    pub resamples: usize,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct SnoopingSpec {
+    pub resamples: usize,
+}
+
+/// A named sub-period for scores (`scoring.periods`): target periods from..=to.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PeriodSet {
+    pub name: String,
+    pub from: String,
+    pub to: String,
+    pub from_ordinal: i64,
+    pub to_ordinal: i64,
+}
+
+/// Information criterion for order selection.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Criterion {
+    Aic,
+    Bic,
+    Hqic,
+}
+
+impl Criterion {
+    pub const NAMES: [&'static str; 3] = ["aic", "bic", "hqic"];
+    pub fn parse(s: &str) -> Option<Criterion> {
+        Some(match s {
+            "aic" => Criterion::Aic,
+            "bic" => Criterion::Bic,
+            "hqic" => Criterion::Hqic,
+            _ => return None,
+        })
+    }
+    pub fn name(self) -> &'static str {
+        Self::NAMES[self as usize]
+    }
+    /// Penalty per parameter for a sample of n rows: 2, ln n, 2 ln ln n.
+    pub fn penalty(self, n: usize) -> f64 {
+        let n = n as f64;
+        match self {
+            Criterion::Aic => 2.0,
+            Criterion::Bic => n.ln(),
+            Criterion::Hqic => 2.0 * n.ln().ln(),
+        }
     }
 }
 
@@ -169,6 +278,19 @@ pub enum Family {
         predictors: Vec<usize>,
         trend: Trend,
     },
+    /// ar with its order p ∈ 1..=max_lags chosen inside every training window.
+    ArSelect {
+        criterion: Criterion,
+        max_lags: usize,
+        trend: Trend,
+    },
+    /// ardl with p ∈ 0..=max_lags and q ∈ 1..=max_lags chosen inside every training window.
+    ArdlSelect {
+        criterion: Criterion,
+        max_lags: usize,
+        predictors: Vec<usize>,
+        trend: Trend,
+    },
 }
 
 impl Family {
@@ -182,8 +304,22 @@ impl Family {
                 predictors,
                 trend,
             } => Some(trend.terms() + lags + predictor_lags * predictors.len()),
+            Family::ArSelect {
+                max_lags, trend, ..
+            } => Some(trend.terms() + max_lags),
+            Family::ArdlSelect {
+                max_lags,
+                predictors,
+                trend,
+                ..
+            } => Some(trend.terms() + max_lags * (1 + predictors.len())),
             _ => None,
         }
+    }
+
+    /// Whether the family's order is chosen inside each training window.
+    pub fn selects(&self) -> bool {
+        matches!(self, Family::ArSelect { .. } | Family::ArdlSelect { .. })
     }
 
     /// Parameters counted for the complexity curve: least-squares
@@ -202,8 +338,8 @@ impl Family {
             Family::Mean => "mean",
             Family::Drift => "drift",
             Family::SeasonalNaive => "seasonal_naive",
-            Family::Ar { .. } => "ar",
-            Family::Ardl { .. } => "ardl",
+            Family::Ar { .. } | Family::ArSelect { .. } => "ar",
+            Family::Ardl { .. } | Family::ArdlSelect { .. } => "ardl",
         }
     }
 }
@@ -262,6 +398,11 @@ pub struct Experiment {
     pub horizons: Vec<usize>,
     pub multi_step: MultiStep,
     pub metrics: Vec<Metric>,
+    /// Interval levels of `scoring.intervals`, ascending.
+    pub intervals: Vec<IntervalLevel>,
+    pub tests: TestsSpec,
+    /// Named sub-periods of `scoring.periods`, in file order.
+    pub periods: Vec<PeriodSet>,
     pub rank_by: Metric,
     /// Index into `candidates`.
     pub benchmark: usize,
@@ -270,6 +411,35 @@ pub struct Experiment {
 }
 
 impl Experiment {
+    /// The metric columns of the scores table, in order: each metric, and
+    /// per-level metrics once per interval level.
+    pub fn metric_columns(&self) -> Vec<MetricColumn> {
+        let mut out = Vec::new();
+        for &metric in &self.metrics {
+            if metric.per_level() {
+                for level in 0..self.intervals.len() {
+                    out.push(MetricColumn {
+                        metric,
+                        level: Some(level),
+                    });
+                }
+            } else {
+                out.push(MetricColumn {
+                    metric,
+                    level: None,
+                });
+            }
+        }
+        out
+    }
+
+    pub fn metric_column_name(&self, col: &MetricColumn) -> String {
+        match col.level {
+            Some(l) => format!("{}_{}", col.metric.name(), self.intervals[l].percent),
+            None => col.metric.name().to_string(),
+        }
+    }
+
     pub fn period_label(&self, target: &TargetData, position: usize) -> String {
         if position >= 1 && position <= target.labels.len() {
             return target.labels[position - 1].clone();
@@ -291,7 +461,7 @@ impl Experiment {
     /// Whether any predictor of a candidate is known ahead (its forecasts are conditional).
     pub fn is_conditional(&self, candidate: &Candidate) -> bool {
         match &candidate.family {
-            Family::Ardl { predictors, .. } => {
+            Family::Ardl { predictors, .. } | Family::ArdlSelect { predictors, .. } => {
                 predictors.iter().any(|&p| self.predictors[p].known_ahead)
             }
             _ => false,

@@ -1,0 +1,299 @@
+//! The forecast-comparison tests of `scoring.tests` (SPEC §4) per target ×
+//! scheme × horizon — Diebold-Mariano against the benchmark, Clark-West for
+//! nested pairs, the model confidence set and the data-snooping test over
+//! the whole grid — plus the in-sample/out-of-sample rank correlation.
+//! Tests are never run on the pooled `all` horizon. Bootstrap draws are
+//! seeded from `seed` and the group's name, never from thread scheduling.
+
+use super::compare;
+use super::{group_errors, in_sample_rmse, rmse, Errors};
+use crate::spec::{sha256_hex, Candidate, Experiment, Family, Trend};
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct TestRow {
+    pub target: usize,
+    pub scheme: usize,
+    pub horizon: usize,
+    pub test: &'static str,
+    pub candidate: Option<usize>,
+    pub versus: Option<usize>,
+    pub statistic: Option<f64>,
+    pub p_value: Option<f64>,
+    /// Model confidence set membership at `alpha`.
+    pub in_set: Option<bool>,
+}
+
+/// Whether `small` is nested in `big` (SPEC §4's rule for clark_west):
+/// naive in ar and ardl with p ≥ 1; mean in ar and ardl with an intercept;
+/// ar(p) in ar(p′) and ardl(p′,q) for p ≤ p′ with the same or a richer
+/// trend; ardl(p,q) in ardl(p′,q′) for p ≤ p′, q ≤ q′ with the same
+/// predictors (and the same or a richer trend). Candidates with `select`
+/// are nested in nothing.
+pub fn nested(small: &Candidate, big: &Candidate) -> bool {
+    if small.id == big.id {
+        return false;
+    }
+    let (big_p, big_trend) = match &big.family {
+        Family::Ar { lags, trend } => (*lags, *trend),
+        Family::Ardl { lags, trend, .. } => (*lags, *trend),
+        _ => return false,
+    };
+    match &small.family {
+        Family::Naive => big_p >= 1,
+        Family::Mean => big_trend != Trend::None,
+        Family::Ar { lags, trend } => *lags <= big_p && *trend <= big_trend,
+        Family::Ardl {
+            lags,
+            predictor_lags,
+            predictors,
+            trend,
+        } => match &big.family {
+            Family::Ardl {
+                predictor_lags: big_q,
+                predictors: big_preds,
+                ..
+            } => {
+                *lags <= big_p
+                    && predictor_lags <= big_q
+                    && predictors == big_preds
+                    && *trend <= big_trend
+            }
+            _ => false,
+        },
+        _ => false,
+    }
+}
+
+/// A stable seed for one bootstrap: the experiment's seed mixed with the
+/// group's name, so draws do not depend on order or threads.
+fn group_seed(exp: &Experiment, key: &str) -> u64 {
+    let hex = sha256_hex(key.as_bytes());
+    let h = u64::from_str_radix(&hex[..16], 16).unwrap_or(0);
+    exp.seed ^ h
+}
+
+fn squared(e: &Errors) -> Vec<f64> {
+    (0..e.len()).map(|i| e.error(i).powi(2)).collect()
+}
+
+fn errors_of(e: &Errors) -> Vec<f64> {
+    (0..e.len()).map(|i| e.error(i)).collect()
+}
+
+pub fn run(exp: &Experiment, errors: &[Vec<Errors>]) -> Vec<TestRow> {
+    let mut rows = Vec::new();
+    let n_c = exp.candidates.len();
+    let bench = exp.benchmark;
+    for (t, target) in exp.targets.iter().enumerate() {
+        for (s, scheme) in exp.schemes.iter().enumerate() {
+            for (hi, &h) in exp.horizons.iter().enumerate() {
+                let errs: Vec<Errors> = (0..n_c)
+                    .map(|c| group_errors(exp, errors, t, c, s, Some(hi), None))
+                    .collect();
+                let row = |test, candidate, versus, r: Option<compare::TestResult>| TestRow {
+                    target: t,
+                    scheme: s,
+                    horizon: h,
+                    test,
+                    candidate,
+                    versus,
+                    statistic: r.map(|r| r.statistic),
+                    p_value: r.map(|r| r.p_value),
+                    in_set: None,
+                };
+                if exp.tests.diebold_mariano {
+                    let ev = errors_of(&errs[bench]);
+                    for c in (0..n_c).filter(|&c| c != bench) {
+                        let r = compare::diebold_mariano(&errors_of(&errs[c]), &ev, h);
+                        rows.push(row("diebold_mariano", Some(c), Some(bench), r));
+                    }
+                }
+                if exp.tests.clark_west {
+                    for big in 0..n_c {
+                        for small in 0..n_c {
+                            let with_bench = small == bench;
+                            if !(with_bench || exp.tests.clark_west_all_pairs) {
+                                continue;
+                            }
+                            if !nested(&exp.candidates[small], &exp.candidates[big]) {
+                                continue;
+                            }
+                            let r = compare::clark_west(
+                                &errors_of(&errs[big]),
+                                &errors_of(&errs[small]),
+                                &errs[big].forecast,
+                                &errs[small].forecast,
+                                h,
+                            );
+                            rows.push(row("clark_west", Some(big), Some(small), r));
+                        }
+                    }
+                }
+                let group = format!("{}/{}/{}", target.name, scheme.id, h);
+                if let Some(cs) = &exp.tests.confidence_set {
+                    let losses: Vec<Vec<f64>> = errs.iter().map(squared).collect();
+                    let seed = group_seed(exp, &format!("{group}/confidence_set"));
+                    let result =
+                        compare::model_confidence_set(&losses, cs.alpha, cs.resamples, seed);
+                    for c in 0..n_c {
+                        rows.push(TestRow {
+                            target: t,
+                            scheme: s,
+                            horizon: h,
+                            test: "confidence_set",
+                            candidate: Some(c),
+                            versus: None,
+                            statistic: None,
+                            p_value: result.as_ref().map(|r| r.p_values[c]),
+                            in_set: result.as_ref().map(|r| r.included[c]),
+                        });
+                    }
+                }
+                if let Some(sn) = &exp.tests.snooping {
+                    // Hansen (2005): does the best of the searched grid beat the benchmark?
+                    let others: Vec<usize> = (0..n_c).filter(|&c| c != bench).collect();
+                    let losses: Vec<Vec<f64>> = others.iter().map(|&c| squared(&errs[c])).collect();
+                    let best = others.iter().copied().min_by(|&a, &b| {
+                        let ra = rmse(&errs[a]).unwrap_or(f64::INFINITY);
+                        let rb = rmse(&errs[b]).unwrap_or(f64::INFINITY);
+                        ra.total_cmp(&rb)
+                            .then_with(|| exp.candidates[a].id.cmp(&exp.candidates[b].id))
+                    });
+                    let seed = group_seed(exp, &format!("{group}/snooping"));
+                    let result = compare::superior_predictive_ability(
+                        &squared(&errs[bench]),
+                        &losses,
+                        sn.resamples,
+                        seed,
+                        None,
+                    );
+                    rows.push(TestRow {
+                        target: t,
+                        scheme: s,
+                        horizon: h,
+                        test: "snooping",
+                        candidate: best,
+                        versus: Some(bench),
+                        statistic: result.as_ref().map(|r| r.statistic),
+                        p_value: result.as_ref().map(|r| r.p_consistent),
+                        in_set: None,
+                    });
+                }
+                // Overfitting: Spearman correlation of in-sample and out-of-sample rankings.
+                let pairs: Vec<(f64, f64)> = errs
+                    .iter()
+                    .filter_map(|e| Some((in_sample_rmse(e)?, rmse(e)?)))
+                    .collect();
+                if pairs.len() >= 3 {
+                    let a: Vec<f64> = pairs.iter().map(|p| p.0).collect();
+                    let b: Vec<f64> = pairs.iter().map(|p| p.1).collect();
+                    rows.push(TestRow {
+                        target: t,
+                        scheme: s,
+                        horizon: h,
+                        test: "rank_correlation",
+                        candidate: None,
+                        versus: None,
+                        statistic: compare::spearman(&a, &b),
+                        p_value: None,
+                        in_set: None,
+                    });
+                }
+            }
+        }
+    }
+    rows
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn cand(id: &str, family: Family) -> Candidate {
+        Candidate {
+            id: id.into(),
+            family,
+            line: 1,
+        }
+    }
+
+    #[test]
+    fn nesting_follows_the_spec_rule() {
+        // Cases read off SPEC §4's nesting rule.
+        let naive = cand("naive", Family::Naive);
+        let mean = cand("mean", Family::Mean);
+        let ar1 = cand(
+            "ar(1)",
+            Family::Ar {
+                lags: 1,
+                trend: Trend::Constant,
+            },
+        );
+        let ar2 = cand(
+            "ar(2)",
+            Family::Ar {
+                lags: 2,
+                trend: Trend::Constant,
+            },
+        );
+        let ar2n = cand(
+            "ar(2,none)",
+            Family::Ar {
+                lags: 2,
+                trend: Trend::None,
+            },
+        );
+        let ardl21 = cand(
+            "ardl(2,1)",
+            Family::Ardl {
+                lags: 2,
+                predictor_lags: 1,
+                predictors: vec![0],
+                trend: Trend::Constant,
+            },
+        );
+        let ardl01 = cand(
+            "ardl(0,1)",
+            Family::Ardl {
+                lags: 0,
+                predictor_lags: 1,
+                predictors: vec![0],
+                trend: Trend::Constant,
+            },
+        );
+        let ardl22 = cand(
+            "ardl(2,2)",
+            Family::Ardl {
+                lags: 2,
+                predictor_lags: 2,
+                predictors: vec![0],
+                trend: Trend::Constant,
+            },
+        );
+        let other = cand(
+            "ardl_x(2,2)",
+            Family::Ardl {
+                lags: 2,
+                predictor_lags: 2,
+                predictors: vec![1],
+                trend: Trend::Constant,
+            },
+        );
+        let sel = cand(
+            "ar(bic,8)",
+            Family::ArSelect {
+                criterion: crate::spec::Criterion::Bic,
+                max_lags: 8,
+                trend: Trend::Constant,
+            },
+        );
+        assert!(nested(&naive, &ar1) && nested(&naive, &ardl21));
+        assert!(!nested(&naive, &ardl01));
+        assert!(nested(&mean, &ar1) && !nested(&mean, &ar2n));
+        assert!(nested(&ar1, &ar2) && !nested(&ar2, &ar1));
+        assert!(nested(&ar2n, &ar2) && !nested(&ar2, &ar2n));
+        assert!(nested(&ar2, &ardl21) && nested(&ardl21, &ardl22));
+        assert!(!nested(&ardl21, &other));
+        assert!(!nested(&ar1, &sel) && !nested(&naive, &sel));
+    }
+}

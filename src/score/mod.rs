@@ -1,0 +1,491 @@
+//! score: pure functions from forecast rows to accuracy tables (SPEC §4–§5):
+//! the metrics, the pooled `all` horizon, ranks, and the in-sample versus
+//! out-of-sample comparison.
+
+pub mod compare;
+pub mod comparison;
+
+use crate::backtest::CellOutput;
+use crate::plan::Cell;
+use crate::spec::{Experiment, Metric, MetricColumn, Scheme};
+
+/// Forecast errors of one candidate on one target × scheme × horizon.
+#[derive(Debug, Clone, Default)]
+pub struct Errors {
+    pub actual: Vec<f64>,
+    pub forecast: Vec<f64>,
+    pub is_mse: Vec<Option<f64>>,
+    pub is_var: Vec<Option<f64>>,
+    /// Forecast variances σ̂_h², where the family provides them.
+    pub variance: Vec<Option<f64>>,
+    /// Ordinal of the forecast's target period, for sub-period scores.
+    pub period: Vec<i64>,
+}
+
+impl Errors {
+    pub fn error(&self, i: usize) -> f64 {
+        self.actual[i] - self.forecast[i]
+    }
+    pub fn len(&self) -> usize {
+        self.actual.len()
+    }
+    pub fn is_empty(&self) -> bool {
+        self.actual.is_empty()
+    }
+    pub fn extend(&mut self, other: &Errors) {
+        self.actual.extend_from_slice(&other.actual);
+        self.forecast.extend_from_slice(&other.forecast);
+        self.is_mse.extend_from_slice(&other.is_mse);
+        self.is_var.extend_from_slice(&other.is_var);
+        self.variance.extend_from_slice(&other.variance);
+        self.period.extend_from_slice(&other.period);
+    }
+
+    /// The forecasts whose target period lies in from..=to.
+    pub fn within(&self, from: i64, to: i64) -> Errors {
+        let mut out = Errors::default();
+        for i in 0..self.len() {
+            if (from..=to).contains(&self.period[i]) {
+                out.actual.push(self.actual[i]);
+                out.forecast.push(self.forecast[i]);
+                out.is_mse.push(self.is_mse[i]);
+                out.is_var.push(self.is_var[i]);
+                out.variance.push(self.variance[i]);
+                out.period.push(self.period[i]);
+            }
+        }
+        out
+    }
+
+    /// Forecast standard deviations, if every forecast has one.
+    fn sds(&self) -> Option<Vec<f64>> {
+        self.variance
+            .iter()
+            .map(|v| v.filter(|v| *v >= 0.0).map(f64::sqrt))
+            .collect()
+    }
+}
+
+/// Standard normal quantile.
+pub fn normal_quantile(p: f64) -> f64 {
+    use statrs::distribution::{ContinuousCDF, Normal};
+    Normal::standard().inverse_cdf(p)
+}
+
+/// The Gaussian interval at level c: forecast ± z_{(1+c)/2}·σ̂_h (SPEC §4).
+pub fn interval(forecast: f64, sd: f64, level: f64) -> (f64, f64) {
+    let z = normal_quantile((1.0 + level) / 2.0);
+    (forecast - z * sd, forecast + z * sd)
+}
+
+/// Share of outturns inside the level-c interval (ends included).
+pub fn coverage(e: &Errors, level: f64) -> Option<f64> {
+    let sds = e.sds()?;
+    let inside = (0..e.len())
+        .filter(|&i| {
+            let (lo, hi) = interval(e.forecast[i], sds[i], level);
+            (lo..=hi).contains(&e.actual[i])
+        })
+        .count();
+    mean(std::iter::once(inside as f64), e.len().max(1)).filter(|_| !e.is_empty())
+}
+
+/// Mean interval score of the central level-c interval (Gneiting & Raftery
+/// 2007, eq. 43): (u − l) + (2/α)(l − y)·1{y < l} + (2/α)(y − u)·1{y > u}, α = 1 − c.
+pub fn interval_score(e: &Errors, level: f64) -> Option<f64> {
+    let sds = e.sds()?;
+    let alpha = 1.0 - level;
+    mean(
+        (0..e.len()).map(|i| {
+            let (lo, hi) = interval(e.forecast[i], sds[i], level);
+            let y = e.actual[i];
+            (hi - lo) + (2.0 / alpha) * (lo - y).max(0.0) + (2.0 / alpha) * (y - hi).max(0.0)
+        }),
+        e.len(),
+    )
+}
+
+/// CRPS of a Gaussian forecast N(μ, σ²) at outturn y, in closed form
+/// (Gneiting & Raftery 2007, eq. 21): σ[z(2Φ(z) − 1) + 2φ(z) − 1/√π], z = (y − μ)/σ.
+pub fn crps_gaussian(mu: f64, sd: f64, y: f64) -> f64 {
+    use statrs::distribution::{Continuous, ContinuousCDF, Normal};
+    if sd <= 0.0 {
+        return (y - mu).abs();
+    }
+    let n = Normal::standard();
+    let z = (y - mu) / sd;
+    sd * (z * (2.0 * n.cdf(z) - 1.0) + 2.0 * n.pdf(z) - 1.0 / std::f64::consts::PI.sqrt())
+}
+
+/// Mean Gaussian CRPS.
+pub fn crps(e: &Errors) -> Option<f64> {
+    let sds = e.sds()?;
+    mean(
+        (0..e.len()).map(|i| crps_gaussian(e.forecast[i], sds[i], e.actual[i])),
+        e.len(),
+    )
+}
+
+/// rmse = sqrt(mean e²)
+pub fn rmse(e: &Errors) -> Option<f64> {
+    mean((0..e.len()).map(|i| e.error(i).powi(2)), e.len()).map(f64::sqrt)
+}
+/// mae = mean |e|
+pub fn mae(e: &Errors) -> Option<f64> {
+    mean((0..e.len()).map(|i| e.error(i).abs()), e.len())
+}
+/// bias = mean e (positive: forecasts too low on average)
+pub fn bias(e: &Errors) -> Option<f64> {
+    mean((0..e.len()).map(|i| e.error(i)), e.len())
+}
+/// mape = 100·mean |e/actual|; undefined when an actual is 0.
+pub fn mape(e: &Errors) -> Option<f64> {
+    if e.actual.contains(&0.0) {
+        return None;
+    }
+    mean(
+        (0..e.len()).map(|i| (e.error(i) / e.actual[i]).abs()),
+        e.len(),
+    )
+    .map(|v| 100.0 * v)
+}
+/// smape = 200·mean |e|/(|actual|+|forecast|); a 0/0 term counts as 0.
+pub fn smape(e: &Errors) -> Option<f64> {
+    mean(
+        (0..e.len()).map(|i| {
+            let den = e.actual[i].abs() + e.forecast[i].abs();
+            if den == 0.0 {
+                0.0
+            } else {
+                e.error(i).abs() / den
+            }
+        }),
+        e.len(),
+    )
+    .map(|v| 200.0 * v)
+}
+/// mase (Hyndman & Koehler 2006) = mae / scale.
+pub fn mase(e: &Errors, scale: Option<f64>) -> Option<f64> {
+    match (mae(e), scale) {
+        (Some(m), Some(s)) if s > 0.0 => Some(m / s),
+        _ => None,
+    }
+}
+/// r2_oos (Campbell & Thompson 2008) = 1 − Σe²/Σe_benchmark².
+pub fn r2_oos(e: &Errors, benchmark: &Errors) -> Option<f64> {
+    if e.len() != benchmark.len() || e.is_empty() {
+        return None;
+    }
+    let num: f64 = (0..e.len()).map(|i| e.error(i).powi(2)).sum();
+    let den: f64 = (0..benchmark.len())
+        .map(|i| benchmark.error(i).powi(2))
+        .sum();
+    if den > 0.0 {
+        Some(1.0 - num / den)
+    } else {
+        None
+    }
+}
+
+fn mean(values: impl Iterator<Item = f64>, n: usize) -> Option<f64> {
+    if n == 0 {
+        return None;
+    }
+    Some(values.sum::<f64>() / n as f64)
+}
+
+/// The MASE scale: mean |y_t − y_{t−m}| over the estimation sample of the
+/// scheme's first origin (positions a..=T0), m the season length or 1.
+pub fn mase_scale(
+    y: &[f64],
+    scheme: &Scheme,
+    first_origin: usize,
+    season: Option<usize>,
+) -> Option<f64> {
+    let m = season.unwrap_or(1);
+    let start = crate::plan::sample_start(scheme, first_origin);
+    let terms: Vec<f64> = ((start + m)..=first_origin)
+        .map(|t| (y[t - 1] - y[t - 1 - m]).abs())
+        .collect();
+    mean(terms.iter().copied(), terms.len())
+}
+
+/// In-sample R² of the estimations behind the forecasts: 1 − Σ is_mse / Σ is_var
+/// (the centred R², pooled over the estimation windows).
+pub fn in_sample_r2(e: &Errors) -> Option<f64> {
+    let mut mse = 0.0;
+    let mut var = 0.0;
+    for (m, v) in e.is_mse.iter().zip(&e.is_var) {
+        mse += (*m)?;
+        var += (*v)?;
+    }
+    (var > 0.0 && !e.is_empty()).then(|| 1.0 - mse / var)
+}
+
+/// In-sample rmse: the square root of the mean of `is_mse` over the forecasts (SPEC §4).
+pub fn in_sample_rmse(e: &Errors) -> Option<f64> {
+    let vals: Vec<f64> = e.is_mse.iter().filter_map(|v| *v).collect();
+    if vals.len() != e.len() || vals.is_empty() {
+        return None;
+    }
+    Some((vals.iter().sum::<f64>() / vals.len() as f64).sqrt())
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct ScoreRow {
+    pub target: usize,
+    pub candidate: usize,
+    pub scheme: usize,
+    /// None is the pooled `all` horizon.
+    pub horizon: Option<usize>,
+    /// None is `all`; Some(i) is `Experiment::periods[i]`.
+    pub period_set: Option<usize>,
+    pub n: usize,
+    /// One value per `Experiment::metric_columns()`, in that order.
+    pub metrics: Vec<Option<f64>>,
+    pub is_rmse: Option<f64>,
+    pub gap: Option<f64>,
+    pub rank: usize,
+    pub is_r2: Option<f64>,
+}
+
+/// Errors per cell and horizon: `[cell][horizon index]`.
+pub fn cell_errors(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<Vec<Errors>> {
+    cells
+        .iter()
+        .zip(outputs)
+        .map(|(cell, out)| {
+            let target = &exp.targets[cell.target];
+            exp.horizons
+                .iter()
+                .map(|&h| {
+                    let mut e = Errors::default();
+                    for r in out.forecasts.iter().filter(|r| r.horizon == h) {
+                        let pos = r.origin + h;
+                        e.actual.push(target.y[pos - 1]);
+                        e.forecast.push(r.forecast);
+                        e.is_mse.push(r.is_mse);
+                        e.is_var.push(r.is_var);
+                        e.variance.push(r.variance);
+                        e.period.push(target.ordinals[pos - 1]);
+                    }
+                    e
+                })
+                .collect()
+        })
+        .collect()
+}
+
+fn metric_value(
+    exp: &Experiment,
+    col: &MetricColumn,
+    e: &Errors,
+    bench: &Errors,
+    scale: Option<f64>,
+) -> Option<f64> {
+    let level = || col.level.map(|l| exp.intervals[l].level);
+    match col.metric {
+        Metric::Rmse => rmse(e),
+        Metric::Mae => mae(e),
+        Metric::Bias => bias(e),
+        Metric::Mape => mape(e),
+        Metric::Smape => smape(e),
+        Metric::Mase => mase(e, scale),
+        Metric::R2Oos => r2_oos(e, bench),
+        Metric::Coverage => coverage(e, level()?),
+        Metric::IntervalScore => interval_score(e, level()?),
+        Metric::Crps => crps(e),
+    }
+}
+
+/// Sort key so that rank 1 is best: smaller loss, larger r2_oos, smaller |bias|.
+fn rank_key(metric: Metric, v: Option<f64>) -> f64 {
+    match v {
+        None => f64::INFINITY,
+        Some(v) if metric.higher_is_better() => -v,
+        Some(v) if metric == Metric::Bias => v.abs(),
+        Some(v) => v,
+    }
+}
+
+/// Index of a cell in plan order.
+pub fn cell_index(exp: &Experiment, target: usize, candidate: usize, scheme: usize) -> usize {
+    (target * exp.candidates.len() + candidate) * exp.schemes.len() + scheme
+}
+
+/// The errors of one candidate on a horizon (None: all horizons pooled) and
+/// period set (None: all forecasts).
+pub fn group_errors(
+    exp: &Experiment,
+    errors: &[Vec<Errors>],
+    target: usize,
+    candidate: usize,
+    scheme: usize,
+    horizon: Option<usize>,
+    period_set: Option<usize>,
+) -> Errors {
+    let per_h = &errors[cell_index(exp, target, candidate, scheme)];
+    let e = match horizon {
+        Some(i) => per_h[i].clone(),
+        None => {
+            let mut all = Errors::default();
+            per_h.iter().for_each(|e| all.extend(e));
+            all
+        }
+    };
+    match period_set {
+        Some(p) => e.within(exp.periods[p].from_ordinal, exp.periods[p].to_ordinal),
+        None => e,
+    }
+}
+
+/// Horizon indices scored: each horizon, then the pooled `all` when there are several.
+pub fn scored_horizons(exp: &Experiment) -> Vec<Option<usize>> {
+    let mut horizons: Vec<Option<usize>> = (0..exp.horizons.len()).map(Some).collect();
+    if exp.horizons.len() > 1 {
+        horizons.push(None);
+    }
+    horizons
+}
+
+/// The scores table in output order (SPEC §5).
+pub fn scores(exp: &Experiment, errors: &[Vec<Errors>]) -> Vec<ScoreRow> {
+    let n_c = exp.candidates.len();
+    let columns = exp.metric_columns();
+    let rank_pos = columns
+        .iter()
+        .position(|c| c.metric == exp.rank_by && c.level.is_none());
+    let period_sets: Vec<Option<usize>> = std::iter::once(None)
+        .chain((0..exp.periods.len()).map(Some))
+        .collect();
+    let mut rows = Vec::new();
+    for (t, target) in exp.targets.iter().enumerate() {
+        for (s, scheme) in exp.schemes.iter().enumerate() {
+            let scale = mase_scale(
+                &target.y,
+                scheme,
+                target.first_origins[s],
+                exp.season_length(),
+            );
+            for hi in scored_horizons(exp) {
+                for &ps in &period_sets {
+                    let bench = group_errors(exp, errors, t, exp.benchmark, s, hi, ps);
+                    let mut group: Vec<ScoreRow> = (0..n_c)
+                        .map(|c| {
+                            let e = group_errors(exp, errors, t, c, s, hi, ps);
+                            let metrics = columns
+                                .iter()
+                                .map(|col| metric_value(exp, col, &e, &bench, scale))
+                                .collect();
+                            let is_rmse = in_sample_rmse(&e);
+                            let gap = match (rmse(&e), is_rmse) {
+                                (Some(o), Some(i)) if i > 0.0 => Some(o / i),
+                                _ => None,
+                            };
+                            ScoreRow {
+                                target: t,
+                                candidate: c,
+                                scheme: s,
+                                horizon: hi.map(|i| exp.horizons[i]),
+                                period_set: ps,
+                                n: e.len(),
+                                metrics,
+                                is_rmse,
+                                gap,
+                                rank: 0,
+                                is_r2: in_sample_r2(&e),
+                            }
+                        })
+                        .collect();
+                    let mut order: Vec<usize> = (0..n_c).collect();
+                    order.sort_by(|&a, &b| {
+                        let va = rank_pos
+                            .map(|p| rank_key(exp.rank_by, group[a].metrics[p]))
+                            .unwrap_or(0.0);
+                        let vb = rank_pos
+                            .map(|p| rank_key(exp.rank_by, group[b].metrics[p]))
+                            .unwrap_or(0.0);
+                        va.total_cmp(&vb)
+                            .then_with(|| exp.candidates[a].id.cmp(&exp.candidates[b].id))
+                    });
+                    for (r, &c) in order.iter().enumerate() {
+                        group[c].rank = r + 1;
+                    }
+                    rows.extend(group);
+                }
+            }
+        }
+    }
+    // Output order: targets, candidates, schemes, horizons (all last), period sets (all first).
+    rows.sort_by_key(|r| {
+        (
+            r.target,
+            r.candidate,
+            r.scheme,
+            r.horizon.map_or(usize::MAX, |h| h),
+            r.period_set.map_or(0, |p| p + 1),
+        )
+    });
+    rows
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn errs(actual: &[f64], forecast: &[f64]) -> Errors {
+        Errors {
+            actual: actual.to_vec(),
+            forecast: forecast.to_vec(),
+            is_mse: vec![None; actual.len()],
+            is_var: vec![None; actual.len()],
+            variance: vec![None; actual.len()],
+            period: vec![0; actual.len()],
+        }
+    }
+
+    #[test]
+    fn metrics_by_hand() {
+        // Hand-computed from the SPEC §4 definitions: actual 2, 4, 5; forecast 1, 5, 5 → e = 1, −1, 0.
+        let e = errs(&[2.0, 4.0, 5.0], &[1.0, 5.0, 5.0]);
+        assert!((rmse(&e).unwrap() - (2.0f64 / 3.0).sqrt()).abs() < 1e-15);
+        assert!((mae(&e).unwrap() - 2.0 / 3.0).abs() < 1e-15);
+        assert_eq!(bias(&e), Some(0.0));
+        // mape = 100·(1/2 + 1/4 + 0)/3 = 25
+        assert!((mape(&e).unwrap() - 25.0).abs() < 1e-12);
+        // smape = 200·(1/3 + 1/9 + 0)/3 = 200·4/27
+        assert!((smape(&e).unwrap() - 800.0 / 27.0).abs() < 1e-12);
+        assert!((mase(&e, Some(2.0)).unwrap() - 1.0 / 3.0).abs() < 1e-15);
+        // benchmark errors 2, 2, 2 → Σe² = 2, Σe_b² = 12 → r2_oos = 1 − 2/12
+        let b = errs(&[2.0, 4.0, 5.0], &[0.0, 2.0, 3.0]);
+        assert!((r2_oos(&e, &b).unwrap() - (1.0 - 2.0 / 12.0)).abs() < 1e-15);
+    }
+
+    #[test]
+    fn undefined_cases() {
+        // mape with a zero actual is undefined (SPEC §4); smape counts 0/0 as 0.
+        let e = errs(&[0.0, 1.0], &[0.0, 2.0]);
+        assert_eq!(mape(&e), None);
+        assert!((smape(&e).unwrap() - 200.0 * (0.0 + 1.0 / 3.0) / 2.0).abs() < 1e-12);
+        assert_eq!(rmse(&Errors::default()), None);
+    }
+
+    #[test]
+    fn mase_scale_uses_the_first_estimation_sample() {
+        use crate::spec::{SchemeKind, SchemeStart};
+        let s = Scheme {
+            id: "expanding".into(),
+            kind: SchemeKind::Expanding,
+            start: SchemeStart::Half,
+            window: None,
+            refit_every: 1,
+            origins_first: false,
+            line: 1,
+        };
+        // y = 1, 3, 2, 6, 5; T0 = 4, m = 1: mean(|3−1|, |2−3|, |6−2|) = 7/3
+        let y = [1.0, 3.0, 2.0, 6.0, 5.0];
+        assert!((mase_scale(&y, &s, 4, None).unwrap() - 7.0 / 3.0).abs() < 1e-15);
+        // m = 2: mean(|2−1|, |6−3|) = 2
+        assert!((mase_scale(&y, &s, 4, Some(2)).unwrap() - 2.0).abs() < 1e-15);
+    }
+}
