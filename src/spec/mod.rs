@@ -43,7 +43,6 @@ const FAMILIES: &[&str] = &[
     "smoothing",
     "combination",
 ];
-const LATER_FAMILIES: &[&str] = &["arima", "smoothing", "combination"];
 
 pub fn sha256_hex(bytes: &[u8]) -> String {
     let digest = Sha256::digest(bytes);
@@ -381,11 +380,12 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
 
     // candidates
     let mut candidates: Vec<Candidate> = Vec::new();
+    let mut pending: PendingMembers = Vec::new();
     if let Some(c) = need(ctx, "candidates") {
         match &c.kind {
             Kind::Seq(items) if !items.is_empty() => {
                 for (i, item) in items.iter().enumerate() {
-                    decode_candidate(ctx, item, i + 1, &predictors, &mut candidates);
+                    decode_candidate(ctx, item, i + 1, &predictors, &mut candidates, &mut pending);
                 }
             }
             _ => ctx.error(
@@ -405,6 +405,35 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
                 &node,
                 format!("candidate id '{}' is produced twice (also by the entry on line {}); give one entry a 'label'", c.id, first.line),
             );
+        }
+    }
+
+    // Combination members name candidates by id; combinations of combinations are not allowed.
+    for (index, members) in pending {
+        let mut resolved = Vec::new();
+        for (id, node) in members {
+            match candidates.iter().position(|c| c.id == id) {
+                Some(i) if matches!(candidates[i].family, Family::Combination { .. }) => {
+                    ctx.error(&node, format!("member '{id}' is itself a combination; combine the underlying candidates instead"));
+                }
+                Some(i) => resolved.push(i),
+                None => {
+                    let ids: Vec<&str> = candidates.iter().map(|c| c.id.as_str()).collect();
+                    let hint = nearest(&id, &ids)
+                        .map(|n| format!("did you mean '{n}'? "))
+                        .unwrap_or_default();
+                    ctx.error(
+                        &node,
+                        format!(
+                            "member '{id}' names no candidate; {hint}candidate ids are: {}",
+                            ids.join(", ")
+                        ),
+                    );
+                }
+            }
+        }
+        if let Family::Combination { members, .. } = &mut candidates[index].family {
+            *members = resolved;
         }
     }
 
@@ -740,12 +769,16 @@ fn parse_share(text: &str) -> Option<(u128, u128)> {
     Some((num, den))
 }
 
+/// Combination members named by id, resolved once every candidate is expanded.
+type PendingMembers = Vec<(usize, Vec<(String, Node)>)>;
+
 fn decode_candidate(
     ctx: &mut Ctx,
     item: &Node,
     index: usize,
     predictors: &[Predictor],
     out: &mut Vec<Candidate>,
+    pending: &mut PendingMembers,
 ) {
     let path = format!("candidates[{index}]");
     let family_name = match &item.kind {
@@ -780,11 +813,8 @@ fn decode_candidate(
     let Some(family) = ctx.choice(&family_node, &format!("{path}.family"), FAMILIES) else {
         return;
     };
-    if LATER_FAMILIES.contains(&family.as_str()) {
-        ctx.error(
-            &family_node,
-            format!("{path}: family '{family}' is not supported yet by this version of outturn"),
-        );
+    if ["arima", "smoothing", "combination"].contains(&family.as_str()) {
+        decode_other_family(ctx, item, &path, &family, out, pending);
         return;
     }
     let (allowed, later): (&[&str], &[&str]) = match family.as_str() {
@@ -813,26 +843,8 @@ fn decode_candidate(
     if later.iter().any(|k| view.get(k).is_some()) {
         return;
     }
-    let label = match view.get("label") {
-        Some(n) => match ctx.string(n, &format!("{path}.label")) {
-            Some(s)
-                if !s.is_empty()
-                    && s.bytes().all(|b| {
-                        b.is_ascii_alphanumeric() || b == b'_' || b == b'-' || b == b'.'
-                    }) =>
-            {
-                Some(s)
-            }
-            Some(s) => {
-                ctx.error(
-                    n,
-                    format!("{path}.label '{s}' must use only letters, digits, '_', '-' and '.'"),
-                );
-                return;
-            }
-            None => return,
-        },
-        None => None,
+    let Ok(label) = candidate_label(ctx, &view, &path) else {
+        return;
     };
     let base = label.unwrap_or_else(|| family.clone());
     let trend = match view.get("trend") {
@@ -996,6 +1008,258 @@ fn decode_candidate(
             }
         }
         _ => {}
+    }
+}
+
+fn candidate_label(
+    ctx: &mut Ctx,
+    view: &decode::MapView,
+    path: &str,
+) -> std::result::Result<Option<String>, ()> {
+    match view.get("label") {
+        Some(n) => match ctx.string(n, &format!("{path}.label")) {
+            Some(s)
+                if !s.is_empty()
+                    && s.bytes().all(|b| {
+                        b.is_ascii_alphanumeric() || b == b'_' || b == b'-' || b == b'.'
+                    }) =>
+            {
+                Ok(Some(s))
+            }
+            Some(s) => {
+                ctx.error(
+                    n,
+                    format!("{path}.label '{s}' must use only letters, digits, '_', '-' and '.'"),
+                );
+                Err(())
+            }
+            None => Err(()),
+        },
+        None => Ok(None),
+    }
+}
+
+/// A list of names from a closed set, e.g. smoothing trends.
+fn names(ctx: &mut Ctx, node: &Node, what: &str, options: &[&str]) -> Option<Vec<usize>> {
+    let mut out = Vec::new();
+    let items = ctx.list(node);
+    if items.is_empty() {
+        ctx.error(node, format!("{what} is an empty list"));
+        return None;
+    }
+    for item in items {
+        let s = ctx.choice(item, what, options)?;
+        let i = options.iter().position(|o| *o == s)?;
+        if out.contains(&i) {
+            ctx.error(item, format!("{what} lists '{s}' twice"));
+            return None;
+        }
+        out.push(i);
+    }
+    Some(out)
+}
+
+/// arima, smoothing and combination entries (SPEC §2–§4).
+fn decode_other_family(
+    ctx: &mut Ctx,
+    item: &Node,
+    path: &str,
+    family: &str,
+    out: &mut Vec<Candidate>,
+    pending: &mut PendingMembers,
+) {
+    let line = item.line;
+    match family {
+        "arima" => {
+            let Some(view) = ctx.map(
+                item,
+                path,
+                &["family", "label", "p", "d", "q", "trend", "select"],
+                &[],
+            ) else {
+                return;
+            };
+            let Ok(label) = candidate_label(ctx, &view, path) else {
+                return;
+            };
+            let base = label.unwrap_or_else(|| "arima".into());
+            let mut grid = |key: &str| match view.get(key) {
+                Some(n) => ctx.orders(n, &format!("{path}.{key}"), 0),
+                None => Some(vec![0]),
+            };
+            let (Some(ps), Some(ds), Some(qs)) = (grid("p"), grid("d"), grid("q")) else {
+                return;
+            };
+            for (key, values, max) in [("p", &ps, 12), ("d", &ds, 2), ("q", &qs, 12)] {
+                if let Some(v) = values.iter().find(|v| **v > max) {
+                    let node = view.get(key).cloned().unwrap_or_else(|| item.clone());
+                    ctx.error(
+                        &node,
+                        format!(
+                            "{path}.{key} = {v} is larger than outturn estimates (at most {max})"
+                        ),
+                    );
+                    return;
+                }
+            }
+            let drift = match view.get("trend") {
+                Some(n) => match ctx
+                    .choice(n, &format!("{path}.trend"), &["none", "drift"])
+                    .as_deref()
+                {
+                    Some("drift") => {
+                        if ds.contains(&0) {
+                            ctx.error(n, format!("{path}: trend drift needs d ≥ 1 (with d = 0 a constant mean is always estimated); remove 0 from d"));
+                            return;
+                        }
+                        true
+                    }
+                    Some(_) => false,
+                    None => return,
+                },
+                None => false,
+            };
+            let suffix = if drift { ",drift" } else { "" };
+            match view.get("select") {
+                Some(n) => {
+                    let Some(criterion) = ctx
+                        .choice(n, &format!("{path}.select"), &Criterion::NAMES)
+                        .and_then(|s| Criterion::parse(&s))
+                    else {
+                        return;
+                    };
+                    let max_p = ps.iter().copied().max().unwrap_or(0);
+                    let max_q = qs.iter().copied().max().unwrap_or(0);
+                    for &d in &ds {
+                        out.push(Candidate {
+                            id: format!("{base}({},{max_p},{d},{max_q}{suffix})", criterion.name()),
+                            family: Family::ArimaSelect {
+                                criterion,
+                                ps: ps.clone(),
+                                d,
+                                qs: qs.clone(),
+                                drift,
+                            },
+                            line,
+                        });
+                    }
+                }
+                None => {
+                    for &p in &ps {
+                        for &d in &ds {
+                            for &q in &qs {
+                                out.push(Candidate {
+                                    id: format!("{base}({p},{d},{q}{suffix})"),
+                                    family: Family::Arima { p, d, q, drift },
+                                    line,
+                                });
+                            }
+                        }
+                    }
+                }
+            }
+        }
+        "smoothing" => {
+            let Some(view) = ctx.map(item, path, &["family", "label", "trend", "season"], &[])
+            else {
+                return;
+            };
+            let Ok(label) = candidate_label(ctx, &view, path) else {
+                return;
+            };
+            let base = label.unwrap_or_else(|| "smoothing".into());
+            let trends = match view.get("trend") {
+                Some(n) => names(ctx, n, &format!("{path}.trend"), &SmoothingTrend::NAMES),
+                None => Some(vec![0]),
+            };
+            let seasons = match view.get("season") {
+                Some(n) => names(ctx, n, &format!("{path}.season"), &SmoothingSeason::NAMES),
+                None => Some(vec![0]),
+            };
+            let (Some(trends), Some(seasons)) = (trends, seasons) else {
+                return;
+            };
+            const TRENDS: [SmoothingTrend; 3] = [
+                SmoothingTrend::None,
+                SmoothingTrend::Additive,
+                SmoothingTrend::Damped,
+            ];
+            const SEASONS: [SmoothingSeason; 3] = [
+                SmoothingSeason::None,
+                SmoothingSeason::Additive,
+                SmoothingSeason::Multiplicative,
+            ];
+            for &t in &trends {
+                for &s in &seasons {
+                    let (trend, season) = (TRENDS[t], SEASONS[s]);
+                    out.push(Candidate {
+                        id: format!("{base}({},{})", trend.name(), season.name()),
+                        family: Family::Smoothing { trend, season },
+                        line,
+                    });
+                }
+            }
+        }
+        _ => {
+            let Some(view) = ctx.map(item, path, &["family", "label", "members", "weights"], &[])
+            else {
+                return;
+            };
+            let Ok(label) = candidate_label(ctx, &view, path) else {
+                return;
+            };
+            let base = label.unwrap_or_else(|| "combination".into());
+            let weights = match view.get("weights") {
+                Some(n) => match ctx
+                    .choice(n, &format!("{path}.weights"), &CombinationWeights::NAMES)
+                    .as_deref()
+                {
+                    Some("inverse_mse") => CombinationWeights::InverseMse,
+                    Some("trimmed") => CombinationWeights::Trimmed,
+                    Some(_) => CombinationWeights::Equal,
+                    None => return,
+                },
+                None => CombinationWeights::Equal,
+            };
+            let Some(members_node) = view.get("members") else {
+                ctx.error(item, format!("{path}: combination needs 'members': the candidate ids to combine, e.g. [\"ar(1)\", \"ardl(1,1)\"]"));
+                return;
+            };
+            let mut members = Vec::new();
+            for m in ctx.list(members_node) {
+                if let Some(id) = ctx.string(m, &format!("{path}.members")) {
+                    if members.iter().any(|(x, _): &(String, Node)| *x == id) {
+                        ctx.error(m, format!("{path}.members names '{id}' twice"));
+                        return;
+                    }
+                    members.push((id, m.clone()));
+                }
+            }
+            let min = if weights == CombinationWeights::Trimmed {
+                3
+            } else {
+                2
+            };
+            if members.len() < min {
+                ctx.error(
+                    members_node,
+                    format!(
+                        "{path}: a {} combination needs at least {min} members",
+                        weights.name()
+                    ),
+                );
+                return;
+            }
+            pending.push((out.len(), members));
+            out.push(Candidate {
+                id: format!("{base}({})", weights.name()),
+                family: Family::Combination {
+                    members: Vec::new(),
+                    weights,
+                },
+                line,
+            });
+        }
     }
 }
 

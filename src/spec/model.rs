@@ -284,6 +284,31 @@ pub enum Family {
         max_lags: usize,
         trend: Trend,
     },
+    /// arima(p,d,q) by exact Gaussian maximum likelihood; `drift` only with d ≥ 1.
+    Arima {
+        p: usize,
+        d: usize,
+        q: usize,
+        drift: bool,
+    },
+    /// arima with (p, q) chosen from the grids inside every training window.
+    ArimaSelect {
+        criterion: Criterion,
+        ps: Vec<usize>,
+        d: usize,
+        qs: Vec<usize>,
+        drift: bool,
+    },
+    /// Additive-error exponential smoothing (Hyndman et al. 2008).
+    Smoothing {
+        trend: SmoothingTrend,
+        season: SmoothingSeason,
+    },
+    /// A combination of other candidates' forecasts; `members` index into the candidates.
+    Combination {
+        members: Vec<usize>,
+        weights: CombinationWeights,
+    },
     /// ardl with p ∈ 0..=max_lags and q ∈ 1..=max_lags chosen inside every training window.
     ArdlSelect {
         criterion: Criterion,
@@ -319,15 +344,35 @@ impl Family {
 
     /// Whether the family's order is chosen inside each training window.
     pub fn selects(&self) -> bool {
-        matches!(self, Family::ArSelect { .. } | Family::ArdlSelect { .. })
+        matches!(
+            self,
+            Family::ArSelect { .. } | Family::ArdlSelect { .. } | Family::ArimaSelect { .. }
+        )
     }
 
     /// Parameters counted for the complexity curve: least-squares
     /// coefficients, 1 for mean and drift, 0 for naive and seasonal naive.
     pub fn parameters(&self) -> usize {
         match self {
-            Family::Naive | Family::SeasonalNaive => 0,
+            Family::Naive | Family::SeasonalNaive | Family::Combination { .. } => 0,
             Family::Mean | Family::Drift => 1,
+            Family::Arima { p, d, q, drift } => p + q + usize::from(*d == 0 || *drift),
+            Family::ArimaSelect {
+                ps, d, qs, drift, ..
+            } => {
+                ps.iter().max().unwrap_or(&0)
+                    + qs.iter().max().unwrap_or(&0)
+                    + usize::from(*d == 0 || *drift)
+            }
+            // smoothing parameters plus free initial states (level, trend, m − 1 seasonal)
+            Family::Smoothing { trend, season } => {
+                let t = match trend {
+                    SmoothingTrend::None => 0,
+                    SmoothingTrend::Additive => 2,
+                    SmoothingTrend::Damped => 3,
+                };
+                2 + t + usize::from(*season != SmoothingSeason::None)
+            }
             _ => self.coefficients().unwrap_or(0),
         }
     }
@@ -340,7 +385,52 @@ impl Family {
             Family::SeasonalNaive => "seasonal_naive",
             Family::Ar { .. } | Family::ArSelect { .. } => "ar",
             Family::Ardl { .. } | Family::ArdlSelect { .. } => "ardl",
+            Family::Arima { .. } | Family::ArimaSelect { .. } => "arima",
+            Family::Smoothing { .. } => "smoothing",
+            Family::Combination { .. } => "combination",
         }
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SmoothingTrend {
+    None,
+    Additive,
+    Damped,
+}
+
+impl SmoothingTrend {
+    pub const NAMES: [&'static str; 3] = ["none", "additive", "damped"];
+    pub fn name(self) -> &'static str {
+        Self::NAMES[self as usize]
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SmoothingSeason {
+    None,
+    Additive,
+    Multiplicative,
+}
+
+impl SmoothingSeason {
+    pub const NAMES: [&'static str; 3] = ["none", "additive", "multiplicative"];
+    pub fn name(self) -> &'static str {
+        Self::NAMES[self as usize]
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum CombinationWeights {
+    Equal,
+    InverseMse,
+    Trimmed,
+}
+
+impl CombinationWeights {
+    pub const NAMES: [&'static str; 3] = ["equal", "inverse_mse", "trimmed"];
+    pub fn name(self) -> &'static str {
+        Self::NAMES[self as usize]
     }
 }
 
