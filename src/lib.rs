@@ -168,8 +168,17 @@ pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
         started_unix,
         shard: "1/1".into(),
     };
-    let cell_ids: Vec<String> = cells.iter().map(|c| c.id.clone()).collect();
-    let manifest = report::manifest::manifest(&exp, &cell_ids, &templates_used, &files, &facts);
+    let cell_facts: Vec<report::manifest::CellFacts> = cells
+        .iter()
+        .zip(&outputs)
+        .map(|(c, o)| report::manifest::CellFacts {
+            id: c.id.clone(),
+            failure: o.failure.clone(),
+            fallbacks: o.fallbacks,
+            seconds: o.seconds,
+        })
+        .collect();
+    let manifest = report::manifest::manifest(&exp, &cell_facts, &templates_used, &files, &facts);
     files.push(("manifest.json".into(), manifest));
     output::write_folder(&folder, &files)?;
     Ok(RunSummary {

@@ -142,10 +142,7 @@ pub fn submodels(family: &Family, design: &Design) -> (Vec<Submodel>, Option<Cri
             (1..=max_p)
                 .map(|p| Submodel {
                     columns: build(p, 0),
-                    order: Order {
-                        lags: p,
-                        predictor_lags: None,
-                    },
+                    order: Order::Ar(p),
                     lags: p,
                 })
                 .collect(),
@@ -157,10 +154,7 @@ pub fn submodels(family: &Family, design: &Design) -> (Vec<Submodel>, Option<Cri
                 for q in 1..=max_q {
                     subs.push(Submodel {
                         columns: build(p, q),
-                        order: Order {
-                            lags: p,
-                            predictor_lags: Some(q),
-                        },
+                        order: Order::Ardl(p, q),
                         lags: p,
                     });
                 }
@@ -170,9 +164,10 @@ pub fn submodels(family: &Family, design: &Design) -> (Vec<Submodel>, Option<Cri
         _ => (
             vec![Submodel {
                 columns: (0..design.coefficients()).collect(),
-                order: Order {
-                    lags: max_p,
-                    predictor_lags: (n_pred > 0).then_some(max_q),
+                order: if n_pred > 0 {
+                    Order::Ardl(max_p, max_q)
+                } else {
+                    Order::Ar(max_p)
                 },
                 lags: max_p,
             }],

@@ -1,8 +1,12 @@
 //! models: one file per family. Each family turns a cell's target data and
 //! scheme into forecast rows; shared least squares lives in `crate::linalg`.
 
+pub mod arima;
+pub mod combination;
 pub mod linear;
 pub mod simple;
+pub mod smoothing;
+pub mod statespace;
 
 /// One forecast of a backtest.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -22,18 +26,21 @@ pub struct ForecastRow {
     pub order: Option<Order>,
 }
 
-/// Lag orders of an ar (p) or ardl (p, q) fit.
+/// The order chosen by a candidate with `select`, written like its id's
+/// brackets: `3` for ar(3), `2,1` for ardl(2,1), `1,1,0` for arima(1,1,0).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub struct Order {
-    pub lags: usize,
-    pub predictor_lags: Option<usize>,
+pub enum Order {
+    Ar(usize),
+    Ardl(usize, usize),
+    Arima(usize, usize, usize),
 }
 
 impl std::fmt::Display for Order {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        match self.predictor_lags {
-            Some(q) => write!(f, "{},{}", self.lags, q),
-            None => write!(f, "{}", self.lags),
+        match self {
+            Order::Ar(p) => write!(f, "{p}"),
+            Order::Ardl(p, q) => write!(f, "{p},{q}"),
+            Order::Arima(p, d, q) => write!(f, "{p},{d},{q}"),
         }
     }
 }

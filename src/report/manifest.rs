@@ -13,9 +13,17 @@ pub struct RunFacts {
     pub shard: String,
 }
 
+/// Per-cell facts: id, status, fallbacks (deterministic) and seconds (run only).
+pub struct CellFacts {
+    pub id: String,
+    pub failure: Option<String>,
+    pub fallbacks: usize,
+    pub seconds: f64,
+}
+
 pub fn manifest(
     exp: &Experiment,
-    cell_ids: &[String],
+    cells: &[CellFacts],
     templates: &[(String, String)],
     outputs: &[(String, Vec<u8>)],
     run: &RunFacts,
@@ -48,7 +56,16 @@ pub fn manifest(
             "schemes": exp.schemes.iter().map(|s| s.id.clone()).collect::<Vec<_>>(),
             "horizons": exp.horizons,
             "benchmark": exp.candidates[exp.benchmark].id,
-            "cells": cell_ids,
+            "cells": cells.iter().map(|c| {
+                let mut v = json!({"id": c.id, "status": if c.failure.is_some() { "failed" } else { "ok" }});
+                if c.fallbacks > 0 {
+                    v["fallbacks"] = json!(c.fallbacks);
+                }
+                if let Some(f) = &c.failure {
+                    v["failure"] = json!(f);
+                }
+                v
+            }).collect::<Vec<_>>(),
         },
         "outputs": outputs.iter().map(|(name, bytes)| json!({"file": name, "sha256": sha256_hex(bytes), "bytes": bytes.len()})).collect::<Vec<_>>(),
         "run": {
@@ -57,6 +74,7 @@ pub fn manifest(
             "threads": run.threads,
             "host": run.host,
             "shard": run.shard,
+            "cell_seconds": cells.iter().map(|c| json!({"id": c.id, "seconds": c.seconds})).collect::<Vec<_>>(),
         },
     });
     let mut bytes = serde_json::to_vec_pretty(&value).unwrap_or_default();

@@ -130,12 +130,20 @@ pub fn run(exp: &Experiment, errors: &[Vec<Errors>]) -> Vec<TestRow> {
                     }
                 }
                 let group = format!("{}/{}/{}", target.name, scheme.id, h);
+                // Bootstrap tests use the candidates with a full set of forecasts
+                // (a failed likelihood cell has none).
+                let full = errs.iter().map(Errors::len).max().unwrap_or(0);
+                let complete: Vec<usize> = (0..n_c)
+                    .filter(|&c| errs[c].len() == full && full > 0)
+                    .collect();
                 if let Some(cs) = &exp.tests.confidence_set {
-                    let losses: Vec<Vec<f64>> = errs.iter().map(squared).collect();
+                    let losses: Vec<Vec<f64>> =
+                        complete.iter().map(|&c| squared(&errs[c])).collect();
                     let seed = group_seed(exp, &format!("{group}/confidence_set"));
                     let result =
                         compare::model_confidence_set(&losses, cs.alpha, cs.resamples, seed);
                     for c in 0..n_c {
+                        let k = complete.iter().position(|&x| x == c);
                         rows.push(TestRow {
                             target: t,
                             scheme: s,
@@ -144,14 +152,15 @@ pub fn run(exp: &Experiment, errors: &[Vec<Errors>]) -> Vec<TestRow> {
                             candidate: Some(c),
                             versus: None,
                             statistic: None,
-                            p_value: result.as_ref().map(|r| r.p_values[c]),
-                            in_set: result.as_ref().map(|r| r.included[c]),
+                            p_value: result.as_ref().zip(k).map(|(r, k)| r.p_values[k]),
+                            in_set: result.as_ref().zip(k).map(|(r, k)| r.included[k]),
                         });
                     }
                 }
                 if let Some(sn) = &exp.tests.snooping {
                     // Hansen (2005): does the best of the searched grid beat the benchmark?
-                    let others: Vec<usize> = (0..n_c).filter(|&c| c != bench).collect();
+                    let others: Vec<usize> =
+                        complete.iter().copied().filter(|&c| c != bench).collect();
                     let losses: Vec<Vec<f64>> = others.iter().map(|&c| squared(&errs[c])).collect();
                     let best = others.iter().copied().min_by(|&a, &b| {
                         let ra = rmse(&errs[a]).unwrap_or(f64::INFINITY);

@@ -4,6 +4,7 @@
 
 pub mod compare;
 pub mod comparison;
+pub mod diagnostics;
 
 use crate::backtest::CellOutput;
 use crate::plan::Cell;

@@ -42,19 +42,28 @@ pub struct YamlError {
     pub message: String,
 }
 
+/// The most nodes a document may hold once aliases are expanded. An
+/// experiment file holds a few hundred; the bound stops a file of nested
+/// aliases (the "billion laughs") from expanding into gigabytes.
+pub const MAX_NODES: usize = 200_000;
+
 struct Builder {
-    stack: Vec<(Node, Option<usize>)>,
+    /// Open collections: the node, its anchor id, and the node count when it opened.
+    stack: Vec<(Node, Option<usize>, usize)>,
     keys: Vec<Option<Node>>,
-    anchors: std::collections::HashMap<usize, Node>,
+    /// Anchored nodes and their size in nodes.
+    anchors: std::collections::HashMap<usize, (Node, usize)>,
     docs: Vec<Node>,
     error: Option<YamlError>,
+    /// Nodes built so far, aliases counted at their expanded size.
+    nodes: usize,
 }
 
 impl Builder {
     fn push_value(&mut self, node: Node) {
         match self.stack.last_mut() {
             None => self.docs.push(node),
-            Some((parent, _)) => match &mut parent.kind {
+            Some((parent, _, _)) => match &mut parent.kind {
                 Kind::Seq(items) => items.push(node),
                 Kind::Map(entries) => {
                     let slot = self.keys.last_mut();
@@ -74,6 +83,24 @@ impl Builder {
     }
 }
 
+impl Builder {
+    /// Count `size` more nodes; false (with the error set) past [`MAX_NODES`].
+    fn count(&mut self, size: usize, line: usize, column: usize) -> bool {
+        self.nodes = self.nodes.saturating_add(size);
+        if self.nodes > MAX_NODES {
+            self.error = Some(YamlError {
+                line,
+                column,
+                message: format!(
+                    "the document expands to more than {MAX_NODES} values (aliases repeat anchored values); an experiment file is far smaller — write the values out or remove the aliases"
+                ),
+            });
+            return false;
+        }
+        true
+    }
+}
+
 impl MarkedEventReceiver for Builder {
     fn on_event(&mut self, ev: Event, mark: Marker) {
         if self.error.is_some() {
@@ -81,6 +108,13 @@ impl MarkedEventReceiver for Builder {
         }
         let line = mark.line();
         let column = mark.col() + 1;
+        let opens = matches!(
+            ev,
+            Event::Scalar(..) | Event::SequenceStart(..) | Event::MappingStart(..)
+        );
+        if opens && !self.count(1, line, column) {
+            return;
+        }
         match ev {
             Event::Scalar(value, style, anchor, _) => {
                 let quoted = !matches!(style, TScalarStyle::Plain);
@@ -90,7 +124,7 @@ impl MarkedEventReceiver for Builder {
                     column,
                 };
                 if anchor > 0 {
-                    self.anchors.insert(anchor, node.clone());
+                    self.anchors.insert(anchor, (node.clone(), 1));
                 }
                 self.push_value(node);
             }
@@ -102,6 +136,7 @@ impl MarkedEventReceiver for Builder {
                         column,
                     },
                     Some(anchor),
+                    self.nodes,
                 ));
             }
             Event::MappingStart(anchor, _) => {
@@ -112,22 +147,39 @@ impl MarkedEventReceiver for Builder {
                         column,
                     },
                     Some(anchor),
+                    self.nodes,
                 ));
                 self.keys.push(None);
             }
             Event::SequenceEnd | Event::MappingEnd => {
-                if let Some((node, anchor)) = self.stack.pop() {
-                    if matches!(node.kind, Kind::Map(_)) {
+                if let Some((mut node, anchor, opened_at)) = self.stack.pop() {
+                    if let Kind::Map(entries) = &node.kind {
                         self.keys.pop();
+                        // A block mapping's start mark sits at its first ':';
+                        // point at its first key instead, where an editor would.
+                        if let Some((first, _)) = entries.first() {
+                            if (first.line, first.column) < (node.line, node.column) {
+                                node.line = first.line;
+                                node.column = first.column;
+                            }
+                        }
                     }
                     if let Some(a) = anchor.filter(|a| *a > 0) {
-                        self.anchors.insert(a, node.clone());
+                        let size = self.nodes - opened_at + 1;
+                        self.anchors.insert(a, (node.clone(), size));
                     }
                     self.push_value(node);
                 }
             }
-            Event::Alias(id) => match self.anchors.get(&id).cloned() {
-                Some(node) => self.push_value(node),
+            Event::Alias(id) => match self.anchors.get(&id).map(|(_, size)| *size) {
+                Some(size) => {
+                    if self.count(size, line, column) {
+                        if let Some((node, _)) = self.anchors.get(&id) {
+                            let node = node.clone();
+                            self.push_value(node);
+                        }
+                    }
+                }
                 None => {
                     self.error = Some(YamlError {
                         line,
@@ -150,6 +202,7 @@ pub fn parse(text: &str) -> Result<Node, YamlError> {
         anchors: Default::default(),
         docs: Vec::new(),
         error: None,
+        nodes: 0,
     };
     let mut parser = Parser::new_from_str(text);
     if let Err(e) = parser.load(&mut builder, true) {
