@@ -21,6 +21,9 @@ pub struct CellOutput {
     pub fallbacks: usize,
     /// Why the cell failed as a whole (likelihood families, combinations of failed members).
     pub failure: Option<String>,
+    /// In-sample residuals of the cell's last estimation (one-step where the
+    /// family has them; the shortest horizon's regression for direct models).
+    pub residuals: Vec<f64>,
     /// Wall-clock seconds the cell took (recorded only in the manifest's `run` section).
     pub seconds: f64,
 }
@@ -95,7 +98,7 @@ pub fn run_cell(
                     candidate.family,
                     Family::Ar { .. } | Family::ArSelect { .. }
                 );
-            let forecasts =
+            let (forecasts, residuals) =
                 linear::backtest(&design, &candidate.family, &sched, &exp.horizons, iterated)?;
             let outlook = if with_outlook {
                 linear::outlook(&design, &candidate.family, window, &exp.horizons, iterated)
@@ -105,6 +108,7 @@ pub fn run_cell(
             Ok(CellOutput {
                 forecasts,
                 outlook,
+                residuals,
                 ..Default::default()
             })
         }
@@ -178,9 +182,13 @@ pub fn run_cell(
             } else {
                 Vec::new()
             };
+            let last = *sched.origins(exp.horizons[0]).end();
+            let end = sched.estimation_end(last);
+            let start = crate::plan::sample_start(scheme, end);
             Ok(CellOutput {
                 forecasts,
                 outlook,
+                residuals: simple::residuals(family, &target.y, start, end, season),
                 ..Default::default()
             })
         }
@@ -206,6 +214,7 @@ fn likelihood_cell<M: statespace::Likelihood>(
         outlook,
         fallbacks: outcome.fallbacks,
         failure: outcome.failure,
+        residuals: outcome.residuals,
         seconds: 0.0,
     }
 }

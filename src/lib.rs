@@ -127,7 +127,11 @@ pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
 
     let errors = score::cell_errors(&exp, &cells, &outputs);
     let scores = score::scores(&exp, &errors);
-    let tests = score::comparison::run(&exp, &errors);
+    let mut tests = score::comparison::run(&exp, &errors);
+    let (stability, fluctuation) = score::stability::rolling(&exp, &errors);
+    tests.extend(fluctuation);
+    tests.sort_by_key(|r| (r.target, r.scheme, r.horizon));
+    let diagnostics = score::stability::diagnostics(&exp, &cells, &outputs);
     let mut files: Vec<(String, Vec<u8>)> = vec![
         (
             "forecasts.csv".into(),
@@ -138,6 +142,19 @@ pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
             report::tables::scores_csv(&exp, &scores),
         ),
         ("tests.csv".into(), report::tables::tests_csv(&exp, &tests)),
+        (
+            "stability.csv".into(),
+            report::tables::stability_csv(&exp, &stability),
+        ),
+        (
+            "diagnostics.csv".into(),
+            report::tables::diagnostics_csv(&diagnostics),
+        ),
+        ("series.csv".into(), report::tables::series_csv(&exp)),
+        (
+            "experiment.yaml".into(),
+            exp.source_text.clone().into_bytes(),
+        ),
         (
             "outlook.csv".into(),
             report::tables::outlook_csv(&exp, &cells, &outputs),

@@ -296,6 +296,25 @@ impl<'r> Estimator<'r> {
         self.chosen.as_ref().ok_or(LinalgError::NonFinite)
     }
 
+    /// Residuals of the estimation at `end` for the chosen submodel, in time order.
+    fn residuals(&self, end: usize, chosen: &Chosen) -> Vec<f64> {
+        let mut rows: Vec<usize> = (1..=end.saturating_sub(self.h))
+            .filter(|&s| self.rows.at(s).is_some())
+            .collect();
+        if let Some(w) = self.window {
+            if rows.len() > w {
+                rows.drain(..rows.len() - w);
+            }
+        }
+        let columns = &self.subs[chosen.index].columns;
+        rows.iter()
+            .filter_map(|&s| {
+                let x = self.rows.at(s)?;
+                Some(self.y[s + self.h - 1] - predict(&chosen.solution, x, columns))
+            })
+            .collect()
+    }
+
     fn choose(&self) -> Result<Chosen, LinalgError> {
         let Some(criterion) = self.criterion else {
             return Ok(Chosen {
@@ -372,13 +391,15 @@ fn iterated_variances(design: &Design, sub: &Submodel, sol: &Solution, max_h: us
 }
 
 /// Direct forecasts (and iterated ones for ar under `multi_step: iterated`).
+/// Backtest forecasts, and the residuals of the last estimation of the
+/// shortest horizon's regression (for residual diagnostics).
 pub fn backtest(
     design: &Design,
     family: &Family,
     sched: &Schedule,
     horizons: &[usize],
     iterated: bool,
-) -> Result<Vec<ForecastRow>, EstimationProblem> {
+) -> Result<(Vec<ForecastRow>, Vec<f64>), EstimationProblem> {
     let (subs, criterion) = submodels(family, design);
     let record_order = criterion.is_some();
     let mut out = Vec::new();
@@ -417,9 +438,18 @@ pub fn backtest(
             }
         }
         out.extend(per_h.into_iter().flatten());
-        return Ok(out);
+        let end = sched.estimation_end(last);
+        let residuals = est.at(end).ok().map(|c| Chosen {
+            index: c.index,
+            solution: c.solution.clone(),
+        });
+        let residuals = residuals
+            .map(|c| est.residuals(end, &c))
+            .unwrap_or_default();
+        return Ok((out, residuals));
     }
-    for &h in horizons {
+    let mut residuals = Vec::new();
+    for (hi, &h) in horizons.iter().enumerate() {
         let rows = Rows::build(design, h);
         let mut est = Estimator::new(&rows, design.y, h, sched.window(), &subs, criterion);
         for origin in sched.origins(h) {
@@ -439,8 +469,18 @@ pub fn backtest(
                 order: record_order.then_some(sub.order),
             });
         }
+        if hi == 0 {
+            let end = sched.estimation_end(*sched.origins(h).end());
+            if let Ok(c) = est.at(end) {
+                let c = Chosen {
+                    index: c.index,
+                    solution: c.solution.clone(),
+                };
+                residuals = est.residuals(end, &c);
+            }
+        }
     }
-    Ok(out)
+    Ok((out, residuals))
 }
 
 /// Iterated forecasts ŷ_{T+1..T+H} of an ar design from origin T: earlier

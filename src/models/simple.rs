@@ -133,6 +133,38 @@ pub fn backtest(
     Ok(rows)
 }
 
+/// In-sample residuals of a simple family over the estimation sample a..=E:
+/// one-step changes (naive), deviations from the mean (mean), one-step
+/// residuals net of the slope (drift), seasonal changes (seasonal naive).
+pub fn residuals(
+    family: &Family,
+    y: &[f64],
+    start: usize,
+    end: usize,
+    season: Option<usize>,
+) -> Vec<f64> {
+    let at = |pos: usize| y[pos - 1];
+    match family {
+        Family::Naive => ((start + 1)..=end).map(|t| at(t) - at(t - 1)).collect(),
+        Family::Mean => {
+            let sample = &y[start - 1..end];
+            let mean = sample.iter().sum::<f64>() / sample.len() as f64;
+            sample.iter().map(|v| v - mean).collect()
+        }
+        Family::Drift if end > start => {
+            let slope = (at(end) - at(start)) / (end - start) as f64;
+            ((start + 1)..=end)
+                .map(|t| at(t) - at(t - 1) - slope)
+                .collect()
+        }
+        Family::SeasonalNaive => match season {
+            Some(m) => ((start + m)..=end).map(|t| at(t) - at(t - m)).collect(),
+            None => Vec::new(),
+        },
+        _ => Vec::new(),
+    }
+}
+
 /// Forecasts beyond the data from origin N with E = N (the last `window`
 /// observations when `window` is given).
 pub fn outlook(

@@ -25,6 +25,16 @@ pub trait Likelihood {
         -> Result<Vec<(f64, f64)>, String>;
     /// Mean squared one-step prediction error over the estimation sample.
     fn is_mse(&self, fit: &Self::Fit) -> f64;
+    /// One-step prediction errors over `y` (the estimation sample) at the
+    /// fit's parameters; by default forecast one step from every prefix.
+    fn residuals(&self, fit: &Self::Fit, y: &[f64]) -> Vec<f64> {
+        (2..y.len())
+            .filter_map(|t| {
+                let f = self.forecast(fit, &y[..t], 1).ok()?;
+                Some(y[t] - f[0].0)
+            })
+            .collect()
+    }
     /// The order chosen, for families that select one.
     fn order(&self, _fit: &Self::Fit) -> Option<Order> {
         None
@@ -35,6 +45,8 @@ pub trait Likelihood {
 #[derive(Debug, Clone, Default)]
 pub struct Outcome {
     pub forecasts: Vec<ForecastRow>,
+    /// One-step errors of the last estimation, for residual diagnostics.
+    pub residuals: Vec<f64>,
     /// Origins at which re-estimation failed and the previous estimate was kept.
     pub fallbacks: usize,
     /// Why the cell failed as a whole, if it did.
@@ -109,6 +121,9 @@ pub fn backtest<M: Likelihood>(
         }
     }
     out.forecasts = per_h.into_iter().flatten().collect();
+    if let (Some((fit, start)), Some(end)) = (&current, last_end) {
+        out.residuals = model.residuals(fit, &y[start - 1..end]);
+    }
     out
 }
 
@@ -164,6 +179,9 @@ impl Likelihood for Smoothing {
     }
     fn is_mse(&self, fit: &Self::Fit) -> f64 {
         fit.is_mse
+    }
+    fn residuals(&self, fit: &Self::Fit, y: &[f64]) -> Vec<f64> {
+        super::smoothing::one_step_errors(&fit.spec, &fit.params, y).unwrap_or_default()
     }
 }
 

@@ -211,6 +211,7 @@ pub fn tests_csv(exp: &Experiment, rows: &[crate::score::comparison::TestRow]) -
         "statistic",
         "p_value",
         "in_set",
+        "critical_value",
     ]);
     let id = |c: Option<usize>| c.map(|c| exp.candidates[c].id.clone()).unwrap_or_default();
     for r in rows {
@@ -224,7 +225,97 @@ pub fn tests_csv(exp: &Experiment, rows: &[crate::score::comparison::TestRow]) -
             opt(r.statistic),
             opt(r.p_value),
             r.in_set.map(|b| b.to_string()).unwrap_or_default(),
+            opt(r.critical_value),
         ]);
+    }
+    finish(w)
+}
+
+/// Rolling accuracy over time (`stability.csv`).
+pub fn stability_csv(exp: &Experiment, rows: &[crate::score::stability::StabilityRow]) -> Vec<u8> {
+    let mut w = writer();
+    let _ = w.write_record([
+        "target",
+        "candidate",
+        "scheme",
+        "horizon",
+        "period",
+        "rolling_rmse",
+        "fluctuation",
+    ]);
+    for r in rows {
+        let target = &exp.targets[r.target];
+        let _ = w.write_record([
+            target.name.clone(),
+            exp.candidates[r.candidate].id.clone(),
+            exp.schemes[r.scheme].id.clone(),
+            r.horizon.to_string(),
+            target.labels[r.position - 1].clone(),
+            num(r.rolling_rmse),
+            opt(r.fluctuation),
+        ]);
+    }
+    finish(w)
+}
+
+/// Unit-root and residual diagnostics (`diagnostics.csv`).
+pub fn diagnostics_csv(rows: &[crate::score::stability::DiagnosticRow]) -> Vec<u8> {
+    let mut w = writer();
+    let _ = w.write_record([
+        "subject",
+        "kind",
+        "test",
+        "lags",
+        "statistic",
+        "p_value",
+        "critical_5",
+    ]);
+    for r in rows {
+        let _ = w.write_record([
+            r.subject.clone(),
+            r.kind.to_string(),
+            r.test.to_string(),
+            r.lags.map(|l| l.to_string()).unwrap_or_default(),
+            opt(r.statistic),
+            opt(r.p_value),
+            opt(r.critical_5),
+        ]);
+    }
+    finish(w)
+}
+
+/// The series as used (`series.csv`): each target and predictor by period,
+/// raw and after its transform, so reports can be re-rendered from the folder.
+pub fn series_csv(exp: &Experiment) -> Vec<u8> {
+    let mut w = writer();
+    let _ = w.write_record(["series", "role", "transform", "period", "raw", "value"]);
+    for target in &exp.targets {
+        for pos in 1..=target.n {
+            let _ = w.write_record([
+                target.name.clone(),
+                "target".into(),
+                exp.transform.name().into(),
+                target.labels[pos - 1].clone(),
+                num(target.raw[pos - 1]),
+                num(target.y[pos - 1]),
+            ]);
+        }
+    }
+    if let Some(first) = exp.targets.first() {
+        for (i, p) in exp.predictors.iter().enumerate() {
+            for (pos, v) in first.predictors[i].iter().enumerate() {
+                if let Some(v) = v {
+                    let _ = w.write_record([
+                        p.column.clone(),
+                        "predictor".into(),
+                        p.transform.name().into(),
+                        first.labels[pos].clone(),
+                        String::new(),
+                        num(*v),
+                    ]);
+                }
+            }
+        }
     }
     finish(w)
 }

@@ -21,6 +21,8 @@ pub struct TestRow {
     pub p_value: Option<f64>,
     /// Model confidence set membership at `alpha`.
     pub in_set: Option<bool>,
+    /// 5 % critical value where the test has one instead of a p-value (fluctuation).
+    pub critical_value: Option<f64>,
 }
 
 /// Whether `small` is nested in `big` (SPEC §4's rule for clark_west):
@@ -100,6 +102,7 @@ pub fn run(exp: &Experiment, errors: &[Vec<Errors>]) -> Vec<TestRow> {
                     statistic: r.map(|r| r.statistic),
                     p_value: r.map(|r| r.p_value),
                     in_set: None,
+                    critical_value: None,
                 };
                 if exp.tests.diebold_mariano {
                     let ev = errors_of(&errs[bench]);
@@ -154,6 +157,7 @@ pub fn run(exp: &Experiment, errors: &[Vec<Errors>]) -> Vec<TestRow> {
                             statistic: None,
                             p_value: result.as_ref().zip(k).map(|(r, k)| r.p_values[k]),
                             in_set: result.as_ref().zip(k).map(|(r, k)| r.included[k]),
+                            critical_value: None,
                         });
                     }
                 }
@@ -186,6 +190,7 @@ pub fn run(exp: &Experiment, errors: &[Vec<Errors>]) -> Vec<TestRow> {
                         statistic: result.as_ref().map(|r| r.statistic),
                         p_value: result.as_ref().map(|r| r.p_consistent),
                         in_set: None,
+                        critical_value: None,
                     });
                 }
                 // Overfitting: Spearman correlation of in-sample and out-of-sample rankings.
@@ -206,6 +211,7 @@ pub fn run(exp: &Experiment, errors: &[Vec<Errors>]) -> Vec<TestRow> {
                         statistic: compare::spearman(&a, &b),
                         p_value: None,
                         in_set: None,
+                        critical_value: None,
                     });
                 }
             }

@@ -5,6 +5,7 @@
 pub mod compare;
 pub mod comparison;
 pub mod diagnostics;
+pub mod stability;
 
 use crate::backtest::CellOutput;
 use crate::plan::Cell;

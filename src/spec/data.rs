@@ -15,6 +15,8 @@ pub struct RawRow {
 #[derive(Debug, Clone)]
 pub struct RawTable {
     pub path: PathBuf,
+    /// Line of the header row, as an editor shows it.
+    pub header_line: usize,
     pub headers: Vec<String>,
     pub rows: Vec<RawRow>,
 }
@@ -72,6 +74,7 @@ pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
         .flexible(true)
         .from_reader(bytes);
     let mut headers: Option<Vec<String>> = None;
+    let mut header_line = 1;
     let mut rows = Vec::new();
     let mut record = csv::StringRecord::new();
     loop {
@@ -82,6 +85,16 @@ pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
                 let cells: Vec<String> = record.iter().map(|c| c.trim().to_string()).collect();
                 if cells.iter().all(|c| c.is_empty()) {
                     continue;
+                }
+                if let Some(pos) = cells.iter().position(|c| c.contains(['\n', '\r'])) {
+                    return Err(Diagnostic::new(
+                        Some(Location {
+                            file: path.to_path_buf(),
+                            line: Some(line),
+                            column: Some(pos + 1),
+                        }),
+                        "a quoted cell starting here runs over several lines: a quote (\") is opened and not closed on its line; close it or remove it",
+                    ));
                 }
                 match &headers {
                     None => {
@@ -106,14 +119,19 @@ pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
                                 ));
                             }
                         }
+                        header_line = line;
                         headers = Some(cells);
                     }
                     Some(h) => {
                         if cells.len() > h.len() {
-                            return Err(at(
-                                Some(line),
+                            return Err(Diagnostic::new(
+                                Some(Location {
+                                    file: path.to_path_buf(),
+                                    line: Some(line),
+                                    column: Some(h.len() + 1),
+                                }),
                                 format!(
-                                    "this row has {} cells but the header names {} columns",
+                                    "this row has {} cells but the header names {} columns; remove the extra cells or name their column in the header",
                                     cells.len(),
                                     h.len()
                                 ),
@@ -151,6 +169,7 @@ pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
     }
     Ok(RawTable {
         path: path.to_path_buf(),
+        header_line,
         headers,
         rows,
     })
@@ -163,14 +182,21 @@ pub fn parse_number(cell: &str) -> Result<Option<f64>, String> {
     if c.is_empty() {
         return Ok(None);
     }
+    let shown = crate::spec::decode::clip(c);
     let lower = c.to_ascii_lowercase();
-    if lower.contains("nan") || lower.contains("inf") {
-        return Err(format!("'{c}' is not a usable number (NaN and infinity are not allowed; leave the cell empty only where SPEC allows)"));
+    let bare = lower.trim_start_matches(['+', '-']);
+    if bare == "nan" || bare.starts_with("inf") || bare == "na" || bare == "n/a" {
+        return Err(format!("'{shown}' is not a usable number: NaN, infinity and NA are not allowed; give the value, or leave the cell empty only where missing values are allowed (a target's future rows, a predictor's ragged edge)"));
     }
     match c.parse::<f64>() {
         Ok(v) if v.is_finite() => Ok(Some(v)),
-        Ok(_) => Err(format!("'{c}' overflows a 64-bit float")),
-        Err(_) => Err(format!("'{c}' is not a number")),
+        Ok(_) => Err(format!("'{shown}' is too large for a 64-bit number")),
+        Err(_) if c.contains(',') && c.replace(',', ".").parse::<f64>().is_ok() => Err(format!(
+            "'{shown}' is not a number: write the decimal point as '.' (a ',' separates cells)"
+        )),
+        Err(_) => Err(format!(
+            "'{shown}' is not a number; write plain numbers such as -12.5 or 3e4, without units or thousands separators"
+        )),
     }
 }
 
@@ -190,6 +216,15 @@ mod tests {
         assert!(read_table(Path::new("d.csv"), b"").is_err());
         assert!(read_table(Path::new("d.csv"), b"1,2\n3,4\n").is_err());
         assert!(read_table(Path::new("d.csv"), b"a,b\n").is_err());
+    }
+
+    #[test]
+    fn an_unclosed_quote_is_named() {
+        let e =
+            read_table(Path::new("d.csv"), b"period,y\n2000,1\n\"2001,2\n2002,3\n").unwrap_err();
+        let loc = e.location.unwrap();
+        assert_eq!((loc.line, loc.column), (Some(3), Some(1)));
+        assert!(e.message.contains("not closed"), "{}", e.message);
     }
 
     #[test]

@@ -80,7 +80,7 @@ impl<'a> Ctx<'a> {
                     Some(n) => format!("; did you mean '{n}'?"),
                     None => format!("; valid keys here: {}", allowed.join(", ")),
                 };
-                self.error(key, format!("unknown key '{name}' in {path}{hint}"));
+                self.error(key, format!("unknown key '{}' in {path}{hint}", clip(name)));
             }
         }
         Some(MapView {
@@ -112,7 +112,34 @@ impl<'a> Ctx<'a> {
                 None
             }
             Err(_) => {
-                self.error(node, format!("{what} must be a whole number, found '{s}'"));
+                let t = s.trim();
+                let digits = t.strip_prefix('-').unwrap_or(t);
+                if !digits.is_empty() && digits.bytes().all(|b| b.is_ascii_digit()) {
+                    self.error(node, format!("{what} {t} is too large a number"));
+                } else {
+                    self.error(
+                        node,
+                        format!("{what} must be a whole number, found '{}'", clip(&s)),
+                    );
+                }
+                None
+            }
+        }
+    }
+
+    /// A whole number from 0 to 2⁶⁴ − 1, such as a seed.
+    pub fn unsigned(&mut self, node: &Node, what: &str) -> Option<u64> {
+        let s = self.string(node, what)?;
+        match s.trim().parse::<u64>() {
+            Ok(v) => Some(v),
+            Err(_) => {
+                self.error(
+                    node,
+                    format!(
+                        "{what} must be a whole number from 0 to 18446744073709551615, found '{}'",
+                        clip(&s)
+                    ),
+                );
                 None
             }
         }
@@ -124,7 +151,10 @@ impl<'a> Ctx<'a> {
             "true" | "True" | "TRUE" => Some(true),
             "false" | "False" | "FALSE" => Some(false),
             _ => {
-                self.error(node, format!("{what} must be true or false, found '{s}'"));
+                self.error(
+                    node,
+                    format!("{what} must be true or false, found '{}'", clip(&s)),
+                );
                 None
             }
         }
@@ -143,7 +173,8 @@ impl<'a> Ctx<'a> {
         self.error(
             node,
             format!(
-                "{what} '{s}' is not known; {hint}choose one of: {}",
+                "{what} '{}' is not known; {hint}choose one of: {}",
+                clip(&s),
                 options.join(", ")
             ),
         );
@@ -213,6 +244,20 @@ impl<'a> Ctx<'a> {
             out.push(v);
         }
         Some(out)
+    }
+}
+
+/// A user's text shortened for a message: at most 60 characters, one line.
+pub fn clip(text: &str) -> String {
+    let one_line: String = text
+        .chars()
+        .map(|c| if c.is_control() { ' ' } else { c })
+        .collect();
+    if one_line.chars().count() <= 60 {
+        one_line
+    } else {
+        let head: String = one_line.chars().take(57).collect();
+        format!("{head}...")
     }
 }
 

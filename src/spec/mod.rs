@@ -157,7 +157,7 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
     }
 
     let seed = match top.get("seed") {
-        Some(n) => ctx.integer(n, "seed", 0).map(|v| v as u64).unwrap_or(0),
+        Some(n) => ctx.unsigned(n, "seed").unwrap_or(0),
         None => 0,
     };
 
@@ -241,11 +241,16 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
     // predictors
     let mut predictors: Vec<Predictor> = Vec::new();
     let mut predictor_nodes: Vec<Node> = Vec::new();
+    // Predictors declared with an error of their own: candidates that name
+    // them are not reported again.
+    let mut failed_predictors: Vec<String> = Vec::new();
+    let mut predictors_unreadable = false;
     if let Some(p) = top.get("predictors") {
         if !p.is_null() {
             let items = match &p.kind {
                 Kind::Seq(items) => items.iter().collect::<Vec<_>>(),
                 _ => {
+                    predictors_unreadable = true;
                     ctx.error(
                         p,
                         "predictors must be a list of entries, each with a 'column'",
@@ -261,6 +266,7 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
                     &["column", "transform", "release_lag", "known_ahead"],
                     &[],
                 ) else {
+                    predictors_unreadable = true;
                     continue;
                 };
                 let Some(column) = view
@@ -273,6 +279,7 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
                             format!("{path} needs 'column': the data column to use"),
                         );
                     }
+                    predictors_unreadable = true;
                     continue;
                 };
                 let transform = match view.get("transform") {
@@ -294,6 +301,7 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
                 let (Some(transform), Some(release_lag), Some(known_ahead)) =
                     (transform, release_lag, known_ahead)
                 else {
+                    failed_predictors.push(column);
                     continue;
                 };
                 if known_ahead && release_lag > 0 {
@@ -385,7 +393,12 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
         match &c.kind {
             Kind::Seq(items) if !items.is_empty() => {
                 for (i, item) in items.iter().enumerate() {
-                    decode_candidate(ctx, item, i + 1, &predictors, &mut candidates, &mut pending);
+                    let declared = Declared {
+                        list: &predictors,
+                        failed: &failed_predictors,
+                        unreadable: predictors_unreadable,
+                    };
+                    decode_candidate(ctx, item, i + 1, &declared, &mut candidates, &mut pending);
                 }
             }
             _ => ctx.error(
@@ -449,6 +462,7 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
         intervals,
         tests,
         periods,
+        rolling_window,
     } = scoring;
     // SPEC §4: the id named, else naive when it is a candidate, else the first candidate.
     let benchmark = match &benchmark_name {
@@ -472,20 +486,59 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
         None => candidates.iter().position(|c| c.id == "naive").unwrap_or(0),
     };
 
-    // Everything below needs the data.
+    if let Some(frequency) = frequency.filter(|f| f.season_length().is_none()) {
+        for c in &candidates {
+            if c.family == Family::SeasonalNaive {
+                let node = Node {
+                    kind: Kind::Scalar(String::new(), false),
+                    line: c.line,
+                    column: 1,
+                };
+                ctx.error(
+                    &node,
+                    format!(
+                        "seasonal_naive needs seasonal data; {} data have no season length — remove this candidate or use naive",
+                        frequency.name()
+                    ),
+                );
+            }
+        }
+        if transform == Some(Transform::SeasonalDiff) {
+            if let Some(n) = top.get("transform") {
+                ctx.error(
+                    n,
+                    format!(
+                        "seasonal_diff needs seasonal data; {} data have no season length — use diff",
+                        frequency.name()
+                    ),
+                );
+            }
+        }
+        for (p, node) in predictors.iter().zip(&predictor_nodes) {
+            if p.transform == Transform::SeasonalDiff {
+                ctx.error(
+                    node,
+                    format!(
+                        "predictor '{}': seasonal_diff needs seasonal data; {} data have no season length — use diff",
+                        p.column,
+                        frequency.name()
+                    ),
+                );
+            }
+        }
+    }
+
+    // Everything below needs the data. The data are checked even when the
+    // experiment file has problems of its own, so that `check` lists both.
     let (
-        Some(name),
         Some((data_file, data_file_node)),
         Some((time_col, time_node)),
         Some(frequency),
         Some(transform),
-    ) = (name, data_file, time_col, frequency, transform)
+    ) = (data_file, time_col, frequency, transform)
     else {
         return None;
     };
-    if !ctx.diags.is_empty() {
-        return None;
-    }
     let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
     let data_path: PathBuf = base.join(&data_file);
     let bytes = match std::fs::read(&data_path) {
@@ -523,37 +576,13 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
                 .collect::<Vec<_>>(),
             horizons: &horizons,
         },
-    )?;
-    if candidates.is_empty() || schemes.is_empty() || horizons.is_empty() {
+    );
+    if !ctx.diags.is_empty() || candidates.is_empty() || schemes.is_empty() || horizons.is_empty() {
         return None;
     }
-    for c in &candidates {
-        if c.family == Family::SeasonalNaive && frequency.season_length().is_none() {
-            let node = Node {
-                kind: Kind::Scalar(String::new(), false),
-                line: c.line,
-                column: 1,
-            };
-            ctx.error(
-                &node,
-                format!(
-                    "seasonal_naive needs seasonal data; {} data have no season length",
-                    frequency.name()
-                ),
-            );
-        }
-    }
-    if transform == Transform::SeasonalDiff && frequency.season_length().is_none() {
-        if let Some(n) = top.get("transform") {
-            ctx.error(
-                n,
-                format!(
-                    "seasonal_diff needs seasonal data; {} data have no season length",
-                    frequency.name()
-                ),
-            );
-        }
-    }
+    let (Some(name), Some(resolved)) = (name, resolved) else {
+        return None;
+    };
     let title = title.unwrap_or_else(|| name.clone());
     Some(Experiment {
         name,
@@ -579,6 +608,7 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
         intervals,
         tests,
         periods,
+        rolling_window,
         formats,
         seed,
     })
@@ -776,7 +806,7 @@ fn decode_candidate(
     ctx: &mut Ctx,
     item: &Node,
     index: usize,
-    predictors: &[Predictor],
+    predictors: &Declared,
     out: &mut Vec<Candidate>,
     pending: &mut PendingMembers,
 ) {
@@ -1263,15 +1293,26 @@ fn decode_other_family(
     }
 }
 
+/// The top-level predictors as far as they could be read.
+struct Declared<'a> {
+    list: &'a [Predictor],
+    /// Columns whose declaration has an error of its own.
+    failed: &'a [String],
+    /// Some declaration could not be read at all (no column name).
+    unreadable: bool,
+}
+
 /// The declared predictors an ardl entry names, as indices; None when
-/// missing, empty or unknown (each reported).
+/// missing, empty or unknown (each reported, unless the declaration itself
+/// was already reported).
 fn ardl_predictors(
     ctx: &mut Ctx,
     item: &Node,
     view: &decode::MapView,
     path: &str,
-    predictors: &[Predictor],
+    declared: &Declared,
 ) -> Option<Vec<usize>> {
+    let predictors = declared.list;
     let mut chosen = Vec::new();
     match view.get("predictors") {
         Some(n) => {
@@ -1291,6 +1332,7 @@ fn ardl_predictors(
                         ctx.error(p, format!("{path}.predictors names '{col}' twice"))
                     }
                     Some(i) => chosen.push(i),
+                    None if declared.unreadable || declared.failed.contains(&col) => {}
                     None => {
                         let names: Vec<&str> =
                             predictors.iter().map(|d| d.column.as_str()).collect();
@@ -1325,6 +1367,7 @@ struct Scoring {
     intervals: Vec<IntervalLevel>,
     tests: TestsSpec,
     periods: Vec<PeriodSet>,
+    rolling_window: Option<usize>,
 }
 
 impl Default for Scoring {
@@ -1336,6 +1379,7 @@ impl Default for Scoring {
             intervals: Vec::new(),
             tests: TestsSpec::default(),
             periods: Vec::new(),
+            rolling_window: None,
         }
     }
 }
@@ -1383,6 +1427,7 @@ fn decode_scoring(ctx: &mut Ctx, node: &Node, frequency: Option<Frequency>) -> S
             "intervals",
             "tests",
             "periods",
+            "rolling_window",
         ],
         &[],
     ) else {
@@ -1390,6 +1435,25 @@ fn decode_scoring(ctx: &mut Ctx, node: &Node, frequency: Option<Frequency>) -> S
     };
     if let Some(i) = view.get("intervals") {
         for item in ctx.list(i) {
+            let percent_given = match &item.kind {
+                Kind::Scalar(t, _) => t
+                    .trim()
+                    .trim_end_matches('%')
+                    .parse::<f64>()
+                    .ok()
+                    .filter(|v| *v > 1.0 && *v < 100.0),
+                _ => None,
+            };
+            if let Some(p) = percent_given {
+                ctx.error(
+                    item,
+                    format!(
+                        "scoring.intervals lists levels as fractions: write {} for a {p}% interval",
+                        p / 100.0
+                    ),
+                );
+                continue;
+            }
             if let Some(level) = share(ctx, item, "scoring.intervals") {
                 let percent = percent_text(level);
                 if out.intervals.iter().any(|l| l.percent == percent) {
@@ -1458,6 +1522,9 @@ fn decode_scoring(ctx: &mut Ctx, node: &Node, frequency: Option<Frequency>) -> S
     }
     if let Some(b) = view.get("benchmark") {
         out.benchmark = ctx.string(b, "scoring.benchmark").map(|s| (s, b.clone()));
+    }
+    if let Some(w) = view.get("rolling_window") {
+        out.rolling_window = count(ctx, w, "scoring.rolling_window", 2, 1_000_000);
     }
     if let Some(t) = view.get("tests") {
         if let Some(tv) = ctx.map(

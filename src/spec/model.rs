@@ -493,6 +493,8 @@ pub struct Experiment {
     pub tests: TestsSpec,
     /// Named sub-periods of `scoring.periods`, in file order.
     pub periods: Vec<PeriodSet>,
+    /// Window (in forecasts) of rolling accuracy and the fluctuation test; None: ⌈0.3·P⌉.
+    pub rolling_window: Option<usize>,
     pub rank_by: Metric,
     /// Index into `candidates`.
     pub benchmark: usize,

@@ -61,6 +61,49 @@ impl Frequency {
         }
     }
 
+    /// "a" or "an", for messages.
+    pub fn article(self) -> &'static str {
+        match self {
+            Frequency::Annual | Frequency::Index => "an",
+            _ => "a",
+        }
+    }
+
+    /// The frequency whose label form fits every one of `labels` (empty
+    /// labels skipped), for a hint when the declared one does not. Weekly is
+    /// told from daily by a 7-day step.
+    pub fn guess(labels: &[&str]) -> Option<Frequency> {
+        let labels: Vec<&str> = labels
+            .iter()
+            .copied()
+            .filter(|l| !l.trim().is_empty())
+            .collect();
+        if labels.is_empty() {
+            return None;
+        }
+        for freq in [
+            Frequency::Annual,
+            Frequency::Quarterly,
+            Frequency::Monthly,
+            Frequency::Daily,
+            Frequency::Index,
+        ] {
+            let parsed: Option<Vec<i64>> = labels
+                .iter()
+                .map(|l| parse_label(freq, l).ok().map(|(o, _)| o))
+                .collect();
+            let Some(ordinals) = parsed else { continue };
+            if freq == Frequency::Daily
+                && ordinals.len() > 1
+                && ordinals.windows(2).all(|w| w[1] - w[0] == 7)
+            {
+                return Some(Frequency::Weekly);
+            }
+            return Some(freq);
+        }
+        None
+    }
+
     pub fn example(self) -> &'static str {
         match self {
             Frequency::Annual => "2004",
@@ -148,7 +191,9 @@ pub fn parse_label(freq: Frequency, label: &str) -> Result<(i64, LabelStyle), Pe
     let s = label.trim();
     let bad = |why: &str| {
         Err(PeriodError(format!(
-            "'{label}' is not a {} period label{why} (expected {})",
+            "'{}' is not {} {} period label{why} (expected {})",
+            super::decode::clip(label),
+            freq.article(),
             freq.name(),
             freq.example()
         )))
@@ -268,6 +313,31 @@ mod tests {
         assert!(parse_label(Frequency::Monthly, "2004-13").is_err());
         assert!(parse_label(Frequency::Daily, "2003-02-29").is_err());
         assert!(parse_label(Frequency::Annual, "04").is_err());
+        let e = parse_label(Frequency::Annual, "1990Q1").unwrap_err();
+        assert!(e.0.contains("is not an annual period label"), "{e}");
+    }
+
+    #[test]
+    fn guesses_the_frequency_of_labels() {
+        assert_eq!(
+            Frequency::guess(&["1990Q1", "1990Q2"]),
+            Some(Frequency::Quarterly)
+        );
+        assert_eq!(Frequency::guess(&["1990", "1991"]), Some(Frequency::Annual));
+        assert_eq!(
+            Frequency::guess(&["1990-01", "1990-02"]),
+            Some(Frequency::Monthly)
+        );
+        assert_eq!(
+            Frequency::guess(&["2004-01-05", "2004-01-12"]),
+            Some(Frequency::Weekly)
+        );
+        assert_eq!(
+            Frequency::guess(&["2004-01-05", "2004-01-06"]),
+            Some(Frequency::Daily)
+        );
+        assert_eq!(Frequency::guess(&["1", "2", "3"]), Some(Frequency::Index));
+        assert_eq!(Frequency::guess(&["Jan 90", "Feb 90"]), None);
     }
 
     #[test]

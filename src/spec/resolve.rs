@@ -3,6 +3,7 @@
 //! position space (SPEC §4), and each scheme's first origin found.
 
 use super::data::{parse_number, RawTable};
+use super::decode::clip;
 use super::decode::Ctx;
 use super::model::{Predictor, Scheme, SchemeStart, TargetData, Transform};
 use super::period::{parse_label, Frequency, LabelStyle};
@@ -54,11 +55,133 @@ fn column_or_error(
     }
 }
 
+/// At most this many messages about the cells of one column; then one line
+/// says how many more there are.
+const MAX_CELL_MESSAGES: usize = 5;
+
 fn cell_error(table: &RawTable, line: usize, column: usize, message: String) -> Diagnostic {
     Diagnostic::new(
         table.location(line, Some(column)),
         format!("column '{}': {message}", table.headers[column]),
     )
+}
+
+/// Report one message per line in `lines`, at most [`MAX_CELL_MESSAGES`],
+/// then one line counting the rest.
+fn report_cells(
+    ctx: &mut Ctx,
+    table: &RawTable,
+    column: usize,
+    lines: impl Iterator<Item = usize>,
+    message: &str,
+    rest: &str,
+) {
+    let lines: Vec<usize> = lines.collect();
+    for (k, &line) in lines.iter().enumerate() {
+        if k == MAX_CELL_MESSAGES {
+            ctx.diags.push(cell_error(
+                table,
+                line,
+                column,
+                format!("and {} {rest} from here on", lines.len() - k),
+            ));
+            break;
+        }
+        ctx.diags
+            .push(cell_error(table, line, column, message.to_string()));
+    }
+}
+
+/// Parse the numeric cells of `column` in `rows[..used]`: the values, and
+/// which cells hold something that is not a usable number (reported, at most
+/// [`MAX_CELL_MESSAGES`] of them).
+fn parse_column(
+    ctx: &mut Ctx,
+    table: &RawTable,
+    rows: &[super::data::RawRow],
+    column: usize,
+    used: usize,
+) -> Option<(Vec<Option<f64>>, Vec<bool>)> {
+    let mut values = Vec::with_capacity(used);
+    let mut invalid = Vec::with_capacity(used);
+    let mut problems = Vec::new();
+    for row in rows.iter().take(used) {
+        match parse_number(&row.cells[column]) {
+            Ok(v) => {
+                values.push(v);
+                invalid.push(false);
+            }
+            Err(m) => {
+                problems.push((row.line, m));
+                values.push(None);
+                invalid.push(true);
+            }
+        }
+    }
+    let total = problems.len();
+    for (k, (line, m)) in problems.into_iter().enumerate() {
+        if k == MAX_CELL_MESSAGES {
+            ctx.diags.push(cell_error(
+                table,
+                line,
+                column,
+                format!(
+                    "and {} more cell(s) that are not numbers from here on",
+                    total - k
+                ),
+            ));
+            break;
+        }
+        ctx.diags.push(cell_error(table, line, column, m));
+    }
+    Some((values, invalid))
+}
+
+/// Values beyond these sizes cannot go through least squares: their squares
+/// overflow (or all underflow to zero) in 64-bit floating point.
+const LARGEST_VALUE: f64 = 1e100;
+const SMALLEST_SCALE: f64 = 1e-100;
+
+/// Refuse a transformed column whose values are too large, or all too small,
+/// for the arithmetic; `rows` maps value indices to data rows.
+fn check_scale(
+    ctx: &mut Ctx,
+    table: &RawTable,
+    column: usize,
+    values: &[Option<f64>],
+    lines: &[usize],
+    transform: Transform,
+) -> bool {
+    let what = if transform == Transform::None {
+        String::new()
+    } else {
+        format!(" after the transform {}", transform.name())
+    };
+    if let Some((i, v)) = values
+        .iter()
+        .enumerate()
+        .find_map(|(i, v)| v.filter(|x| x.abs() > LARGEST_VALUE).map(|x| (i, x)))
+    {
+        ctx.diags.push(cell_error(
+            table,
+            lines[i],
+            column,
+            format!("the value{what} is {v:e}, too large for least squares (sizes above {LARGEST_VALUE:e} overflow when squared); rescale the column, e.g. divide it by a power of ten or use transform: log"),
+        ));
+        return false;
+    }
+    let largest = values.iter().flatten().fold(0.0f64, |m, x| m.max(x.abs()));
+    if largest > 0.0 && largest < SMALLEST_SCALE {
+        let i = values.iter().position(Option::is_some).unwrap_or(0);
+        ctx.diags.push(cell_error(
+            table,
+            lines[i],
+            column,
+            format!("every value{what} is smaller than {SMALLEST_SCALE:e} in size (the largest is {largest:e}); their squares underflow to zero — rescale the column, e.g. multiply it by a power of ten"),
+        ));
+        return false;
+    }
+    true
 }
 
 /// Lag of a transform in periods: how many leading values it cannot produce.
@@ -113,13 +236,31 @@ pub fn apply_transform(
 pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option<Resolved> {
     let freq = req.frequency;
     let season = freq.season_length();
+    if table.column(req.time.0).is_none() {
+        // A file without a header row: its first line holds a period label or numbers.
+        let looks_like_data = table
+            .headers
+            .iter()
+            .any(|h| parse_label(freq, h).is_ok() || Frequency::guess(&[h]).is_some());
+        if looks_like_data {
+            ctx.diags.push(Diagnostic::new(
+                table.location(table.header_line, None),
+                format!(
+                    "the first line holds data ('{}'), not a header row; add a header row naming the columns, with '{}' for the period labels",
+                    clip(&table.headers.join(",")),
+                    req.time.0
+                ),
+            ));
+            return None;
+        }
+    }
     let time_idx = column_or_error(ctx, table, req.time.0, req.time.1, "the time")?;
 
     // Period labels: parsed, strictly increasing, without gaps.
     let mut ordinals = Vec::with_capacity(table.rows.len());
     let mut style = None;
-    let mut bad = false;
-    for row in &table.rows {
+    let mut bad_rows = Vec::new();
+    for (r, row) in table.rows.iter().enumerate() {
         let label = &row.cells[time_idx];
         match parse_label(freq, label) {
             Ok((o, s)) => {
@@ -132,48 +273,99 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
                 } else {
                     e.0
                 };
-                ctx.diags.push(cell_error(table, row.line, time_idx, msg));
-                bad = true;
+                bad_rows.push((r, msg));
                 ordinals.push(i64::MIN);
             }
         }
     }
-    if bad {
+    if !bad_rows.is_empty() {
+        let labels: Vec<&str> = table
+            .rows
+            .iter()
+            .map(|r| r.cells[time_idx].as_str())
+            .collect();
+        let hint = match Frequency::guess(&labels) {
+            Some(g) if g != freq => format!(
+                "; the labels look {}: set data.frequency: {}",
+                g.name(),
+                g.name()
+            ),
+            _ => String::new(),
+        };
+        let total = bad_rows.len();
+        for (k, (r, msg)) in bad_rows.into_iter().enumerate() {
+            let line = table.rows[r].line;
+            if k == MAX_CELL_MESSAGES {
+                ctx.diags.push(cell_error(
+                    table,
+                    line,
+                    time_idx,
+                    format!(
+                        "and {} more row(s) from here on whose period label is not {} {} label{hint}",
+                        total - k,
+                        freq.article(),
+                        freq.name()
+                    ),
+                ));
+                break;
+            }
+            let hint = if k == 0 { hint.as_str() } else { "" };
+            ctx.diags
+                .push(cell_error(table, line, time_idx, format!("{msg}{hint}")));
+        }
         return None;
     }
     let step = freq.step();
+    // Rows out of order make gaps of their own; report the disorder alone then.
+    let unsorted = ordinals.windows(2).any(|w| w[1] < w[0]);
+    let mut order_problems = 0;
     for i in 1..ordinals.len() {
         let (prev, cur) = (ordinals[i - 1], ordinals[i]);
         let row = &table.rows[i];
+        let (label, prev_label) = (
+            clip(&row.cells[time_idx]),
+            clip(&table.rows[i - 1].cells[time_idx]),
+        );
         let msg = if cur == prev {
-            Some(format!(
-                "period '{}' repeats the previous row's period",
-                row.cells[time_idx]
-            ))
+            format!(
+                "period '{label}' repeats the previous row's period (line {}); remove the duplicate row",
+                table.rows[i - 1].line
+            )
         } else if cur < prev {
-            Some(format!(
-                "period '{}' comes before the previous row's '{}'; rows must be in time order",
-                row.cells[time_idx],
-                table.rows[i - 1].cells[time_idx]
-            ))
+            format!(
+                "period '{label}' comes before the previous row's '{prev_label}' (line {}); sort the rows in time order",
+                table.rows[i - 1].line
+            )
+        } else if unsorted {
+            continue;
+        } else if (cur - prev) % step != 0 {
+            format!(
+                "period '{label}' is {} days after '{prev_label}'; weekly periods must be 7 days apart, on the same weekday",
+                cur - prev
+            )
         } else if cur - prev != step {
             let missing = (cur - prev) / step - 1;
-            Some(format!(
-                "gap: {} period(s) missing between '{}' and '{}'; periods must follow each other without gaps",
-                missing.max(1),
-                table.rows[i - 1].cells[time_idx],
-                row.cells[time_idx]
-            ))
+            format!(
+                "gap: {missing} period(s) missing between '{prev_label}' (line {}) and '{label}'; periods must follow each other without gaps — add the missing rows (cells may be empty only where SPEC allows)",
+                table.rows[i - 1].line
+            )
         } else {
-            None
+            continue;
         };
-        if let Some(m) = msg {
-            ctx.diags.push(cell_error(table, row.line, time_idx, m));
-            return None;
+        order_problems += 1;
+        if order_problems > MAX_CELL_MESSAGES {
+            ctx.diags.push(cell_error(
+                table,
+                row.line,
+                time_idx,
+                "and more rows out of order or with gaps from here on".to_string(),
+            ));
+            break;
         }
+        ctx.diags.push(cell_error(table, row.line, time_idx, msg));
     }
-    if freq == Frequency::Weekly {
-        // nothing more: a 7-day step already holds for consecutive weeks.
+    if order_problems > 0 {
+        return None;
     }
     let label_style = style.unwrap_or(LabelStyle::Plain);
 
@@ -233,19 +425,10 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
             continue;
         };
         // Parse the target column; the last non-empty cell ends it.
-        let mut raw: Vec<Option<f64>> = Vec::with_capacity(rows.len());
-        let mut ok = true;
-        for row in rows {
-            match parse_number(&row.cells[col]) {
-                Ok(v) => raw.push(v),
-                Err(m) => {
-                    ctx.diags.push(cell_error(table, row.line, col, m));
-                    ok = false;
-                    raw.push(None);
-                }
-            }
-        }
-        if !ok {
+        let Some((raw, invalid)) = parse_column(ctx, table, rows, col, rows.len()) else {
+            continue;
+        };
+        if invalid.iter().any(|&b| b) {
             continue;
         }
         let Some(last) = raw.iter().rposition(Option::is_some) else {
@@ -255,19 +438,16 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
             );
             continue;
         };
-        let mut empty_inside = false;
-        for (i, v) in raw[..=last].iter().enumerate() {
-            if v.is_none() {
-                ctx.diags.push(cell_error(
-                    table,
-                    rows[i].line,
-                    col,
-                    "the cell is empty; a target may only be empty in the future rows after its last value".to_string(),
-                ));
-                empty_inside = true;
-            }
-        }
-        if empty_inside {
+        let empty: Vec<usize> = (0..=last).filter(|&i| raw[i].is_none()).collect();
+        report_cells(
+            ctx,
+            table,
+            col,
+            empty.iter().map(|&i| rows[i].line),
+            "the cell is empty; a target may only be empty in the future rows after its last value — fill it in, or end the data (data.end) before it",
+            "more empty cells",
+        );
+        if !empty.is_empty() {
             continue;
         }
         let lag = transform_lag(req.transform, season);
@@ -287,10 +467,19 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
             ctx.error(
                 node,
                 format!(
-                    "target '{name}' has too few values for the transform {}",
-                    req.transform.name()
+                    "target '{name}' has {} value(s){}; a forecast experiment needs many more",
+                    last + 1 - lag.min(last + 1),
+                    if lag > 0 {
+                        format!(" after the transform {}", req.transform.name())
+                    } else {
+                        String::new()
+                    }
                 ),
             );
+            continue;
+        }
+        let lines: Vec<usize> = rows.iter().map(|r| r.line).collect();
+        if !check_scale(ctx, table, col, &transformed, &lines, req.transform) {
             continue;
         }
         let n = last + 1 - lag;
@@ -323,18 +512,16 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
                 continue;
             };
             let used_rows = if p.known_ahead { rows.len() } else { last + 1 };
-            let mut praw: Vec<Option<f64>> = vec![None; rows.len()];
-            for (i, row) in rows[..used_rows].iter().enumerate() {
-                match parse_number(&row.cells[pcol]) {
-                    Ok(v) => praw[i] = v,
-                    Err(m) => {
-                        ctx.diags.push(cell_error(table, row.line, pcol, m));
-                        pred_ok = false;
-                    }
-                }
-            }
+            let Some((mut praw, invalid)) = parse_column(ctx, table, rows, pcol, used_rows) else {
+                pred_ok = false;
+                continue;
+            };
+            praw.resize(rows.len(), None);
+            let mut this_ok = !invalid.iter().any(|&b| b);
+            // A cell with a bad value is reported as such, not also as empty.
+            let present = |i: usize| praw[i].is_some() || invalid.get(i).copied().unwrap_or(false);
             // Ragged edge: trailing cells up to `release_lag` may be empty.
-            let last_present = praw[..=last].iter().rposition(Option::is_some);
+            let last_present = (0..=last).rev().find(|&i| present(i));
             let allowed_tail = p.release_lag;
             match last_present {
                 None => {
@@ -361,18 +548,23 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
                             if p.release_lag == 0 { "; set release_lag if it is published late" } else { "" }
                         ),
                     ));
-                    pred_ok = false;
+                    this_ok = false;
                 }
                 Some(lp) => {
-                    for (i, v) in praw[..=lp].iter().enumerate() {
-                        if v.is_none() {
-                            ctx.diags.push(cell_error(table, rows[i].line, pcol, "the cell is empty; only a predictor's trailing cells (its ragged edge) may be empty".to_string()));
-                            pred_ok = false;
-                        }
-                    }
+                    let empty: Vec<usize> = (0..=lp).filter(|&i| !present(i)).collect();
+                    report_cells(
+                        ctx,
+                        table,
+                        pcol,
+                        empty.iter().map(|&i| rows[i].line),
+                        "the cell is empty; only a predictor's trailing cells (its ragged edge) may be empty — fill it in",
+                        "more empty cells",
+                    );
+                    this_ok &= empty.is_empty();
                 }
             }
-            if !pred_ok {
+            if !this_ok {
+                pred_ok = false;
                 continue;
             }
             let transformed = match apply_transform(p.transform, &praw, season) {
@@ -388,6 +580,10 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
                     continue;
                 }
             };
+            if !check_scale(ctx, table, pcol, &transformed, &lines, p.transform) {
+                pred_ok = false;
+                continue;
+            }
             pred_values.push(transformed[lag..].to_vec());
         }
         if !pred_ok {

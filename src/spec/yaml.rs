@@ -196,6 +196,24 @@ impl MarkedEventReceiver for Builder {
 /// Parse one YAML document into a positioned tree. An empty file gives an
 /// empty mapping at line 1.
 pub fn parse(text: &str) -> Result<Node, YamlError> {
+    // YAML forbids control characters other than tab and line breaks; name
+    // the first one rather than let it end a scalar silently.
+    for (i, line) in text.lines().enumerate() {
+        if let Some((col, c)) = line
+            .chars()
+            .enumerate()
+            .find(|(_, c)| c.is_control() && *c != '\t' && *c != '\r')
+        {
+            return Err(YamlError {
+                line: i + 1,
+                column: col + 1,
+                message: format!(
+                    "the file holds the control character U+{:04X}; an experiment file is plain text",
+                    c as u32
+                ),
+            });
+        }
+    }
     let mut builder = Builder {
         stack: Vec::new(),
         keys: Vec::new(),
