@@ -26,6 +26,8 @@ pub struct CellOutput {
     pub residuals: Vec<f64>,
     /// Wall-clock seconds the cell took (recorded only in the manifest's `run` section).
     pub seconds: f64,
+    /// Whether the output came from the resume cache (recorded only under `run`).
+    pub cached: bool,
 }
 
 /// The window of the outlook estimation: the last `window` rows when every
@@ -215,6 +217,7 @@ fn likelihood_cell<M: statespace::Likelihood>(
         fallbacks: outcome.fallbacks,
         failure: outcome.failure,
         residuals: outcome.residuals,
+        cached: false,
         seconds: 0.0,
     }
 }
@@ -253,7 +256,7 @@ pub fn problem_diagnostic(exp: &Experiment, cell: &Cell, p: &EstimationProblem) 
 }
 
 /// Fill the combination cells from their members' rows.
-fn combine(exp: &Experiment, cells: &[Cell], outputs: &mut [CellOutput]) {
+pub fn combine(exp: &Experiment, cells: &[Cell], outputs: &mut [CellOutput]) {
     for i in 0..cells.len() {
         let cell = &cells[i];
         let Family::Combination { members, weights } = &exp.candidates[cell.candidate].family
@@ -296,39 +299,79 @@ fn combine(exp: &Experiment, cells: &[Cell], outputs: &mut [CellOutput]) {
     }
 }
 
-/// Run cells in parallel and return their outputs in the given order.
-/// Estimation problems of least-squares and benchmark families make the
-/// experiment invalid (SPEC §4) and are reported together.
-pub fn run(
+/// Whether a cell computes anything itself (combinations are formed from members).
+pub fn is_computed(exp: &Experiment, cell: &Cell) -> bool {
+    !matches!(
+        exp.candidates[cell.candidate].family,
+        Family::Combination { .. }
+    )
+}
+
+/// Run the selected cells in parallel (reading and filling the cache when
+/// given) and return their outputs in the given order. Estimation problems
+/// of least-squares and benchmark families make the experiment invalid
+/// (SPEC §4) and are reported together.
+pub fn run_selected(
     exp: &Experiment,
     cells: &[Cell],
+    selected: &[usize],
+    cache: Option<&crate::cache::Cache>,
     progress: &(dyn Fn() + Sync),
 ) -> Result<Vec<CellOutput>> {
-    let results: Vec<std::result::Result<CellOutput, EstimationProblem>> = cells
+    let results: Vec<std::result::Result<CellOutput, EstimationProblem>> = selected
         .par_iter()
-        .map(|cell| {
+        .map(|&i| {
+            let cell = &cells[i];
+            let key = cache.map(|_| crate::cache::Cache::key(exp, cell));
+            if let (Some(c), Some(k)) = (cache, &key) {
+                if let Some(mut hit) = c.get(k) {
+                    hit.cached = true;
+                    progress();
+                    return Ok(hit);
+                }
+            }
             let started = std::time::Instant::now();
             let r = run_cell(exp, cell).map(|mut o| {
                 o.seconds = started.elapsed().as_secs_f64();
                 o
             });
+            if let (Some(c), Some(k), Ok(out)) = (cache, &key, &r) {
+                c.put(k, &cell.id, out);
+            }
             progress();
             r
         })
         .collect();
     let mut diags = Vec::new();
     let mut outputs = Vec::with_capacity(results.len());
-    for (cell, r) in cells.iter().zip(results) {
+    for (&i, r) in selected.iter().zip(results) {
         match r {
             Ok(o) => outputs.push(o),
             Err(p) => {
-                diags.push(problem_diagnostic(exp, cell, &p));
+                diags.push(problem_diagnostic(exp, &cells[i], &p));
                 outputs.push(CellOutput::default());
             }
         }
     }
     if !diags.is_empty() {
         return Err(Error::Invalid(diags));
+    }
+    Ok(outputs)
+}
+
+/// Run every cell and form the combinations: outputs in plan order.
+pub fn run(
+    exp: &Experiment,
+    cells: &[Cell],
+    progress: &(dyn Fn() + Sync),
+) -> Result<Vec<CellOutput>> {
+    let selected: Vec<usize> = (0..cells.len())
+        .filter(|&i| is_computed(exp, &cells[i]))
+        .collect();
+    let computed = run_selected(exp, cells, &selected, None, progress)?;
+    let mut outputs = vec![CellOutput::default(); cells.len()];
+    for (i, o) in selected.into_iter().zip(computed) {
+        outputs[i] = o;
     }
     combine(exp, cells, &mut outputs);
     Ok(outputs)

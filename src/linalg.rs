@@ -32,12 +32,12 @@ impl fmt::Display for LinalgError {
         match self {
             LinalgError::TooFewRows { rows, coefficients } => write!(
                 f,
-                "{rows} estimation rows for {coefficients} coefficients; least squares needs at least {}",
+                "{rows} estimation rows for {coefficients} coefficients; least squares needs at least {} (coefficients + 1)",
                 coefficients + 1
             ),
             LinalgError::RankDeficient { column } => write!(
                 f,
-                "the design is singular or nearly so: regressor {} is (almost) a linear combination of the earlier ones",
+                "the design is singular or nearly so: regressor {} (counting the trend terms, then the target's lags, then each predictor's lags) is a linear combination of the earlier ones to within the relative tolerance {RANK_TOLERANCE:e} — a series that does not vary, or predictors that move together, cause this",
                 column + 1
             ),
             LinalgError::NonFinite => write!(f, "a regressor or dependent value is not finite"),

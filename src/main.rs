@@ -31,12 +31,102 @@ enum Command {
         /// No progress output.
         #[arg(long)]
         quiet: bool,
+        /// Run one shard of the cells and write a shard folder: K/N, or
+        /// `slurm` (SLURM_ARRAY_TASK_ID, SLURM_ARRAY_TASK_COUNT), or `k8s`
+        /// (JOB_COMPLETION_INDEX with the count from OUTTURN_SHARDS, or `k8s/N`).
+        #[arg(long)]
+        shard: Option<String>,
+        /// Do not read or write the resume cache of finished cells.
+        #[arg(long)]
+        no_cache: bool,
     },
     /// Validate the experiment and its data; print the grid size; write nothing.
     Check {
         /// The experiment file (YAML).
         file: PathBuf,
     },
+    /// Rerun the experiment recorded in a results folder and compare every output byte for byte.
+    Verify {
+        /// The results folder.
+        dir: PathBuf,
+        /// Worker threads (default: all cores).
+        #[arg(long, value_parser = clap::value_parser!(u16).range(1..))]
+        jobs: Option<u16>,
+    },
+    /// Join the shard folders of one experiment into one results folder.
+    Merge {
+        /// Shard folders written by `run --shard`.
+        #[arg(required = true)]
+        dirs: Vec<PathBuf>,
+        /// The results folder to write.
+        #[arg(long)]
+        out: PathBuf,
+    },
+    /// Re-render the reports of a results folder from its stored tables.
+    Render {
+        /// The results folder.
+        dir: PathBuf,
+        /// A folder holding your own report.md.j2 and report.html.j2.
+        #[arg(long)]
+        templates: Option<PathBuf>,
+    },
+    /// Inspect a CSV and print a commented starter experiment file.
+    Draft {
+        /// The data file (CSV with a header row).
+        data: PathBuf,
+    },
+    /// List model families, metrics and tests with one line each.
+    Kinds,
+}
+
+/// `--shard` as (K, N), 1-based.
+fn parse_shard(text: &str) -> Result<(usize, usize), String> {
+    let env = |name: &str| -> Result<usize, String> {
+        std::env::var(name)
+            .map_err(|_| format!("--shard {text}: the environment variable {name} is not set"))?
+            .trim()
+            .parse::<usize>()
+            .map_err(|_| format!("--shard {text}: {name} is not a whole number"))
+    };
+    let (k, n) = if text == "slurm" {
+        // Array ids may start at 0 or 1 (--array=0-3 or 1-4); count from the smallest.
+        let id = env("SLURM_ARRAY_TASK_ID")?;
+        let min = env("SLURM_ARRAY_TASK_MIN").unwrap_or(if id == 0 { 0 } else { 1 });
+        (
+            id.checked_sub(min)
+                .ok_or("--shard slurm: SLURM_ARRAY_TASK_ID is below SLURM_ARRAY_TASK_MIN")?
+                + 1,
+            env("SLURM_ARRAY_TASK_COUNT")?,
+        )
+    } else if let Some(rest) = text.strip_prefix("k8s") {
+        let n = match rest.strip_prefix('/') {
+            Some(n) => n.parse().map_err(|_| {
+                format!("--shard {text}: the count after k8s/ is not a whole number")
+            })?,
+            None if rest.is_empty() => env("OUTTURN_SHARDS")?,
+            None => return Err(format!("--shard {text}: write k8s or k8s/N")),
+        };
+        (env("JOB_COMPLETION_INDEX")? + 1, n)
+    } else {
+        let (k, n) = text
+            .split_once('/')
+            .ok_or_else(|| format!("--shard {text}: write K/N, e.g. 2/8, or slurm, or k8s"))?;
+        let k = k
+            .trim()
+            .parse()
+            .map_err(|_| format!("--shard {text}: K is not a whole number"))?;
+        let n = n
+            .trim()
+            .parse()
+            .map_err(|_| format!("--shard {text}: N is not a whole number"))?;
+        (k, n)
+    };
+    if n == 0 || k == 0 || k > n {
+        return Err(format!(
+            "--shard {text}: shard {k} of {n} does not exist (K runs from 1 to N)"
+        ));
+    }
+    Ok((k, n))
 }
 
 fn main() -> ExitCode {
@@ -60,13 +150,42 @@ fn main() -> ExitCode {
                 s.experiment, s.targets, s.candidates, s.schemes, s.cells, s.horizons, s.forecasts
             );
         }),
-        Command::Run { file, out, jobs, quiet } => {
-            let opts = outturn::RunOptions { out, jobs: jobs.map(usize::from), quiet };
+        Command::Run { file, out, jobs, quiet, shard, no_cache } => {
+            let shard = match shard.as_deref().map(parse_shard).transpose() {
+                Ok(s) => s,
+                Err(msg) => {
+                    eprintln!("error: {msg}");
+                    return ExitCode::from(2);
+                }
+            };
+            let opts = outturn::RunOptions { out, jobs: jobs.map(usize::from), quiet, shard, no_cache };
             outturn::run(&file, &opts).map(|s| {
                 if !quiet {
                     eprintln!("{} cells, {} forecasts in {:.2} s → {}", s.cells, s.forecasts, s.seconds, s.folder.display());
                 }
             })
+        }
+        Command::Verify { dir, jobs } => match outturn::verify::verify(&dir, jobs.map(usize::from)) {
+            Ok(v) => match v.difference {
+                None => {
+                    println!("verified: all {} outputs of {} are byte-identical to a rerun", v.files, dir.display());
+                    Ok(())
+                }
+                Some(d) => {
+                    println!("DIFFERENT: {d}");
+                    return ExitCode::from(1);
+                }
+            },
+            Err(e) => Err(e),
+        },
+        Command::Merge { dirs, out } => outturn::shard::merge(&dirs, &out).map(|cells| {
+            eprintln!("merged {} shard folder(s), {cells} cells → {}", dirs.len(), out.display());
+        }),
+        Command::Render { dir, templates } => outturn::report::render::render_folder(&dir, templates.as_deref()),
+        Command::Draft { data } => outturn::draft::draft(&data).map(|text| print!("{text}")),
+        Command::Kinds => {
+            print!("{}", outturn::kinds::text());
+            Ok(())
         }
     };
     match result {

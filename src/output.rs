@@ -1,23 +1,38 @@
 //! Writing a results folder whole or not at all (SPEC §5). Files are built in
-//! a temporary folder beside the target, then swapped in:
+//! a temporary folder beside the target (`.<name>.outturn-tmp-<pid>`), each
+//! synced to disk, then swapped in:
 //! - target absent: one rename;
 //! - target present, Linux: renameat2(RENAME_EXCHANGE) swaps the two folders
 //!   atomically, then the old one (now at the temporary name) is removed;
-//! - elsewhere: a two-step swap, target → `.<name>.outturn-old`, temporary →
-//!   target. A crash between the steps leaves the old folder at the `-old`
-//!   name and no target; the next run puts it back before doing anything.
+//! - elsewhere (or where the file system refuses the exchange): a two-step
+//!   swap, target → `.<name>.outturn-old`, temporary → target. A crash
+//!   between the steps leaves the old folder at the `-old` name and no
+//!   target; the next run puts it back ([`recover`]) before doing anything.
 //!
-//! An interrupt (Ctrl-C) removes the temporary folder and leaves the
-//! previous results as they were.
+//! An interrupt (Ctrl-C) calls [`cleanup_pending`]: it waits for a write in
+//! progress to stop at its next step (it never stops a swap half-way), then
+//! removes the temporary folder, so the previous results stay as they were
+//! and no debris is left. Temporary folders of runs killed outright
+//! (SIGKILL, power loss) are removed by the next run into the same target,
+//! once their process no longer exists.
 
 use crate::error::{Error, Result};
 use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::Mutex;
 
 static PENDING: Mutex<Vec<PathBuf>> = Mutex::new(Vec::new());
+/// Held for the whole of a write; an interrupt waits for it.
+static WRITING: Mutex<()> = Mutex::new(());
+/// Set by an interrupt: a write in progress stops at its next step.
+static INTERRUPTED: AtomicBool = AtomicBool::new(false);
 
-/// Remove every temporary folder still registered (called on interrupt).
+/// Stop any write in progress and remove every temporary folder still
+/// registered (called on interrupt, before the process exits).
 pub fn cleanup_pending() {
+    INTERRUPTED.store(true, Ordering::SeqCst);
+    // Wait for a write in progress to notice the flag (or to finish its swap).
+    let _guard = WRITING.lock().unwrap_or_else(|e| e.into_inner());
     if let Ok(mut list) = PENDING.lock() {
         for p in list.drain(..) {
             let _ = std::fs::remove_dir_all(p);
@@ -37,23 +52,88 @@ fn unregister(p: &Path) {
     }
 }
 
-fn sibling(target: &Path, suffix: &str) -> PathBuf {
-    let name = target
+fn folder_name(target: &Path) -> String {
+    target
         .file_name()
         .map(|n| n.to_string_lossy().to_string())
-        .unwrap_or_else(|| "results".into());
-    target.with_file_name(format!(".{name}.outturn-{suffix}"))
+        .unwrap_or_else(|| "results".into())
+}
+
+fn sibling(target: &Path, suffix: &str) -> PathBuf {
+    target.with_file_name(format!(".{}.outturn-{suffix}", folder_name(target)))
+}
+
+/// Whether process `pid` still exists (a temporary folder of a live run must
+/// not be touched).
+fn process_alive(pid: u32) -> bool {
+    #[cfg(unix)]
+    {
+        let Ok(pid) = libc::pid_t::try_from(pid) else {
+            return false;
+        };
+        // SAFETY: kill with signal 0 only checks that the process exists.
+        let rc = unsafe { libc::kill(pid, 0) };
+        rc == 0 || std::io::Error::last_os_error().raw_os_error() == Some(libc::EPERM)
+    }
+    #[cfg(not(unix))]
+    {
+        let _ = pid;
+        true
+    }
 }
 
 /// Put back a folder left at the `-old` name by a crash in the middle of a
-/// two-step swap, and clear temporary debris of earlier interrupted runs.
+/// two-step swap, and clear temporary folders of earlier runs into the same
+/// target whose process has gone.
 pub fn recover(target: &Path) {
     let old = sibling(target, "old");
     if old.is_dir() && !target.exists() {
         let _ = std::fs::rename(&old, target);
     } else if old.is_dir() {
+        // The swap's second step happened: the target is the newer folder.
         let _ = std::fs::remove_dir_all(&old);
     }
+    let parent = match target.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
+        _ => PathBuf::from("."),
+    };
+    let prefix = format!(".{}.outturn-tmp-", folder_name(target));
+    let Ok(entries) = std::fs::read_dir(&parent) else {
+        return;
+    };
+    for entry in entries.flatten() {
+        let name = entry.file_name().to_string_lossy().to_string();
+        let Some(pid) = name
+            .strip_prefix(&prefix)
+            .and_then(|p| p.parse::<u32>().ok())
+        else {
+            continue;
+        };
+        if pid != std::process::id() && !process_alive(pid) {
+            let _ = std::fs::remove_dir_all(entry.path());
+        }
+    }
+}
+
+/// Refuse a target that exists and is not an outturn results folder (one
+/// with a manifest.json) nor an empty folder: writing would destroy it.
+/// Cheap, so a run can call it before any work.
+pub fn check_target(target: &Path) -> Result<()> {
+    if !target.exists() {
+        // A folder left at the `-old` name by a crash counts as the target.
+        return Ok(());
+    }
+    let is_ours = target.join("manifest.json").is_file();
+    let is_empty = std::fs::read_dir(target)
+        .map(|mut d| d.next().is_none())
+        .unwrap_or(false);
+    if !target.is_dir() || !(is_ours || is_empty) {
+        return Err(Error::Run(format!(
+            "{} exists and is not an outturn results folder (no manifest.json); refusing to replace it — choose another --out",
+            target.display()
+        )));
+    }
+    Ok(())
 }
 
 #[cfg(target_os = "linux")]
@@ -84,26 +164,26 @@ fn exchange(_a: &Path, _b: &Path) -> bool {
     false
 }
 
+fn interrupted() -> Result<()> {
+    if INTERRUPTED.load(Ordering::SeqCst) {
+        return Err(Error::Run(
+            "interrupted: earlier results are left as they were".into(),
+        ));
+    }
+    Ok(())
+}
+
 /// Write `files` (name, bytes) as the folder `target`, replacing an earlier
 /// results folder only when every file has been written.
 pub fn write_folder(target: &Path, files: &[(String, Vec<u8>)]) -> Result<()> {
+    let _guard = WRITING.lock().unwrap_or_else(|e| e.into_inner());
+    interrupted()?;
     if let Some(parent) = target.parent().filter(|p| !p.as_os_str().is_empty()) {
         std::fs::create_dir_all(parent)
             .map_err(|e| Error::io(format!("cannot create {}", parent.display()), e))?;
     }
     recover(target);
-    if target.exists() {
-        let is_ours = target.join("manifest.json").is_file();
-        let is_empty = std::fs::read_dir(target)
-            .map(|mut d| d.next().is_none())
-            .unwrap_or(false);
-        if !target.is_dir() || !(is_ours || is_empty) {
-            return Err(Error::Run(format!(
-                "{} exists and is not an outturn results folder (no manifest.json); refusing to replace it — choose another --out",
-                target.display()
-            )));
-        }
-    }
+    check_target(target)?;
     let tmp = sibling(target, &format!("tmp-{}", std::process::id()));
     let _ = std::fs::remove_dir_all(&tmp);
     register(&tmp);
@@ -111,13 +191,21 @@ pub fn write_folder(target: &Path, files: &[(String, Vec<u8>)]) -> Result<()> {
         std::fs::create_dir(&tmp)
             .map_err(|e| Error::io(format!("cannot create {}", tmp.display()), e))?;
         for (name, bytes) in files {
+            interrupted()?;
             let path = tmp.join(name);
-            std::fs::write(&path, bytes)
-                .map_err(|e| Error::io(format!("cannot write {}", path.display()), e))?;
+            let write = || -> std::io::Result<()> {
+                use std::io::Write;
+                let mut f = std::fs::File::create(&path)?;
+                f.write_all(bytes)?;
+                f.sync_all()
+            };
+            write().map_err(|e| Error::io(format!("cannot write {}", path.display()), e))?;
         }
         if let Ok(f) = std::fs::File::open(&tmp) {
             let _ = f.sync_all();
         }
+        interrupted()?;
+        // From here on the swap runs to its end; an interrupt waits for it.
         if !target.exists() {
             std::fs::rename(&tmp, target).map_err(|e| {
                 Error::io(format!("cannot move results into {}", target.display()), e)
@@ -126,17 +214,7 @@ pub fn write_folder(target: &Path, files: &[(String, Vec<u8>)]) -> Result<()> {
             // The old results now sit at the temporary name.
             let _ = std::fs::remove_dir_all(&tmp);
         } else {
-            let old = sibling(target, "old");
-            std::fs::rename(target, &old)
-                .map_err(|e| Error::io(format!("cannot move aside {}", target.display()), e))?;
-            if let Err(e) = std::fs::rename(&tmp, target) {
-                let _ = std::fs::rename(&old, target);
-                return Err(Error::io(
-                    format!("cannot move results into {}", target.display()),
-                    e,
-                ));
-            }
-            let _ = std::fs::remove_dir_all(&old);
+            two_step_swap(&tmp, target)?;
         }
         Ok(())
     })();
@@ -145,4 +223,85 @@ pub fn write_folder(target: &Path, files: &[(String, Vec<u8>)]) -> Result<()> {
     }
     unregister(&tmp);
     result
+}
+
+/// The swap where no exchange rename exists: target → `-old`, `tmp` →
+/// target, then the old folder is removed. See the module docs for the
+/// recovery after a crash between the steps.
+fn two_step_swap(tmp: &Path, target: &Path) -> Result<()> {
+    let old = sibling(target, "old");
+    let _ = std::fs::remove_dir_all(&old);
+    std::fs::rename(target, &old)
+        .map_err(|e| Error::io(format!("cannot move aside {}", target.display()), e))?;
+    if let Err(e) = std::fs::rename(tmp, target) {
+        let _ = std::fs::rename(&old, target);
+        return Err(Error::io(
+            format!("cannot move results into {}", target.display()),
+            e,
+        ));
+    }
+    let _ = std::fs::remove_dir_all(&old);
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn scratch(name: &str) -> PathBuf {
+        let dir =
+            std::env::temp_dir().join(format!("outturn-output-{name}-{}", std::process::id()));
+        let _ = std::fs::remove_dir_all(&dir);
+        std::fs::create_dir_all(&dir).unwrap();
+        dir
+    }
+
+    fn files(tag: &str) -> Vec<(String, Vec<u8>)> {
+        vec![
+            (
+                "manifest.json".into(),
+                format!("{{\"tag\":\"{tag}\"}}").into_bytes(),
+            ),
+            ("scores.csv".into(), tag.as_bytes().to_vec()),
+        ]
+    }
+
+    fn listing(dir: &Path) -> Vec<String> {
+        let mut names: Vec<String> = std::fs::read_dir(dir)
+            .unwrap()
+            .flatten()
+            .map(|e| e.file_name().to_string_lossy().to_string())
+            .collect();
+        names.sort();
+        names
+    }
+
+    #[test]
+    fn the_two_step_swap_replaces_and_leaves_nothing_behind() {
+        let dir = scratch("two-step");
+        let target = dir.join("res");
+        write_folder(&target, &files("one")).unwrap();
+        let tmp = sibling(&target, "tmp-test");
+        std::fs::create_dir(&tmp).unwrap();
+        for (name, bytes) in files("two") {
+            std::fs::write(tmp.join(name), bytes).unwrap();
+        }
+        two_step_swap(&tmp, &target).unwrap();
+        assert_eq!(std::fs::read(target.join("scores.csv")).unwrap(), b"two");
+        assert_eq!(listing(&dir), vec!["res".to_string()]);
+        let _ = std::fs::remove_dir_all(&dir);
+    }
+
+    #[test]
+    fn stale_temporary_folders_of_dead_runs_are_cleared() {
+        let dir = scratch("stale");
+        let target = dir.join("res");
+        // No process has id u32::MAX - 1 (Linux pids stay below 2^22).
+        let stale = sibling(&target, &format!("tmp-{}", u32::MAX - 1));
+        std::fs::create_dir(&stale).unwrap();
+        std::fs::write(stale.join("scores.csv"), b"half").unwrap();
+        write_folder(&target, &files("new")).unwrap();
+        assert_eq!(listing(&dir), vec!["res".to_string()]);
+        let _ = std::fs::remove_dir_all(&dir);
+    }
 }

@@ -31,6 +31,14 @@ pub fn cells(exp: &Experiment) -> Vec<Cell> {
     out
 }
 
+/// The shard (1-based, of `count`) a cell belongs to: a stable hash of its id
+/// (the first eight bytes of its SHA-256), so shards do not depend on order.
+pub fn shard_of(cell: &Cell, count: usize) -> usize {
+    let hex = crate::spec::sha256_hex(cell.id.as_bytes());
+    let h = u64::from_str_radix(&hex[..16], 16).unwrap_or(0);
+    (h % count.max(1) as u64) as usize + 1
+}
+
 /// Origins of a scheme at horizon h: T0..=N−h, or T0 alone with `origins: first`.
 pub fn origins(
     scheme: &Scheme,

@@ -11,6 +11,8 @@ pub struct RunFacts {
     pub host: String,
     pub started_unix: u64,
     pub shard: String,
+    /// Absolute path of the experiment file, so `verify` and `merge` can find it.
+    pub experiment_path: String,
 }
 
 /// Per-cell facts: id, status, fallbacks (deterministic) and seconds (run only).
@@ -19,6 +21,7 @@ pub struct CellFacts {
     pub failure: Option<String>,
     pub fallbacks: usize,
     pub seconds: f64,
+    pub cached: bool,
 }
 
 pub fn manifest(
@@ -73,7 +76,9 @@ pub fn manifest(
             "seconds": run.seconds,
             "threads": run.threads,
             "host": run.host,
-            "shard": run.shard,
+                        "shard": run.shard,
+                        "experiment_path": run.experiment_path,
+            "cells_from_cache": cells.iter().filter(|c| c.cached).count(),
             "cell_seconds": cells.iter().map(|c| json!({"id": c.id, "seconds": c.seconds})).collect::<Vec<_>>(),
         },
     });

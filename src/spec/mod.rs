@@ -462,6 +462,7 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
         intervals,
         tests,
         periods,
+        period_nodes,
         rolling_window,
     } = scoring;
     // SPEC §4: the id named, else naive when it is a candidate, else the first candidate.
@@ -583,6 +584,35 @@ fn decode_experiment(ctx: &mut Ctx, root: &Node, path: &Path, text: &str) -> Opt
     let (Some(name), Some(resolved)) = (name, resolved) else {
         return None;
     };
+    // A period set must hold some scored period: target periods after a
+    // scheme's first origin.
+    for (set, node) in periods.iter().zip(&period_nodes) {
+        let scored = resolved.targets.iter().any(|t| {
+            let first = t.first_origins.iter().copied().min().unwrap_or(0);
+            t.ordinals[first.min(t.n)..t.n]
+                .iter()
+                .any(|&o| o >= set.from_ordinal && o <= set.to_ordinal)
+        });
+        if !scored {
+            let t = &resolved.targets[0];
+            let first = t.first_origins.iter().copied().min().unwrap_or(0);
+            let range = if first < t.n {
+                format!("{} to {}", t.labels[first], t.labels[t.n - 1])
+            } else {
+                "none".to_string()
+            };
+            ctx.error(
+                node,
+                format!(
+                    "scoring.periods.{}: {} to {} holds no forecast to score (the scored periods run from {range}); move it into that range or remove it",
+                    set.name, set.from, set.to
+                ),
+            );
+        }
+    }
+    if !ctx.diags.is_empty() {
+        return None;
+    }
     let title = title.unwrap_or_else(|| name.clone());
     Some(Experiment {
         name,
@@ -1367,6 +1397,8 @@ struct Scoring {
     intervals: Vec<IntervalLevel>,
     tests: TestsSpec,
     periods: Vec<PeriodSet>,
+    /// Where each period set is written, for messages.
+    period_nodes: Vec<Node>,
     rolling_window: Option<usize>,
 }
 
@@ -1380,6 +1412,7 @@ impl Default for Scoring {
             tests: TestsSpec::default(),
             periods: Vec::new(),
             rolling_window: None,
+            period_nodes: Vec::new(),
         }
     }
 }
@@ -1441,14 +1474,14 @@ fn decode_scoring(ctx: &mut Ctx, node: &Node, frequency: Option<Frequency>) -> S
                     .trim_end_matches('%')
                     .parse::<f64>()
                     .ok()
-                    .filter(|v| *v > 1.0 && *v < 100.0),
+                    .filter(|v| *v >= 10.0 && *v < 100.0),
                 _ => None,
             };
             if let Some(p) = percent_given {
                 ctx.error(
                     item,
                     format!(
-                        "scoring.intervals lists levels as fractions: write {} for a {p}% interval",
+                        "scoring.intervals lists levels as fractions: write {} for {p}%",
                         p / 100.0
                     ),
                 );
@@ -1640,6 +1673,7 @@ fn decode_scoring(ctx: &mut Ctx, node: &Node, frequency: Option<Frequency>) -> S
                         continue;
                     }
                     out.periods.push(PeriodSet { name, from, to, from_ordinal, to_ordinal });
+                    out.period_nodes.push(key.clone());
                 }
             }
             _ if p.is_null() => {}

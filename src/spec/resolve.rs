@@ -429,6 +429,17 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
             continue;
         };
         if invalid.iter().any(|&b| b) {
+            // Still report the predictors' bad cells in the same pass.
+            let last = (0..rows.len())
+                .rev()
+                .find(|&i| raw[i].is_some() || invalid[i])
+                .unwrap_or(0);
+            for (p, pcol) in req.predictors.iter().zip(&pred_cols) {
+                if let Some(pcol) = *pcol {
+                    let used = if p.known_ahead { rows.len() } else { last + 1 };
+                    let _ = parse_column(ctx, table, rows, pcol, used);
+                }
+            }
             continue;
         }
         let Some(last) = raw.iter().rposition(Option::is_some) else {

@@ -225,6 +225,20 @@ pub fn parse(text: &str) -> Result<Node, YamlError> {
     let mut parser = Parser::new_from_str(text);
     if let Err(e) = parser.load(&mut builder, true) {
         let m = e.marker();
+        // The scanner reports a tab where the scalar before it began; point
+        // at the tab that indents a line instead, where an editor shows it.
+        let tab = text.lines().enumerate().find_map(|(i, line)| {
+            let indent = &line[..line.len() - line.trim_start().len()];
+            indent.find('\t').map(|col| (i + 1, col + 1))
+        });
+        let about_tabs = e.info().contains("tab");
+        if let Some((line, column)) = tab.filter(|(line, _)| about_tabs && *line <= m.line() + 1) {
+            return Err(YamlError {
+                line,
+                column,
+                message: "a tab indents this line; YAML indents with spaces only".into(),
+            });
+        }
         return Err(YamlError {
             line: m.line(),
             column: m.col() + 1,
@@ -267,6 +281,38 @@ mod tests {
         assert_eq!(items[1].line, 4);
         assert_eq!(items[1].kind, Kind::Scalar("y".into(), true));
     }
+    #[test]
+    fn nested_aliases_cannot_expand_without_bound() {
+        let mut text = String::from("a: &a [x, x, x, x, x, x, x, x, x, x]\n");
+        for i in 1..9u8 {
+            let (name, prev) = ((b'a' + i) as char, (b'a' + i - 1) as char);
+            let items = vec![format!("*{prev}"); 10].join(", ");
+            text.push_str(&format!("{name}: &{name} [{items}]\n"));
+        }
+        let err = parse(&text).unwrap_err();
+        assert!(
+            err.message.contains("expands to more than"),
+            "{}",
+            err.message
+        );
+        // A few aliases are fine.
+        assert!(parse("a: &a [1, 2]\nb: *a\n").is_ok());
+    }
+
+    #[test]
+    fn control_characters_and_tabs_are_pointed_at() {
+        let err = parse("a: 1\nb: x\u{7}y\n").unwrap_err();
+        assert_eq!((err.line, err.column), (2, 5));
+        let err = parse("a:\n  b: 1\n\tc: 2\n").unwrap_err();
+        assert_eq!((err.line, err.column), (3, 1), "{}", err.message);
+    }
+
+    #[test]
+    fn a_block_mapping_stands_at_its_first_key() {
+        let node = parse("\n  a: 1\n  b: 2\n").expect("valid yaml");
+        assert_eq!((node.line, node.column), (2, 3));
+    }
+
     #[test]
     fn malformed_yaml_reports_line() {
         let err = parse("a: [1, 2\nb: 3\n").unwrap_err();

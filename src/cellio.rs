@@ -1,0 +1,223 @@
+//! A lossless text form of a cell's output, for shard folders (SPEC §6) and
+//! the resume cache. Floats are written as the shortest text that reads back
+//! to the same f64, so a merged run is byte-identical to a single one.
+//!
+//! ```text
+//! cell <id>
+//! fallbacks <n>
+//! failure <message>            (only when the cell failed)
+//! f <h> <origin> <forecast> <is_mse> <is_var> <variance> <order>
+//! o <h> <forecast> <variance>
+//! r <residual> <residual> …
+//! end
+//! ```
+//! `-` stands for an undefined value.
+
+use crate::backtest::CellOutput;
+use crate::models::{ForecastRow, Order, OutlookRow};
+
+fn num(v: f64) -> String {
+    if v.is_nan() {
+        return "nan".into();
+    }
+    format!("{v:e}")
+}
+
+fn opt(v: Option<f64>) -> String {
+    v.map(num).unwrap_or_else(|| "-".into())
+}
+
+fn parse_opt(s: &str) -> Result<Option<f64>, String> {
+    if s == "-" {
+        return Ok(None);
+    }
+    parse_num(s).map(Some)
+}
+
+fn parse_num(s: &str) -> Result<f64, String> {
+    s.parse::<f64>()
+        .map_err(|_| format!("'{s}' is not a number"))
+}
+
+fn order_text(o: Option<Order>) -> String {
+    match o {
+        None => "-".into(),
+        Some(Order::Ar(p)) => format!("ar:{p}"),
+        Some(Order::Ardl(p, q)) => format!("ardl:{p}:{q}"),
+        Some(Order::Arima(p, d, q)) => format!("arima:{p}:{d}:{q}"),
+    }
+}
+
+fn parse_order(s: &str) -> Result<Option<Order>, String> {
+    if s == "-" {
+        return Ok(None);
+    }
+    let parts: Vec<&str> = s.split(':').collect();
+    let n = |i: usize| -> Result<usize, String> {
+        parts
+            .get(i)
+            .and_then(|v| v.parse().ok())
+            .ok_or_else(|| format!("bad order '{s}'"))
+    };
+    match parts[0] {
+        "ar" => Ok(Some(Order::Ar(n(1)?))),
+        "ardl" => Ok(Some(Order::Ardl(n(1)?, n(2)?))),
+        "arima" => Ok(Some(Order::Arima(n(1)?, n(2)?, n(3)?))),
+        _ => Err(format!("bad order '{s}'")),
+    }
+}
+
+/// Write one cell's output.
+pub fn write_cell(id: &str, out: &CellOutput, buf: &mut String) {
+    use std::fmt::Write;
+    let _ = writeln!(buf, "cell {id}");
+    let _ = writeln!(buf, "fallbacks {}", out.fallbacks);
+    if let Some(f) = &out.failure {
+        let _ = writeln!(buf, "failure {}", f.replace('\n', " "));
+    }
+    for r in &out.forecasts {
+        let _ = writeln!(
+            buf,
+            "f {} {} {} {} {} {} {}",
+            r.horizon,
+            r.origin,
+            num(r.forecast),
+            opt(r.is_mse),
+            opt(r.is_var),
+            opt(r.variance),
+            order_text(r.order)
+        );
+    }
+    for r in &out.outlook {
+        let _ = writeln!(
+            buf,
+            "o {} {} {}",
+            r.horizon,
+            opt(r.forecast),
+            opt(r.variance)
+        );
+    }
+    if !out.residuals.is_empty() {
+        let parts: Vec<String> = out.residuals.iter().map(|v| num(*v)).collect();
+        let _ = writeln!(buf, "r {}", parts.join(" "));
+    }
+    buf.push_str("end\n");
+}
+
+/// Read every cell of a text written by [`write_cell`]: (id, output).
+pub fn read_cells(text: &str) -> Result<Vec<(String, CellOutput)>, String> {
+    let mut cells = Vec::new();
+    let mut current: Option<(String, CellOutput)> = None;
+    for (i, line) in text.lines().enumerate() {
+        let at = |e: String| format!("line {}: {e}", i + 1);
+        let (tag, rest) = line.split_once(' ').unwrap_or((line, ""));
+        match tag {
+            "cell" => {
+                if current.is_some() {
+                    return Err(at("a cell starts before the previous one ended".into()));
+                }
+                current = Some((rest.to_string(), CellOutput::default()));
+            }
+            "end" => match current.take() {
+                Some(c) => cells.push(c),
+                None => return Err(at("'end' without a cell".into())),
+            },
+            _ => {
+                let Some((_, out)) = current.as_mut() else {
+                    return Err(at(format!("'{tag}' outside a cell")));
+                };
+                let f: Vec<&str> = rest.split(' ').collect();
+                match tag {
+                    "fallbacks" => {
+                        out.fallbacks = rest.parse().map_err(|_| at("bad fallbacks".into()))?
+                    }
+                    "failure" => out.failure = Some(rest.to_string()),
+                    "f" if f.len() == 7 => out.forecasts.push(ForecastRow {
+                        horizon: f[0].parse().map_err(|_| at("bad horizon".into()))?,
+                        origin: f[1].parse().map_err(|_| at("bad origin".into()))?,
+                        forecast: parse_num(f[2]).map_err(at)?,
+                        is_mse: parse_opt(f[3]).map_err(at)?,
+                        is_var: parse_opt(f[4]).map_err(at)?,
+                        variance: parse_opt(f[5]).map_err(at)?,
+                        order: parse_order(f[6]).map_err(at)?,
+                    }),
+                    "o" if f.len() == 3 => out.outlook.push(OutlookRow {
+                        horizon: f[0].parse().map_err(|_| at("bad horizon".into()))?,
+                        forecast: parse_opt(f[1]).map_err(at)?,
+                        variance: parse_opt(f[2]).map_err(at)?,
+                    }),
+                    "r" => {
+                        out.residuals = f
+                            .iter()
+                            .map(|v| parse_num(v))
+                            .collect::<Result<_, _>>()
+                            .map_err(at)?;
+                    }
+                    _ => return Err(at(format!("unreadable line '{line}'"))),
+                }
+            }
+        }
+    }
+    if current.is_some() {
+        return Err("the text ends inside a cell".into());
+    }
+    Ok(cells)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn round_trips_bit_for_bit() {
+        // Property by construction: every f64 written reads back to the same bits.
+        let out = CellOutput {
+            forecasts: vec![ForecastRow {
+                horizon: 4,
+                origin: 17,
+                forecast: 0.1 + 0.2,
+                is_mse: Some(1.0 / 3.0),
+                is_var: None,
+                variance: Some(5e-324),
+                order: Some(Order::Ardl(2, 1)),
+            }],
+            outlook: vec![OutlookRow {
+                horizon: 4,
+                forecast: None,
+                variance: Some(-0.0),
+            }],
+            residuals: vec![1e300, -2.5, f64::MIN_POSITIVE],
+            fallbacks: 2,
+            failure: Some("did not converge".into()),
+            seconds: 0.0,
+            cached: false,
+        };
+        let mut text = String::new();
+        write_cell("y/ardl(2,1)/expanding", &out, &mut text);
+        let back = read_cells(&text).unwrap();
+        assert_eq!(back.len(), 1);
+        assert_eq!(back[0].0, "y/ardl(2,1)/expanding");
+        let b = &back[0].1;
+        assert_eq!(b.forecasts, out.forecasts);
+        assert_eq!(
+            b.forecasts[0].forecast.to_bits(),
+            out.forecasts[0].forecast.to_bits()
+        );
+        assert_eq!(
+            b.outlook[0].variance.unwrap().to_bits(),
+            (-0.0f64).to_bits()
+        );
+        assert_eq!(b.residuals, out.residuals);
+        assert_eq!(
+            (b.fallbacks, b.failure.as_deref()),
+            (2, Some("did not converge"))
+        );
+    }
+
+    #[test]
+    fn damaged_text_is_refused() {
+        assert!(read_cells("cell a\nf 1 2 x - - - -\nend\n").is_err());
+        assert!(read_cells("cell a\n").is_err());
+        assert!(read_cells("f 1 2 3 - - - -\n").is_err());
+    }
+}

@@ -1,0 +1,206 @@
+//! `outturn draft DATA.csv`: look at a CSV — which column holds periods, at
+//! what frequency and in which label style, which columns are numeric, which
+//! end early (a ragged edge) — and print a commented starter experiment that
+//! `outturn check` accepts when saved in the current folder.
+
+use crate::error::{Error, Location, Result};
+use crate::spec::data::{parse_number, read_table};
+use crate::spec::period::{parse_label, Frequency};
+use std::path::Path;
+
+fn detect_frequency(labels: &[&str]) -> Option<Frequency> {
+    let candidates = [
+        Frequency::Quarterly,
+        Frequency::Monthly,
+        Frequency::Daily,
+        Frequency::Weekly,
+        Frequency::Annual,
+        Frequency::Index,
+    ];
+    for f in candidates {
+        let ords: Option<Vec<i64>> = labels
+            .iter()
+            .map(|l| parse_label(f, l).ok().map(|(o, _)| o))
+            .collect();
+        let Some(ords) = ords else { continue };
+        if ords.len() < 2 {
+            continue;
+        }
+        let step = ords[1] - ords[0];
+        if !ords.windows(2).all(|w| w[1] - w[0] == step) {
+            continue;
+        }
+        match f {
+            Frequency::Daily if step == 7 => return Some(Frequency::Weekly),
+            Frequency::Daily | Frequency::Quarterly | Frequency::Monthly if step == 1 => {
+                return Some(f)
+            }
+            Frequency::Weekly if step == 7 => return Some(f),
+            Frequency::Annual if step == 1 && ords.iter().all(|y| (1000..3000).contains(y)) => {
+                return Some(f)
+            }
+            Frequency::Index if step == 1 => return Some(f),
+            _ => {}
+        }
+    }
+    None
+}
+
+pub fn draft(path: &Path) -> Result<String> {
+    let loc = || {
+        Some(Location {
+            file: path.to_path_buf(),
+            line: None,
+            column: None,
+        })
+    };
+    let bytes = std::fs::read(path)
+        .map_err(|e| Error::invalid(loc(), format!("cannot read the data file: {e}")))?;
+    let table = read_table(path, &bytes).map_err(|d| Error::Invalid(vec![d]))?;
+    let n_rows = table.rows.len();
+    // The time column: the first whose labels fit a frequency.
+    let mut time = None;
+    for (i, _) in table.headers.iter().enumerate() {
+        let labels: Vec<&str> = table.rows.iter().map(|r| r.cells[i].as_str()).collect();
+        if labels.iter().any(|l| l.is_empty()) {
+            continue;
+        }
+        if let Some(f) = detect_frequency(&labels) {
+            time = Some((i, f));
+            break;
+        }
+    }
+    let Some((time_idx, freq)) = time else {
+        return Err(Error::invalid(loc(), "no column holds period labels of one frequency without gaps (e.g. 2004Q1, 2004-01, 2004-01-05, 2004 or 1, 2, 3 …)"));
+    };
+    // Numeric columns and where each ends.
+    struct Col {
+        name: String,
+        last: usize,
+        complete_to_last: bool,
+    }
+    let mut cols = Vec::new();
+    for (i, name) in table.headers.iter().enumerate() {
+        if i == time_idx {
+            continue;
+        }
+        let parsed: Option<Vec<Option<f64>>> = table
+            .rows
+            .iter()
+            .map(|r| parse_number(&r.cells[i]).ok())
+            .collect();
+        let Some(values) = parsed else { continue };
+        let Some(last) = values.iter().rposition(Option::is_some) else {
+            continue;
+        };
+        let first = values.iter().position(Option::is_some).unwrap_or(0);
+        cols.push(Col {
+            name: name.clone(),
+            last,
+            complete_to_last: first == 0 && values[..=last].iter().all(Option::is_some),
+        });
+    }
+    let usable: Vec<&Col> = cols.iter().filter(|c| c.complete_to_last).collect();
+    let Some(target) = usable.first() else {
+        return Err(Error::invalid(
+            loc(),
+            "no numeric column without gaps to forecast",
+        ));
+    };
+    let n = target.last + 1;
+    let seasonal = freq.season_length();
+    let first_label = &table.rows[0].cells[time_idx];
+    let origin_row = (n * 6 / 10).max(1) - 1;
+    let origin = &table.rows[origin_row].cells[time_idx];
+    let stem = path
+        .file_stem()
+        .map(|s| s.to_string_lossy().to_lowercase())
+        .unwrap_or_else(|| "experiment".into());
+    let name: String = stem
+        .chars()
+        .map(|c| {
+            if c.is_ascii_alphanumeric() {
+                c.to_ascii_lowercase()
+            } else {
+                '-'
+            }
+        })
+        .collect();
+    let mut y = String::new();
+    y.push_str(&format!(
+        "# Starter experiment drafted from {} ({} rows; periods {} to {}).\n",
+        path.display(),
+        n_rows,
+        first_label,
+        table.rows[n_rows - 1].cells[time_idx]
+    ));
+    y.push_str(
+        "# Save it in the current folder (the data path below is relative to it), edit, then:\n",
+    );
+    y.push_str("#   outturn check FILE && outturn run FILE\n");
+    y.push_str("version: 1\n");
+    y.push_str(&format!(
+        "experiment: {}\n",
+        if name.is_empty() {
+            "experiment".into()
+        } else {
+            name
+        }
+    ));
+    y.push_str("notes: Drafted by outturn draft; say what question this experiment answers.\n\n");
+    y.push_str("data:\n");
+    y.push_str(&format!(
+        "  file: {}                # relative to this experiment file\n",
+        path.display()
+    ));
+    y.push_str(&format!("  time: {}\n", table.headers[time_idx]));
+    y.push_str(&format!(
+        "  frequency: {}            # detected from labels like {}\n",
+        freq.name(),
+        first_label
+    ));
+    y.push('\n');
+    y.push_str(&format!("target: {}\n", target.name));
+    y.push_str("transform: none                   # none | log | diff | log_diff | pct_change | seasonal_diff\n");
+    // Columns ending up to three periods early become predictors with a
+    // release lag; columns running past the target are known ahead.
+    let predictors: Vec<(&Col, usize, bool)> = usable[1..]
+        .iter()
+        .filter(|c| c.last + 3 >= target.last)
+        .map(|c| (*c, target.last.saturating_sub(c.last), c.last > target.last))
+        .collect();
+    if !predictors.is_empty() {
+        y.push_str("\npredictors:\n");
+        for (c, lag, ahead) in &predictors {
+            y.push_str(&format!("  - column: {}\n", c.name));
+            if *ahead {
+                y.push_str(
+                    "    known_ahead: true             # it has values after the target ends\n",
+                );
+            }
+            if *lag > 0 {
+                y.push_str(&format!("    release_lag: {lag}            # its last {lag} cell(s) are empty: published late\n"));
+            }
+        }
+    }
+    y.push_str("\ncandidates:\n  - family: naive\n  - family: mean\n  - family: drift\n");
+    if seasonal.is_some() {
+        y.push_str("  - family: seasonal_naive\n");
+    }
+    y.push_str("  - family: ar\n    lags: {from: 1, to: 4}\n");
+    if let Some((p, _, _)) = predictors.first() {
+        y.push_str(&format!(
+            "  - family: ardl\n    lags: [1]\n    predictors: [{}]\n    predictor_lags: [1, 2]\n",
+            p.name
+        ));
+    }
+    y.push_str("\nbacktest:\n  schemes:\n");
+    y.push_str(&format!(
+        "    - expanding: {{first_origin: {origin}}}   # about 60% into the data\n"
+    ));
+    y.push_str("  horizons: [1, 2]\n");
+    y.push_str("\nscoring:\n  metrics: [rmse, mae, mase]\n  benchmark: naive\n");
+    y.push_str("\nreport:\n  formats: [html, markdown]\n");
+    y.push_str("\nseed: 1\n");
+    Ok(y)
+}

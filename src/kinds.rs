@@ -1,0 +1,52 @@
+//! `outturn kinds`: every model family, metric and test, one line each with
+//! its source.
+
+pub fn text() -> String {
+    let families: &[(&str, &str)] = &[
+        ("naive", "the last observed value (random walk)"),
+        ("mean", "the mean of the estimation sample"),
+        ("drift", "the last value plus h times the average change over the estimation sample"),
+        ("seasonal_naive", "the value one season earlier (m = 4, 12, 52, 7)"),
+        ("ar", "autoregression of order p by least squares; direct or iterated multi-step; select: aic|bic|hqic"),
+        ("ardl", "autoregressive distributed lag: p own lags and q lags of each predictor, release lags respected"),
+        ("arima", "ARIMA(p,d,q) by exact Gaussian likelihood via the Kalman filter (Harvey 1989; Durbin & Koopman 2001)"),
+        ("smoothing", "additive-error exponential smoothing, trend none|additive|damped, season none|additive|multiplicative (Hyndman et al. 2008)"),
+        ("combination", "mean, inverse-MSE-weighted or trimmed mean of member forecasts (Bates & Granger 1969)"),
+    ];
+    let metrics: &[(&str, &str)] = &[
+        ("rmse", "root mean squared error"),
+        ("mae", "mean absolute error"),
+        ("bias", "mean error (actual − forecast)"),
+        ("mape", "mean absolute percentage error; empty when an actual is 0"),
+        ("smape", "symmetric MAPE, 200·|e|/(|actual|+|forecast|)"),
+        ("mase", "MAE scaled by the in-sample seasonal-naive MAE (Hyndman & Koehler 2006)"),
+        ("r2_oos", "out-of-sample R² against the benchmark (Campbell & Thompson 2008)"),
+        ("coverage", "share of outturns inside the Gaussian interval, per level"),
+        ("interval_score", "width plus penalties for misses, per level (Gneiting & Raftery 2007)"),
+        ("crps", "continuous ranked probability score of the Gaussian forecast (Gneiting & Raftery 2007)"),
+    ];
+    let tests: &[(&str, &str)] = &[
+        ("diebold_mariano", "equal squared-error accuracy against the benchmark, HLN small-sample correction (Diebold & Mariano 1995; Harvey, Leybourne & Newbold 1997)"),
+        ("clark_west", "equal accuracy of nested models, adjusted for estimation noise (Clark & West 2007)"),
+        ("confidence_set", "the set of candidates not significantly worse than the best (Hansen, Lunde & Nason 2011)"),
+        ("snooping", "does the best of the whole grid beat the benchmark once the search is counted (Hansen 2005, SPA)"),
+        ("fluctuation", "equal accuracy at every point in time, rolling window (Giacomini & Rossi 2010)"),
+        ("rank_correlation", "Spearman correlation of in-sample and out-of-sample rankings (overfitting diagnostic)"),
+        ("ljung_box", "autocorrelation left in a model's in-sample residuals (Ljung & Box 1978)"),
+        ("adf", "augmented Dickey-Fuller unit-root test, AIC lag length, MacKinnon p-values (Said & Dickey 1984; MacKinnon 1994, 2010)"),
+    ];
+    let mut out = String::new();
+    for (title, rows) in [
+        ("model families", families),
+        ("metrics", metrics),
+        ("tests", tests),
+    ] {
+        out.push_str(title);
+        out.push('\n');
+        for (name, what) in rows {
+            out.push_str(&format!("  {name:<17} {what}\n"));
+        }
+        out.push('\n');
+    }
+    out
+}

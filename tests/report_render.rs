@@ -1,0 +1,258 @@
+//! The reports are rebuilt from a results folder's stored tables: `outturn
+//! render` reproduces the bytes a run wrote, accepts a user's template
+//! folder (and records its hashes), and the HTML is one self-contained file.
+//! Expected values here are properties by construction (identical bytes,
+//! hashes of the files actually written), not numbers.
+
+use serde_json::Value;
+use std::path::{Path, PathBuf};
+use std::process::Command;
+use std::sync::OnceLock;
+
+fn scratch(tag: &str) -> PathBuf {
+    let nanos = std::time::SystemTime::now()
+        .duration_since(std::time::UNIX_EPOCH)
+        .map(|d| d.as_nanos())
+        .unwrap_or(0);
+    let dir = std::env::temp_dir().join(format!(
+        "outturn-report-{tag}-{}-{nanos}",
+        std::process::id()
+    ));
+    std::fs::create_dir_all(&dir).unwrap();
+    dir
+}
+
+fn outturn(args: &[&std::ffi::OsStr]) -> std::process::Output {
+    Command::new(env!("CARGO_BIN_EXE_outturn"))
+        .args(args)
+        .output()
+        .expect("run outturn")
+}
+
+/// The demo, run once per test binary; each test works on its own copy.
+fn demo() -> &'static Path {
+    static DEMO: OnceLock<PathBuf> = OnceLock::new();
+    DEMO.get_or_init(|| {
+        let out = scratch("demo").join("results");
+        let experiment =
+            PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("experiments/water_demand.yaml");
+        let o = outturn(&[
+            "run".as_ref(),
+            experiment.as_os_str(),
+            "--out".as_ref(),
+            out.as_os_str(),
+            "--quiet".as_ref(),
+        ]);
+        assert!(
+            o.status.success(),
+            "demo run failed: {}",
+            String::from_utf8_lossy(&o.stderr)
+        );
+        out
+    })
+}
+
+fn copy_of_demo(tag: &str) -> PathBuf {
+    let dir = scratch(tag).join("results");
+    std::fs::create_dir_all(&dir).unwrap();
+    for entry in std::fs::read_dir(demo()).unwrap() {
+        let entry = entry.unwrap();
+        std::fs::copy(entry.path(), dir.join(entry.file_name())).unwrap();
+    }
+    dir
+}
+
+fn read(dir: &Path, name: &str) -> Vec<u8> {
+    std::fs::read(dir.join(name)).unwrap_or_else(|e| panic!("{name}: {e}"))
+}
+
+fn manifest(dir: &Path) -> Value {
+    serde_json::from_slice(&read(dir, "manifest.json")).unwrap()
+}
+
+#[test]
+fn render_reproduces_the_reports_of_a_run_byte_for_byte() {
+    let dir = copy_of_demo("same");
+    let before: Vec<(String, Vec<u8>)> = ["report.md", "report.html", "manifest.json"]
+        .iter()
+        .map(|n| (n.to_string(), read(&dir, n)))
+        .collect();
+    let o = outturn(&["render".as_ref(), dir.as_os_str()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    for (name, bytes) in before {
+        assert!(read(&dir, &name) == bytes, "{name} changed on render");
+    }
+    // No temporary files are left behind.
+    let stray: Vec<String> = std::fs::read_dir(&dir)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().to_string())
+        .filter(|n| n.starts_with('.'))
+        .collect();
+    assert!(stray.is_empty(), "{stray:?}");
+}
+
+#[test]
+fn render_with_user_templates_writes_them_and_records_their_hashes() {
+    let dir = copy_of_demo("user");
+    let templates = scratch("templates");
+    let md =
+        "# {{ title }}\n{% for t in targets %}{{ t.name }}: {{ t.verdict.headline }}\n{% endfor %}";
+    let html = "<!DOCTYPE html><title>{{ title }}</title><p>benchmark {{ benchmark }}</p>\n";
+    std::fs::write(templates.join("report.md.j2"), md).unwrap();
+    std::fs::write(templates.join("report.html.j2"), html).unwrap();
+    let before = manifest(&dir);
+    let o = outturn(&[
+        "render".as_ref(),
+        dir.as_os_str(),
+        "--templates".as_ref(),
+        templates.as_os_str(),
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+
+    let report_md = String::from_utf8(read(&dir, "report.md")).unwrap();
+    assert!(report_md.starts_with("# Water demand, monthly (invented data)\ndemand_ml: "));
+    assert!(report_md.contains("naive"));
+    let report_html = String::from_utf8(read(&dir, "report.html")).unwrap();
+    assert!(
+        report_html.contains("<p>benchmark naive</p>"),
+        "{report_html}"
+    );
+
+    let after = manifest(&dir);
+    let sha = outturn::spec::sha256_hex;
+    let recorded: Vec<(String, String)> = after["templates"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|t| {
+            (
+                t["name"].as_str().unwrap().to_string(),
+                t["sha256"].as_str().unwrap().to_string(),
+            )
+        })
+        .collect();
+    assert_eq!(
+        recorded,
+        vec![
+            ("report.md.j2".to_string(), sha(md.as_bytes())),
+            ("report.html.j2".to_string(), sha(html.as_bytes())),
+        ]
+    );
+    for output in after["outputs"].as_array().unwrap() {
+        let name = output["file"].as_str().unwrap();
+        let bytes = read(&dir, name);
+        assert_eq!(output["sha256"].as_str().unwrap(), sha(&bytes), "{name}");
+        assert_eq!(output["bytes"].as_u64().unwrap() as usize, bytes.len());
+    }
+    // Everything else in the manifest is untouched.
+    for key in ["tool", "experiment", "data", "grid", "seed", "run"] {
+        assert_eq!(before[key], after[key], "{key}");
+    }
+
+    // Back to the built-in templates: the original bytes return.
+    let o = outturn(&["render".as_ref(), dir.as_os_str()]);
+    assert!(o.status.success());
+    assert!(read(&dir, "report.html") == read(demo(), "report.html"));
+    assert!(read(&dir, "manifest.json") == read(demo(), "manifest.json"));
+}
+
+#[test]
+fn render_refuses_what_it_cannot_use() {
+    // A template folder without the HTML template: invalid input, exit 2.
+    let dir = copy_of_demo("missing");
+    let templates = scratch("half");
+    std::fs::write(templates.join("report.md.j2"), "# {{ title }}\n").unwrap();
+    let o = outturn(&[
+        "render".as_ref(),
+        dir.as_os_str(),
+        "--templates".as_ref(),
+        templates.as_os_str(),
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(err.contains("report.html.j2"), "{err}");
+    assert!(read(&dir, "report.md") == read(demo(), "report.md"));
+
+    // A folder that is not a results folder: exit 2.
+    let empty = scratch("empty");
+    let o = outturn(&["render".as_ref(), empty.as_os_str()]);
+    assert_eq!(o.status.code(), Some(2));
+
+    // A template that does not compile: the run fails (exit 1), nothing changes.
+    let broken = scratch("broken");
+    std::fs::write(broken.join("report.md.j2"), "{% for %}").unwrap();
+    std::fs::write(broken.join("report.html.j2"), "ok").unwrap();
+    let o = outturn(&[
+        "render".as_ref(),
+        dir.as_os_str(),
+        "--templates".as_ref(),
+        broken.as_os_str(),
+    ]);
+    assert_eq!(o.status.code(), Some(1));
+    assert!(read(&dir, "manifest.json") == read(demo(), "manifest.json"));
+}
+
+/// Every value of `attr="…"` in the page.
+fn attribute_values<'a>(html: &'a str, attr: &str) -> Vec<&'a str> {
+    let needle = format!("{attr}=\"");
+    let mut out = Vec::new();
+    let mut rest = html;
+    while let Some(i) = rest.find(&needle) {
+        let after = &rest[i + needle.len()..];
+        let end = after.find('"').unwrap_or(after.len());
+        out.push(&after[..end]);
+        rest = &after[end..];
+    }
+    out
+}
+
+#[test]
+fn the_html_report_is_self_contained() {
+    let html = String::from_utf8(read(demo(), "report.html")).unwrap();
+    let lower = html.to_lowercase();
+    assert!(!lower.contains("<script"), "no scripts");
+    assert!(!lower.contains("@import"));
+    assert!(!lower.contains("<link"), "no linked resources");
+    assert!(!lower.contains("<img"), "charts are inline SVG");
+    assert!(!lower.contains("http://") && !lower.contains("https://"));
+    for attr in ["src", "href", "xlink:href"] {
+        for v in attribute_values(&html, attr) {
+            assert!(v.starts_with('#'), "{attr}=\"{v}\" points outside the page");
+        }
+    }
+    let mut rest = lower.as_str();
+    while let Some(i) = rest.find("url(") {
+        assert!(rest[i + 4..].starts_with('#'), "url() outside the page");
+        rest = &rest[i + 4..];
+    }
+    assert!(html.contains("<svg"), "charts are drawn");
+    assert!(html.contains("@media print"));
+}
+
+#[test]
+fn both_reports_state_the_verdict_first() {
+    let html = String::from_utf8(read(demo(), "report.html")).unwrap();
+    let md = String::from_utf8(read(demo(), "report.md")).unwrap();
+    for text in [&html, &md] {
+        assert!(text.contains("comes first"), "a verdict sentence");
+        assert!(
+            text.contains("snooping test"),
+            "the search is accounted for"
+        );
+        assert!(text.contains("Across the 6 scheme × horizon settings"));
+        let verdict = text.find("Verdict").unwrap();
+        for later in [
+            "Rankings",
+            "Does the fit carry over?",
+            "Over time",
+            "Run record",
+        ] {
+            let at = text.find(later).unwrap_or_else(|| panic!("{later}"));
+            assert!(verdict < at, "{later} comes after the verdict");
+        }
+    }
+    // The Markdown holds the ranking tables too, and no timing.
+    assert!(md.contains("### fixed scheme"));
+    assert!(md.contains("| # | candidate |"));
+    assert!(!md.contains("seconds") && !html.contains("seconds"));
+}

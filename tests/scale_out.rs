@@ -1,0 +1,286 @@
+//! Audit trail and scale-out (SPEC §5–§6): byte-identical outputs across
+//! thread counts and shard counts, `verify` on untouched and tampered
+//! folders, `merge` refusing bad shard sets, and the resume cache. These are
+//! properties that hold by construction of the design; no number here comes
+//! from invented data.
+
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+const BIN: &str = env!("CARGO_BIN_EXE_outturn");
+
+fn demo() -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join("experiments/water_demand.yaml")
+}
+
+fn scratch(name: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("outturn-scale-{}-{name}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).unwrap();
+    dir
+}
+
+fn outturn(args: &[&str]) -> std::process::Output {
+    Command::new(BIN).args(args).output().expect("run outturn")
+}
+
+fn ok(args: &[&str]) {
+    let o = outturn(args);
+    assert!(
+        o.status.success(),
+        "outturn {args:?} failed: {}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+}
+
+const TABLES: [&str; 10] = [
+    "forecasts.csv",
+    "scores.csv",
+    "tests.csv",
+    "outlook.csv",
+    "stability.csv",
+    "diagnostics.csv",
+    "series.csv",
+    "experiment.yaml",
+    "report.md",
+    "report.html",
+];
+
+fn same_outputs(a: &Path, b: &Path) {
+    for f in TABLES {
+        let x = std::fs::read(a.join(f)).unwrap();
+        let y = std::fs::read(b.join(f)).unwrap();
+        assert!(
+            x == y,
+            "{f} differs between {} and {}",
+            a.display(),
+            b.display()
+        );
+    }
+    let strip = |p: &Path| {
+        let mut v: serde_json::Value =
+            serde_json::from_slice(&std::fs::read(p.join("manifest.json")).unwrap()).unwrap();
+        v.as_object_mut().unwrap().remove("run");
+        v
+    };
+    assert_eq!(
+        strip(a),
+        strip(b),
+        "manifest outside its run section differs"
+    );
+}
+
+#[test]
+fn identical_across_thread_counts_shards_and_merge() {
+    let dir = scratch("shards");
+    let exp = demo();
+    let exp = exp.to_str().unwrap();
+    let single = dir.join("single");
+    ok(&[
+        "run",
+        exp,
+        "--out",
+        single.to_str().unwrap(),
+        "--quiet",
+        "--no-cache",
+        "--jobs",
+        "1",
+    ]);
+    for jobs in ["2", "16"] {
+        let out = dir.join(format!("jobs{jobs}"));
+        ok(&[
+            "run",
+            exp,
+            "--out",
+            out.to_str().unwrap(),
+            "--quiet",
+            "--no-cache",
+            "--jobs",
+            jobs,
+        ]);
+        same_outputs(&single, &out);
+    }
+    for n in [1usize, 2, 3, 7] {
+        let mut shards = Vec::new();
+        for k in 1..=n {
+            let out = dir.join(format!("n{n}-k{k}"));
+            ok(&[
+                "run",
+                exp,
+                "--out",
+                out.to_str().unwrap(),
+                "--quiet",
+                "--no-cache",
+                "--shard",
+                &format!("{k}/{n}"),
+            ]);
+            shards.push(out);
+        }
+        let merged = dir.join(format!("merged{n}"));
+        let mut args = vec!["merge".to_string()];
+        args.extend(shards.iter().map(|s| s.to_string_lossy().to_string()));
+        args.extend(["--out".to_string(), merged.to_string_lossy().to_string()]);
+        let args: Vec<&str> = args.iter().map(String::as_str).collect();
+        ok(&args);
+        same_outputs(&single, &merged);
+        if n == 3 {
+            // Missing and duplicate shards are refused with exit code 2.
+            let o = outturn(&[
+                "merge",
+                shards[0].to_str().unwrap(),
+                shards[1].to_str().unwrap(),
+                "--out",
+                dir.join("bad").to_str().unwrap(),
+            ]);
+            assert_eq!(o.status.code(), Some(2));
+            assert!(String::from_utf8_lossy(&o.stderr).contains("missing shard(s): 3/3"));
+            let o = outturn(&[
+                "merge",
+                shards[0].to_str().unwrap(),
+                shards[0].to_str().unwrap(),
+                shards[1].to_str().unwrap(),
+                "--out",
+                dir.join("bad").to_str().unwrap(),
+            ]);
+            assert_eq!(o.status.code(), Some(2));
+            assert!(String::from_utf8_lossy(&o.stderr).contains("given twice"));
+            // A shard of a different shard count is refused.
+            let o = outturn(&[
+                "merge",
+                shards[0].to_str().unwrap(),
+                dir.join("n2-k2").to_str().unwrap(),
+                shards[2].to_str().unwrap(),
+                "--out",
+                dir.join("bad").to_str().unwrap(),
+            ]);
+            assert_eq!(o.status.code(), Some(2));
+            assert!(!dir.join("bad").exists());
+        }
+    }
+    // verify: untouched passes, tampered fails naming the file and row.
+    ok(&["verify", single.to_str().unwrap()]);
+    let path = single.join("scores.csv");
+    let text = std::fs::read_to_string(&path).unwrap();
+    let mut lines: Vec<String> = text.lines().map(String::from).collect();
+    lines[3].push('7');
+    std::fs::write(&path, lines.join("\n") + "\n").unwrap();
+    let o = outturn(&["verify", single.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(1));
+    let said = String::from_utf8_lossy(&o.stdout);
+    assert!(
+        said.contains("scores.csv") && said.contains("line 4"),
+        "{said}"
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn verify_refuses_changed_inputs() {
+    let dir = scratch("changed");
+    let data_dir = dir.join("data");
+    std::fs::create_dir_all(&data_dir).unwrap();
+    let src = Path::new(env!("CARGO_MANIFEST_DIR")).join("experiments");
+    std::fs::copy(
+        src.join("data/water_demand.csv"),
+        data_dir.join("water_demand.csv"),
+    )
+    .unwrap();
+    let exp = dir.join("exp.yaml");
+    std::fs::copy(src.join("water_demand.yaml"), &exp).unwrap();
+    let out = dir.join("out");
+    ok(&[
+        "run",
+        exp.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--quiet",
+        "--no-cache",
+    ]);
+    let mut data = std::fs::read_to_string(data_dir.join("water_demand.csv")).unwrap();
+    data = data.replacen("379.97", "379.98", 1);
+    std::fs::write(data_dir.join("water_demand.csv"), data).unwrap();
+    let o = outturn(&["verify", out.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(2));
+    let said = String::from_utf8_lossy(&o.stderr);
+    assert!(
+        said.contains("water_demand.csv") && said.contains("changed"),
+        "{said}"
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+fn cells_from_cache(folder: &Path) -> u64 {
+    let v: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(folder.join("manifest.json")).unwrap()).unwrap();
+    v["run"]["cells_from_cache"].as_u64().unwrap()
+}
+
+#[test]
+fn resume_cache_recomputes_only_new_cells() {
+    let dir = scratch("cache");
+    let src = Path::new(env!("CARGO_MANIFEST_DIR")).join("experiments");
+    std::fs::create_dir_all(dir.join("data")).unwrap();
+    std::fs::copy(
+        src.join("data/water_demand.csv"),
+        dir.join("data/water_demand.csv"),
+    )
+    .unwrap();
+    let base = std::fs::read_to_string(src.join("water_demand.yaml")).unwrap();
+    let exp = dir.join("exp.yaml");
+    std::fs::write(&exp, &base).unwrap();
+    let out = dir.join("results/out");
+    ok(&[
+        "run",
+        exp.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--quiet",
+    ]);
+    assert_eq!(cells_from_cache(&out), 0);
+    let first = std::fs::read(out.join("forecasts.csv")).unwrap();
+    // A rerun takes every computed cell from the cache and writes the same bytes.
+    ok(&[
+        "run",
+        exp.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--quiet",
+    ]);
+    let cached = cells_from_cache(&out);
+    assert!(cached > 0);
+    assert_eq!(std::fs::read(out.join("forecasts.csv")).unwrap(), first);
+    // Adding a candidate recomputes only its cells (one per scheme).
+    let grown = base.replacen(
+        "candidates:\n",
+        "candidates:\n  - family: ar\n    label: extra\n    lags: [5]\n",
+        1,
+    );
+    std::fs::write(&exp, grown).unwrap();
+    ok(&[
+        "run",
+        exp.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--quiet",
+    ]);
+    assert_eq!(cells_from_cache(&out), cached);
+    // A damaged entry is ignored, not trusted.
+    let cache = dir.join("results/.outturn-cache");
+    let entry = std::fs::read_dir(&cache)
+        .unwrap()
+        .next()
+        .unwrap()
+        .unwrap()
+        .path();
+    let text = std::fs::read_to_string(&entry).unwrap();
+    std::fs::write(&entry, text.replacen("\nf ", "\nf 9", 1)).unwrap();
+    ok(&[
+        "run",
+        exp.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--quiet",
+    ]);
+    assert_eq!(cells_from_cache(&out), cached - 1 + 3);
+    let _ = std::fs::remove_dir_all(&dir);
+}
