@@ -107,7 +107,7 @@ pub(crate) fn now_unix() -> u64 {
         .unwrap_or(0)
 }
 
-fn host() -> String {
+pub(crate) fn host() -> String {
     std::fs::read_to_string("/etc/hostname")
         .map(|s| s.trim().to_string())
         .unwrap_or_default()
@@ -174,24 +174,6 @@ pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
             b.inc(1);
         }
     };
-    let computed =
-        pool.install(|| backtest::run_selected(&exp, &cells, &selected, cache.as_ref(), &tick));
-    if let Some(b) = &bar {
-        b.finish_and_clear();
-    }
-    let computed = match computed {
-        Ok(c) => c,
-        Err(e) => {
-            if let (Error::Invalid(_), Some(c)) = (&e, &cache) {
-                c.take_back();
-            }
-            return Err(e);
-        }
-    };
-    let failed = computed.iter().filter(|o| o.failure.is_some()).count();
-    if failed > 0 && !opts.quiet {
-        eprintln!("warning: {failed} cell(s) could not be estimated; they are recorded in the manifest and the report");
-    }
     let ctx = RunContext {
         started,
         started_unix,
@@ -201,7 +183,20 @@ pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
             .map(|(k, n)| format!("{k}/{n}"))
             .unwrap_or_else(|| "1/1".into()),
     };
+    // An invalid experiment writes nothing (SPEC §1): not even cache entries.
+    let take_back = |e: Error| {
+        if let (Error::Invalid(_), Some(c)) = (&e, &cache) {
+            c.take_back();
+        }
+        e
+    };
     if let Some((k, n)) = opts.shard {
+        let computed =
+            pool.install(|| backtest::run_selected(&exp, &cells, &selected, cache.as_ref(), &tick));
+        if let Some(b) = &bar {
+            b.finish_and_clear();
+        }
+        let computed = computed.map_err(take_back)?;
         let files = shard::shard_files(&exp, &cells, &selected, &computed, (k, n), &ctx);
         output::write_folder(&folder, &files)?;
         return Ok(RunSummary {
@@ -211,12 +206,20 @@ pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
             seconds: started.elapsed().as_secs_f64(),
         });
     }
-    let mut outputs = vec![backtest::CellOutput::default(); cells.len()];
-    for (i, o) in selected.into_iter().zip(computed) {
-        outputs[i] = o;
+    let staging = output::stage(&folder)?;
+    let produced =
+        pool.install(|| produce_run(&exp, &cells, cache.as_ref(), &tick, staging.dir(), &ctx));
+    if let Some(b) = &bar {
+        b.finish_and_clear();
     }
-    let files = finalize(&exp, &cells, outputs, &ctx)?;
-    output::write_folder(&folder, &files)?;
+    let produced = produced.map_err(take_back)?;
+    if produced.failed_cells > 0 && !opts.quiet {
+        eprintln!(
+            "warning: {} cell(s) could not be estimated; they are recorded in the manifest and the report",
+            produced.failed_cells
+        );
+    }
+    staging.commit()?;
     Ok(RunSummary {
         folder,
         cells: cells.len(),
@@ -225,88 +228,41 @@ pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
     })
 }
 
-/// From every cell's output to the files of a results folder: combinations,
-/// scores, tests, diagnostics, tables, reports and the manifest. A single
-/// run and a merge of shards both end here, so they write the same bytes.
-pub fn finalize(
+/// Targets processed together: enough to keep every thread busy, few
+/// enough to bound memory.
+fn chunk_for(threads: usize) -> usize {
+    (threads * 2).max(2)
+}
+
+/// The cells of target `t` in plan order (candidates × schemes).
+pub(crate) fn target_range(exp: &Experiment, t: usize) -> std::ops::Range<usize> {
+    let per = exp.candidates.len() * exp.schemes.len();
+    t * per..(t + 1) * per
+}
+
+/// Run every target's cells and write the whole results folder into `dir`.
+pub(crate) fn produce_run(
     exp: &Experiment,
     cells: &[plan::Cell],
-    mut outputs: Vec<backtest::CellOutput>,
+    cache: Option<&cache::Cache>,
+    progress: &(dyn Fn() + Sync),
+    dir: &Path,
     ctx: &RunContext,
-) -> Result<Vec<(String, Vec<u8>)>> {
-    backtest::combine(exp, cells, &mut outputs);
-    let outputs = outputs;
-    let errors = score::cell_errors(exp, cells, &outputs);
-    let scores = score::scores(exp, &errors);
-    let mut tests = score::comparison::run(exp, &errors);
-    let (stability, fluctuation) = score::stability::rolling(exp, &errors);
-    tests.extend(fluctuation);
-    tests.sort_by_key(|r| (r.target, r.scheme, r.horizon));
-    let diagnostics = score::stability::diagnostics(exp, cells, &outputs);
-    let mut files: Vec<(String, Vec<u8>)> = vec![
-        (
-            "forecasts.csv".into(),
-            report::tables::forecasts_csv(exp, cells, &outputs),
-        ),
-        (
-            "scores.csv".into(),
-            report::tables::scores_csv(exp, &scores),
-        ),
-        ("tests.csv".into(), report::tables::tests_csv(exp, &tests)),
-        (
-            "stability.csv".into(),
-            report::tables::stability_csv(exp, &stability),
-        ),
-        (
-            "diagnostics.csv".into(),
-            report::tables::diagnostics_csv(&diagnostics),
-        ),
-        ("series.csv".into(), report::tables::series_csv(exp)),
-        (
-            "experiment.yaml".into(),
-            exp.source_text.clone().into_bytes(),
-        ),
-        (
-            "outlook.csv".into(),
-            report::tables::outlook_csv(exp, cells, &outputs),
-        ),
-    ];
-    let facts = report::manifest::RunFacts {
-        seconds: ctx.started.elapsed().as_secs_f64(),
-        threads: ctx.threads,
-        host: host(),
-        started_unix: ctx.started_unix,
-        shard: ctx.shard.clone(),
-        experiment_path: absolute(&exp.source_path),
+) -> Result<pipeline::Produced> {
+    let source = |t: usize| -> Result<Vec<backtest::CellOutput>> {
+        let range = target_range(exp, t);
+        let selected: Vec<usize> = range
+            .clone()
+            .filter(|&i| backtest::is_computed(exp, &cells[i]))
+            .collect();
+        let computed = backtest::run_selected(exp, cells, &selected, cache, progress)?;
+        let mut outputs = vec![backtest::CellOutput::default(); range.len()];
+        for (i, o) in selected.into_iter().zip(computed) {
+            outputs[i - range.start] = o;
+        }
+        Ok(outputs)
     };
-    let cell_facts: Vec<report::manifest::CellFacts> = cells
-        .iter()
-        .zip(&outputs)
-        .map(|(c, o)| report::manifest::CellFacts {
-            id: c.id.clone(),
-            failure: o.failure.clone(),
-            fallbacks: o.fallbacks,
-            seconds: o.seconds,
-            cached: o.cached,
-        })
-        .collect();
-    // Reports: rendered from the tables above and the manifest's
-    // deterministic part, exactly as `outturn render` does from the folder.
-    let templates = report::render::default_templates();
-    let templates_used = report::render::used_templates(&templates, &exp.formats);
-    let core = {
-        let draft = report::manifest::manifest(exp, &cell_facts, &templates_used, &[], &facts);
-        let value: serde_json::Value =
-            serde_json::from_slice(&draft).map_err(|e| Error::Run(format!("manifest: {e}")))?;
-        report::render::manifest_core(&value)
-    };
-    let tables: std::collections::BTreeMap<String, Vec<u8>> = files.iter().cloned().collect();
-    let rendered =
-        report::render::reports(&tables, &core, &exp.formats, &templates).map_err(Error::Run)?;
-    files.extend(rendered);
-    let manifest = report::manifest::manifest(exp, &cell_facts, &templates_used, &files, &facts);
-    files.push(("manifest.json".into(), manifest));
-    Ok(files)
+    pipeline::produce(exp, &source, dir, ctx, chunk_for(ctx.threads))
 }
 
 /// An absolute form of a path, for the manifest's `run` section.
@@ -317,5 +273,6 @@ pub fn absolute(p: &Path) -> String {
         .to_string()
 }
 
+pub mod pipeline;
 pub mod shard;
 pub mod verify;

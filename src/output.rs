@@ -205,24 +205,99 @@ pub fn write_folder(target: &Path, files: &[(String, Vec<u8>)]) -> Result<()> {
             let _ = f.sync_all();
         }
         interrupted()?;
-        // From here on the swap runs to its end; an interrupt waits for it.
-        if !target.exists() {
-            std::fs::rename(&tmp, target).map_err(|e| {
-                Error::io(format!("cannot move results into {}", target.display()), e)
-            })?;
-        } else if exchange(&tmp, target) {
-            // The old results now sit at the temporary name.
-            let _ = std::fs::remove_dir_all(&tmp);
-        } else {
-            two_step_swap(&tmp, target)?;
-        }
-        Ok(())
+        swap(&tmp, target)
     })();
     if result.is_err() {
         let _ = std::fs::remove_dir_all(&tmp);
     }
     unregister(&tmp);
     result
+}
+
+/// Put the finished temporary folder in place of the target. From here on
+/// the swap runs to its end; an interrupt waits for it (the caller holds WRITING).
+fn swap(tmp: &Path, target: &Path) -> Result<()> {
+    if !target.exists() {
+        std::fs::rename(tmp, target)
+            .map_err(|e| Error::io(format!("cannot move results into {}", target.display()), e))?;
+    } else if exchange(tmp, target) {
+        // The old results now sit at the temporary name.
+        let _ = std::fs::remove_dir_all(tmp);
+    } else {
+        two_step_swap(tmp, target)?;
+    }
+    Ok(())
+}
+
+/// A results folder written file by file, for tables too large to hold in
+/// memory: files go into the temporary folder ([`Staging::dir`]) while the
+/// run goes on, and [`Staging::commit`] swaps it in. Dropping a staging that
+/// was not committed removes the temporary folder. An interrupt removes it
+/// too (the staging does not hold the write lock until it commits).
+pub struct Staging {
+    tmp: PathBuf,
+    target: PathBuf,
+    done: bool,
+}
+
+pub fn stage(target: &Path) -> Result<Staging> {
+    interrupted()?;
+    if let Some(parent) = target.parent().filter(|p| !p.as_os_str().is_empty()) {
+        std::fs::create_dir_all(parent)
+            .map_err(|e| Error::io(format!("cannot create {}", parent.display()), e))?;
+    }
+    recover(target);
+    check_target(target)?;
+    let tmp = sibling(target, &format!("tmp-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&tmp);
+    register(&tmp);
+    if let Err(e) = std::fs::create_dir(&tmp) {
+        unregister(&tmp);
+        return Err(Error::io(format!("cannot create {}", tmp.display()), e));
+    }
+    Ok(Staging {
+        tmp,
+        target: target.to_path_buf(),
+        done: false,
+    })
+}
+
+impl Staging {
+    pub fn dir(&self) -> &Path {
+        &self.tmp
+    }
+
+    /// Sync the written files and swap the folder in.
+    pub fn commit(mut self) -> Result<()> {
+        let _guard = WRITING.lock().unwrap_or_else(|e| e.into_inner());
+        interrupted()?;
+        if let Ok(entries) = std::fs::read_dir(&self.tmp) {
+            for entry in entries.flatten() {
+                if let Ok(f) = std::fs::File::open(entry.path()) {
+                    let _ = f.sync_all();
+                }
+            }
+        }
+        if let Ok(f) = std::fs::File::open(&self.tmp) {
+            let _ = f.sync_all();
+        }
+        interrupted()?;
+        let result = swap(&self.tmp, &self.target);
+        if result.is_ok() {
+            self.done = true;
+            unregister(&self.tmp);
+        }
+        result
+    }
+}
+
+impl Drop for Staging {
+    fn drop(&mut self) {
+        if !self.done {
+            let _ = std::fs::remove_dir_all(&self.tmp);
+            unregister(&self.tmp);
+        }
+    }
 }
 
 /// The swap where no exchange rename exists: target → `-old`, `tmp` →

@@ -8,7 +8,7 @@ use crate::backtest::{is_computed, CellOutput};
 use crate::error::{Error, Location, Result};
 use crate::plan::{self, Cell};
 use crate::spec::{self, sha256_hex, Experiment};
-use crate::{cellio, finalize, output, RunContext};
+use crate::{cellio, output, pipeline, RunContext};
 use serde_json::{json, Value};
 use std::path::{Path, PathBuf};
 
@@ -251,7 +251,11 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<usize> {
         threads: 1,
         shard: format!("merged {count}"),
     };
-    let files = finalize(&exp, &cells, full, &ctx)?;
-    output::write_folder(out, &files)?;
+    let per = exp.candidates.len() * exp.schemes.len();
+    let source =
+        |t: usize| -> Result<Vec<CellOutput>> { Ok(full[t * per..(t + 1) * per].to_vec()) };
+    let staging = output::stage(out)?;
+    pipeline::produce(&exp, &source, staging.dir(), &ctx, 4)?;
+    staging.commit()?;
     Ok(cells.len())
 }

@@ -4,7 +4,7 @@
 
 use crate::error::{Error, Location, Result};
 use crate::shard::load_recorded;
-use crate::{backtest, finalize, plan, RunContext};
+use crate::{plan, RunContext};
 use serde_json::Value;
 use std::path::Path;
 
@@ -83,26 +83,37 @@ pub fn verify(dir: &Path, jobs: Option<usize>) -> Result<Verdict> {
     let exp = load_recorded(&manifest, &mpath, &exp_sha, &data_sha)?;
     let cells = plan::cells(&exp);
     let (pool, threads) = crate::thread_pool(jobs)?;
-    let outputs = pool.install(|| {
-        let selected: Vec<usize> = (0..cells.len())
-            .filter(|&i| backtest::is_computed(&exp, &cells[i]))
-            .collect();
-        backtest::run_selected(&exp, &cells, &selected, None, &|| {}).map(|computed| {
-            let mut outputs = vec![backtest::CellOutput::default(); cells.len()];
-            for (i, o) in selected.into_iter().zip(computed) {
-                outputs[i] = o;
-            }
-            outputs
-        })
-    })?;
     let ctx = RunContext {
         started,
         started_unix: crate::now_unix(),
         threads,
         shard: "verify".into(),
     };
-    let files = finalize(&exp, &cells, outputs, &ctx)?;
-    for (name, ours) in &files {
+    // Rerun into a scratch folder that is never swapped in.
+    let scratch = std::env::temp_dir().join(format!(
+        "outturn-verify-{}-{}",
+        std::process::id(),
+        crate::now_unix()
+    ));
+    std::fs::create_dir_all(&scratch)
+        .map_err(|e| Error::io(format!("cannot create {}", scratch.display()), e))?;
+    struct Cleanup(std::path::PathBuf);
+    impl Drop for Cleanup {
+        fn drop(&mut self) {
+            let _ = std::fs::remove_dir_all(&self.0);
+        }
+    }
+    let _cleanup = Cleanup(scratch.clone());
+    pool.install(|| crate::produce_run(&exp, &cells, None, &|| {}, &scratch, &ctx))?;
+    let mut files: Vec<String> = std::fs::read_dir(&scratch)
+        .map_err(|e| Error::io("cannot list the rerun", e))?
+        .flatten()
+        .map(|e| e.file_name().to_string_lossy().to_string())
+        .collect();
+    files.sort();
+    for name in &files {
+        let ours = std::fs::read(scratch.join(name))
+            .map_err(|e| Error::io(format!("cannot read the rerun's {name}"), e))?;
         let path = dir.join(name);
         let Ok(theirs) = std::fs::read(&path) else {
             return Ok(Verdict {
@@ -111,7 +122,7 @@ pub fn verify(dir: &Path, jobs: Option<usize>) -> Result<Verdict> {
             });
         };
         let diff = if name == "manifest.json" {
-            let a = serde_json::from_slice::<Value>(ours).map(without_run).ok();
+            let a = serde_json::from_slice::<Value>(&ours).map(without_run).ok();
             let b = serde_json::from_slice::<Value>(&theirs)
                 .map(without_run)
                 .ok();
@@ -128,7 +139,7 @@ pub fn verify(dir: &Path, jobs: Option<usize>) -> Result<Verdict> {
                     .or_else(|| Some("manifest.json differs".into()))
             }
         } else {
-            first_difference(name, ours, &theirs)
+            first_difference(name, &ours, &theirs)
         };
         if diff.is_some() {
             return Ok(Verdict {

@@ -284,3 +284,102 @@ fn resume_cache_recomputes_only_new_cells() {
     assert_eq!(cells_from_cache(&out), cached - 1 + 3);
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// A panel of `k` series of length `n` from a fixed linear recurrence: any
+/// numbers serve, since the tests below check properties (render equals run,
+/// merge equals single), not values.
+fn write_panel(dir: &Path, k: usize, n: usize) -> PathBuf {
+    let mut text = String::from("t");
+    for j in 0..k {
+        text.push_str(&format!(",y{j}"));
+    }
+    text.push_str(",x\n");
+    let mut state = 12345u64;
+    let mut next = || {
+        state = state
+            .wrapping_mul(6364136223846793005)
+            .wrapping_add(1442695040888963407);
+        ((state >> 11) as f64 / (1u64 << 53) as f64) - 0.5
+    };
+    let mut y = vec![0.0; k];
+    let mut x = 0.0;
+    for t in 1..=n {
+        x = 0.6 * x + next();
+        text.push_str(&t.to_string());
+        for v in y.iter_mut() {
+            *v = 0.5 + 0.5 * *v + 0.3 * x + next();
+            text.push_str(&format!(",{v:.6}"));
+        }
+        text.push_str(&format!(",{x:.6}\n"));
+    }
+    let data = dir.join("panel.csv");
+    std::fs::write(&data, text).unwrap();
+    let targets: Vec<String> = (0..k).map(|j| format!("y{j}")).collect();
+    let exp = dir.join("panel.yaml");
+    std::fs::write(
+        &exp,
+        format!(
+            "version: 1\nexperiment: panel\ndata: {{file: panel.csv, time: t, frequency: index}}\ntarget: [{}]\npredictors:\n  - column: x\ncandidates:\n  - family: naive\n  - family: mean\n  - family: ar\n    lags: [1, 2]\n  - family: ardl\n    lags: [1]\n    predictors: [x]\n    predictor_lags: [1, 2]\n  - family: combination\n    members: [\"ar(1)\", \"ardl(1,1)\"]\n    weights: inverse_mse\nbacktest:\n  schemes: [{{expanding: {{first_origin: 40}}}}, {{rolling: {{window: 30, first_origin: 40}}}}]\n  horizons: [1, 3]\nscoring:\n  metrics: [rmse, mae]\n  tests: {{diebold_mariano: true, clark_west: true}}\nseed: 7\n",
+            targets.join(", ")
+        ),
+    )
+    .unwrap();
+    exp
+}
+
+#[test]
+fn many_targets_render_and_merge_to_the_same_bytes() {
+    // More targets than the report charts in full: the report a run writes
+    // from the rows it keeps must equal the one `render` makes from the
+    // whole folder, and a merge must equal a single run.
+    let dir = scratch("panel");
+    let exp = write_panel(&dir, 11, 90);
+    let exp = exp.to_str().unwrap();
+    let single = dir.join("single");
+    ok(&[
+        "run",
+        exp,
+        "--out",
+        single.to_str().unwrap(),
+        "--quiet",
+        "--no-cache",
+        "--jobs",
+        "2",
+    ]);
+    let rendered = dir.join("rendered");
+    std::fs::create_dir_all(&rendered).unwrap();
+    for e in std::fs::read_dir(&single).unwrap() {
+        let e = e.unwrap();
+        std::fs::copy(e.path(), rendered.join(e.file_name())).unwrap();
+    }
+    ok(&["render", rendered.to_str().unwrap()]);
+    for f in ["report.md", "report.html", "manifest.json"] {
+        assert!(
+            std::fs::read(single.join(f)).unwrap() == std::fs::read(rendered.join(f)).unwrap(),
+            "{f} differs after render"
+        );
+    }
+    let mut shards = Vec::new();
+    for k in 1..=3 {
+        let out = dir.join(format!("s{k}"));
+        ok(&[
+            "run",
+            exp,
+            "--out",
+            out.to_str().unwrap(),
+            "--quiet",
+            "--no-cache",
+            "--shard",
+            &format!("{k}/3"),
+        ]);
+        shards.push(out.to_string_lossy().to_string());
+    }
+    let merged = dir.join("merged");
+    let mut args: Vec<&str> = vec!["merge"];
+    args.extend(shards.iter().map(String::as_str));
+    args.extend(["--out", merged.to_str().unwrap()]);
+    ok(&args);
+    same_outputs(&single, &merged);
+    ok(&["verify", single.to_str().unwrap()]);
+    let _ = std::fs::remove_dir_all(&dir);
+}

@@ -5,6 +5,24 @@
 use crate::spec::{sha256_hex, Experiment};
 use serde_json::{json, Value};
 
+/// An output file as the manifest records it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OutputFile {
+    pub name: String,
+    pub sha256: String,
+    pub bytes: usize,
+}
+
+impl OutputFile {
+    pub fn of(name: &str, bytes: &[u8]) -> OutputFile {
+        OutputFile {
+            name: name.to_string(),
+            sha256: sha256_hex(bytes),
+            bytes: bytes.len(),
+        }
+    }
+}
+
 pub struct RunFacts {
     pub seconds: f64,
     pub threads: usize,
@@ -28,7 +46,7 @@ pub fn manifest(
     exp: &Experiment,
     cells: &[CellFacts],
     templates: &[(String, String)],
-    outputs: &[(String, Vec<u8>)],
+    outputs: &[OutputFile],
     run: &RunFacts,
 ) -> Vec<u8> {
     let file_name = |p: &std::path::Path| {
@@ -70,7 +88,7 @@ pub fn manifest(
                 v
             }).collect::<Vec<_>>(),
         },
-        "outputs": outputs.iter().map(|(name, bytes)| json!({"file": name, "sha256": sha256_hex(bytes), "bytes": bytes.len()})).collect::<Vec<_>>(),
+        "outputs": outputs.iter().map(|o| json!({"file": o.name, "sha256": o.sha256, "bytes": o.bytes})).collect::<Vec<_>>(),
         "run": {
             "started_unix": run.started_unix,
             "seconds": run.seconds,

@@ -24,7 +24,7 @@ pub const CAUTION: &str = "Backtest accuracy describes how these models would ha
 /// p-values (the tables show the p-values themselves).
 pub const LEVEL: f64 = 0.05;
 /// Targets shown with every chart; later targets get tables only.
-const CHART_TARGETS: usize = 8;
+pub const CHART_TARGETS: usize = 8;
 /// Ranking rows shown before the rest go behind a disclosure.
 const RANKING_ROWS: usize = 40;
 /// Observed periods drawn before the outlook.
@@ -587,7 +587,6 @@ impl Folder {
         }
 
         let mut forecasts: HashMap<(usize, usize, usize, usize), Vec<ForecastRow>> = HashMap::new();
-        let mut forecast_count = 0;
         if let Some(bytes) = files.get("forecasts.csv") {
             let f = Csv::parse("forecasts.csv", bytes)?;
             let cols: Vec<Option<usize>> = [
@@ -605,7 +604,6 @@ impl Folder {
             .map(|n| f.col(n))
             .collect();
             for r in &f.rows {
-                forecast_count += 1;
                 let (Some(&t), Some(&c), Some(&s), Ok(h)) = (
                     ti.get(field(r, cols[0])),
                     ci.get(field(r, cols[1])),
@@ -773,11 +771,37 @@ impl Folder {
             .map(|b| String::from_utf8_lossy(b).to_string())
             .unwrap_or_default();
         let settings = Settings::read(&experiment_text);
-        let table_hashes = files
+        // Table hashes come from the manifest (the report may be given only
+        // the rows it draws of the large tables); by file name.
+        let mut table_hashes: Vec<(String, String, usize)> = match manifest["outputs"].as_array() {
+            Some(list) => list
+                .iter()
+                .filter_map(|o| {
+                    let name = o["file"].as_str()?;
+                    (!name.starts_with("report.") && name != "manifest.json").then(|| {
+                        (
+                            name.to_string(),
+                            o["sha256"].as_str().unwrap_or("").to_string(),
+                            o["bytes"].as_u64().unwrap_or(0) as usize,
+                        )
+                    })
+                })
+                .collect(),
+            None => files
+                .iter()
+                .filter(|(name, _)| {
+                    !name.starts_with("report.") && name.as_str() != "manifest.json"
+                })
+                .map(|(name, bytes)| (name.clone(), crate::spec::sha256_hex(bytes), bytes.len()))
+                .collect(),
+        };
+        table_hashes.sort();
+        // Every forecast is scored once per horizon on the whole sample.
+        let forecast_count = scores
             .iter()
-            .filter(|(name, _)| !name.starts_with("report.") && name.as_str() != "manifest.json")
-            .map(|(name, bytes)| (name.clone(), crate::spec::sha256_hex(bytes), bytes.len()))
-            .collect();
+            .filter(|r| r.horizon.is_some() && r.period_set.is_none())
+            .map(|r| r.n)
+            .sum();
         Ok(Folder {
             grid,
             metric_names,

@@ -286,7 +286,7 @@ pub fn diagnostics_csv(rows: &[crate::score::stability::DiagnosticRow]) -> Vec<u
 
 /// The series as used (`series.csv`): each target and predictor by period,
 /// raw and after its transform, so reports can be re-rendered from the folder.
-pub fn series_csv(exp: &Experiment) -> Vec<u8> {
+pub fn series_csv(exp: &Experiment, with_predictors: bool) -> Vec<u8> {
     let mut w = writer();
     let _ = w.write_record(["series", "role", "transform", "period", "raw", "value"]);
     for target in &exp.targets {
@@ -301,7 +301,7 @@ pub fn series_csv(exp: &Experiment) -> Vec<u8> {
             ]);
         }
     }
-    if let Some(first) = exp.targets.first() {
+    if let Some(first) = exp.targets.first().filter(|_| with_predictors) {
         for (i, p) in exp.predictors.iter().enumerate() {
             for (pos, v) in first.predictors[i].iter().enumerate() {
                 if let Some(v) = v {

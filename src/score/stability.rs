@@ -134,7 +134,14 @@ fn dynamic_parameters(family: &Family) -> usize {
     }
 }
 
-pub fn diagnostics(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<DiagnosticRow> {
+/// Diagnostics of the experiment's targets and cells; the predictors' unit-root
+/// tests are included when `with_predictors` (once per results folder).
+pub fn diagnostics(
+    exp: &Experiment,
+    cells: &[Cell],
+    outputs: &[CellOutput],
+    with_predictors: bool,
+) -> Vec<DiagnosticRow> {
     let mut rows = Vec::new();
     // Data: ADF with a constant on each series after transformation.
     for target in &exp.targets {
@@ -149,7 +156,7 @@ pub fn diagnostics(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> 
             critical_5: r.as_ref().map(|r| r.critical_values[1]),
         });
     }
-    if let Some(first) = exp.targets.first() {
+    if let Some(first) = exp.targets.first().filter(|_| with_predictors) {
         for (i, p) in exp.predictors.iter().enumerate() {
             // the longest unbroken run of values up to the target's end
             let values: Vec<f64> = first.predictors[i][..first.n]

@@ -503,6 +503,38 @@ pub struct Experiment {
 }
 
 impl Experiment {
+    /// The same experiment restricted to one target (for processing target
+    /// by target; candidate, scheme and benchmark indices are unchanged).
+    pub fn for_target(&self, t: usize) -> Experiment {
+        Experiment {
+            targets: vec![self.targets[t].clone()],
+            name: self.name.clone(),
+            notes: self.notes.clone(),
+            title: self.title.clone(),
+            source_path: self.source_path.clone(),
+            source_text: self.source_text.clone(),
+            data_path: self.data_path.clone(),
+            data_bytes_sha256: self.data_bytes_sha256.clone(),
+            time_column: self.time_column.clone(),
+            frequency: self.frequency,
+            label_style: self.label_style,
+            transform: self.transform,
+            predictors: self.predictors.clone(),
+            candidates: self.candidates.clone(),
+            schemes: self.schemes.clone(),
+            horizons: self.horizons.clone(),
+            multi_step: self.multi_step,
+            metrics: self.metrics.clone(),
+            intervals: self.intervals.clone(),
+            tests: self.tests.clone(),
+            periods: self.periods.clone(),
+            rolling_window: self.rolling_window,
+            rank_by: self.rank_by,
+            benchmark: self.benchmark,
+            formats: self.formats.clone(),
+            seed: self.seed,
+        }
+    }
     /// The metric columns of the scores table, in order: each metric, and
     /// per-level metrics once per interval level.
     pub fn metric_columns(&self) -> Vec<MetricColumn> {
