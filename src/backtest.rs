@@ -100,12 +100,20 @@ pub fn run_cell(
                     candidate.family,
                     Family::Ar { .. } | Family::ArSelect { .. }
                 );
-            let (forecasts, residuals) =
-                linear::backtest(&design, &candidate.family, &sched, &exp.horizons, iterated)?;
-            let outlook = if with_outlook {
-                linear::outlook(&design, &candidate.family, window, &exp.horizons, iterated)
-            } else {
-                Vec::new()
+                        let (forecasts, residuals, carried) = linear::backtest(
+                &design,
+                &candidate.family,
+                &sched,
+                &exp.horizons,
+                iterated,
+                with_outlook.then_some(window),
+            )?;
+            let outlook = match carried {
+                Some(rows) => rows,
+                None if with_outlook => {
+                    linear::outlook(&design, &candidate.family, window, &exp.horizons, iterated)
+                }
+                None => Vec::new(),
             };
             Ok(CellOutput {
                 forecasts,

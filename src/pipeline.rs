@@ -41,18 +41,9 @@ struct Slice {
     tables: [Vec<u8>; 8],
     report_forecasts: Vec<u8>,
     report_stability: Vec<u8>,
+    report_series: Vec<u8>,
     cells: Vec<report::manifest::CellFacts>,
     failed: usize,
-}
-
-fn without_header(mut bytes: Vec<u8>) -> Vec<u8> {
-    match bytes.iter().position(|b| *b == b'\n') {
-        Some(i) => {
-            bytes.drain(..=i);
-            bytes
-        }
-        None => Vec::new(),
-    }
 }
 
 fn header(bytes: &[u8]) -> &[u8] {
@@ -78,6 +69,9 @@ fn slice(exp: &Experiment, t: usize, mut outputs: Vec<CellOutput>) -> Slice {
     let tables = report::tables::forecasts_csv(&sub, &cells, &outputs);
     let report_forecasts = if t < REPORT_TARGETS {
         tables.clone()
+    } else if t >= report::DETAIL_TARGETS {
+        // Beyond the detailed targets the report shows only the verdict.
+        header(&tables).to_vec()
     } else {
         // Beyond the charted targets the report reads the benchmark's
         // forecasts (spans and counts) and where every other series begins.
@@ -116,6 +110,8 @@ fn slice(exp: &Experiment, t: usize, mut outputs: Vec<CellOutput>) -> Slice {
     } else {
         Vec::new()
     };
+    let series = report::tables::series_csv(&sub, t == 0);
+    let report_series = if t < report::DETAIL_TARGETS { series.clone() } else { header(&series).to_vec() };
     let cells_facts = cells
         .iter()
         .zip(&outputs)
@@ -134,7 +130,7 @@ fn slice(exp: &Experiment, t: usize, mut outputs: Vec<CellOutput>) -> Slice {
             report::tables::tests_csv(&sub, &tests),
             stability_bytes,
             report::tables::diagnostics_csv(&diagnostics),
-            report::tables::series_csv(&sub, t == 0),
+            series,
             if t == 0 {
                 exp.source_text.clone().into_bytes()
             } else {
@@ -144,6 +140,7 @@ fn slice(exp: &Experiment, t: usize, mut outputs: Vec<CellOutput>) -> Slice {
         ],
         report_forecasts,
         report_stability,
+        report_series,
         cells: cells_facts,
         failed: outputs.iter().filter(|o| o.failure.is_some()).count(),
     }
@@ -173,6 +170,41 @@ fn write_file(dir: &Path, name: &str, bytes: &[u8]) -> Result<OutputFile> {
     Ok(OutputFile::of(name, bytes))
 }
 
+/// The streams and what the report keeps, filled by the writer thread.
+struct Written {
+    streams: Vec<Stream>,
+    small: BTreeMap<String, Vec<u8>>,
+    cell_facts: Vec<report::manifest::CellFacts>,
+    failed: usize,
+}
+
+impl Written {
+    fn append(&mut self, first: bool, s: Slice) -> Result<()> {
+        for (k, table) in s.tables.iter().enumerate() {
+            let name = TABLES[k];
+            let body: &[u8] = if first || name == "experiment.yaml" { table } else { &table[header(table).len()..] };
+            self.streams[k].write(body)?;
+            // The report reads every small table whole; of the two large ones
+            // only the rows it draws.
+            let keep: &[u8] = match name {
+                "forecasts.csv" => &s.report_forecasts,
+                "stability.csv" => &s.report_stability,
+                "series.csv" => &s.report_series,
+                _ => table,
+            };
+            let entry = self.small.entry(name.to_string()).or_default();
+            if entry.is_empty() || name == "experiment.yaml" {
+                entry.extend_from_slice(keep);
+            } else {
+                entry.extend_from_slice(&keep[header(keep).len()..]);
+            }
+        }
+        self.failed += s.failed;
+        self.cell_facts.extend(s.cells);
+        Ok(())
+    }
+}
+
 /// What `produce` wrote.
 pub struct Produced {
     pub failed_cells: usize,
@@ -198,62 +230,78 @@ pub fn produce(
             bytes: 0,
         });
     }
-    let mut small: BTreeMap<String, Vec<u8>> = BTreeMap::new();
-    let mut cell_facts = Vec::new();
-    let mut failed = 0;
     let targets: Vec<usize> = (0..exp.targets.len()).collect();
-    for block in targets.chunks(chunk.max(1)) {
-        let slices: Vec<Result<Slice>> = block
-            .par_iter()
-            .map(|&t| source(t).map(|o| slice(exp, t, o)))
-            .collect();
-        for (i, s) in slices.into_iter().enumerate() {
-            let s = s?;
-            let first = block[0] + i == 0;
-            for (k, table) in s.tables.iter().enumerate() {
-                let name = TABLES[k];
-                let body: &[u8] = if first || name == "experiment.yaml" {
-                    table
-                } else {
-                    &table[header(table).len()..]
-                };
-                streams[k].write(body)?;
-                // The report reads every small table whole; of the two large
-                // ones only the rows it draws.
-                let keep: Option<&[u8]> = match name {
-                    "forecasts.csv" => Some(&s.report_forecasts),
-                    "stability.csv" => Some(&s.report_stability),
-                    _ => Some(table),
-                };
-                if let Some(bytes) = keep {
-                    let entry = small.entry(name.to_string()).or_default();
-                    if entry.is_empty() || name == "experiment.yaml" {
-                        entry.extend_from_slice(bytes);
-                    } else {
-                        entry.extend_from_slice(&without_header(bytes.to_vec()));
+    let mut w = Written { streams, small: BTreeMap::new(), cell_facts: Vec::new(), failed: 0 };
+    let compute = |block: &[usize]| -> Result<Vec<Slice>> {
+        block.par_iter().map(|&t| source(t).map(|o| slice(exp, t, o))).collect()
+    };
+    if ctx.threads <= 1 {
+        // One thread of work means one: compute and write in turn.
+        for block in targets.chunks(chunk.max(1)) {
+            for (i, s) in compute(block)?.into_iter().enumerate() {
+                w.append(block[0] + i == 0, s)?;
+            }
+        }
+    } else {
+        // A writer thread appends each chunk's slices (and hashes them) while
+        // the workers compute the next chunk.
+        let (tx, rx) = std::sync::mpsc::sync_channel::<(usize, Vec<Slice>)>(1);
+        w = std::thread::scope(|scope| -> Result<Written> {
+            let writer = scope.spawn(move || -> Result<Written> {
+                for (first_target, slices) in rx {
+                    for (i, s) in slices.into_iter().enumerate() {
+                        w.append(first_target + i == 0, s)?;
+                    }
+                }
+                Ok(w)
+            });
+            let mut failure = None;
+            for block in targets.chunks(chunk.max(1)) {
+                match compute(block) {
+                    Ok(slices) => {
+                        if tx.send((block[0], slices)).is_err() {
+                            break;
+                        }
+                    }
+                    Err(e) => {
+                        failure = Some(e);
+                        break;
                     }
                 }
             }
-            failed += s.failed;
-            cell_facts.extend(s.cells);
-        }
+            drop(tx);
+            let written = writer
+                .join()
+                .map_err(|_| Error::Run("the table writer stopped unexpectedly".into()))?;
+            match failure {
+                Some(e) => Err(e),
+                None => written,
+            }
+        })?;
+    }
+    let written = w;
+    let Written { streams, small, cell_facts, failed } = written;
+    if std::env::var_os("OUTTURN_DEBUG_TIMING").is_some() {
+        eprintln!("timing: tables streamed at {:.2} s", ctx.started.elapsed().as_secs_f64());
     }
     let mut outputs = Vec::new();
+    let mut files = Vec::new();
     for s in streams {
-        let Stream {
-            name,
-            file,
-            hash,
-            bytes,
-        } = s;
-        file.into_inner()
-            .map_err(|e| Error::io(format!("cannot write {name}"), e.into_error()))?;
+        let Stream { name, file, hash, bytes } = s;
+        let file = file.into_inner().map_err(|e| Error::io(format!("cannot write {name}"), e.into_error()))?;
+        files.push(file);
         outputs.push(OutputFile {
             name: name.to_string(),
             sha256: hash.finalize().iter().map(|b| format!("{b:02x}")).collect(),
             bytes,
         });
     }
+    // The large tables reach the disk while the reports are rendered.
+    let syncing = std::thread::spawn(move || {
+        for f in files {
+            let _ = f.sync_all();
+        }
+    });
     let facts = report::manifest::RunFacts {
         seconds: ctx.started.elapsed().as_secs_f64(),
         threads: ctx.threads,
@@ -277,8 +325,12 @@ pub fn produce(
     for (name, bytes) in &rendered {
         outputs.push(write_file(dir, name, bytes)?);
     }
-    let manifest = report::manifest::manifest(exp, &cell_facts, &templates_used, &outputs, &facts);
+        let manifest = report::manifest::manifest(exp, &cell_facts, &templates_used, &outputs, &facts);
     write_file(dir, "manifest.json", &manifest)?;
+    let _ = syncing.join();
+    if std::env::var_os("OUTTURN_DEBUG_TIMING").is_some() {
+        eprintln!("timing: reports and manifest at {:.2} s", ctx.started.elapsed().as_secs_f64());
+    }
     Ok(Produced {
         failed_cells: failed,
     })

@@ -333,7 +333,7 @@ fn many_targets_render_and_merge_to_the_same_bytes() {
     // from the rows it keeps must equal the one `render` makes from the
     // whole folder, and a merge must equal a single run.
     let dir = scratch("panel");
-    let exp = write_panel(&dir, 11, 90);
+    let exp = write_panel(&dir, 27, 90);
     let exp = exp.to_str().unwrap();
     let single = dir.join("single");
     ok(&[

@@ -392,14 +392,22 @@ fn iterated_variances(design: &Design, sub: &Submodel, sol: &Solution, max_h: us
 
 /// Direct forecasts (and iterated ones for ar under `multi_step: iterated`).
 /// Backtest forecasts, and the residuals of the last estimation of the
-/// shortest horizon's regression (for residual diagnostics).
+/// shortest horizon's regression (for residual diagnostics). With
+/// `outlook: Some(window)` the outlook (E = N, the last `window` rows) is
+/// also produced by carrying the same estimator on to N when its window is
+/// the scheme's own; otherwise it is left to [`outlook`] (None returned).
+pub type Backtest = (Vec<ForecastRow>, Vec<f64>, Option<Vec<OutlookRow>>);
+
 pub fn backtest(
     design: &Design,
     family: &Family,
     sched: &Schedule,
     horizons: &[usize],
     iterated: bool,
-) -> Result<(Vec<ForecastRow>, Vec<f64>), EstimationProblem> {
+    outlook: Option<Option<usize>>,
+) -> Result<Backtest, EstimationProblem> {
+    let carry_on = outlook.is_some_and(|w| w == sched.window());
+    let n = design.n;
     let (subs, criterion) = submodels(family, design);
     let record_order = criterion.is_some();
     let mut out = Vec::new();
@@ -443,12 +451,30 @@ pub fn backtest(
             index: c.index,
             solution: c.solution.clone(),
         });
-        let residuals = residuals
+                let residuals = residuals
             .map(|c| est.residuals(end, &c))
             .unwrap_or_default();
-        return Ok((out, residuals));
+        let look = carry_on.then(|| match est.at(n) {
+            Ok(chosen) => {
+                let sub = &subs[chosen.index];
+                let ok = iterate_path(design, sub, &chosen.solution, n, &mut path).is_some();
+                let variances = iterated_variances(design, sub, &chosen.solution, max_h);
+                horizons
+                    .iter()
+                    .map(|&h| OutlookRow {
+                        horizon: h,
+                        forecast: ok.then(|| path[h - 1]),
+                        variance: ok.then(|| variances[h - 1]),
+                    })
+                    .collect()
+            }
+            Err(_) => horizons.iter().map(|&h| OutlookRow { horizon: h, forecast: None, variance: None }).collect(),
+        });
+        return Ok((out, residuals, look));
     }
     let mut residuals = Vec::new();
+    let mut look = Vec::new();
+    out.reserve(horizons.iter().map(|&h| sched.origins(h).count()).sum());
     for (hi, &h) in horizons.iter().enumerate() {
         let rows = Rows::build(design, h);
         let mut est = Estimator::new(&rows, design.y, h, sched.window(), &subs, criterion);
@@ -469,6 +495,17 @@ pub fn backtest(
                 order: record_order.then_some(sub.order),
             });
         }
+        if carry_on {
+            let mut x = vec![0.0; rows.k];
+            look.push(match est.at(n) {
+                Ok(chosen) if design.row(n, h, &mut x) => OutlookRow {
+                    horizon: h,
+                    forecast: Some(predict(&chosen.solution, &x, &subs[chosen.index].columns)),
+                    variance: Some(chosen.solution.sigma2()),
+                },
+                _ => OutlookRow { horizon: h, forecast: None, variance: None },
+            });
+        }
         if hi == 0 {
             let end = sched.estimation_end(*sched.origins(h).end());
             if let Ok(c) = est.at(end) {
@@ -480,7 +517,7 @@ pub fn backtest(
             }
         }
     }
-    Ok((out, residuals))
+    Ok((out, residuals, carry_on.then_some(look)))
 }
 
 /// Iterated forecasts ŷ_{T+1..T+H} of an ar design from origin T: earlier

@@ -25,6 +25,9 @@ pub const CAUTION: &str = "Backtest accuracy describes how these models would ha
 pub const LEVEL: f64 = 0.05;
 /// Targets shown with every chart; later targets get tables only.
 pub const CHART_TARGETS: usize = 8;
+/// Targets whose sections after the verdict are shown in detail; beyond
+/// them the report keeps the verdict and points at the tables.
+pub const DETAIL_TARGETS: usize = 25;
 /// Ranking rows shown before the rest go behind a disclosure.
 const RANKING_ROWS: usize = 40;
 /// Observed periods drawn before the outlook.
@@ -1094,36 +1097,59 @@ pub fn report_data(f: &Folder, manifest: &Value) -> Value {
         .clone()
         .unwrap_or_else(|| experiment_name.clone());
 
-    let mut targets = Vec::new();
+        // Targets are independent: build them in parallel, assemble in order.
+    use rayon::prelude::*;
+    let built: Vec<(Value, Option<Value>, Vec<Value>)> = g
+        .targets
+        .par_iter()
+        .enumerate()
+        .map(|(t, target)| {
+            let charts = t < CHART_TARGETS;
+            let verdict = verdict_for(&ix, t);
+            let rows: Vec<Value> = verdict["rows"]
+                .as_array()
+                .into_iter()
+                .flatten()
+                .map(|v| {
+                    let mut v = v.clone();
+                    v["target"] = json!(target);
+                    v
+                })
+                .collect();
+            let series = f.series.iter().find(|s| s.role == "target" && s.name == *target);
+            let panels_open = g.schemes.len() * g.horizons.len() <= 8 && !many;
+            let mut entry = json!({
+                "name": target,
+                "anchor": format!("t-{}", slug(target)),
+                "index": t + 1,
+                "charts": charts,
+                "open": !many || t == 0,
+                "panels_open": panels_open,
+                "verdict": verdict,
+            });
+            // Every target gets its verdict; the sections after it go into
+            // detail for the first DETAIL_TARGETS only (the tables hold the rest).
+            let full = (t < DETAIL_TARGETS).then(|| {
+                let mut full = entry.clone();
+                full["outlook"] = outlook_for(&ix, t, series, charts);
+                full["rankings"] = rankings_for(&ix, t);
+                full["overfitting"] = overfitting_for(&ix, t, charts);
+                full["tests"] = tests_for(&ix, t);
+                full["over_time"] = over_time_for(&ix, t, series, charts);
+                full["data"] = data_for(&ix, t, series, charts);
+                full
+            });
+            entry["detail"] = json!(t < DETAIL_TARGETS);
+            (entry, full, rows)
+        })
+        .collect();
+    let mut targets = Vec::with_capacity(built.len());
+    let mut detailed = Vec::new();
     let mut verdict_rows = Vec::new();
-    for (t, target) in g.targets.iter().enumerate() {
-        let charts = t < CHART_TARGETS;
-        let verdict = verdict_for(&ix, t);
-        for v in verdict["rows"].as_array().into_iter().flatten() {
-            let mut v = v.clone();
-            v["target"] = json!(target);
-            verdict_rows.push(v);
-        }
-        let series = f
-            .series
-            .iter()
-            .find(|s| s.role == "target" && s.name == *target);
-        let panels_open = g.schemes.len() * g.horizons.len() <= 8 && !many;
-        targets.push(json!({
-            "name": target,
-            "anchor": format!("t-{}", slug(target)),
-            "index": t + 1,
-            "charts": charts,
-            "open": !many || t == 0,
-            "panels_open": panels_open,
-            "verdict": verdict,
-            "outlook": outlook_for(&ix, t, series, charts),
-            "rankings": rankings_for(&ix, t),
-            "overfitting": overfitting_for(&ix, t, charts),
-            "tests": tests_for(&ix, t),
-            "over_time": over_time_for(&ix, t, series, charts),
-            "data": data_for(&ix, t, series, charts),
-        }));
+    for (entry, full, rows) in built {
+        targets.push(entry);
+        detailed.extend(full);
+        verdict_rows.extend(rows);
     }
 
     // Across targets: how many settings fall in each reading.
@@ -1203,7 +1229,10 @@ pub fn report_data(f: &Folder, manifest: &Value) -> Value {
         "chart_targets": CHART_TARGETS,
         "verdict_rows": verdict_rows,
         "known_ahead": known_ahead,
+                "detail_targets": DETAIL_TARGETS.min(g.targets.len()),
+        "omitted_detail": g.targets.len().saturating_sub(DETAIL_TARGETS),
         "targets": targets,
+        "detailed_targets": detailed,
         "predictors": f.settings.predictors.iter().map(|(c, t, l, k)| json!({
             "column": c, "transform": t, "transform_words": transform_words(t), "release_lag": l, "known_ahead": k,
         })).collect::<Vec<_>>(),

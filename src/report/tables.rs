@@ -7,19 +7,58 @@ use crate::plan::Cell;
 use crate::score::ScoreRow;
 use crate::spec::Experiment;
 
-/// Shortest round-trip representation of a float (Rust's `Display` and
-/// `LowerExp` print the shortest digits that parse back to the same value);
-/// exponent form for very large or small magnitudes.
+/// Shortest round-trip representation of a float (Ryū: the fewest digits
+/// that parse back to the same f64), without a trailing `.0`; exponent form
+/// for magnitudes below 1e-5 or from 1e16. Undefined values are empty.
 pub fn num(v: f64) -> String {
+    let mut out = Vec::new();
+    push_num(&mut out, v);
+    String::from_utf8(out).unwrap_or_default()
+}
+
+/// [`num`] appended to a byte buffer without allocating.
+pub fn push_num(out: &mut Vec<u8>, v: f64) {
     if !v.is_finite() {
-        return String::new();
+        return;
     }
-    let a = v.abs();
-    if a != 0.0 && !(1e-5..1e16).contains(&a) {
-        format!("{v:e}")
+    let mut buf = ryu::Buffer::new();
+    let s = buf.format_finite(v).as_bytes();
+    out.extend_from_slice(s.strip_suffix(b".0").unwrap_or(s));
+}
+
+/// A text field, quoted when it holds a comma, quote or newline (the csv
+/// crate's "necessary" quoting, so hand-written rows match its output).
+pub fn push_field(out: &mut Vec<u8>, s: &str) {
+    if s.bytes().any(|b| b == b',' || b == b'"' || b == b'\n') {
+        out.push(b'"');
+        for b in s.bytes() {
+            if b == b'"' {
+                out.push(b'"');
+            }
+            out.push(b);
+        }
+        out.push(b'"');
     } else {
-        format!("{v}")
+        out.extend_from_slice(s.as_bytes());
     }
+}
+
+fn push_usize(out: &mut Vec<u8>, v: usize) {
+    let mut buf = itoa_like(v);
+    out.append(&mut buf);
+}
+
+fn itoa_like(mut v: usize) -> Vec<u8> {
+    let mut digits = Vec::with_capacity(8);
+    loop {
+        digits.push(b'0' + (v % 10) as u8);
+        v /= 10;
+        if v == 0 {
+            break;
+        }
+    }
+    digits.reverse();
+    digits
 }
 
 pub fn opt(v: Option<f64>) -> String {
@@ -70,19 +109,11 @@ fn push_intervals(
     }
 }
 
+/// Every backtest forecast (`forecasts.csv`). The largest table by far:
+/// rows are written straight into one buffer, numbers without allocation.
 pub fn forecasts_csv(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8> {
-    let mut w = writer();
     let mut header: Vec<String> = [
-        "target",
-        "candidate",
-        "scheme",
-        "horizon",
-        "origin",
-        "period",
-        "forecast",
-        "actual",
-        "error",
-        "is_mse",
+        "target", "candidate", "scheme", "horizon", "origin", "period", "forecast", "actual", "error", "is_mse",
     ]
     .map(String::from)
     .to_vec();
@@ -91,36 +122,67 @@ pub fn forecasts_csv(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -
     if with_order {
         header.push("order".into());
     }
-    let _ = w.write_record(&header);
-    let mut rec: Vec<String> = Vec::with_capacity(header.len());
-    for (cell, out) in cells.iter().zip(outputs) {
+    let rows: usize = outputs.iter().map(|o| o.forecasts.len()).sum();
+    let mut out = Vec::with_capacity(64 + rows * (96 + 40 * exp.intervals.len()));
+    for (i, h) in header.iter().enumerate() {
+        if i > 0 {
+            out.push(b',');
+        }
+        push_field(&mut out, h);
+    }
+    out.push(b'\n');
+    let zs: Vec<f64> = exp.intervals.iter().map(|l| crate::score::normal_quantile((1.0 + l.level) / 2.0)).collect();
+    for (cell, o) in cells.iter().zip(outputs) {
         let target = &exp.targets[cell.target];
-        let cand = &exp.candidates[cell.candidate].id;
-        let scheme = &exp.schemes[cell.scheme].id;
-        for r in &out.forecasts {
+        // The row's fixed part: target, candidate, scheme.
+        let mut lead = Vec::new();
+        push_field(&mut lead, &target.name);
+        lead.push(b',');
+        push_field(&mut lead, &exp.candidates[cell.candidate].id);
+        lead.push(b',');
+        push_field(&mut lead, &exp.schemes[cell.scheme].id);
+        lead.push(b',');
+        for r in &o.forecasts {
             let pos = r.origin + r.horizon;
             let actual = target.y[pos - 1];
-            rec.clear();
-            rec.extend([
-                target.name.clone(),
-                cand.clone(),
-                scheme.clone(),
-                r.horizon.to_string(),
-                target.labels[r.origin - 1].clone(),
-                target.labels[pos - 1].clone(),
-                num(r.forecast),
-                num(actual),
-                num(actual - r.forecast),
-                opt(r.is_mse),
-            ]);
-            push_intervals(&mut rec, exp, Some(r.forecast), r.variance);
-            if with_order {
-                rec.push(r.order.map(|o| o.to_string()).unwrap_or_default());
+            out.extend_from_slice(&lead);
+            push_usize(&mut out, r.horizon);
+            out.push(b',');
+            push_field(&mut out, &target.labels[r.origin - 1]);
+            out.push(b',');
+            push_field(&mut out, &target.labels[pos - 1]);
+            out.push(b',');
+            push_num(&mut out, r.forecast);
+            out.push(b',');
+            push_num(&mut out, actual);
+            out.push(b',');
+            push_num(&mut out, actual - r.forecast);
+            out.push(b',');
+            if let Some(m) = r.is_mse {
+                push_num(&mut out, m);
             }
-            let _ = w.write_record(&rec);
+            for &z in &zs {
+                out.push(b',');
+                match r.variance {
+                    Some(v) if v >= 0.0 => {
+                        let sd = v.sqrt();
+                        push_num(&mut out, r.forecast - z * sd);
+                        out.push(b',');
+                        push_num(&mut out, r.forecast + z * sd);
+                    }
+                    _ => out.push(b','),
+                }
+            }
+            if with_order {
+                out.push(b',');
+                if let Some(order) = r.order {
+                    push_field(&mut out, &order.to_string());
+                }
+            }
+            out.push(b'\n');
         }
     }
-    finish(w)
+    out
 }
 
 pub fn outlook_csv(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8> {
@@ -233,29 +295,28 @@ pub fn tests_csv(exp: &Experiment, rows: &[crate::score::comparison::TestRow]) -
 
 /// Rolling accuracy over time (`stability.csv`).
 pub fn stability_csv(exp: &Experiment, rows: &[crate::score::stability::StabilityRow]) -> Vec<u8> {
-    let mut w = writer();
-    let _ = w.write_record([
-        "target",
-        "candidate",
-        "scheme",
-        "horizon",
-        "period",
-        "rolling_rmse",
-        "fluctuation",
-    ]);
+    let mut out = Vec::with_capacity(64 + rows.len() * 64);
+    out.extend_from_slice(b"target,candidate,scheme,horizon,period,rolling_rmse,fluctuation\n");
     for r in rows {
         let target = &exp.targets[r.target];
-        let _ = w.write_record([
-            target.name.clone(),
-            exp.candidates[r.candidate].id.clone(),
-            exp.schemes[r.scheme].id.clone(),
-            r.horizon.to_string(),
-            target.labels[r.position - 1].clone(),
-            num(r.rolling_rmse),
-            opt(r.fluctuation),
-        ]);
+        push_field(&mut out, &target.name);
+        out.push(b',');
+        push_field(&mut out, &exp.candidates[r.candidate].id);
+        out.push(b',');
+        push_field(&mut out, &exp.schemes[r.scheme].id);
+        out.push(b',');
+        push_usize(&mut out, r.horizon);
+        out.push(b',');
+        push_field(&mut out, &target.labels[r.position - 1]);
+        out.push(b',');
+        push_num(&mut out, r.rolling_rmse);
+        out.push(b',');
+        if let Some(f) = r.fluctuation {
+            push_num(&mut out, f);
+        }
+        out.push(b'\n');
     }
-    finish(w)
+    out
 }
 
 /// Unit-root and residual diagnostics (`diagnostics.csv`).
