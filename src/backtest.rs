@@ -100,7 +100,7 @@ pub fn run_cell(
                     candidate.family,
                     Family::Ar { .. } | Family::ArSelect { .. }
                 );
-                        let (forecasts, residuals, carried) = linear::backtest(
+            let (forecasts, residuals, carried) = linear::backtest(
                 &design,
                 &candidate.family,
                 &sched,

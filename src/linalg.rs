@@ -141,9 +141,13 @@ impl LeastSquares {
                 continue;
             }
             let a = self.r[i * k + i];
-                        // sqrt(a² + b²) directly; hypot (slow in libm) only where the squares overflow.
+            // sqrt(a² + b²) directly; hypot (slow in libm) only where the squares overflow.
             let sq = a * a + b * b;
-            let rho = if sq.is_finite() && sq > f64::MIN_POSITIVE { sq.sqrt() } else { a.hypot(b) };
+            let rho = if sq.is_finite() && sq > f64::MIN_POSITIVE {
+                sq.sqrt()
+            } else {
+                a.hypot(b)
+            };
             let (c, s) = (a / rho, b / rho);
             let row = &mut self.r[i * k..(i + 1) * k];
             row[i] = rho;

@@ -21,8 +21,15 @@ use std::collections::BTreeMap;
 use std::io::Write;
 use std::path::Path;
 
-/// Targets whose rows the report draws in full (see report::CHART_TARGETS).
-const REPORT_TARGETS: usize = report::CHART_TARGETS;
+/// Targets whose rows the report draws in full: the charted ones, when
+/// there is an HTML report to chart them in.
+fn report_targets(exp: &Experiment) -> usize {
+    if exp.formats.contains(&crate::spec::ReportFormat::Html) {
+        report::CHART_TARGETS
+    } else {
+        0
+    }
+}
 
 /// The tables a folder holds, in manifest order (the reports and manifest follow).
 const TABLES: [&str; 8] = [
@@ -67,7 +74,7 @@ fn slice(exp: &Experiment, t: usize, mut outputs: Vec<CellOutput>) -> Slice {
     tests.sort_by_key(|r| (r.target, r.scheme, r.horizon));
     let diagnostics = score::stability::diagnostics(&sub, &cells, &outputs, t == 0);
     let tables = report::tables::forecasts_csv(&sub, &cells, &outputs);
-    let report_forecasts = if t < REPORT_TARGETS {
+    let report_forecasts = if t < report_targets(exp) {
         tables.clone()
     } else if t >= report::DETAIL_TARGETS {
         // Beyond the detailed targets the report shows only the verdict.
@@ -105,13 +112,17 @@ fn slice(exp: &Experiment, t: usize, mut outputs: Vec<CellOutput>) -> Slice {
         report::tables::forecasts_csv(&sub, &cells, &firsts)
     };
     let stability_bytes = report::tables::stability_csv(&sub, &stability);
-    let report_stability = if t < REPORT_TARGETS {
+    let report_stability = if t < report_targets(exp) {
         stability_bytes.clone()
     } else {
         Vec::new()
     };
     let series = report::tables::series_csv(&sub, t == 0);
-    let report_series = if t < report::DETAIL_TARGETS { series.clone() } else { header(&series).to_vec() };
+    let report_series = if t < report::DETAIL_TARGETS {
+        series.clone()
+    } else {
+        header(&series).to_vec()
+    };
     let cells_facts = cells
         .iter()
         .zip(&outputs)
@@ -182,7 +193,11 @@ impl Written {
     fn append(&mut self, first: bool, s: Slice) -> Result<()> {
         for (k, table) in s.tables.iter().enumerate() {
             let name = TABLES[k];
-            let body: &[u8] = if first || name == "experiment.yaml" { table } else { &table[header(table).len()..] };
+            let body: &[u8] = if first || name == "experiment.yaml" {
+                table
+            } else {
+                &table[header(table).len()..]
+            };
             self.streams[k].write(body)?;
             // The report reads every small table whole; of the two large ones
             // only the rows it draws.
@@ -231,9 +246,17 @@ pub fn produce(
         });
     }
     let targets: Vec<usize> = (0..exp.targets.len()).collect();
-    let mut w = Written { streams, small: BTreeMap::new(), cell_facts: Vec::new(), failed: 0 };
+    let mut w = Written {
+        streams,
+        small: BTreeMap::new(),
+        cell_facts: Vec::new(),
+        failed: 0,
+    };
     let compute = |block: &[usize]| -> Result<Vec<Slice>> {
-        block.par_iter().map(|&t| source(t).map(|o| slice(exp, t, o))).collect()
+        block
+            .par_iter()
+            .map(|&t| source(t).map(|o| slice(exp, t, o)))
+            .collect()
     };
     if ctx.threads <= 1 {
         // One thread of work means one: compute and write in turn.
@@ -280,15 +303,30 @@ pub fn produce(
         })?;
     }
     let written = w;
-    let Written { streams, small, cell_facts, failed } = written;
+    let Written {
+        streams,
+        small,
+        cell_facts,
+        failed,
+    } = written;
     if std::env::var_os("OUTTURN_DEBUG_TIMING").is_some() {
-        eprintln!("timing: tables streamed at {:.2} s", ctx.started.elapsed().as_secs_f64());
+        eprintln!(
+            "timing: tables streamed at {:.2} s",
+            ctx.started.elapsed().as_secs_f64()
+        );
     }
     let mut outputs = Vec::new();
     let mut files = Vec::new();
     for s in streams {
-        let Stream { name, file, hash, bytes } = s;
-        let file = file.into_inner().map_err(|e| Error::io(format!("cannot write {name}"), e.into_error()))?;
+        let Stream {
+            name,
+            file,
+            hash,
+            bytes,
+        } = s;
+        let file = file
+            .into_inner()
+            .map_err(|e| Error::io(format!("cannot write {name}"), e.into_error()))?;
         files.push(file);
         outputs.push(OutputFile {
             name: name.to_string(),
@@ -325,11 +363,14 @@ pub fn produce(
     for (name, bytes) in &rendered {
         outputs.push(write_file(dir, name, bytes)?);
     }
-        let manifest = report::manifest::manifest(exp, &cell_facts, &templates_used, &outputs, &facts);
+    let manifest = report::manifest::manifest(exp, &cell_facts, &templates_used, &outputs, &facts);
     write_file(dir, "manifest.json", &manifest)?;
     let _ = syncing.join();
     if std::env::var_os("OUTTURN_DEBUG_TIMING").is_some() {
-        eprintln!("timing: reports and manifest at {:.2} s", ctx.started.elapsed().as_secs_f64());
+        eprintln!(
+            "timing: reports and manifest at {:.2} s",
+            ctx.started.elapsed().as_secs_f64()
+        );
     }
     Ok(Produced {
         failed_cells: failed,

@@ -451,7 +451,7 @@ pub fn backtest(
             index: c.index,
             solution: c.solution.clone(),
         });
-                let residuals = residuals
+        let residuals = residuals
             .map(|c| est.residuals(end, &c))
             .unwrap_or_default();
         let look = carry_on.then(|| match est.at(n) {
@@ -468,7 +468,14 @@ pub fn backtest(
                     })
                     .collect()
             }
-            Err(_) => horizons.iter().map(|&h| OutlookRow { horizon: h, forecast: None, variance: None }).collect(),
+            Err(_) => horizons
+                .iter()
+                .map(|&h| OutlookRow {
+                    horizon: h,
+                    forecast: None,
+                    variance: None,
+                })
+                .collect(),
         });
         return Ok((out, residuals, look));
     }
@@ -503,7 +510,11 @@ pub fn backtest(
                     forecast: Some(predict(&chosen.solution, &x, &subs[chosen.index].columns)),
                     variance: Some(chosen.solution.sigma2()),
                 },
-                _ => OutlookRow { horizon: h, forecast: None, variance: None },
+                _ => OutlookRow {
+                    horizon: h,
+                    forecast: None,
+                    variance: None,
+                },
             });
         }
         if hi == 0 {

@@ -1076,7 +1076,8 @@ fn chart_value(
 
 /// Build the report-data value both templates render, from a folder's
 /// tables and the manifest's deterministic part (no `outputs`, no `run`).
-pub fn report_data(f: &Folder, manifest: &Value) -> Value {
+/// `draw`: whether charts are wanted (only the HTML report shows them).
+pub fn report_data(f: &Folder, manifest: &Value, draw: bool) -> Value {
     let ix = Index::new(f);
     let g = &f.grid;
     let bench = g.benchmark;
@@ -1097,14 +1098,14 @@ pub fn report_data(f: &Folder, manifest: &Value) -> Value {
         .clone()
         .unwrap_or_else(|| experiment_name.clone());
 
-        // Targets are independent: build them in parallel, assemble in order.
+    // Targets are independent: build them in parallel, assemble in order.
     use rayon::prelude::*;
     let built: Vec<(Value, Option<Value>, Vec<Value>)> = g
         .targets
         .par_iter()
         .enumerate()
         .map(|(t, target)| {
-            let charts = t < CHART_TARGETS;
+            let charts = draw && t < CHART_TARGETS;
             let verdict = verdict_for(&ix, t);
             let rows: Vec<Value> = verdict["rows"]
                 .as_array()
@@ -1116,7 +1117,10 @@ pub fn report_data(f: &Folder, manifest: &Value) -> Value {
                     v
                 })
                 .collect();
-            let series = f.series.iter().find(|s| s.role == "target" && s.name == *target);
+            let series = f
+                .series
+                .iter()
+                .find(|s| s.role == "target" && s.name == *target);
             let panels_open = g.schemes.len() * g.horizons.len() <= 8 && !many;
             let mut entry = json!({
                 "name": target,

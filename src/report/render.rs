@@ -125,7 +125,7 @@ pub fn reports(
     templates: &Templates,
 ) -> std::result::Result<Vec<(String, Vec<u8>)>, String> {
     let folder = Folder::parse(files, manifest)?;
-    let data = report_data(&folder, manifest);
+    let data = report_data(&folder, manifest, formats.contains(&ReportFormat::Html));
     let mut out = Vec::new();
     if formats.contains(&ReportFormat::Markdown) {
         let (name, source) = &templates.markdown;

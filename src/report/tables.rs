@@ -113,7 +113,16 @@ fn push_intervals(
 /// rows are written straight into one buffer, numbers without allocation.
 pub fn forecasts_csv(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8> {
     let mut header: Vec<String> = [
-        "target", "candidate", "scheme", "horizon", "origin", "period", "forecast", "actual", "error", "is_mse",
+        "target",
+        "candidate",
+        "scheme",
+        "horizon",
+        "origin",
+        "period",
+        "forecast",
+        "actual",
+        "error",
+        "is_mse",
     ]
     .map(String::from)
     .to_vec();
@@ -131,7 +140,11 @@ pub fn forecasts_csv(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -
         push_field(&mut out, h);
     }
     out.push(b'\n');
-    let zs: Vec<f64> = exp.intervals.iter().map(|l| crate::score::normal_quantile((1.0 + l.level) / 2.0)).collect();
+    let zs: Vec<f64> = exp
+        .intervals
+        .iter()
+        .map(|l| crate::score::normal_quantile((1.0 + l.level) / 2.0))
+        .collect();
     for (cell, o) in cells.iter().zip(outputs) {
         let target = &exp.targets[cell.target];
         // The row's fixed part: target, candidate, scheme.
