@@ -547,21 +547,7 @@ impl Folder {
         let mut tests = Vec::new();
         if let Some(bytes) = files.get("tests.csv") {
             let t = Csv::parse("tests.csv", bytes)?;
-            let cols: Vec<Option<usize>> = [
-                "target",
-                "scheme",
-                "horizon",
-                "test",
-                "candidate",
-                "versus",
-                "statistic",
-                "p_value",
-                "in_set",
-                "critical_value",
-            ]
-            .iter()
-            .map(|n| t.col(n))
-            .collect();
+            let cols: Vec<Option<usize>> = tables::TESTS_COLUMNS.iter().map(|n| t.col(n)).collect();
             for r in &t.rows {
                 let (Some(&target), Some(&scheme), Ok(horizon)) = (
                     ti.get(field(r, cols[0])),

@@ -274,20 +274,23 @@ pub fn scores_csv(exp: &Experiment, rows: &[ScoreRow]) -> Vec<u8> {
     finish(w)
 }
 
+/// The columns of tests.csv (SPEC §5 plus `in_set` and `critical_value`).
+pub const TESTS_COLUMNS: [&str; 10] = [
+    "target",
+    "scheme",
+    "horizon",
+    "test",
+    "candidate",
+    "versus",
+    "statistic",
+    "p_value",
+    "in_set",
+    "critical_value",
+];
+
 pub fn tests_csv(exp: &Experiment, rows: &[crate::score::comparison::TestRow]) -> Vec<u8> {
     let mut w = writer();
-    let _ = w.write_record([
-        "target",
-        "scheme",
-        "horizon",
-        "test",
-        "candidate",
-        "versus",
-        "statistic",
-        "p_value",
-        "in_set",
-        "critical_value",
-    ]);
+    let _ = w.write_record(TESTS_COLUMNS);
     let id = |c: Option<usize>| c.map(|c| exp.candidates[c].id.clone()).unwrap_or_default();
     for r in rows {
         let _ = w.write_record([
