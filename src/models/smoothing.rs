@@ -52,7 +52,7 @@
 //!   Var(u)·Var(s) + Cov(u,s)² of the predicted level u and seasonal factor s.
 //!
 //! * The multiplicative seasonal update divides by u_t = l_{t−1} + φ b_{t−1}
-//!   as in the book (Table 2.3) and R's forecast package. statsmodels 0.14.4
+//!   as in the book (Table 2.3). statsmodels 0.14.4
 //!   divides by the updated level l_t instead; on the reference data the two
 //!   give in-sample MSEs within ~1e-6 of each other (a test checks both).
 //! * [`forecast`] reruns the filter from the initial states, so its `y` must

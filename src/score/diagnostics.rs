@@ -1098,7 +1098,7 @@ mod tests {
 
     /// MacKinnon's published asymptotic ADF critical values with a constant,
     /// −3.43, −2.86, −2.57 (1 %, 5 %, 10 %), as remembered from his tables
-    /// (independent of the transcription).
+    /// (independent of the coefficients copied from statsmodels).
     #[test]
     fn adf_constant_large_sample_critical_values_from_memory() {
         for nobs in [None, Some(1e7)] {
