@@ -14,21 +14,51 @@ fn a_drafted_experiment_passes_check() {
     std::fs::create_dir_all(&dir).unwrap();
     let src = Path::new(env!("CARGO_MANIFEST_DIR")).join("experiments/data/water_demand.csv");
     std::fs::copy(&src, dir.join("demand.csv")).unwrap();
-    let o = Command::new(BIN).current_dir(&dir).args(["draft", "demand.csv"]).output().unwrap();
+    let o = Command::new(BIN)
+        .current_dir(&dir)
+        .args(["draft", "demand.csv"])
+        .output()
+        .unwrap();
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     let text = String::from_utf8(o.stdout).unwrap();
     assert!(text.contains("frequency: monthly"), "{text}");
-    assert!(text.contains("release_lag: 1"), "the ragged rainfall column is seen as published late:\n{text}");
-    assert!(text.contains("known_ahead: true"), "the calendar running past the target is known ahead:\n{text}");
+    assert!(
+        text.contains("release_lag: 1"),
+        "the ragged rainfall column is seen as published late:\n{text}"
+    );
+    assert!(
+        text.contains("known_ahead: true"),
+        "the calendar running past the target is known ahead:\n{text}"
+    );
     std::fs::write(dir.join("draft.yaml"), &text).unwrap();
-    let o = Command::new(BIN).current_dir(&dir).args(["check", "draft.yaml"]).output().unwrap();
-    assert!(o.status.success(), "check refused the draft: {}", String::from_utf8_lossy(&o.stderr));
+    let o = Command::new(BIN)
+        .current_dir(&dir)
+        .args(["check", "draft.yaml"])
+        .output()
+        .unwrap();
+    assert!(
+        o.status.success(),
+        "check refused the draft: {}",
+        String::from_utf8_lossy(&o.stderr)
+    );
     // Quarterly labels with a dash, and a file without a time column.
-    std::fs::write(dir.join("q.csv"), "when,sales\n2001-Q1,1\n2001-Q2,2\n2001-Q3,3\n2001-Q4,5\n2002-Q1,4\n2002-Q2,6\n").unwrap();
-    let o = Command::new(BIN).current_dir(&dir).args(["draft", "q.csv"]).output().unwrap();
+    std::fs::write(
+        dir.join("q.csv"),
+        "when,sales\n2001-Q1,1\n2001-Q2,2\n2001-Q3,3\n2001-Q4,5\n2002-Q1,4\n2002-Q2,6\n",
+    )
+    .unwrap();
+    let o = Command::new(BIN)
+        .current_dir(&dir)
+        .args(["draft", "q.csv"])
+        .output()
+        .unwrap();
     assert!(String::from_utf8_lossy(&o.stdout).contains("frequency: quarterly"));
     std::fs::write(dir.join("bad.csv"), "a,b\nx,1\ny,2\n").unwrap();
-    let o = Command::new(BIN).current_dir(&dir).args(["draft", "bad.csv"]).output().unwrap();
+    let o = Command::new(BIN)
+        .current_dir(&dir)
+        .args(["draft", "bad.csv"])
+        .output()
+        .unwrap();
     assert_eq!(o.status.code(), Some(2));
     let _ = std::fs::remove_dir_all(&dir);
 }
@@ -39,10 +69,37 @@ fn kinds_lists_every_family_metric_and_test() {
     assert!(o.status.success());
     let text = String::from_utf8(o.stdout).unwrap();
     for name in [
-        "naive", "mean", "drift", "seasonal_naive", "ar", "ardl", "arima", "smoothing", "combination", "rmse", "mae",
-        "bias", "mape", "smape", "mase", "r2_oos", "coverage", "interval_score", "crps", "diebold_mariano",
-        "clark_west", "confidence_set", "snooping", "fluctuation", "ljung_box", "adf",
+        "naive",
+        "mean",
+        "drift",
+        "seasonal_naive",
+        "ar",
+        "ardl",
+        "arima",
+        "smoothing",
+        "combination",
+        "rmse",
+        "mae",
+        "bias",
+        "mape",
+        "smape",
+        "mase",
+        "r2_oos",
+        "coverage",
+        "interval_score",
+        "crps",
+        "diebold_mariano",
+        "clark_west",
+        "confidence_set",
+        "snooping",
+        "fluctuation",
+        "ljung_box",
+        "adf",
     ] {
-        assert!(text.lines().any(|l| l.split_whitespace().next() == Some(name)), "{name} missing from kinds");
+        assert!(
+            text.lines()
+                .any(|l| l.split_whitespace().next() == Some(name)),
+            "{name} missing from kinds"
+        );
     }
 }
