@@ -245,8 +245,11 @@ pub fn produce(
             bytes: 0,
         });
     }
-        if std::env::var_os("OUTTURN_DEBUG_TIMING").is_some() {
-        eprintln!("timing: experiment loaded, tables start at {:.3} s", ctx.started.elapsed().as_secs_f64());
+    if std::env::var_os("OUTTURN_DEBUG_TIMING").is_some() {
+        eprintln!(
+            "timing: experiment loaded, tables start at {:.3} s",
+            ctx.started.elapsed().as_secs_f64()
+        );
     }
     let targets: Vec<usize> = (0..exp.targets.len()).collect();
     let mut w = Written {

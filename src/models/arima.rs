@@ -43,12 +43,14 @@
 //!   (ARMA likelihoods are often multimodal: an MA(1) on an over-differenced
 //!   series, Nile ARIMA(2,1,2)). Each gets 12 BFGS iterations, the best 3 are
 //!   run to convergence and the best optimum is kept; all deterministic.
-//! * Warm start: with `warm` (the previous window's estimate) only that start
-//!   is used, falling back to the cold starts if it fails. It is ~5–10× faster;
-//!   the price is that where the likelihood has two close modes, a refit can
-//!   stay on the mode the previous window chose (seen on 2–3 of 101 expanding
-//!   windows for ARMA(2,1) and ARIMA(0,1,1) on GDP growth). Pass `None` for a
-//!   fit independent of history.
+//! * Warm start: with `warm` (the previous window's estimate) that start is
+//!   run to convergence first; the structured cold starts (Hannan–Rissanen,
+//!   zero, near a unit root) are still screened with short runs, and any that
+//!   is already better than the warm optimum is continued.
+//!   A warm start alone could stay on the mode the previous window chose where
+//!   the likelihood has two close modes (seen on ARMA(2,1) and ARIMA(0,1,1)
+//!   expanding windows); the screen catches the cases where another mode is
+//!   clearly higher, at a fraction of a cold fit's cost.
 //! * The unconstrained parameters are bounded at |u| ≤ 10 (|partial
 //!   autocorrelation| ≤ 1 − 4e-9), so MLEs on the unit-root boundary are
 //!   approached to within a negligible log-likelihood (< 1e-8 in the
@@ -932,7 +934,7 @@ fn min_obs(order: &ArimaOrder) -> usize {
 
 /// Estimate ARIMA(p, d, q) on `y` (levels) by exact maximum likelihood.
 /// `warm`: the parameters of a previous fit of the same order (e.g. the last
-/// window), used as the only start value unless it fails.
+/// window), run first; cold starts are screened and continued only if better.
 pub fn estimate(
     y: &[f64],
     order: &ArimaOrder,
@@ -999,7 +1001,11 @@ pub fn estimate(
             &mut last_err,
         );
     }
-    if best.is_none() {
+    // A warm start alone can stay on a lower mode that the previous window
+    // preferred; the cold starts are therefore always screened, and after a
+    // warm fit any screened start that is already better is continued.
+    let warm_found = best.is_some();
+    {
         // Cold fit. ARMA likelihoods are often multimodal: e.g. an MA(1) on an
         // over-differenced series has an interior mode and a better one near
         // θ = −1, and Nile ARIMA(2,1,2) has modes at −630.445 and −630.155;
@@ -1030,7 +1036,13 @@ pub fn estimate(
                 u[0] = near_one;
                 starts.push(u);
             }
-            let extra = 2 + 2 * (p + q).min(3);
+            // After a warm fit only the structured starts above are screened
+            // (the space-filling set is what makes a cold fit expensive).
+            let extra = if warm_found {
+                0
+            } else {
+                2 + 2 * (p + q).min(3)
+            };
             let alpha: Vec<f64> = (0..p + q)
                 .map(|i| {
                     ((i as f64 + 2.0).sqrt() * 0.5 + 0.618_033_988_749_894_8 * (i + 1) as f64)
@@ -1056,6 +1068,12 @@ pub fn estimate(
             }
         }
         stage1.sort_by(|a, b| a.fx.total_cmp(&b.fx));
+        if warm_found {
+            stage1.retain(|o| {
+                best.as_ref()
+                    .is_some_and(|b| o.fx < b.fx - 1e-9 * (1.0 + b.fx.abs()))
+            });
+        }
         for o in stage1.into_iter().take(KEEP_STARTS) {
             if o.converged {
                 consider(Ok(o), &mut best, &mut last_err);
