@@ -499,6 +499,18 @@ impl Folder {
         let ti = index_of(&grid.targets);
         let ci = index_of(&grid.candidates);
         let si = index_of(&grid.schemes);
+        // (target, candidate, scheme, horizon) of a per-forecast row whose
+        // first four named columns hold those ids.
+        let key = |r: &csv::StringRecord,
+                   cols: &[Option<usize>]|
+         -> Option<(usize, usize, usize, usize)> {
+            Some((
+                *ti.get(field(r, cols[0]))?,
+                *ci.get(field(r, cols[1]))?,
+                *si.get(field(r, cols[2]))?,
+                field(r, cols[3]).parse::<usize>().ok()?,
+            ))
+        };
 
         let (s_gap, s_rank, s_par, s_r2) = (
             scores_csv.col("gap"),
@@ -593,24 +605,16 @@ impl Folder {
             .map(|n| f.col(n))
             .collect();
             for r in &f.rows {
-                let (Some(&t), Some(&c), Some(&s), Ok(h)) = (
-                    ti.get(field(r, cols[0])),
-                    ci.get(field(r, cols[1])),
-                    si.get(field(r, cols[2])),
-                    field(r, cols[3]).parse::<usize>(),
-                ) else {
+                let Some(k) = key(r, &cols) else {
                     continue;
                 };
-                forecasts
-                    .entry((t, c, s, h))
-                    .or_default()
-                    .push(ForecastRow {
-                        origin: field(r, cols[4]).to_string(),
-                        period: field(r, cols[5]).to_string(),
-                        forecast: parse_num(field(r, cols[6])),
-                        actual: parse_num(field(r, cols[7])),
-                        error: parse_num(field(r, cols[8])),
-                    });
+                forecasts.entry(k).or_default().push(ForecastRow {
+                    origin: field(r, cols[4]).to_string(),
+                    period: field(r, cols[5]).to_string(),
+                    forecast: parse_num(field(r, cols[6])),
+                    actual: parse_num(field(r, cols[7])),
+                    error: parse_num(field(r, cols[8])),
+                });
             }
         }
 
@@ -676,22 +680,14 @@ impl Folder {
             .map(|n| s.col(n))
             .collect();
             for r in &s.rows {
-                let (Some(&t), Some(&c), Some(&sc), Ok(h)) = (
-                    ti.get(field(r, cols[0])),
-                    ci.get(field(r, cols[1])),
-                    si.get(field(r, cols[2])),
-                    field(r, cols[3]).parse::<usize>(),
-                ) else {
+                let Some(k) = key(r, &cols) else {
                     continue;
                 };
-                stability
-                    .entry((t, c, sc, h))
-                    .or_default()
-                    .push(StabilityRow {
-                        period: field(r, cols[4]).to_string(),
-                        rolling_rmse: parse_num(field(r, cols[5])),
-                        fluctuation: parse_num(field(r, cols[6])),
-                    });
+                stability.entry(k).or_default().push(StabilityRow {
+                    period: field(r, cols[4]).to_string(),
+                    rolling_rmse: parse_num(field(r, cols[5])),
+                    fluctuation: parse_num(field(r, cols[6])),
+                });
             }
         }
 
