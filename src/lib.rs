@@ -231,7 +231,7 @@ pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
 /// Targets processed together: enough to keep every thread busy, few
 /// enough to bound memory.
 fn chunk_for(threads: usize) -> usize {
-    (threads * 2).max(2)
+    (threads * 8).max(8)
 }
 
 /// The cells of target `t` in plan order (candidates × schemes).
