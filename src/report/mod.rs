@@ -2017,6 +2017,33 @@ fn period_axis(series: Option<&Series>) -> (Vec<String>, HashMap<String, usize>)
     (labels, pos)
 }
 
+/// The outturns of a chart's rows as a line, with the start of the chart's
+/// number table (period and outturn columns).
+fn outturn_line<'a>(
+    rows: impl IntoIterator<Item = &'a ForecastRow> + Clone,
+    look: Look,
+    marker_every: usize,
+) -> (Line, Vec<String>, Vec<Vec<String>>) {
+    let line = Line {
+        name: "outturn".into(),
+        look,
+        points: rows
+            .clone()
+            .into_iter()
+            .enumerate()
+            .map(|(i, r)| (i as f64, r.actual.unwrap_or(f64::NAN)))
+            .collect(),
+        legend: true,
+        marker_every,
+    };
+    let columns = vec!["period".to_string(), "outturn".to_string()];
+    let table = rows
+        .into_iter()
+        .map(|r| vec![r.period.clone(), show(r.actual)])
+        .collect();
+    (line, columns, table)
+}
+
 fn over_time_for(ix: &Index, t: usize, series: Option<&Series>, charts: bool) -> Value {
     let f = ix.f;
     let g = &f.grid;
@@ -2076,22 +2103,8 @@ fn over_time_for(ix: &Index, t: usize, series: Option<&Series>, charts: bool) ->
                 ch.x_title = "target period (the period forecast)".into();
                 ch.y_title = unit.clone();
                 let every = (labels.len() / 12).max(1);
-                ch.lines.push(Line {
-                    name: "outturn".into(),
-                    look: OUTTURN,
-                    points: bench_rows
-                        .iter()
-                        .enumerate()
-                        .map(|(i, r)| (i as f64, r.actual.unwrap_or(f64::NAN)))
-                        .collect(),
-                    legend: true,
-                    marker_every: 0,
-                });
-                let mut columns = vec!["period".to_string(), "outturn".to_string()];
-                let mut table: Vec<Vec<String>> = bench_rows
-                    .iter()
-                    .map(|r| vec![r.period.clone(), show(r.actual)])
-                    .collect();
+                let (line, mut columns, mut table) = outturn_line(bench_rows, OUTTURN, 0);
+                ch.lines.push(line);
                 for &(c, look) in &shown {
                     let mut pts = vec![(0.0, f64::NAN); labels.len()];
                     let mut col = vec!["–".to_string(); labels.len()];
@@ -2416,25 +2429,12 @@ fn holdout_panel(ix: &Index, t: usize, s: usize, unit: &str, charts: bool) -> Va
         );
         ch.x_title = "target period".into();
         ch.y_title = unit.to_string();
-        ch.lines.push(Line {
-            name: "outturn".into(),
-            look: Look {
-                marker: charts::Marker::Diamond,
-                ..OUTTURN
-            },
-            points: bench_rows
-                .iter()
-                .enumerate()
-                .map(|(i, r)| (i as f64, r.actual.unwrap_or(f64::NAN)))
-                .collect(),
-            legend: true,
-            marker_every: 1,
-        });
-        let mut columns = vec!["period".to_string(), "outturn".to_string()];
-        let mut table: Vec<Vec<String>> = bench_rows
-            .iter()
-            .map(|r| vec![r.period.clone(), show(r.actual)])
-            .collect();
+        let look = Look {
+            marker: charts::Marker::Diamond,
+            ..OUTTURN
+        };
+        let (line, mut columns, mut table) = outturn_line(bench_rows.iter().copied(), look, 1);
+        ch.lines.push(line);
         let shown: Vec<(usize, Look)> = leaders
             .iter()
             .enumerate()
