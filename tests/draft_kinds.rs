@@ -103,3 +103,29 @@ fn kinds_lists_every_family_metric_and_test() {
         );
     }
 }
+
+#[test]
+fn the_readme_tour_is_a_valid_experiment() {
+    // The README's experiment-file tour, checked against the demo data so the
+    // example a newcomer copies stays valid.
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let readme = std::fs::read_to_string(root.join("README.md")).unwrap();
+    let start = readme.find("```yaml\n").expect("a yaml block") + 8;
+    let end = start + readme[start..].find("```").unwrap();
+    let dir = std::env::temp_dir().join(format!("outturn-readme-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(dir.join("data")).unwrap();
+    std::fs::copy(
+        root.join("experiments/data/water_demand.csv"),
+        dir.join("data/water_demand.csv"),
+    )
+    .unwrap();
+    std::fs::write(dir.join("tour.yaml"), &readme[start..end]).unwrap();
+    let o = Command::new(BIN)
+        .arg("check")
+        .arg(dir.join("tour.yaml"))
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let _ = std::fs::remove_dir_all(&dir);
+}
