@@ -219,7 +219,7 @@ pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
             produced.failed_cells
         );
     }
-    staging.commit()?;
+    staging.commit_synced()?;
     Ok(RunSummary {
         folder,
         cells: cells.len(),
@@ -228,9 +228,9 @@ pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
     })
 }
 
-/// Targets processed together: enough to keep every thread busy, few
-/// enough to bound memory.
-fn chunk_for(threads: usize) -> usize {
+/// How many targets the workers may run ahead of the table writer: enough
+/// to keep every thread busy, few enough to bound memory.
+fn window_for(threads: usize) -> usize {
     (threads * 8).max(8)
 }
 
@@ -262,7 +262,7 @@ pub(crate) fn produce_run(
         }
         Ok(outputs)
     };
-    pipeline::produce(exp, &source, dir, ctx, chunk_for(ctx.threads))
+    pipeline::produce(exp, &source, dir, ctx, window_for(ctx.threads))
 }
 
 /// An absolute form of a path, for the manifest's `run` section.

@@ -222,7 +222,7 @@ fn swap(tmp: &Path, target: &Path) -> Result<()> {
             .map_err(|e| Error::io(format!("cannot move results into {}", target.display()), e))?;
     } else if exchange(tmp, target) {
         // The old results now sit at the temporary name.
-        let _ = std::fs::remove_dir_all(tmp);
+        remove_folder(tmp);
     } else {
         two_step_swap(tmp, target)?;
     }
@@ -231,7 +231,7 @@ fn swap(tmp: &Path, target: &Path) -> Result<()> {
 
 /// A results folder written file by file, for tables too large to hold in
 /// memory: files go into the temporary folder ([`Staging::dir`]) while the
-/// run goes on, and [`Staging::commit`] swaps it in. Dropping a staging that
+/// run goes on, and [`Staging::commit_synced`] swaps it in. Dropping a staging that
 /// was not committed removes the temporary folder. An interrupt removes it
 /// too (the staging does not hold the write lock until it commits).
 pub struct Staging {
@@ -267,17 +267,11 @@ impl Staging {
         &self.tmp
     }
 
-    /// Sync the written files and swap the folder in.
-    pub fn commit(mut self) -> Result<()> {
+    /// Swap the folder in. The writer has synced every file it wrote into
+    /// it (the folder itself is synced here).
+    pub fn commit_synced(mut self) -> Result<()> {
         let _guard = WRITING.lock().unwrap_or_else(|e| e.into_inner());
         interrupted()?;
-        if let Ok(entries) = std::fs::read_dir(&self.tmp) {
-            for entry in entries.flatten() {
-                if let Ok(f) = std::fs::File::open(entry.path()) {
-                    let _ = f.sync_all();
-                }
-            }
-        }
         if let Ok(f) = std::fs::File::open(&self.tmp) {
             let _ = f.sync_all();
         }
@@ -315,8 +309,41 @@ fn two_step_swap(tmp: &Path, target: &Path) -> Result<()> {
             e,
         ));
     }
-    let _ = std::fs::remove_dir_all(&old);
+    remove_folder(&old);
     Ok(())
+}
+
+/// Remove a replaced results folder. Freeing a large file's blocks takes
+/// the file system a few milliseconds, so the large files go side by side.
+fn remove_folder(dir: &Path) {
+    const LARGE: u64 = 1 << 20;
+    let Ok(entries) = std::fs::read_dir(dir) else {
+        return;
+    };
+    let mut large = Vec::new();
+    let mut other = Vec::new();
+    for entry in entries.flatten() {
+        match entry.metadata() {
+            Ok(m) if m.is_file() && m.len() >= LARGE => large.push(entry.path()),
+            _ => other.push(entry.path()),
+        }
+    }
+    std::thread::scope(|scope| {
+        for path in &large {
+            // Should no thread start, the file goes with remove_dir_all below.
+            let _ = std::thread::Builder::new().spawn_scoped(scope, move || {
+                let _ = std::fs::remove_file(path);
+            });
+        }
+        for path in &other {
+            if path.is_dir() {
+                let _ = std::fs::remove_dir_all(path);
+            } else {
+                let _ = std::fs::remove_file(path);
+            }
+        }
+    });
+    let _ = std::fs::remove_dir_all(dir);
 }
 
 #[cfg(test)]

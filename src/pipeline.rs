@@ -1,8 +1,9 @@
 //! From cell outputs to a results folder, target by target (SPEC §5), with
-//! memory bounded by one chunk of targets: each target's cells are run (or
+//! memory bounded by a window of targets: each target's cells are run (or
 //! taken from shards), combined, scored and tested, and its slice of every
-//! table is formatted in parallel; slices are then appended to the files in
-//! experiment order while their SHA-256 is computed as they stream. Only the
+//! table is formatted, on all workers at once; a writer thread appends the
+//! slices to the files in experiment order, as soon as each is ready, and
+//! computes their SHA-256 as they stream. Only the
 //! small tables and the rows the report draws (the first few targets in
 //! full, the first forecast of each series for the rest) stay in memory.
 //! A single run, a merge of shards and `verify` all produce folders here, so
@@ -46,9 +47,9 @@ const TABLES: [&str; 8] = [
 /// One target's slice of every table.
 struct Slice {
     tables: [Vec<u8>; 8],
-    report_forecasts: Vec<u8>,
-    report_stability: Vec<u8>,
-    report_series: Vec<u8>,
+    /// The rows the report reads of this target, parsed from its slice of
+    /// the tables exactly as `outturn render` parses a whole folder.
+    report_rows: std::result::Result<report::Rows, String>,
     cells: Vec<report::manifest::CellFacts>,
     failed: usize,
 }
@@ -62,67 +63,63 @@ fn header(bytes: &[u8]) -> &[u8] {
 
 /// Score, test and format one target. `outputs` are its cells in plan order
 /// (candidates × schemes), combinations not yet formed.
-fn slice(exp: &Experiment, t: usize, mut outputs: Vec<CellOutput>) -> Slice {
+fn slice(exp: &Experiment, grid: &report::Grid, t: usize, mut outputs: Vec<CellOutput>) -> Slice {
     let sub = exp.for_target(t);
     let cells = plan::cells(&sub);
     backtest::combine(&sub, &cells, &mut outputs);
     let errors = score::cell_errors(&sub, &cells, &outputs);
-    let scores = score::scores(&sub, &errors);
-    let mut tests = score::comparison::run(&sub, &errors);
-    let (stability, fluctuation) = score::stability::rolling(&sub, &errors);
+    // The parts below are independent: a worker that has run out of targets
+    // takes some of them over (rayon runs a join in place when none is idle).
+    let charted = t < report_targets(exp);
+    let forecasts_part = || {
+        let tables = report::tables::forecasts_csv(&sub, &cells, &outputs);
+        let keep = if charted {
+            tables.clone()
+        } else if t >= report::DETAIL_TARGETS {
+            // Beyond the detailed targets the report shows only the verdict.
+            header(&tables).to_vec()
+        } else {
+            // Beyond the charted targets the report reads the benchmark's
+            // forecasts (spans and counts) and where every other series begins.
+            report::tables::forecasts_csv(&sub, &cells, &report_firsts(exp, &cells, &outputs))
+        };
+        (tables, keep)
+    };
+    let stability_part = || {
+        let (stability, fluctuation) = score::stability::rolling(&sub, &errors);
+        let bytes = report::tables::stability_csv(&sub, &stability);
+        let keep = if charted { bytes.clone() } else { Vec::new() };
+        (bytes, keep, fluctuation)
+    };
+    let scores_part = || {
+        let scores = score::scores(&sub, &errors);
+        let tests = score::comparison::run(&sub, &errors);
+        (report::tables::scores_csv(&sub, &scores), tests)
+    };
+    let rest_part = || {
+        let diagnostics = score::stability::diagnostics(&sub, &cells, &outputs, t == 0);
+        let series = report::tables::series_csv(&sub, t == 0);
+        let keep = if t < report::DETAIL_TARGETS {
+            series.clone()
+        } else {
+            header(&series).to_vec()
+        };
+        (
+            report::tables::diagnostics_csv(&diagnostics),
+            series,
+            keep,
+            report::tables::outlook_csv(&sub, &cells, &outputs),
+        )
+    };
+    let (
+        ((forecasts_bytes, report_forecasts), (stability_bytes, report_stability, fluctuation)),
+        ((scores_bytes, mut tests), (diagnostics_bytes, series, report_series, outlook_bytes)),
+    ) = rayon::join(
+        || rayon::join(forecasts_part, stability_part),
+        || rayon::join(scores_part, rest_part),
+    );
     tests.extend(fluctuation);
     tests.sort_by_key(|r| (r.target, r.scheme, r.horizon));
-    let diagnostics = score::stability::diagnostics(&sub, &cells, &outputs, t == 0);
-    let tables = report::tables::forecasts_csv(&sub, &cells, &outputs);
-    let report_forecasts = if t < report_targets(exp) {
-        tables.clone()
-    } else if t >= report::DETAIL_TARGETS {
-        // Beyond the detailed targets the report shows only the verdict.
-        header(&tables).to_vec()
-    } else {
-        // Beyond the charted targets the report reads the benchmark's
-        // forecasts (spans and counts) and where every other series begins.
-        let firsts: Vec<CellOutput> = outputs
-            .iter()
-            .zip(&cells)
-            .map(|(o, cell)| {
-                if cell.candidate == exp.benchmark {
-                    return CellOutput {
-                        forecasts: o.forecasts.clone(),
-                        ..Default::default()
-                    };
-                }
-                let mut seen = Vec::new();
-                let forecasts = o
-                    .forecasts
-                    .iter()
-                    .filter(|r| {
-                        let new = !seen.contains(&r.horizon);
-                        seen.push(r.horizon);
-                        new
-                    })
-                    .copied()
-                    .collect();
-                CellOutput {
-                    forecasts,
-                    ..Default::default()
-                }
-            })
-            .collect();
-        report::tables::forecasts_csv(&sub, &cells, &firsts)
-    };
-    let stability_bytes = report::tables::stability_csv(&sub, &stability);
-    let report_stability = if t < report_targets(exp) {
-        stability_bytes.clone()
-    } else {
-        Vec::new()
-    };
-    let series = report::tables::series_csv(&sub, t == 0);
-    let report_series = if t < report::DETAIL_TARGETS {
-        series.clone()
-    } else {
-        header(&series).to_vec()
-    };
     let cells_facts = cells
         .iter()
         .zip(&outputs)
@@ -134,27 +131,77 @@ fn slice(exp: &Experiment, t: usize, mut outputs: Vec<CellOutput>) -> Slice {
             cached: o.cached,
         })
         .collect();
+    let tables = [
+        forecasts_bytes,
+        scores_bytes,
+        report::tables::tests_csv(&sub, &tests),
+        stability_bytes,
+        diagnostics_bytes,
+        series,
+        if t == 0 {
+            exp.source_text.clone().into_bytes()
+        } else {
+            Vec::new()
+        },
+        outlook_bytes,
+    ];
+    // The report reads every small table whole; of the large ones only the
+    // rows it draws.
+    let report_tables: report::Tables = TABLES
+        .iter()
+        .zip(&tables)
+        .map(|(&name, table)| {
+            let keep: &[u8] = match name {
+                "forecasts.csv" => &report_forecasts,
+                "stability.csv" => &report_stability,
+                "series.csv" => &report_series,
+                _ => table,
+            };
+            (name, keep)
+        })
+        .collect();
+    let report_rows = report::Rows::parse(&report_tables, grid);
     Slice {
-        tables: [
-            tables,
-            report::tables::scores_csv(&sub, &scores),
-            report::tables::tests_csv(&sub, &tests),
-            stability_bytes,
-            report::tables::diagnostics_csv(&diagnostics),
-            series,
-            if t == 0 {
-                exp.source_text.clone().into_bytes()
-            } else {
-                Vec::new()
-            },
-            report::tables::outlook_csv(&sub, &cells, &outputs),
-        ],
-        report_forecasts,
-        report_stability,
-        report_series,
+        tables,
+        report_rows,
         cells: cells_facts,
         failed: outputs.iter().filter(|o| o.failure.is_some()).count(),
     }
+}
+
+/// Of each cell, the first forecast per horizon; of the benchmark, all.
+fn report_firsts(
+    exp: &Experiment,
+    cells: &[plan::Cell],
+    outputs: &[CellOutput],
+) -> Vec<CellOutput> {
+    outputs
+        .iter()
+        .zip(cells)
+        .map(|(o, cell)| {
+            if cell.candidate == exp.benchmark {
+                return CellOutput {
+                    forecasts: o.forecasts.clone(),
+                    ..Default::default()
+                };
+            }
+            let mut seen = Vec::new();
+            let forecasts = o
+                .forecasts
+                .iter()
+                .filter(|r| {
+                    let new = !seen.contains(&r.horizon);
+                    seen.push(r.horizon);
+                    new
+                })
+                .copied()
+                .collect();
+            CellOutput {
+                forecasts,
+                ..Default::default()
+            }
+        })
+        .collect()
 }
 
 /// A file written as it streams, hashed on the way.
@@ -175,8 +222,12 @@ impl Stream {
     }
 }
 
+/// Write a whole file and sync it.
 fn write_file(dir: &Path, name: &str, bytes: &[u8]) -> Result<OutputFile> {
-    std::fs::write(dir.join(name), bytes)
+    let mut file = std::fs::File::create(dir.join(name))
+        .map_err(|e| Error::io(format!("cannot create {name}"), e))?;
+    file.write_all(bytes)
+        .and_then(|_| file.sync_all())
         .map_err(|e| Error::io(format!("cannot write {name}"), e))?;
     Ok(OutputFile::of(name, bytes))
 }
@@ -184,7 +235,9 @@ fn write_file(dir: &Path, name: &str, bytes: &[u8]) -> Result<OutputFile> {
 /// The streams and what the report keeps, filled by the writer thread.
 struct Written {
     streams: Vec<Stream>,
-    small: BTreeMap<String, Vec<u8>>,
+    /// The report's rows of the targets appended so far.
+    report_rows: Option<std::result::Result<report::Rows, String>>,
+    experiment_text: String,
     cell_facts: Vec<report::manifest::CellFacts>,
     failed: usize,
 }
@@ -199,25 +252,132 @@ impl Written {
                 &table[header(table).len()..]
             };
             self.streams[k].write(body)?;
-            // The report reads every small table whole; of the two large ones
-            // only the rows it draws.
-            let keep: &[u8] = match name {
-                "forecasts.csv" => &s.report_forecasts,
-                "stability.csv" => &s.report_stability,
-                "series.csv" => &s.report_series,
-                _ => table,
-            };
-            let entry = self.small.entry(name.to_string()).or_default();
-            if entry.is_empty() || name == "experiment.yaml" {
-                entry.extend_from_slice(keep);
-            } else {
-                entry.extend_from_slice(&keep[header(keep).len()..]);
+            if name == "experiment.yaml" {
+                self.experiment_text
+                    .push_str(&String::from_utf8_lossy(table));
             }
         }
+        self.report_rows = Some(match (self.report_rows.take(), s.report_rows) {
+            (None, next) => next,
+            (Some(Ok(mut rows)), Ok(next)) => {
+                rows.append(next);
+                Ok(rows)
+            }
+            (Some(Err(e)), _) | (_, Err(e)) => Err(e),
+        });
         self.failed += s.failed;
         self.cell_facts.extend(s.cells);
         Ok(())
     }
+}
+
+/// How far the workers have got, shared with the writer.
+struct Progress {
+    /// Targets appended so far (all targets below this are written).
+    written: usize,
+    /// The lowest target whose computation failed, with its error.
+    failed: Option<(usize, Error)>,
+    /// The writer failed: stop handing out work.
+    stop: bool,
+}
+
+/// Compute targets on every worker of the current pool and append them in
+/// target order on a writer thread, while the workers go on. Targets are
+/// handed out in order, one at a time, so the writer can follow closely
+/// behind; a worker waits before starting a target more than `window`
+/// targets ahead of the writer, which bounds the slices held in memory.
+/// When targets fail, the error of the lowest failing one is returned (the
+/// targets below it are still computed, so the choice does not depend on
+/// timing).
+fn stream_in_order(
+    exp: &Experiment,
+    grid: &report::Grid,
+    source: &(dyn Fn(usize) -> Result<Vec<CellOutput>> + Sync),
+    mut w: Written,
+    window: usize,
+) -> Result<Written> {
+    use std::sync::atomic::{AtomicUsize, Ordering};
+    use std::sync::{Condvar, Mutex};
+    let n = exp.targets.len();
+    let next = AtomicUsize::new(0);
+    let progress = Mutex::new(Progress {
+        written: 0,
+        failed: None,
+        stop: false,
+    });
+    let moved = Condvar::new();
+    let lock = || progress.lock().unwrap_or_else(|e| e.into_inner());
+    let (tx, rx) = std::sync::mpsc::channel::<(usize, Slice)>();
+    std::thread::scope(|scope| -> Result<Written> {
+        let writer = scope.spawn(|| -> Result<Written> {
+            let mut pending: BTreeMap<usize, Slice> = BTreeMap::new();
+            let mut expected = 0;
+            let mut outcome = Ok(());
+            for (t, s) in rx {
+                if outcome.is_err() {
+                    continue; // drain, so no worker blocks on a full queue
+                }
+                pending.insert(t, s);
+                while let Some(s) = pending.remove(&expected) {
+                    if let Err(e) = w.append(expected == 0, s) {
+                        outcome = Err(e);
+                        lock().stop = true;
+                        break;
+                    }
+                    expected += 1;
+                }
+                lock().written = expected;
+                moved.notify_all();
+            }
+            outcome.map(|_| w)
+        });
+        let tx = tx; // moved in, so the channel closes when the workers finish
+        let workers = rayon::current_num_threads().max(1);
+        (0..workers)
+            .into_par_iter()
+            .for_each_with(tx, |tx, _| loop {
+                let t = next.fetch_add(1, Ordering::Relaxed);
+                if t >= n {
+                    return;
+                }
+                {
+                    let mut p = lock();
+                    loop {
+                        // Past a failed target nothing more is needed.
+                        if p.stop || p.failed.as_ref().is_some_and(|(f, _)| t > *f) {
+                            return;
+                        }
+                        if t < p.written + window {
+                            break;
+                        }
+                        p = moved.wait(p).unwrap_or_else(|e| e.into_inner());
+                    }
+                }
+                match source(t).map(|o| slice(exp, grid, t, o)) {
+                    Ok(s) => {
+                        if tx.send((t, s)).is_err() {
+                            return;
+                        }
+                    }
+                    Err(e) => {
+                        let mut p = lock();
+                        if p.failed.as_ref().is_none_or(|(f, _)| t < *f) {
+                            p.failed = Some((t, e));
+                        }
+                        moved.notify_all();
+                        return;
+                    }
+                }
+            });
+        let written = writer
+            .join()
+            .map_err(|_| Error::Run("the table writer stopped unexpectedly".into()))?;
+        let failed = lock().failed.take();
+        match failed {
+            Some((_, e)) => Err(e),
+            None => written,
+        }
+    })
 }
 
 /// What `produce` wrote.
@@ -225,14 +385,15 @@ pub struct Produced {
     pub failed_cells: usize,
 }
 
-/// Write every file of a results folder into `dir`. `source(t)` gives target
-/// t's cell outputs in plan order (candidates × schemes; combinations empty).
+/// Write every file of a results folder into `dir`, each synced to disk when
+/// this returns. `source(t)` gives target t's cell outputs in plan order
+/// (candidates × schemes; combinations empty).
 pub fn produce(
     exp: &Experiment,
     source: &(dyn Fn(usize) -> Result<Vec<CellOutput>> + Sync),
     dir: &Path,
     ctx: &RunContext,
-    chunk: usize,
+    window: usize,
 ) -> Result<Produced> {
     let mut streams: Vec<Stream> = Vec::new();
     for name in TABLES {
@@ -251,73 +412,34 @@ pub fn produce(
             ctx.started.elapsed().as_secs_f64()
         );
     }
-    let targets: Vec<usize> = (0..exp.targets.len()).collect();
+    let grid = report::Grid::of(exp);
     let mut w = Written {
         streams,
-        small: BTreeMap::new(),
+        report_rows: None,
+        experiment_text: String::new(),
         cell_facts: Vec::new(),
         failed: 0,
     };
-    let compute = |block: &[usize]| -> Result<Vec<Slice>> {
-        block
-            .par_iter()
-            .map(|&t| source(t).map(|o| slice(exp, t, o)))
-            .collect()
-    };
     if ctx.threads <= 1 {
         // One thread of work means one: compute and write in turn.
-        for block in targets.chunks(chunk.max(1)) {
-            for (i, s) in compute(block)?.into_iter().enumerate() {
-                w.append(block[0] + i == 0, s)?;
-            }
+        for t in 0..exp.targets.len() {
+            let s = slice(exp, &grid, t, source(t)?);
+            w.append(t == 0, s)?;
         }
     } else {
-        // A writer thread appends each chunk's slices (and hashes them) while
-        // the workers compute the next chunk.
-        let (tx, rx) = std::sync::mpsc::sync_channel::<(usize, Vec<Slice>)>(1);
-        w = std::thread::scope(|scope| -> Result<Written> {
-            let writer = scope.spawn(move || -> Result<Written> {
-                for (first_target, slices) in rx {
-                    for (i, s) in slices.into_iter().enumerate() {
-                        w.append(first_target + i == 0, s)?;
-                    }
-                }
-                Ok(w)
-            });
-            let mut failure = None;
-            for block in targets.chunks(chunk.max(1)) {
-                match compute(block) {
-                    Ok(slices) => {
-                        if tx.send((block[0], slices)).is_err() {
-                            break;
-                        }
-                    }
-                    Err(e) => {
-                        failure = Some(e);
-                        break;
-                    }
-                }
-            }
-            drop(tx);
-            let written = writer
-                .join()
-                .map_err(|_| Error::Run("the table writer stopped unexpectedly".into()))?;
-            match failure {
-                Some(e) => Err(e),
-                None => written,
-            }
-        })?;
+        w = stream_in_order(exp, &grid, source, w, window.max(1))?;
     }
     let written = w;
     let Written {
         streams,
-        small,
+        report_rows,
+        experiment_text,
         cell_facts,
         failed,
     } = written;
     if std::env::var_os("OUTTURN_DEBUG_TIMING").is_some() {
         eprintln!(
-            "timing: tables streamed at {:.2} s",
+            "timing: tables streamed at {:.3} s",
             ctx.started.elapsed().as_secs_f64()
         );
     }
@@ -333,7 +455,7 @@ pub fn produce(
         let file = file
             .into_inner()
             .map_err(|e| Error::io(format!("cannot write {name}"), e.into_error()))?;
-        files.push(file);
+        files.push((name, file));
         outputs.push(OutputFile {
             name: name.to_string(),
             sha256: hash.finalize().iter().map(|b| format!("{b:02x}")).collect(),
@@ -341,10 +463,12 @@ pub fn produce(
         });
     }
     // The large tables reach the disk while the reports are rendered.
-    let syncing = std::thread::spawn(move || {
-        for f in files {
-            let _ = f.sync_all();
+    let syncing = std::thread::spawn(move || -> Result<()> {
+        for (name, f) in files {
+            f.sync_all()
+                .map_err(|e| Error::io(format!("cannot write {name}"), e))?;
         }
+        Ok(())
     });
     let facts = report::manifest::RunFacts {
         seconds: ctx.started.elapsed().as_secs_f64(),
@@ -358,23 +482,31 @@ pub fn produce(
     // part, exactly as `outturn render` does from the folder.
     let templates = report::render::default_templates();
     let templates_used = report::render::used_templates(&templates, &exp.formats);
-    let core = {
-        let draft = report::manifest::manifest(exp, &cell_facts, &templates_used, &outputs, &facts);
-        let value: serde_json::Value =
-            serde_json::from_slice(&draft).map_err(|e| Error::Run(format!("manifest: {e}")))?;
-        report::render::manifest_core(&value)
+    let core = report::render::manifest_core(&report::manifest::manifest_value(
+        exp,
+        &cell_facts,
+        &templates_used,
+        &outputs,
+        &facts,
+    ));
+    let rows = match report_rows {
+        Some(rows) => rows.map_err(Error::Run)?,
+        None => report::Rows::parse(&report::Tables::new(), &grid).map_err(Error::Run)?,
     };
+    let folder = report::Folder::assemble(grid, rows, experiment_text, &BTreeMap::new(), &core);
     let rendered =
-        report::render::reports(&small, &core, &exp.formats, &templates).map_err(Error::Run)?;
+        report::render::reports_of(folder, &core, &exp.formats, &templates).map_err(Error::Run)?;
     for (name, bytes) in &rendered {
         outputs.push(write_file(dir, name, bytes)?);
     }
     let manifest = report::manifest::manifest(exp, &cell_facts, &templates_used, &outputs, &facts);
     write_file(dir, "manifest.json", &manifest)?;
-    let _ = syncing.join();
+    syncing
+        .join()
+        .map_err(|_| Error::Run("syncing the tables stopped unexpectedly".into()))??;
     if std::env::var_os("OUTTURN_DEBUG_TIMING").is_some() {
         eprintln!(
-            "timing: reports and manifest at {:.2} s",
+            "timing: reports and manifest at {:.3} s",
             ctx.started.elapsed().as_secs_f64()
         );
     }

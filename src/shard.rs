@@ -256,6 +256,6 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<usize> {
         |t: usize| -> Result<Vec<CellOutput>> { Ok(full[t * per..(t + 1) * per].to_vec()) };
     let staging = output::stage(out)?;
     pipeline::produce(&exp, &source, staging.dir(), &ctx, 4)?;
-    staging.commit()?;
+    staging.commit_synced()?;
     Ok(cells.len())
 }

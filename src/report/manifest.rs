@@ -49,12 +49,26 @@ pub fn manifest(
     outputs: &[OutputFile],
     run: &RunFacts,
 ) -> Vec<u8> {
+    let value = manifest_value(exp, cells, templates, outputs, run);
+    let mut bytes = serde_json::to_vec_pretty(&value).unwrap_or_default();
+    bytes.push(b'\n');
+    bytes
+}
+
+/// The manifest as a JSON value (what [`manifest`] writes).
+pub fn manifest_value(
+    exp: &Experiment,
+    cells: &[CellFacts],
+    templates: &[(String, String)],
+    outputs: &[OutputFile],
+    run: &RunFacts,
+) -> Value {
     let file_name = |p: &std::path::Path| {
         p.file_name()
             .map(|f| f.to_string_lossy().to_string())
             .unwrap_or_default()
     };
-    let value: Value = json!({
+    json!({
         "tool": {
             "name": "outturn",
             "version": env!("CARGO_PKG_VERSION"),
@@ -94,13 +108,10 @@ pub fn manifest(
             "seconds": run.seconds,
             "threads": run.threads,
             "host": run.host,
-                        "shard": run.shard,
-                        "experiment_path": run.experiment_path,
+            "shard": run.shard,
+            "experiment_path": run.experiment_path,
             "cells_from_cache": cells.iter().filter(|c| c.cached).count(),
             "cell_seconds": cells.iter().map(|c| json!({"id": c.id, "seconds": c.seconds})).collect::<Vec<_>>(),
         },
-    });
-    let mut bytes = serde_json::to_vec_pretty(&value).unwrap_or_default();
-    bytes.push(b'\n');
-    bytes
+    })
 }

@@ -426,15 +426,45 @@ impl Folder {
             .get("scores.csv")
             .ok_or("the results folder has no scores.csv")?;
         let scores_csv = Csv::parse("scores.csv", scores_bytes)?;
+        let grid = Grid::read(&scores_csv, manifest)?;
+        let tables: Tables = files
+            .iter()
+            .map(|(k, v)| (k.as_str(), v.as_slice()))
+            .collect();
+        let rows = Rows::parse_with(scores_csv, &tables, &grid)?;
+        let experiment_text = files
+            .get("experiment.yaml")
+            .map(|b| String::from_utf8_lossy(b).to_string())
+            .unwrap_or_default();
+        Ok(Folder::assemble(
+            grid,
+            rows,
+            experiment_text,
+            files,
+            manifest,
+        ))
+    }
+}
+
+impl Grid {
+    /// The grid of an experiment, as its manifest records it.
+    pub fn of(exp: &crate::spec::Experiment) -> Grid {
+        Grid {
+            targets: exp.targets.iter().map(|t| t.name.clone()).collect(),
+            candidates: exp.candidates.iter().map(|c| c.id.clone()).collect(),
+            schemes: exp.schemes.iter().map(|s| s.id.clone()).collect(),
+            horizons: exp.horizons.clone(),
+            benchmark: exp.benchmark,
+        }
+    }
+
+    /// The grid from the manifest, else from the scores in order of appearance.
+    fn read(scores_csv: &Csv, manifest: &Value) -> Result<Grid, String> {
         let col = |c: &Csv, f: &str, n: &str| c.need(f, n);
-        let st = col(&scores_csv, "scores.csv", "target")?;
-        let sc = col(&scores_csv, "scores.csv", "candidate")?;
-        let ss = col(&scores_csv, "scores.csv", "scheme")?;
-        let sh = col(&scores_csv, "scores.csv", "horizon")?;
-        let sp = col(&scores_csv, "scores.csv", "period_set")?;
-        let sn = col(&scores_csv, "scores.csv", "n")?;
-        let s_is = col(&scores_csv, "scores.csv", "is_rmse")?;
-        let metric_names: Vec<String> = scores_csv.header[sn + 1..s_is].to_vec();
+        let st = col(scores_csv, "scores.csv", "target")?;
+        let sc = col(scores_csv, "scores.csv", "candidate")?;
+        let ss = col(scores_csv, "scores.csv", "scheme")?;
+        let sh = col(scores_csv, "scores.csv", "horizon")?;
 
         // The grid: from the manifest, else in order of appearance.
         let g = manifest.get("grid");
@@ -489,13 +519,52 @@ impl Folder {
             .and_then(|b| candidates.iter().position(|c| *c == b))
             .or_else(|| candidates.iter().position(|c| c == "naive"))
             .unwrap_or(0);
-        let grid = Grid {
+        Ok(Grid {
             targets,
             candidates,
             schemes,
             horizons,
             benchmark,
-        };
+        })
+    }
+}
+
+/// Tables by file name.
+pub type Tables<'a> = BTreeMap<&'a str, &'a [u8]>;
+
+/// The rows of a folder's tables (or of one target's slice of them),
+/// parsed against a known grid; rows keep the files' order.
+pub struct Rows {
+    metric_names: Vec<String>,
+    scores: Vec<ScoreRow>,
+    tests: Vec<TestRow>,
+    forecasts: HashMap<(usize, usize, usize, usize), Vec<ForecastRow>>,
+    outlook: Vec<OutlookRow>,
+    stability: HashMap<(usize, usize, usize, usize), Vec<StabilityRow>>,
+    series: Vec<Series>,
+    diagnostics: Vec<DiagnosticRow>,
+}
+
+impl Rows {
+    /// Parse the tables in `files` (`scores.csv` required) against `grid`.
+    pub fn parse(files: &Tables, grid: &Grid) -> Result<Rows, String> {
+        let scores_bytes = files
+            .get("scores.csv")
+            .ok_or("the results folder has no scores.csv")?;
+        let scores_csv = Csv::parse("scores.csv", scores_bytes)?;
+        Rows::parse_with(scores_csv, files, grid)
+    }
+
+    fn parse_with(scores_csv: Csv, files: &Tables, grid: &Grid) -> Result<Rows, String> {
+        let col = |c: &Csv, f: &str, n: &str| c.need(f, n);
+        let st = col(&scores_csv, "scores.csv", "target")?;
+        let sc = col(&scores_csv, "scores.csv", "candidate")?;
+        let ss = col(&scores_csv, "scores.csv", "scheme")?;
+        let sh = col(&scores_csv, "scores.csv", "horizon")?;
+        let sp = col(&scores_csv, "scores.csv", "period_set")?;
+        let sn = col(&scores_csv, "scores.csv", "n")?;
+        let s_is = col(&scores_csv, "scores.csv", "is_rmse")?;
+        let metric_names: Vec<String> = scores_csv.header[sn + 1..s_is].to_vec();
         let ti = index_of(&grid.targets);
         let ci = index_of(&grid.candidates);
         let si = index_of(&grid.schemes);
@@ -751,10 +820,72 @@ impl Folder {
             }
         }
 
-        let experiment_text = files
-            .get("experiment.yaml")
-            .map(|b| String::from_utf8_lossy(b).to_string())
-            .unwrap_or_default();
+        Ok(Rows {
+            metric_names,
+            scores,
+            tests,
+            forecasts,
+            outlook,
+            stability,
+            series,
+            diagnostics,
+        })
+    }
+
+    /// Add the rows of the next slice (a later target's): the same as
+    /// parsing the two slices' tables joined.
+    pub fn append(&mut self, next: Rows) {
+        if self.metric_names.is_empty() {
+            self.metric_names = next.metric_names;
+        }
+        self.scores.extend(next.scores);
+        self.tests.extend(next.tests);
+        for (k, v) in next.forecasts {
+            self.forecasts.entry(k).or_default().extend(v);
+        }
+        self.outlook.extend(next.outlook);
+        for (k, v) in next.stability {
+            self.stability.entry(k).or_default().extend(v);
+        }
+        for x in next.series {
+            match self
+                .series
+                .iter_mut()
+                .find(|s| s.name == x.name && s.role == x.role)
+            {
+                Some(s) => {
+                    s.periods.extend(x.periods);
+                    s.raw.extend(x.raw);
+                    s.values.extend(x.values);
+                }
+                None => self.series.push(x),
+            }
+        }
+        self.diagnostics.extend(next.diagnostics);
+    }
+}
+
+impl Folder {
+    /// A folder from its grid, the rows of its tables and the stored
+    /// experiment file. Table hashes come from the manifest's `outputs`
+    /// (else from `files`).
+    pub fn assemble(
+        grid: Grid,
+        rows: Rows,
+        experiment_text: String,
+        files: &BTreeMap<String, Vec<u8>>,
+        manifest: &Value,
+    ) -> Folder {
+        let Rows {
+            metric_names,
+            scores,
+            tests,
+            forecasts,
+            outlook,
+            stability,
+            series,
+            diagnostics,
+        } = rows;
         let settings = Settings::read(&experiment_text);
         // Table hashes come from the manifest (the report may be given only
         // the rows it draws of the large tables); by file name.
@@ -787,7 +918,7 @@ impl Folder {
             .filter(|r| r.horizon.is_some() && r.period_set.is_none())
             .map(|r| r.n)
             .sum();
-        Ok(Folder {
+        Folder {
             grid,
             metric_names,
             scores,
@@ -801,7 +932,7 @@ impl Folder {
             settings,
             experiment_text,
             table_hashes,
-        })
+        }
     }
 }
 
@@ -1111,8 +1242,8 @@ pub fn report_data(f: &Folder, manifest: &Value, draw: bool) -> Value {
                 "charts": charts,
                 "open": !many || t == 0,
                 "panels_open": panels_open,
-                "verdict": verdict,
             });
+            entry["verdict"] = verdict;
             // Every target gets its verdict; the sections after it go into
             // detail for the first DETAIL_TARGETS only (the tables hold the rest).
             let full = (t < DETAIL_TARGETS).then(|| {
@@ -1184,7 +1315,8 @@ pub fn report_data(f: &Folder, manifest: &Value, draw: bool) -> Value {
         .map(|p| p.0.clone())
         .collect();
     let frequency = f.settings.frequency.clone();
-    json!({
+    // The large parts are moved in afterwards: `json!` would copy them.
+    let mut data = json!({
         "title": title,
         "experiment": experiment_name,
         "notes": f.settings.notes,
@@ -1213,12 +1345,9 @@ pub fn report_data(f: &Folder, manifest: &Value, draw: bool) -> Value {
         "has_pairwise": f.tests.iter().any(|r| r.test == "diebold_mariano" || r.test == "clark_west"),
         "has_snooping": f.tests.iter().any(|r| r.test == "snooping"),
         "chart_targets": CHART_TARGETS,
-        "verdict_rows": verdict_rows,
         "known_ahead": known_ahead,
-                "detail_targets": DETAIL_TARGETS.min(g.targets.len()),
+        "detail_targets": DETAIL_TARGETS.min(g.targets.len()),
         "omitted_detail": g.targets.len().saturating_sub(DETAIL_TARGETS),
-        "targets": targets,
-        "detailed_targets": detailed,
         "predictors": f.settings.predictors.iter().map(|(c, t, l, k)| json!({
             "column": c, "transform": t, "transform_words": transform_words(t), "release_lag": l, "known_ahead": k,
         })).collect::<Vec<_>>(),
@@ -1237,7 +1366,11 @@ pub fn report_data(f: &Folder, manifest: &Value, draw: bool) -> Value {
             "fallbacks": fallbacks,
             "experiment_text": f.experiment_text,
         },
-    })
+    });
+    data["verdict_rows"] = Value::Array(verdict_rows);
+    data["targets"] = Value::Array(targets);
+    data["detailed_targets"] = Value::Array(detailed);
+    data
 }
 
 /// Status of one scheme × horizon: (key, symbol, label).

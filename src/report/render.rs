@@ -93,7 +93,7 @@ fn render_one(
     name: &str,
     source: &str,
     html: bool,
-    data: &Value,
+    data: &minijinja::Value,
 ) -> std::result::Result<String, String> {
     let mut env = minijinja::Environment::new();
     env.set_auto_escape_callback(move |_| {
@@ -115,6 +115,33 @@ fn render_one(
         .map_err(|e| format!("template {name}: {e}"))
 }
 
+/// The report data as template values, as `minijinja` would convert it
+/// itself, but with the long lists (one entry per target, the bulk of the
+/// data) converted on all workers.
+fn template_value(data: &Value) -> minijinja::Value {
+    use rayon::prelude::*;
+    let Value::Object(map) = data else {
+        return minijinja::Value::from_serialize(data);
+    };
+    let items: Vec<(&String, &Value)> = map.iter().collect();
+    let converted: Vec<(String, minijinja::Value)> = items
+        .par_iter()
+        .map(|(k, v)| {
+            let value = match v {
+                Value::Array(list) if list.len() > 1 => list
+                    .par_iter()
+                    .map(minijinja::Value::from_serialize)
+                    .collect::<Vec<_>>()
+                    .into_iter()
+                    .collect(),
+                _ => minijinja::Value::from_serialize(v),
+            };
+            (k.to_string(), value)
+        })
+        .collect();
+    converted.into_iter().collect()
+}
+
 /// The report files of a results folder: `files` holds the folder's tables
 /// by name, `manifest` the manifest without `outputs` and `run`. Returns
 /// ("report.md", bytes) and/or ("report.html", bytes), in that order.
@@ -125,22 +152,40 @@ pub fn reports(
     templates: &Templates,
 ) -> std::result::Result<Vec<(String, Vec<u8>)>, String> {
     let folder = Folder::parse(files, manifest)?;
+    reports_of(folder, manifest, formats, templates)
+}
+
+/// The report files of a parsed folder (see [`reports`]).
+pub fn reports_of(
+    folder: Folder,
+    manifest: &Value,
+    formats: &[ReportFormat],
+    templates: &Templates,
+) -> std::result::Result<Vec<(String, Vec<u8>)>, String> {
     let data = report_data(&folder, manifest, formats.contains(&ReportFormat::Html));
-    let mut out = Vec::new();
-    if formats.contains(&ReportFormat::Markdown) {
-        let (name, source) = &templates.markdown;
-        out.push((
-            "report.md".to_string(),
-            render_one(name, source, false, &data)?.into_bytes(),
-        ));
-    }
-    if formats.contains(&ReportFormat::Html) {
-        let (name, source) = &templates.html;
-        out.push((
-            "report.html".to_string(),
-            render_one(name, source, true, &data)?.into_bytes(),
-        ));
-    }
+    let value = template_value(&data);
+    // The formats render side by side.
+    let render = |format: ReportFormat| -> std::result::Result<Option<(String, Vec<u8>)>, String> {
+        if !formats.contains(&format) {
+            return Ok(None);
+        }
+        let (file, (name, source), html) = match format {
+            ReportFormat::Markdown => ("report.md", &templates.markdown, false),
+            ReportFormat::Html => ("report.html", &templates.html, true),
+        };
+        Ok(Some((
+            file.to_string(),
+            render_one(name, source, html, &value)?.into_bytes(),
+        )))
+    };
+    let (markdown, html) = rayon::join(
+        || render(ReportFormat::Markdown),
+        || render(ReportFormat::Html),
+    );
+    let out: Vec<(String, Vec<u8>)> = [markdown?, html?].into_iter().flatten().collect();
+    // Freeing the large trees takes a few milliseconds the caller need not wait for.
+    // (Should no thread start, they are freed here.)
+    let _ = std::thread::Builder::new().spawn(move || drop((folder, data, value)));
     Ok(out)
 }
 
