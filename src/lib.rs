@@ -100,6 +100,14 @@ pub fn default_folder(exp: &Experiment) -> PathBuf {
     PathBuf::from("results").join(&exp.name)
 }
 
+/// With OUTTURN_DEBUG_TIMING set, print how far into the run a step ended
+/// (for performance work; the figures are not part of any output).
+pub(crate) fn timing(started: Instant, step: &str) {
+    if std::env::var_os("OUTTURN_DEBUG_TIMING").is_some() {
+        eprintln!("timing: {step} at {:.3} s", started.elapsed().as_secs_f64());
+    }
+}
+
 pub(crate) fn now_unix() -> u64 {
     std::time::SystemTime::now()
         .duration_since(std::time::UNIX_EPOCH)
@@ -220,6 +228,7 @@ pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
         );
     }
     staging.commit_synced()?;
+    timing(started, "results folder swapped in");
     Ok(RunSummary {
         folder,
         cells: cells.len(),

@@ -48,8 +48,9 @@ const TABLES: [&str; 8] = [
 struct Slice {
     tables: [Vec<u8>; 8],
     /// The rows the report reads of this target, parsed from its slice of
-    /// the tables exactly as `outturn render` parses a whole folder.
-    report_rows: std::result::Result<report::Rows, String>,
+    /// the tables exactly as `outturn render` parses a whole folder, and the
+    /// target's part of the report built from them.
+    report_rows: std::result::Result<(report::Rows, report::TargetPart), String>,
     cells: Vec<report::manifest::CellFacts>,
     failed: usize,
 }
@@ -63,7 +64,12 @@ fn header(bytes: &[u8]) -> &[u8] {
 
 /// Score, test and format one target. `outputs` are its cells in plan order
 /// (candidates × schemes), combinations not yet formed.
-fn slice(exp: &Experiment, grid: &report::Grid, t: usize, mut outputs: Vec<CellOutput>) -> Slice {
+fn slice(
+    exp: &Experiment,
+    parts: &report::PartContext,
+    t: usize,
+    mut outputs: Vec<CellOutput>,
+) -> Slice {
     let sub = exp.for_target(t);
     let cells = plan::cells(&sub);
     backtest::combine(&sub, &cells, &mut outputs);
@@ -160,7 +166,11 @@ fn slice(exp: &Experiment, grid: &report::Grid, t: usize, mut outputs: Vec<CellO
             (name, keep)
         })
         .collect();
-    let report_rows = report::Rows::parse(&report_tables, grid);
+    let draw = exp.formats.contains(&crate::spec::ReportFormat::Html);
+    let report_rows = report::Rows::parse(&report_tables, parts.grid()).map(|rows| {
+        let (part, rows) = parts.part(t, rows, draw);
+        (rows, part)
+    });
     Slice {
         tables,
         report_rows,
@@ -210,7 +220,13 @@ struct Stream {
     file: std::io::BufWriter<std::fs::File>,
     hash: Sha256,
     bytes: usize,
+    /// Bytes written since the disk was last asked to start writing.
+    unstarted: usize,
 }
+
+/// Every this many bytes of a table, the disk is asked to start writing
+/// what it holds, so that the sync before the swap finds little left to do.
+const START_WRITEBACK: usize = 8 << 20;
 
 impl Stream {
     fn write(&mut self, data: &[u8]) -> Result<()> {
@@ -218,9 +234,31 @@ impl Stream {
         self.bytes += data.len();
         self.file
             .write_all(data)
-            .map_err(|e| Error::io(format!("cannot write {}", self.name), e))
+            .map_err(|e| Error::io(format!("cannot write {}", self.name), e))?;
+        self.unstarted += data.len();
+        if self.unstarted >= START_WRITEBACK {
+            self.unstarted = 0;
+            start_writeback(self.file.get_ref());
+        }
+        Ok(())
     }
 }
+
+/// Ask the kernel to start writing a file's dirty pages to disk without
+/// waiting for them (a hint: the sync before the swap is what counts).
+#[cfg(target_os = "linux")]
+fn start_writeback(file: &std::fs::File) {
+    use std::os::fd::AsRawFd;
+    // SAFETY: the descriptor is open for the life of `file`; offset 0 and
+    // length 0 cover the whole file, and SYNC_FILE_RANGE_WRITE only starts
+    // the write-out of pages already handed to the kernel.
+    unsafe {
+        libc::sync_file_range(file.as_raw_fd(), 0, 0, libc::SYNC_FILE_RANGE_WRITE);
+    }
+}
+
+#[cfg(not(target_os = "linux"))]
+fn start_writeback(_file: &std::fs::File) {}
 
 /// Write a whole file and sync it.
 fn write_file(dir: &Path, name: &str, bytes: &[u8]) -> Result<OutputFile> {
@@ -237,6 +275,8 @@ struct Written {
     streams: Vec<Stream>,
     /// The report's rows of the targets appended so far.
     report_rows: Option<std::result::Result<report::Rows, String>>,
+    /// The report's parts of the targets appended so far.
+    report_parts: Vec<report::TargetPart>,
     experiment_text: String,
     cell_facts: Vec<report::manifest::CellFacts>,
     failed: usize,
@@ -257,7 +297,11 @@ impl Written {
                     .push_str(&String::from_utf8_lossy(table));
             }
         }
-        self.report_rows = Some(match (self.report_rows.take(), s.report_rows) {
+        let next = s.report_rows.map(|(rows, part)| {
+            self.report_parts.push(part);
+            rows
+        });
+        self.report_rows = Some(match (self.report_rows.take(), next) {
             (None, next) => next,
             (Some(Ok(mut rows)), Ok(next)) => {
                 rows.append(next);
@@ -291,7 +335,7 @@ struct Progress {
 /// timing).
 fn stream_in_order(
     exp: &Experiment,
-    grid: &report::Grid,
+    parts: &report::PartContext,
     source: &(dyn Fn(usize) -> Result<Vec<CellOutput>> + Sync),
     mut w: Written,
     window: usize,
@@ -353,7 +397,7 @@ fn stream_in_order(
                         p = moved.wait(p).unwrap_or_else(|e| e.into_inner());
                     }
                 }
-                match source(t).map(|o| slice(exp, grid, t, o)) {
+                match source(t).map(|o| slice(exp, parts, t, o)) {
                     Ok(s) => {
                         if tx.send((t, s)).is_err() {
                             return;
@@ -404,18 +448,23 @@ pub fn produce(
             file: std::io::BufWriter::with_capacity(1 << 20, file),
             hash: Sha256::new(),
             bytes: 0,
+            unstarted: 0,
         });
     }
-    if std::env::var_os("OUTTURN_DEBUG_TIMING").is_some() {
-        eprintln!(
-            "timing: experiment loaded, tables start at {:.3} s",
-            ctx.started.elapsed().as_secs_f64()
-        );
-    }
+    crate::timing(ctx.started, "experiment loaded, tables start");
     let grid = report::Grid::of(exp);
+    let parts = report::PartContext::new(
+        grid.clone(),
+        &exp.source_text,
+        &report::tables::diagnostics_csv(&score::stability::predictor_diagnostics(
+            &exp.for_target(0),
+        )),
+    )
+    .map_err(Error::Run)?;
     let mut w = Written {
         streams,
         report_rows: None,
+        report_parts: Vec::new(),
         experiment_text: String::new(),
         cell_facts: Vec::new(),
         failed: 0,
@@ -423,26 +472,22 @@ pub fn produce(
     if ctx.threads <= 1 {
         // One thread of work means one: compute and write in turn.
         for t in 0..exp.targets.len() {
-            let s = slice(exp, &grid, t, source(t)?);
+            let s = slice(exp, &parts, t, source(t)?);
             w.append(t == 0, s)?;
         }
     } else {
-        w = stream_in_order(exp, &grid, source, w, window.max(1))?;
+        w = stream_in_order(exp, &parts, source, w, window.max(1))?;
     }
     let written = w;
     let Written {
         streams,
         report_rows,
+        report_parts,
         experiment_text,
         cell_facts,
         failed,
     } = written;
-    if std::env::var_os("OUTTURN_DEBUG_TIMING").is_some() {
-        eprintln!(
-            "timing: tables streamed at {:.3} s",
-            ctx.started.elapsed().as_secs_f64()
-        );
-    }
+    crate::timing(ctx.started, "tables streamed");
     let mut outputs = Vec::new();
     let mut files = Vec::new();
     for s in streams {
@@ -451,6 +496,7 @@ pub fn produce(
             file,
             hash,
             bytes,
+            ..
         } = s;
         let file = file
             .into_inner()
@@ -493,23 +539,22 @@ pub fn produce(
         Some(rows) => rows.map_err(Error::Run)?,
         None => report::Rows::parse(&report::Tables::new(), &grid).map_err(Error::Run)?,
     };
+    crate::timing(ctx.started, "rows ready");
     let folder = report::Folder::assemble(grid, rows, experiment_text, &BTreeMap::new(), &core);
     let rendered =
-        report::render::reports_of(folder, &core, &exp.formats, &templates).map_err(Error::Run)?;
+        report::render::reports_of(folder, Some(report_parts), &core, &exp.formats, &templates)
+            .map_err(Error::Run)?;
     for (name, bytes) in &rendered {
         outputs.push(write_file(dir, name, bytes)?);
     }
+    crate::timing(ctx.started, "reports written");
     let manifest = report::manifest::manifest(exp, &cell_facts, &templates_used, &outputs, &facts);
     write_file(dir, "manifest.json", &manifest)?;
+    crate::timing(ctx.started, "manifest written");
     syncing
         .join()
         .map_err(|_| Error::Run("syncing the tables stopped unexpectedly".into()))??;
-    if std::env::var_os("OUTTURN_DEBUG_TIMING").is_some() {
-        eprintln!(
-            "timing: reports and manifest at {:.3} s",
-            ctx.started.elapsed().as_secs_f64()
-        );
-    }
+    crate::timing(ctx.started, "reports and manifest");
     Ok(Produced {
         failed_cells: failed,
     })

@@ -383,3 +383,72 @@ fn many_targets_render_and_merge_to_the_same_bytes() {
     ok(&["verify", single.to_str().unwrap()]);
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+#[test]
+fn the_lowest_failing_target_is_reported_at_any_thread_count() {
+    // Targets are computed side by side and handed to the writer as they
+    // finish; when two targets cannot be estimated, the run must refuse the
+    // same way whatever the thread count: the lowest failing target named,
+    // exit code 2, and nothing written.
+    let dir = scratch("failing");
+    let mut text = String::from("t");
+    for j in 0..12 {
+        text.push_str(&format!(",y{j}"));
+    }
+    text.push('\n');
+    let mut state = 99u64;
+    for t in 1..=90 {
+        text.push_str(&t.to_string());
+        for j in 0..12 {
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            // y3 and y9 do not vary: every ar design on them is singular.
+            let v = if j == 3 || j == 9 {
+                5.0
+            } else {
+                (state >> 11) as f64 / (1u64 << 53) as f64
+            };
+            text.push_str(&format!(",{v:.6}"));
+        }
+        text.push('\n');
+    }
+    std::fs::write(dir.join("panel.csv"), text).unwrap();
+    let targets: Vec<String> = (0..12).map(|j| format!("y{j}")).collect();
+    let exp = dir.join("panel.yaml");
+    std::fs::write(
+        &exp,
+        format!(
+            "version: 1\nexperiment: failing\ndata: {{file: panel.csv, time: t, frequency: index}}\ntarget: [{}]\ncandidates:\n  - family: naive\n  - family: ar\n    lags: [1, 2]\nbacktest:\n  schemes: [{{expanding: {{first_origin: 40}}}}]\n  horizons: [1]\n",
+            targets.join(", ")
+        ),
+    )
+    .unwrap();
+    let out = dir.join("results");
+    let mut messages = Vec::new();
+    for jobs in ["1", "2", "16"] {
+        let o = outturn(&[
+            "run",
+            exp.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+            "--quiet",
+            "--no-cache",
+            "--jobs",
+            jobs,
+        ]);
+        assert_eq!(o.status.code(), Some(2), "--jobs {jobs}");
+        let stderr = String::from_utf8_lossy(&o.stderr).to_string();
+        assert!(stderr.contains("target 'y3'"), "--jobs {jobs}: {stderr}");
+        assert!(!stderr.contains("target 'y9'"), "--jobs {jobs}: {stderr}");
+        messages.push(stderr);
+        let left: Vec<_> = std::fs::read_dir(&dir)
+            .unwrap()
+            .map(|e| e.unwrap().file_name().to_string_lossy().to_string())
+            .filter(|n| n != "panel.csv" && n != "panel.yaml")
+            .collect();
+        assert!(left.is_empty(), "--jobs {jobs} left {left:?}");
+    }
+    assert!(messages.windows(2).all(|w| w[0] == w[1]));
+    let _ = std::fs::remove_dir_all(&dir);
+}

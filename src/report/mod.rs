@@ -159,6 +159,7 @@ fn field(rec: &csv::StringRecord, i: Option<usize>) -> &str {
 }
 
 /// The grid of the experiment: ids in experiment order.
+#[derive(Clone)]
 pub struct Grid {
     pub targets: Vec<String>,
     pub candidates: Vec<String>,
@@ -230,6 +231,7 @@ struct Series {
     values: Vec<Option<f64>>,
 }
 
+#[derive(Clone)]
 struct DiagnosticRow {
     subject: String,
     kind: String,
@@ -241,7 +243,7 @@ struct DiagnosticRow {
 }
 
 /// Settings read back from the stored experiment file, for display.
-#[derive(Default)]
+#[derive(Default, Clone)]
 struct Settings {
     title: Option<String>,
     notes: Option<String>,
@@ -529,6 +531,34 @@ impl Grid {
     }
 }
 
+fn parse_diagnostics(bytes: &[u8]) -> Result<Vec<DiagnosticRow>, String> {
+    let d = Csv::parse("diagnostics.csv", bytes)?;
+    let cols: Vec<Option<usize>> = [
+        "subject",
+        "kind",
+        "test",
+        "lags",
+        "statistic",
+        "p_value",
+        "critical_5",
+    ]
+    .iter()
+    .map(|n| d.col(n))
+    .collect();
+    Ok(d.rows
+        .iter()
+        .map(|r| DiagnosticRow {
+            subject: field(r, cols[0]).to_string(),
+            kind: field(r, cols[1]).to_string(),
+            test: field(r, cols[2]).to_string(),
+            lags: field(r, cols[3]).to_string(),
+            statistic: parse_num(field(r, cols[4])),
+            p_value: parse_num(field(r, cols[5])),
+            critical_5: parse_num(field(r, cols[6])),
+        })
+        .collect())
+}
+
 /// Tables by file name.
 pub type Tables<'a> = BTreeMap<&'a str, &'a [u8]>;
 
@@ -792,33 +822,10 @@ impl Rows {
             }
         }
 
-        let mut diagnostics = Vec::new();
-        if let Some(bytes) = files.get("diagnostics.csv") {
-            let d = Csv::parse("diagnostics.csv", bytes)?;
-            let cols: Vec<Option<usize>> = [
-                "subject",
-                "kind",
-                "test",
-                "lags",
-                "statistic",
-                "p_value",
-                "critical_5",
-            ]
-            .iter()
-            .map(|n| d.col(n))
-            .collect();
-            for r in &d.rows {
-                diagnostics.push(DiagnosticRow {
-                    subject: field(r, cols[0]).to_string(),
-                    kind: field(r, cols[1]).to_string(),
-                    test: field(r, cols[2]).to_string(),
-                    lags: field(r, cols[3]).to_string(),
-                    statistic: parse_num(field(r, cols[4])),
-                    p_value: parse_num(field(r, cols[5])),
-                    critical_5: parse_num(field(r, cols[6])),
-                });
-            }
-        }
+        let diagnostics = match files.get("diagnostics.csv") {
+            Some(bytes) => parse_diagnostics(bytes)?,
+            None => Vec::new(),
+        };
 
         Ok(Rows {
             metric_names,
@@ -876,16 +883,6 @@ impl Folder {
         files: &BTreeMap<String, Vec<u8>>,
         manifest: &Value,
     ) -> Folder {
-        let Rows {
-            metric_names,
-            scores,
-            tests,
-            forecasts,
-            outlook,
-            stability,
-            series,
-            diagnostics,
-        } = rows;
         let settings = Settings::read(&experiment_text);
         // Table hashes come from the manifest (the report may be given only
         // the rows it draws of the large tables); by file name.
@@ -912,6 +909,26 @@ impl Folder {
                 .collect(),
         };
         table_hashes.sort();
+        Folder::from_rows(grid, rows, settings, experiment_text, table_hashes)
+    }
+
+    fn from_rows(
+        grid: Grid,
+        rows: Rows,
+        settings: Settings,
+        experiment_text: String,
+        table_hashes: Vec<(String, String, usize)>,
+    ) -> Folder {
+        let Rows {
+            metric_names,
+            scores,
+            tests,
+            forecasts,
+            outlook,
+            stability,
+            series,
+            diagnostics,
+        } = rows;
         // Every forecast is scored once per horizon on the whole sample.
         let forecast_count = scores
             .iter()
@@ -933,6 +950,72 @@ impl Folder {
             experiment_text,
             table_hashes,
         }
+    }
+
+    fn into_rows(self) -> Rows {
+        Rows {
+            metric_names: self.metric_names,
+            scores: self.scores,
+            tests: self.tests,
+            forecasts: self.forecasts,
+            outlook: self.outlook,
+            stability: self.stability,
+            series: self.series,
+            diagnostics: self.diagnostics,
+        }
+    }
+}
+
+/// What every target's report part needs besides the target's own rows.
+pub struct PartContext {
+    grid: Grid,
+    settings: Settings,
+    /// The predictors' unit-root rows, which only the first target's slice
+    /// of diagnostics.csv holds.
+    predictor_rows: Vec<DiagnosticRow>,
+}
+
+impl PartContext {
+    /// `predictor_diagnostics` is the predictors' part of diagnostics.csv
+    /// (with its header), as the first target's slice holds it.
+    pub fn new(
+        grid: Grid,
+        experiment_text: &str,
+        predictor_diagnostics: &[u8],
+    ) -> Result<PartContext, String> {
+        Ok(PartContext {
+            grid,
+            settings: Settings::read(experiment_text),
+            predictor_rows: parse_diagnostics(predictor_diagnostics)?,
+        })
+    }
+
+    pub fn grid(&self) -> &Grid {
+        &self.grid
+    }
+
+    /// The report part of target `t` from that target's rows, which are
+    /// handed back for the whole folder.
+    pub fn part(&self, t: usize, mut rows: Rows, draw: bool) -> (TargetPart, Rows) {
+        // The folder as the report sees it for target t: its rows, and the
+        // predictors' rows ahead of them as in the whole table.
+        let borrowed = if t == 0 { 0 } else { self.predictor_rows.len() };
+        if borrowed > 0 {
+            let own = std::mem::take(&mut rows.diagnostics);
+            rows.diagnostics = self.predictor_rows.clone();
+            rows.diagnostics.extend(own);
+        }
+        let folder = Folder::from_rows(
+            self.grid.clone(),
+            rows,
+            self.settings.clone(),
+            String::new(),
+            Vec::new(),
+        );
+        let part = folder.target_part(t, draw);
+        let mut rows = folder.into_rows();
+        rows.diagnostics.drain(..borrowed);
+        (part, rows)
     }
 }
 
@@ -1190,7 +1273,90 @@ fn chart_value(
 /// Build the report-data value both templates render, from a folder's
 /// tables and the manifest's deterministic part (no `outputs`, no `run`).
 /// `draw`: whether charts are wanted (only the HTML report shows them).
-pub fn report_data(f: &Folder, manifest: &Value, draw: bool) -> Value {
+/// One target's part of the report data, already in template values: its
+/// entry in the list of targets, its detailed sections (first
+/// DETAIL_TARGETS targets) and its verdict rows. A run builds it on the
+/// worker that scored the target, from that target's rows alone.
+pub struct TargetPart {
+    entry: minijinja::Value,
+    full: Option<minijinja::Value>,
+    rows: Vec<minijinja::Value>,
+    statuses: Vec<String>,
+}
+
+impl Folder {
+    /// The report part of target `t`. The folder must hold every row of
+    /// that target (other targets' rows may be absent), and the predictors'
+    /// unit-root rows.
+    pub fn target_part(&self, t: usize, draw: bool) -> TargetPart {
+        target_part(&Index::new(self), t, draw)
+    }
+}
+
+fn target_part(ix: &Index, t: usize, draw: bool) -> TargetPart {
+    let f = ix.f;
+    let g = &f.grid;
+    let target = &g.targets[t];
+    let many = g.targets.len() > 3;
+    let charts = draw && t < CHART_TARGETS;
+    let verdict = verdict_for(ix, t);
+    let rows: Vec<Value> = verdict["rows"]
+        .as_array()
+        .into_iter()
+        .flatten()
+        .map(|v| {
+            let mut v = v.clone();
+            v["target"] = json!(target);
+            v
+        })
+        .collect();
+    let series = f
+        .series
+        .iter()
+        .find(|s| s.role == "target" && s.name == *target);
+    let panels_open = g.schemes.len() * g.horizons.len() <= 8 && !many;
+    let mut entry = json!({
+        "name": target,
+        "anchor": format!("t-{}", slug(target)),
+        "index": t + 1,
+        "charts": charts,
+        "open": !many || t == 0,
+        "panels_open": panels_open,
+    });
+    entry["verdict"] = verdict;
+    // Every target gets its verdict; the sections after it go into
+    // detail for the first DETAIL_TARGETS only (the tables hold the rest).
+    let full = (t < DETAIL_TARGETS).then(|| {
+        let mut full = entry.clone();
+        full["outlook"] = outlook_for(ix, t, series, charts);
+        full["rankings"] = rankings_for(ix, t);
+        full["overfitting"] = overfitting_for(ix, t, charts);
+        full["tests"] = tests_for(ix, t);
+        full["over_time"] = over_time_for(ix, t, series, charts);
+        full["data"] = data_for(ix, t, series, charts);
+        full
+    });
+    entry["detail"] = json!(t < DETAIL_TARGETS);
+    TargetPart {
+        entry: minijinja::Value::from_serialize(&entry),
+        full: full.as_ref().map(minijinja::Value::from_serialize),
+        statuses: rows
+            .iter()
+            .map(|v| v["status"].as_str().unwrap_or("").to_string())
+            .collect(),
+        rows: rows.iter().map(minijinja::Value::from_serialize).collect(),
+    }
+}
+
+/// The data the report templates read, as template values. `parts` are the
+/// targets' parts when already built (see [`Folder::target_part`]); else
+/// they are built here, in parallel.
+pub fn report_data(
+    f: &Folder,
+    manifest: &Value,
+    draw: bool,
+    parts: Option<Vec<TargetPart>>,
+) -> minijinja::Value {
     let ix = Index::new(f);
     let g = &f.grid;
     let bench = g.benchmark;
@@ -1213,74 +1379,30 @@ pub fn report_data(f: &Folder, manifest: &Value, draw: bool) -> Value {
 
     // Targets are independent: build them in parallel, assemble in order.
     use rayon::prelude::*;
-    let built: Vec<(Value, Option<Value>, Vec<Value>)> = g
-        .targets
-        .par_iter()
-        .enumerate()
-        .map(|(t, target)| {
-            let charts = draw && t < CHART_TARGETS;
-            let verdict = verdict_for(&ix, t);
-            let rows: Vec<Value> = verdict["rows"]
-                .as_array()
-                .into_iter()
-                .flatten()
-                .map(|v| {
-                    let mut v = v.clone();
-                    v["target"] = json!(target);
-                    v
-                })
-                .collect();
-            let series = f
-                .series
-                .iter()
-                .find(|s| s.role == "target" && s.name == *target);
-            let panels_open = g.schemes.len() * g.horizons.len() <= 8 && !many;
-            let mut entry = json!({
-                "name": target,
-                "anchor": format!("t-{}", slug(target)),
-                "index": t + 1,
-                "charts": charts,
-                "open": !many || t == 0,
-                "panels_open": panels_open,
-            });
-            entry["verdict"] = verdict;
-            // Every target gets its verdict; the sections after it go into
-            // detail for the first DETAIL_TARGETS only (the tables hold the rest).
-            let full = (t < DETAIL_TARGETS).then(|| {
-                let mut full = entry.clone();
-                full["outlook"] = outlook_for(&ix, t, series, charts);
-                full["rankings"] = rankings_for(&ix, t);
-                full["overfitting"] = overfitting_for(&ix, t, charts);
-                full["tests"] = tests_for(&ix, t);
-                full["over_time"] = over_time_for(&ix, t, series, charts);
-                full["data"] = data_for(&ix, t, series, charts);
-                full
-            });
-            entry["detail"] = json!(t < DETAIL_TARGETS);
-            (entry, full, rows)
-        })
-        .collect();
-    let mut targets = Vec::with_capacity(built.len());
+    let parts = parts.unwrap_or_else(|| {
+        (0..g.targets.len())
+            .into_par_iter()
+            .map(|t| target_part(&ix, t, draw))
+            .collect()
+    });
+    let mut targets = Vec::with_capacity(parts.len());
     let mut detailed = Vec::new();
     let mut verdict_rows = Vec::new();
-    for (entry, full, rows) in built {
-        targets.push(entry);
-        detailed.extend(full);
-        verdict_rows.extend(rows);
+    let mut statuses = Vec::new();
+    for part in parts {
+        targets.push(part.entry);
+        detailed.extend(part.full);
+        verdict_rows.extend(part.rows);
+        statuses.extend(part.statuses);
     }
 
     // Across targets: how many settings fall in each reading.
-    let tally = |key: &str| {
-        verdict_rows
-            .iter()
-            .filter(|v| v["status"].as_str() == Some(key))
-            .count()
-    };
+    let tally = |key: &str| statuses.iter().filter(|s| *s == key).count();
     let overall = format!(
         "Over {} targets × {} scheme × horizon settings ({} in all): {} hold after the search, {} are significant alone, {} are ahead but not significant, {} leave {} unbeaten{}.",
         g.targets.len(),
         g.schemes.len() * g.horizons.len(),
-        verdict_rows.len(),
+        statuses.len(),
         tally("holds"),
         tally("alone"),
         tally("ahead"),
@@ -1315,8 +1437,7 @@ pub fn report_data(f: &Folder, manifest: &Value, draw: bool) -> Value {
         .map(|p| p.0.clone())
         .collect();
     let frequency = f.settings.frequency.clone();
-    // The large parts are moved in afterwards: `json!` would copy them.
-    let mut data = json!({
+    let data = json!({
         "title": title,
         "experiment": experiment_name,
         "notes": f.settings.notes,
@@ -1367,10 +1488,18 @@ pub fn report_data(f: &Folder, manifest: &Value, draw: bool) -> Value {
             "experiment_text": f.experiment_text,
         },
     });
-    data["verdict_rows"] = Value::Array(verdict_rows);
-    data["targets"] = Value::Array(targets);
-    data["detailed_targets"] = Value::Array(detailed);
-    data
+    // To template values: the targets' parts are converted already.
+    let Value::Object(map) = data else {
+        unreachable!("the report data is an object")
+    };
+    let mut values: BTreeMap<String, minijinja::Value> = map
+        .into_iter()
+        .map(|(k, v)| (k, minijinja::Value::from_serialize(&v)))
+        .collect();
+    values.insert("verdict_rows".into(), minijinja::Value::from(verdict_rows));
+    values.insert("targets".into(), minijinja::Value::from(targets));
+    values.insert("detailed_targets".into(), minijinja::Value::from(detailed));
+    values.into_iter().collect()
 }
 
 /// Status of one scheme × horizon: (key, symbol, label).

@@ -3,7 +3,7 @@
 //! tables and the manifest's deterministic part, and `outturn render`, which
 //! re-renders a folder in place and updates the manifest's hashes.
 
-use super::{report_data, Folder};
+use super::{report_data, Folder, TargetPart};
 use crate::error::{Error, Result};
 use crate::spec::{sha256_hex, ReportFormat};
 use serde_json::{json, Value};
@@ -115,33 +115,6 @@ fn render_one(
         .map_err(|e| format!("template {name}: {e}"))
 }
 
-/// The report data as template values, as `minijinja` would convert it
-/// itself, but with the long lists (one entry per target, the bulk of the
-/// data) converted on all workers.
-fn template_value(data: &Value) -> minijinja::Value {
-    use rayon::prelude::*;
-    let Value::Object(map) = data else {
-        return minijinja::Value::from_serialize(data);
-    };
-    let items: Vec<(&String, &Value)> = map.iter().collect();
-    let converted: Vec<(String, minijinja::Value)> = items
-        .par_iter()
-        .map(|(k, v)| {
-            let value = match v {
-                Value::Array(list) if list.len() > 1 => list
-                    .par_iter()
-                    .map(minijinja::Value::from_serialize)
-                    .collect::<Vec<_>>()
-                    .into_iter()
-                    .collect(),
-                _ => minijinja::Value::from_serialize(v),
-            };
-            (k.to_string(), value)
-        })
-        .collect();
-    converted.into_iter().collect()
-}
-
 /// The report files of a results folder: `files` holds the folder's tables
 /// by name, `manifest` the manifest without `outputs` and `run`. Returns
 /// ("report.md", bytes) and/or ("report.html", bytes), in that order.
@@ -152,18 +125,24 @@ pub fn reports(
     templates: &Templates,
 ) -> std::result::Result<Vec<(String, Vec<u8>)>, String> {
     let folder = Folder::parse(files, manifest)?;
-    reports_of(folder, manifest, formats, templates)
+    reports_of(folder, None, manifest, formats, templates)
 }
 
-/// The report files of a parsed folder (see [`reports`]).
+/// The report files of a parsed folder (see [`reports`]), with the targets'
+/// parts of the report when they are built already.
 pub fn reports_of(
     folder: Folder,
+    parts: Option<Vec<TargetPart>>,
     manifest: &Value,
     formats: &[ReportFormat],
     templates: &Templates,
 ) -> std::result::Result<Vec<(String, Vec<u8>)>, String> {
-    let data = report_data(&folder, manifest, formats.contains(&ReportFormat::Html));
-    let value = template_value(&data);
+    let value = report_data(
+        &folder,
+        manifest,
+        formats.contains(&ReportFormat::Html),
+        parts,
+    );
     // The formats render side by side.
     let render = |format: ReportFormat| -> std::result::Result<Option<(String, Vec<u8>)>, String> {
         if !formats.contains(&format) {
@@ -185,7 +164,7 @@ pub fn reports_of(
     let out: Vec<(String, Vec<u8>)> = [markdown?, html?].into_iter().flatten().collect();
     // Freeing the large trees takes a few milliseconds the caller need not wait for.
     // (Should no thread start, they are freed here.)
-    let _ = std::thread::Builder::new().spawn(move || drop((folder, data, value)));
+    let _ = std::thread::Builder::new().spawn(move || drop((folder, value)));
     Ok(out)
 }
 

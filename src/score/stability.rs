@@ -136,6 +136,32 @@ fn dynamic_parameters(family: &Family) -> usize {
 
 /// Diagnostics of the experiment's targets and cells; the predictors' unit-root
 /// tests are included when `with_predictors` (once per results folder).
+/// Unit-root rows of the predictors, measured over the first target's span.
+pub fn predictor_diagnostics(exp: &Experiment) -> Vec<DiagnosticRow> {
+    let mut rows = Vec::new();
+    if let Some(first) = exp.targets.first() {
+        for (i, p) in exp.predictors.iter().enumerate() {
+            // the longest unbroken run of values up to the target's end
+            let values: Vec<f64> = first.predictors[i][..first.n]
+                .iter()
+                .skip_while(|v| v.is_none())
+                .map_while(|v| *v)
+                .collect();
+            let r = adf(&values, AdfRegression::Constant, None);
+            rows.push(DiagnosticRow {
+                subject: p.column.clone(),
+                kind: "predictor",
+                test: "adf",
+                lags: r.as_ref().map(|r| r.used_lag),
+                statistic: r.as_ref().map(|r| r.statistic),
+                p_value: r.as_ref().map(|r| r.p_value),
+                critical_5: r.as_ref().map(|r| r.critical_values[1]),
+            });
+        }
+    }
+    rows
+}
+
 pub fn diagnostics(
     exp: &Experiment,
     cells: &[Cell],
@@ -156,25 +182,8 @@ pub fn diagnostics(
             critical_5: r.as_ref().map(|r| r.critical_values[1]),
         });
     }
-    if let Some(first) = exp.targets.first().filter(|_| with_predictors) {
-        for (i, p) in exp.predictors.iter().enumerate() {
-            // the longest unbroken run of values up to the target's end
-            let values: Vec<f64> = first.predictors[i][..first.n]
-                .iter()
-                .skip_while(|v| v.is_none())
-                .map_while(|v| *v)
-                .collect();
-            let r = adf(&values, AdfRegression::Constant, None);
-            rows.push(DiagnosticRow {
-                subject: p.column.clone(),
-                kind: "predictor",
-                test: "adf",
-                lags: r.as_ref().map(|r| r.used_lag),
-                statistic: r.as_ref().map(|r| r.statistic),
-                p_value: r.as_ref().map(|r| r.p_value),
-                critical_5: r.as_ref().map(|r| r.critical_values[1]),
-            });
-        }
+    if with_predictors {
+        rows.extend(predictor_diagnostics(exp));
     }
     // Models: Ljung-Box on each cell's last in-sample residuals.
     for (cell, out) in cells.iter().zip(outputs) {

@@ -182,6 +182,13 @@ pub fn parse_number(cell: &str) -> Result<Option<f64>, String> {
     if c.is_empty() {
         return Ok(None);
     }
+    // The common case first; the messages below are built only for a
+    // cell that is refused.
+    if let Ok(v) = c.parse::<f64>() {
+        if v.is_finite() {
+            return Ok(Some(v));
+        }
+    }
     let shown = crate::spec::decode::clip(c);
     let lower = c.to_ascii_lowercase();
     let bare = lower.trim_start_matches(['+', '-']);
