@@ -184,6 +184,7 @@ pub fn write_folder(target: &Path, files: &[(String, Vec<u8>)]) -> Result<()> {
     }
     recover(target);
     check_target(target)?;
+    release_cache(target);
     let tmp = sibling(target, &format!("tmp-{}", std::process::id()));
     let _ = std::fs::remove_dir_all(&tmp);
     register(&tmp);
@@ -248,6 +249,7 @@ pub fn stage(target: &Path) -> Result<Staging> {
     }
     recover(target);
     check_target(target)?;
+    release_cache(target);
     let tmp = sibling(target, &format!("tmp-{}", std::process::id()));
     let _ = std::fs::remove_dir_all(&tmp);
     register(&tmp);
@@ -311,6 +313,34 @@ fn two_step_swap(tmp: &Path, target: &Path) -> Result<()> {
     }
     remove_folder(&old);
     Ok(())
+}
+
+/// Let the kernel drop the cached pages of the folder this run will
+/// replace, on a thread of its own while the run goes on: the files stay
+/// as they are on disk (a failed run leaves them untouched), and removing
+/// them after the swap no longer has to free their pages.
+fn release_cache(target: &Path) {
+    #[cfg(target_os = "linux")]
+    {
+        let Ok(entries) = std::fs::read_dir(target) else {
+            return;
+        };
+        let files: Vec<PathBuf> = entries.flatten().map(|e| e.path()).collect();
+        let _ = std::thread::Builder::new().spawn(move || {
+            use std::os::fd::AsRawFd;
+            for path in files {
+                if let Ok(f) = std::fs::File::open(&path) {
+                    // SAFETY: the descriptor is open for the call; advice
+                    // changes caching only, never the file's contents.
+                    unsafe {
+                        libc::posix_fadvise(f.as_raw_fd(), 0, 0, libc::POSIX_FADV_DONTNEED);
+                    }
+                }
+            }
+        });
+    }
+    #[cfg(not(target_os = "linux"))]
+    let _ = target;
 }
 
 /// Remove a replaced results folder. Freeing a large file's blocks takes

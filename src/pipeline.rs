@@ -226,7 +226,7 @@ struct Stream {
 
 /// Every this many bytes of a table, the disk is asked to start writing
 /// what it holds, so that the sync before the swap finds little left to do.
-const START_WRITEBACK: usize = 8 << 20;
+const START_WRITEBACK: usize = 1 << 20;
 
 impl Stream {
     fn write(&mut self, data: &[u8]) -> Result<()> {
