@@ -61,7 +61,7 @@ pub fn draft(path: &Path) -> Result<String> {
     // The time column: the first whose labels fit a frequency.
     let mut time = None;
     for (i, _) in table.headers.iter().enumerate() {
-        let labels: Vec<&str> = table.rows.iter().map(|r| r.cells[i].as_str()).collect();
+        let labels: Vec<&str> = table.rows.iter().map(|r| &r.cells[i]).collect();
         if labels.iter().any(|l| l.is_empty()) {
             continue;
         }
@@ -132,7 +132,7 @@ pub fn draft(path: &Path) -> Result<String> {
         path.display(),
         n_rows,
         first_label,
-        table.rows[n_rows - 1].cells[time_idx]
+        &table.rows[n_rows - 1].cells[time_idx]
     ));
     y.push_str(
         "# Save it in the current folder (the data path below is relative to it), edit, then:\n",

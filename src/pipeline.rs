@@ -528,13 +528,12 @@ pub fn produce(
     // part, exactly as `outturn render` does from the folder.
     let templates = report::render::default_templates();
     let templates_used = report::render::used_templates(&templates, &exp.formats);
-    let core = report::render::manifest_core(&report::manifest::manifest_value(
-        exp,
-        &cell_facts,
-        &templates_used,
-        &outputs,
-        &facts,
-    ));
+    // The manifest is built once: without its run section it is what the
+    // report reads (outputs so far hold only the tables); the run section
+    // and the reports' entries are added before it is written.
+    let mut core =
+        report::manifest::manifest_value(exp, &cell_facts, &templates_used, &outputs, &facts);
+    let run_section = core.as_object_mut().and_then(|m| m.remove("run"));
     let rows = match report_rows {
         Some(rows) => rows.map_err(Error::Run)?,
         None => report::Rows::parse(&report::Tables::new(), &grid).map_err(Error::Run)?,
@@ -548,8 +547,12 @@ pub fn produce(
         outputs.push(write_file(dir, name, bytes)?);
     }
     crate::timing(ctx.started, "reports written");
-    let manifest = report::manifest::manifest(exp, &cell_facts, &templates_used, &outputs, &facts);
-    write_file(dir, "manifest.json", &manifest)?;
+    let mut manifest = core;
+    manifest["outputs"] = report::manifest::outputs_value(&outputs);
+    if let Some(run) = run_section {
+        manifest["run"] = run;
+    }
+    write_file(dir, "manifest.json", &report::manifest::to_bytes(&manifest))?;
     crate::timing(ctx.started, "manifest written");
     syncing
         .join()

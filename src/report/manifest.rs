@@ -49,10 +49,22 @@ pub fn manifest(
     outputs: &[OutputFile],
     run: &RunFacts,
 ) -> Vec<u8> {
-    let value = manifest_value(exp, cells, templates, outputs, run);
-    let mut bytes = serde_json::to_vec_pretty(&value).unwrap_or_default();
+    to_bytes(&manifest_value(exp, cells, templates, outputs, run))
+}
+
+/// A manifest value as the file holds it.
+pub fn to_bytes(value: &Value) -> Vec<u8> {
+    let mut bytes = serde_json::to_vec_pretty(value).unwrap_or_default();
     bytes.push(b'\n');
     bytes
+}
+
+/// The manifest's `outputs` list.
+pub fn outputs_value(outputs: &[OutputFile]) -> Value {
+    outputs
+        .iter()
+        .map(|o| json!({"file": o.name, "sha256": o.sha256, "bytes": o.bytes}))
+        .collect()
 }
 
 /// The manifest as a JSON value (what [`manifest`] writes).
@@ -102,7 +114,7 @@ pub fn manifest_value(
                 v
             }).collect::<Vec<_>>(),
         },
-        "outputs": outputs.iter().map(|o| json!({"file": o.name, "sha256": o.sha256, "bytes": o.bytes})).collect::<Vec<_>>(),
+        "outputs": outputs_value(outputs),
         "run": {
             "started_unix": run.started_unix,
             "seconds": run.seconds,

@@ -1114,10 +1114,20 @@ impl<'a> Index<'a> {
                 .or_default()
                 .push(i);
         }
-        // Ljung–Box subjects are cell ids `target/candidate/scheme`.
+        // Ljung–Box subjects are cell ids `target/candidate/scheme`; only
+        // the targets this folder holds rows of (one, for a target's part).
         let mut cell_ids: HashMap<String, (usize, usize, usize)> = HashMap::new();
         if f.diagnostics.iter().any(|d| d.test == "ljung_box") {
+            let mut held = vec![false; f.grid.targets.len()];
+            for r in &f.scores {
+                if let Some(h) = held.get_mut(r.target) {
+                    *h = true;
+                }
+            }
             for (t, target) in f.grid.targets.iter().enumerate() {
+                if !held[t] {
+                    continue;
+                }
                 for (c, cand) in f.grid.candidates.iter().enumerate() {
                     for (sc, scheme) in f.grid.schemes.iter().enumerate() {
                         cell_ids.insert(format!("{target}/{cand}/{scheme}"), (t, c, sc));

@@ -9,7 +9,42 @@ use std::path::{Path, PathBuf};
 pub struct RawRow {
     /// 1-based line in the file, as an editor shows it.
     pub line: usize,
-    pub cells: Vec<String>,
+    pub cells: Cells,
+}
+
+/// A row's cells, trimmed, in one buffer (a wide panel has hundreds of
+/// thousands of cells; one allocation each made reading it slow).
+#[derive(Debug, Clone, Default)]
+pub struct Cells {
+    text: String,
+    ends: Vec<usize>,
+}
+
+impl Cells {
+    fn push(&mut self, cell: &str) {
+        self.text.push_str(cell);
+        self.ends.push(self.text.len());
+    }
+
+    pub fn len(&self) -> usize {
+        self.ends.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.ends.is_empty()
+    }
+
+    pub fn iter(&self) -> impl Iterator<Item = &str> {
+        (0..self.len()).map(move |i| &self[i])
+    }
+}
+
+impl std::ops::Index<usize> for Cells {
+    type Output = str;
+    fn index(&self, i: usize) -> &str {
+        let start = if i == 0 { 0 } else { self.ends[i - 1] };
+        &self.text[start..self.ends[i]]
+    }
 }
 
 #[derive(Debug, Clone)]
@@ -82,9 +117,12 @@ pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
             Ok(false) => break,
             Ok(true) => {
                 let line = record.position().map(|p| line_of(p.byte())).unwrap_or(0);
-                let cells: Vec<String> = record.iter().map(|c| c.trim().to_string()).collect();
-                if cells.iter().all(|c| c.is_empty()) {
+                if record.iter().all(|c| c.trim().is_empty()) {
                     continue;
+                }
+                let mut cells = Cells::default();
+                for c in record.iter() {
+                    cells.push(c.trim());
                 }
                 if let Some(pos) = cells.iter().position(|c| c.contains(['\n', '\r'])) {
                     return Err(Diagnostic::new(
@@ -111,8 +149,9 @@ pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
                                     .into(),
                             ));
                         }
-                        for (i, c) in cells.iter().enumerate() {
-                            if cells[..i].contains(c) {
+                        let mut seen = std::collections::HashSet::new();
+                        for c in cells.iter() {
+                            if !seen.insert(c) {
                                 return Err(at(
                                     Some(line),
                                     format!("the header names column '{c}' twice"),
@@ -120,7 +159,7 @@ pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
                             }
                         }
                         header_line = line;
-                        headers = Some(cells);
+                        headers = Some(cells.iter().map(String::from).collect());
                     }
                     Some(h) => {
                         if cells.len() > h.len() {
@@ -138,7 +177,9 @@ pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
                             ));
                         }
                         let mut cells = cells;
-                        cells.resize(h.len(), String::new());
+                        while cells.len() < h.len() {
+                            cells.push("");
+                        }
                         rows.push(RawRow { line, cells });
                     }
                 }

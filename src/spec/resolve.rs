@@ -279,11 +279,7 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
         }
     }
     if !bad_rows.is_empty() {
-        let labels: Vec<&str> = table
-            .rows
-            .iter()
-            .map(|r| r.cells[time_idx].as_str())
-            .collect();
+        let labels: Vec<&str> = table.rows.iter().map(|r| &r.cells[time_idx]).collect();
         let hint = match Frequency::guess(&labels) {
             Some(g) if g != freq => format!(
                 "; the labels look {}: set data.frequency: {}",
@@ -501,7 +497,7 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
         let total = rows.len() - lag;
         let labels: Vec<String> = rows[lag..]
             .iter()
-            .map(|r| r.cells[time_idx].clone())
+            .map(|r| r.cells[time_idx].to_string())
             .collect();
         let pos_ordinals: Vec<i64> = ords[lag..].to_vec();
         let raw_target: Vec<f64> = raw[lag..=last]
