@@ -7,7 +7,7 @@ use super::{report_data, Folder, TargetPart};
 use crate::error::{Error, Result};
 use crate::spec::{sha256_hex, ReportFormat};
 use serde_json::{json, Value};
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, HashMap};
 use std::path::Path;
 
 /// The two report templates: (file name, source).
@@ -192,6 +192,46 @@ fn write_atomic(dir: &Path, name: &str, bytes: &[u8]) -> Result<()> {
     })
 }
 
+/// A large table's header and the rows of targets the report shows in
+/// detail (the first `DETAIL_TARGETS` of the grid; rows naming no target of
+/// the grid are kept too), read row by row. In series.csv only target
+/// series are filtered; predictor rows stay.
+fn detailed_rows(
+    path: &Path,
+    name: &str,
+    targets: &HashMap<String, usize>,
+) -> std::io::Result<Vec<u8>> {
+    let file = std::fs::File::open(path)?;
+    let mut reader = csv::ReaderBuilder::new()
+        .has_headers(true)
+        .flexible(true)
+        .from_reader(std::io::BufReader::with_capacity(1 << 20, file));
+    let bad = |e: csv::Error| std::io::Error::new(std::io::ErrorKind::InvalidData, e);
+    let header = reader.headers().map_err(bad)?.clone();
+    let column = |n: &str| header.iter().position(|h| h == n);
+    let (subject, role) = if name == "series.csv" {
+        (column("series"), column("role"))
+    } else {
+        (column("target"), None)
+    };
+    let mut writer = csv::Writer::from_writer(Vec::new());
+    writer.write_record(&header).map_err(bad)?;
+    let mut record = csv::StringRecord::new();
+    while reader.read_record(&mut record).map_err(bad)? {
+        let is_target = role.is_none_or(|r| record.get(r) == Some("target"));
+        let keep = match subject.and_then(|c| record.get(c)) {
+            Some(s) if is_target => targets.get(s).is_none_or(|&t| t < super::DETAIL_TARGETS),
+            _ => true,
+        };
+        if keep {
+            writer.write_record(&record).map_err(bad)?;
+        }
+    }
+    writer
+        .into_inner()
+        .map_err(|e| std::io::Error::other(e.to_string()))
+}
+
 /// `outturn render DIR [--templates DIR]`: re-render the reports of a
 /// results folder from its stored tables, in place, and update the
 /// manifest's `templates` and the report entries of its `outputs`;
@@ -231,9 +271,27 @@ pub fn render_folder(dir: &Path, templates: Option<&Path>) -> Result<()> {
             ),
         ));
     }
+    // The large tables are read row by row, keeping the rows of the targets
+    // the report shows in detail (a 1000-series folder holds gigabytes).
+    let detailed: Option<HashMap<String, usize>> = manifest
+        .pointer("/grid/targets")
+        .and_then(Value::as_array)
+        .map(|list| {
+            list.iter()
+                .enumerate()
+                .filter_map(|(t, name)| Some((name.as_str()?.to_string(), t)))
+                .collect()
+        });
     let mut files = BTreeMap::new();
     for name in TABLES {
-        match std::fs::read(dir.join(name)) {
+        let path = dir.join(name);
+        let read = match (name, &detailed) {
+            ("forecasts.csv" | "stability.csv" | "series.csv", Some(targets)) => {
+                detailed_rows(&path, name, targets)
+            }
+            _ => std::fs::read(&path),
+        };
+        match read {
             Ok(bytes) => {
                 files.insert(name.to_string(), bytes);
             }
