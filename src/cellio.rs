@@ -106,62 +106,118 @@ pub fn write_cell(id: &str, out: &CellOutput, buf: &mut String) {
 
 /// Read every cell of a text written by [`write_cell`]: (id, output).
 pub fn read_cells(text: &str) -> Result<Vec<(String, CellOutput)>, String> {
+    let mut reader = CellReader::new(text.as_bytes());
     let mut cells = Vec::new();
-    let mut current: Option<(String, CellOutput)> = None;
-    for (i, line) in text.lines().enumerate() {
-        let at = |e: String| format!("line {}: {e}", i + 1);
-        let (tag, rest) = line.split_once(' ').unwrap_or((line, ""));
-        match tag {
-            "cell" => {
-                if current.is_some() {
-                    return Err(at("a cell starts before the previous one ended".into()));
-                }
-                current = Some((rest.to_string(), CellOutput::default()));
-            }
-            "end" => match current.take() {
-                Some(c) => cells.push(c),
-                None => return Err(at("'end' without a cell".into())),
-            },
-            _ => {
-                let Some((_, out)) = current.as_mut() else {
-                    return Err(at(format!("'{tag}' outside a cell")));
+    while let Some(cell) = reader.next_cell()? {
+        cells.push(cell);
+    }
+    Ok(cells)
+}
+
+/// Cells read one at a time from a stream written by [`write_cell`], with
+/// the SHA-256 of every byte read.
+pub struct CellReader<R> {
+    input: R,
+    line_no: usize,
+    line: Vec<u8>,
+    hash: sha2::Sha256,
+}
+
+impl<R: std::io::BufRead> CellReader<R> {
+    pub fn new(input: R) -> CellReader<R> {
+        use sha2::Digest;
+        CellReader {
+            input,
+            line_no: 0,
+            line: Vec::new(),
+            hash: sha2::Sha256::new(),
+        }
+    }
+
+    /// The next cell, or None at the end of the stream.
+    pub fn next_cell(&mut self) -> Result<Option<(String, CellOutput)>, String> {
+        use sha2::Digest;
+        let mut current: Option<(String, CellOutput)> = None;
+        loop {
+            self.line.clear();
+            let n = self
+                .input
+                .read_until(b'\n', &mut self.line)
+                .map_err(|e| format!("cannot read: {e}"))?;
+            if n == 0 {
+                return match current {
+                    Some(_) => Err("the text ends inside a cell".into()),
+                    None => Ok(None),
                 };
-                let f: Vec<&str> = rest.split(' ').collect();
-                match tag {
-                    "fallbacks" => {
-                        out.fallbacks = rest.parse().map_err(|_| at("bad fallbacks".into()))?
+            }
+            self.hash.update(&self.line);
+            self.line_no += 1;
+            let at = |e: String| format!("line {}: {e}", self.line_no);
+            let text = std::str::from_utf8(&self.line).map_err(|_| at("not UTF-8 text".into()))?;
+            let line = text.strip_suffix('\n').unwrap_or(text);
+            let line = line.strip_suffix('\r').unwrap_or(line);
+            let (tag, rest) = line.split_once(' ').unwrap_or((line, ""));
+            match tag {
+                "cell" => {
+                    if current.is_some() {
+                        return Err(at("a cell starts before the previous one ended".into()));
                     }
-                    "failure" => out.failure = Some(rest.to_string()),
-                    "f" if f.len() == 7 => out.forecasts.push(ForecastRow {
-                        horizon: f[0].parse().map_err(|_| at("bad horizon".into()))?,
-                        origin: f[1].parse().map_err(|_| at("bad origin".into()))?,
-                        forecast: parse_num(f[2]).map_err(at)?,
-                        is_mse: parse_opt(f[3]).map_err(at)?,
-                        is_var: parse_opt(f[4]).map_err(at)?,
-                        variance: parse_opt(f[5]).map_err(at)?,
-                        order: parse_order(f[6]).map_err(at)?,
-                    }),
-                    "o" if f.len() == 3 => out.outlook.push(OutlookRow {
-                        horizon: f[0].parse().map_err(|_| at("bad horizon".into()))?,
-                        forecast: parse_opt(f[1]).map_err(at)?,
-                        variance: parse_opt(f[2]).map_err(at)?,
-                    }),
-                    "r" => {
-                        out.residuals = f
-                            .iter()
-                            .map(|v| parse_num(v))
-                            .collect::<Result<_, _>>()
-                            .map_err(at)?;
+                    current = Some((rest.to_string(), CellOutput::default()));
+                }
+                "end" => {
+                    return match current.take() {
+                        Some(c) => Ok(Some(c)),
+                        None => Err(at("'end' without a cell".into())),
                     }
-                    _ => return Err(at(format!("unreadable line '{line}'"))),
+                }
+                _ => {
+                    let Some((_, out)) = current.as_mut() else {
+                        return Err(at(format!("'{tag}' outside a cell")));
+                    };
+                    read_line(out, tag, rest, line).map_err(at)?;
                 }
             }
         }
     }
-    if current.is_some() {
-        return Err("the text ends inside a cell".into());
+
+    /// The SHA-256 (hex) of everything read so far.
+    pub fn digest(&self) -> String {
+        use sha2::Digest;
+        self.hash
+            .clone()
+            .finalize()
+            .iter()
+            .map(|b| format!("{b:02x}"))
+            .collect()
     }
-    Ok(cells)
+}
+
+/// Apply one line of a cell (after its tag) to the output.
+fn read_line(out: &mut CellOutput, tag: &str, rest: &str, line: &str) -> Result<(), String> {
+    let f: Vec<&str> = rest.split(' ').collect();
+    match tag {
+        "fallbacks" => out.fallbacks = rest.parse().map_err(|_| "bad fallbacks".to_string())?,
+        "failure" => out.failure = Some(rest.to_string()),
+        "f" if f.len() == 7 => out.forecasts.push(ForecastRow {
+            horizon: f[0].parse().map_err(|_| "bad horizon".to_string())?,
+            origin: f[1].parse().map_err(|_| "bad origin".to_string())?,
+            forecast: parse_num(f[2])?,
+            is_mse: parse_opt(f[3])?,
+            is_var: parse_opt(f[4])?,
+            variance: parse_opt(f[5])?,
+            order: parse_order(f[6])?,
+        }),
+        "o" if f.len() == 3 => out.outlook.push(OutlookRow {
+            horizon: f[0].parse().map_err(|_| "bad horizon".to_string())?,
+            forecast: parse_opt(f[1])?,
+            variance: parse_opt(f[2])?,
+        }),
+        "r" => {
+            out.residuals = f.iter().map(|v| parse_num(v)).collect::<Result<_, _>>()?;
+        }
+        _ => return Err(format!("unreadable line '{line}'")),
+    }
+    Ok(())
 }
 
 #[cfg(test)]

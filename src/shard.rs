@@ -205,57 +205,154 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<usize> {
         .enumerate()
         .map(|(i, c)| (c.id.as_str(), i))
         .collect();
-    let mut outputs: Vec<Option<CellOutput>> = vec![None; cells.len()];
+    // Each shard's rows are read as the targets need them (a shard holds
+    // its cells in plan order), so memory stays bounded however large the
+    // run; the rows' hashes are checked once every row is read, and a
+    // failure on the way leaves nothing written.
+    let mut by_shard: Vec<Option<Shard>> = (0..count).map(|_| None).collect();
     for (d, _, m) in &manifests {
+        let k = m["shard_of"]["shard"].as_u64().unwrap_or(0) as usize;
         let path = d.join("cells.txt");
-        let text = std::fs::read(&path).map_err(|e| invalid(&path, format!("cannot read: {e}")))?;
-        if m["outputs"][0]["sha256"].as_str() != Some(&sha256_hex(&text)) {
-            return Err(invalid(
-                &path,
-                "the shard's rows do not match its manifest's hash (damaged or edited)",
-            ));
-        }
-        let text = String::from_utf8(text).map_err(|_| invalid(&path, "not UTF-8 text"))?;
-        for (id, out) in cellio::read_cells(&text).map_err(|e| invalid(&path, e))? {
-            let Some(&i) = index.get(id.as_str()) else {
-                return Err(invalid(
-                    &path,
-                    format!("cell '{id}' is not in the experiment's grid"),
-                ));
-            };
-            if outputs[i].is_some() {
-                return Err(invalid(
-                    &path,
-                    format!("cell '{id}' appears in more than one shard"),
-                ));
-            }
-            outputs[i] = Some(out);
-        }
+        let file =
+            std::fs::File::open(&path).map_err(|e| invalid(&path, format!("cannot read: {e}")))?;
+        by_shard[k - 1] = Some(Shard {
+            reader: cellio::CellReader::new(std::io::BufReader::with_capacity(1 << 20, file)),
+            expected: m["outputs"][0]["sha256"].as_str().unwrap_or("").to_string(),
+            path,
+        });
     }
-    let mut full = Vec::with_capacity(cells.len());
-    for (cell, out) in cells.iter().zip(outputs) {
-        match out {
-            Some(o) => full.push(o),
-            None if !is_computed(&exp, cell) => full.push(CellOutput::default()),
-            None => {
-                return Err(Error::invalid(
-                    None,
-                    format!("no shard holds cell '{}'", cell.id),
-                ))
-            }
-        }
-    }
+    let shards: Vec<Shard> = by_shard.into_iter().flatten().collect();
+    let rows = std::sync::Mutex::new(Rows {
+        shards,
+        pending: std::collections::HashMap::new(),
+    });
+    let (pool, threads) = crate::thread_pool(None)?;
     let ctx = RunContext {
         started,
         started_unix: crate::now_unix(),
-        threads: 1,
+        threads,
         shard: format!("merged {count}"),
     };
     let per = exp.candidates.len() * exp.schemes.len();
-    let source =
-        |t: usize| -> Result<Vec<CellOutput>> { Ok(full[t * per..(t + 1) * per].to_vec()) };
+    let source = |t: usize| -> Result<Vec<CellOutput>> {
+        let mut rows = rows.lock().unwrap_or_else(|e| e.into_inner());
+        (t * per..(t + 1) * per)
+            .map(|i| {
+                if !is_computed(&exp, &cells[i]) {
+                    return Ok(CellOutput::default());
+                }
+                rows.take(i, &cells, &index, count)
+            })
+            .collect()
+    };
     let staging = output::stage(out)?;
-    pipeline::produce(&exp, &source, staging.dir(), &ctx, 4)?;
+    pool.install(|| pipeline::produce(&exp, &source, staging.dir(), &ctx, threads * 8))?;
+    rows.into_inner()
+        .unwrap_or_else(|e| e.into_inner())
+        .finish(&cells)?;
     staging.commit_synced()?;
     Ok(cells.len())
+}
+
+/// One shard's rows, read as they are needed.
+struct Shard {
+    reader: cellio::CellReader<std::io::BufReader<std::fs::File>>,
+    /// The hash of cells.txt its manifest records.
+    expected: String,
+    path: PathBuf,
+}
+
+/// The shards' rows, and cells read ahead of the target that needs them
+/// (when targets are merged side by side).
+struct Rows {
+    shards: Vec<Shard>,
+    pending: std::collections::HashMap<usize, CellOutput>,
+}
+
+impl Rows {
+    /// Cell `i`'s output, from the shard that holds it.
+    fn take(
+        &mut self,
+        i: usize,
+        cells: &[Cell],
+        index: &std::collections::HashMap<&str, usize>,
+        count: usize,
+    ) -> Result<CellOutput> {
+        if let Some(o) = self.pending.remove(&i) {
+            return Ok(o);
+        }
+        let k = plan::shard_of(&cells[i], count);
+        let shard = &mut self.shards[k - 1];
+        loop {
+            let Some((id, out)) = shard
+                .reader
+                .next_cell()
+                .map_err(|e| invalid(&shard.path, e))?
+            else {
+                return Err(Error::invalid(
+                    None,
+                    format!("no shard holds cell '{}'", cells[i].id),
+                ));
+            };
+            let Some(&j) = index.get(id.as_str()) else {
+                return Err(invalid(
+                    &shard.path,
+                    format!("cell '{id}' is not in the experiment's grid"),
+                ));
+            };
+            if plan::shard_of(&cells[j], count) != k {
+                return Err(invalid(
+                    &shard.path,
+                    format!("cell '{id}' belongs to another shard (damaged or edited)"),
+                ));
+            }
+            if j == i {
+                return Ok(out);
+            }
+            if j > i {
+                // Rows come in plan order: cell i was skipped.
+                return Err(Error::invalid(
+                    None,
+                    format!("no shard holds cell '{}'", cells[i].id),
+                ));
+            }
+            // A cell of a target another worker has yet to ask for.
+            if self.pending.insert(j, out).is_some() {
+                return Err(invalid(
+                    &shard.path,
+                    format!("cell '{id}' appears more than once"),
+                ));
+            }
+        }
+    }
+
+    /// Every row read and no row left over, and every shard's rows match
+    /// its manifest's hash.
+    fn finish(mut self, cells: &[Cell]) -> Result<()> {
+        if let Some(&j) = self.pending.keys().min() {
+            return Err(Error::invalid(
+                None,
+                format!("cell '{}' appears more than once", cells[j].id),
+            ));
+        }
+        for shard in &mut self.shards {
+            if let Some((id, _)) = shard
+                .reader
+                .next_cell()
+                .map_err(|e| invalid(&shard.path, e))?
+            {
+                return Err(invalid(
+                    &shard.path,
+                    format!("cell '{id}' appears more than once or out of order"),
+                ));
+            }
+            if shard.reader.digest() != shard.expected {
+                return Err(invalid(
+                    &shard.path,
+                    "the shard's rows do not match its manifest's hash (damaged or edited)",
+                ));
+            }
+        }
+        Ok(())
+    }
 }

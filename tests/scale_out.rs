@@ -155,6 +155,38 @@ fn identical_across_thread_counts_shards_and_merge() {
             ]);
             assert_eq!(o.status.code(), Some(2));
             assert!(!dir.join("bad").exists());
+            // A shard whose rows were edited after the run is refused, and
+            // nothing is written (the rows are streamed, so the hash is
+            // checked after the last one is read).
+            let edited = dir.join("edited");
+            std::fs::create_dir_all(&edited).unwrap();
+            for e in std::fs::read_dir(&shards[1]).unwrap() {
+                let e = e.unwrap();
+                std::fs::copy(e.path(), edited.join(e.file_name())).unwrap();
+            }
+            let rows = std::fs::read_to_string(edited.join("cells.txt")).unwrap();
+            let at = rows.find("\nf ").expect("a forecast row") + 1;
+            let line_end = at + rows[at..].find('\n').unwrap();
+            let mut fields: Vec<String> = rows[at..line_end].split(' ').map(String::from).collect();
+            fields[3] = "1.5e0".into();
+            let changed = format!("{}{}{}", &rows[..at], fields.join(" "), &rows[line_end..]);
+            assert_ne!(changed, rows);
+            std::fs::write(edited.join("cells.txt"), changed).unwrap();
+            let o = outturn(&[
+                "merge",
+                shards[0].to_str().unwrap(),
+                edited.to_str().unwrap(),
+                shards[2].to_str().unwrap(),
+                "--out",
+                dir.join("bad").to_str().unwrap(),
+            ]);
+            assert_eq!(o.status.code(), Some(2));
+            assert!(
+                String::from_utf8_lossy(&o.stderr).contains("do not match its manifest's hash"),
+                "{}",
+                String::from_utf8_lossy(&o.stderr)
+            );
+            assert!(!dir.join("bad").exists());
         }
     }
     // verify: untouched passes, tampered fails naming the file and row.
