@@ -24,6 +24,20 @@ fn outturn(args: &[&str]) -> std::process::Output {
     Command::new(BIN).args(args).output().expect("run outturn")
 }
 
+/// `outturn run EXP --out OUT --quiet --no-cache` with more arguments.
+fn run(exp: &Path, out: &Path, more: &[&str]) -> std::process::Output {
+    let mut args = vec![
+        "run",
+        exp.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--quiet",
+        "--no-cache",
+    ];
+    args.extend_from_slice(more);
+    outturn(&args)
+}
+
 fn ok(args: &[&str]) {
     let o = outturn(args);
     assert!(
@@ -220,14 +234,8 @@ fn verify_refuses_changed_inputs() {
     let exp = dir.join("exp.yaml");
     std::fs::copy(src.join("water_demand.yaml"), &exp).unwrap();
     let out = dir.join("out");
-    ok(&[
-        "run",
-        exp.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-        "--quiet",
-        "--no-cache",
-    ]);
+    let o = run(&exp, &out, &[]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     let mut data = std::fs::read_to_string(data_dir.join("water_demand.csv")).unwrap();
     data = data.replacen("379.97", "379.98", 1);
     std::fs::write(data_dir.join("water_demand.csv"), data).unwrap();
@@ -344,14 +352,25 @@ fn write_panel(dir: &Path, k: usize, n: usize) -> PathBuf {
         }
         text.push_str(&format!(",{x:.6}\n"));
     }
-    let data = dir.join("panel.csv");
-    std::fs::write(&data, text).unwrap();
+    write_experiment(
+        dir,
+        "panel",
+        &text,
+        k,
+        "predictors:\n  - column: x\ncandidates:\n  - family: naive\n  - family: mean\n  - family: ar\n    lags: [1, 2]\n  - family: ardl\n    lags: [1]\n    predictors: [x]\n    predictor_lags: [1, 2]\n  - family: combination\n    members: [\"ar(1)\", \"ardl(1,1)\"]\n    weights: inverse_mse\nbacktest:\n  schemes: [{expanding: {first_origin: 40}}, {rolling: {window: 30, first_origin: 40}}]\n  horizons: [1, 3]\nscoring:\n  metrics: [rmse, mae]\n  tests: {diebold_mariano: true, clark_west: true}\nseed: 7\n",
+    )
+}
+
+/// Write `data` as panel.csv and an experiment over its targets y0…y{k−1}
+/// (time column t) with the keys in `rest`; returns the experiment's path.
+fn write_experiment(dir: &Path, name: &str, data: &str, k: usize, rest: &str) -> PathBuf {
+    std::fs::write(dir.join("panel.csv"), data).unwrap();
     let targets: Vec<String> = (0..k).map(|j| format!("y{j}")).collect();
     let exp = dir.join("panel.yaml");
     std::fs::write(
         &exp,
         format!(
-            "version: 1\nexperiment: panel\ndata: {{file: panel.csv, time: t, frequency: index}}\ntarget: [{}]\npredictors:\n  - column: x\ncandidates:\n  - family: naive\n  - family: mean\n  - family: ar\n    lags: [1, 2]\n  - family: ardl\n    lags: [1]\n    predictors: [x]\n    predictor_lags: [1, 2]\n  - family: combination\n    members: [\"ar(1)\", \"ardl(1,1)\"]\n    weights: inverse_mse\nbacktest:\n  schemes: [{{expanding: {{first_origin: 40}}}}, {{rolling: {{window: 30, first_origin: 40}}}}]\n  horizons: [1, 3]\nscoring:\n  metrics: [rmse, mae]\n  tests: {{diebold_mariano: true, clark_west: true}}\nseed: 7\n",
+            "version: 1\nexperiment: {name}\ndata: {{file: panel.csv, time: t, frequency: index}}\ntarget: [{}]\n{rest}",
             targets.join(", ")
         ),
     )
@@ -445,30 +464,17 @@ fn the_lowest_failing_target_is_reported_at_any_thread_count() {
         }
         text.push('\n');
     }
-    std::fs::write(dir.join("panel.csv"), text).unwrap();
-    let targets: Vec<String> = (0..12).map(|j| format!("y{j}")).collect();
-    let exp = dir.join("panel.yaml");
-    std::fs::write(
-        &exp,
-        format!(
-            "version: 1\nexperiment: failing\ndata: {{file: panel.csv, time: t, frequency: index}}\ntarget: [{}]\ncandidates:\n  - family: naive\n  - family: ar\n    lags: [1, 2]\nbacktest:\n  schemes: [{{expanding: {{first_origin: 40}}}}]\n  horizons: [1]\n",
-            targets.join(", ")
-        ),
-    )
-    .unwrap();
+    let exp = write_experiment(
+        &dir,
+        "failing",
+        &text,
+        12,
+        "candidates:\n  - family: naive\n  - family: ar\n    lags: [1, 2]\nbacktest:\n  schemes: [{expanding: {first_origin: 40}}]\n  horizons: [1]\n",
+    );
     let out = dir.join("results");
     let mut messages = Vec::new();
     for jobs in ["1", "2", "16"] {
-        let o = outturn(&[
-            "run",
-            exp.to_str().unwrap(),
-            "--out",
-            out.to_str().unwrap(),
-            "--quiet",
-            "--no-cache",
-            "--jobs",
-            jobs,
-        ]);
+        let o = run(&exp, &out, &["--jobs", jobs]);
         assert_eq!(o.status.code(), Some(2), "--jobs {jobs}");
         let stderr = String::from_utf8_lossy(&o.stderr).to_string();
         assert!(stderr.contains("target 'y3'"), "--jobs {jobs}: {stderr}");

@@ -533,18 +533,10 @@ impl Grid {
 
 fn parse_diagnostics(bytes: &[u8]) -> Result<Vec<DiagnosticRow>, String> {
     let d = Csv::parse("diagnostics.csv", bytes)?;
-    let cols: Vec<Option<usize>> = [
-        "subject",
-        "kind",
-        "test",
-        "lags",
-        "statistic",
-        "p_value",
-        "critical_5",
-    ]
-    .iter()
-    .map(|n| d.col(n))
-    .collect();
+    let cols: Vec<Option<usize>> = tables::DIAGNOSTICS_COLUMNS
+        .iter()
+        .map(|n| d.col(n))
+        .collect();
     Ok(d.rows
         .iter()
         .map(|r| DiagnosticRow {

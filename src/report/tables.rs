@@ -335,18 +335,21 @@ pub fn stability_csv(exp: &Experiment, rows: &[crate::score::stability::Stabilit
     out
 }
 
+/// The columns of diagnostics.csv, in order.
+pub const DIAGNOSTICS_COLUMNS: [&str; 7] = [
+    "subject",
+    "kind",
+    "test",
+    "lags",
+    "statistic",
+    "p_value",
+    "critical_5",
+];
+
 /// Unit-root and residual diagnostics (`diagnostics.csv`).
 pub fn diagnostics_csv(rows: &[crate::score::stability::DiagnosticRow]) -> Vec<u8> {
     let mut w = writer();
-    let _ = w.write_record([
-        "subject",
-        "kind",
-        "test",
-        "lags",
-        "statistic",
-        "p_value",
-        "critical_5",
-    ]);
+    let _ = w.write_record(DIAGNOSTICS_COLUMNS);
     for r in rows {
         let _ = w.write_record([
             r.subject.clone(),

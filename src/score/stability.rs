@@ -136,6 +136,20 @@ fn dynamic_parameters(family: &Family) -> usize {
 
 /// Diagnostics of the experiment's targets and cells; the predictors' unit-root
 /// tests are included when `with_predictors` (once per results folder).
+/// ADF with a constant on a series after its transformation.
+fn adf_row(subject: &str, kind: &'static str, values: &[f64]) -> DiagnosticRow {
+    let r = adf(values, AdfRegression::Constant, None);
+    DiagnosticRow {
+        subject: subject.to_string(),
+        kind,
+        test: "adf",
+        lags: r.as_ref().map(|r| r.used_lag),
+        statistic: r.as_ref().map(|r| r.statistic),
+        p_value: r.as_ref().map(|r| r.p_value),
+        critical_5: r.as_ref().map(|r| r.critical_values[1]),
+    }
+}
+
 /// Unit-root rows of the predictors, measured over the first target's span.
 pub fn predictor_diagnostics(exp: &Experiment) -> Vec<DiagnosticRow> {
     let mut rows = Vec::new();
@@ -147,16 +161,7 @@ pub fn predictor_diagnostics(exp: &Experiment) -> Vec<DiagnosticRow> {
                 .skip_while(|v| v.is_none())
                 .map_while(|v| *v)
                 .collect();
-            let r = adf(&values, AdfRegression::Constant, None);
-            rows.push(DiagnosticRow {
-                subject: p.column.clone(),
-                kind: "predictor",
-                test: "adf",
-                lags: r.as_ref().map(|r| r.used_lag),
-                statistic: r.as_ref().map(|r| r.statistic),
-                p_value: r.as_ref().map(|r| r.p_value),
-                critical_5: r.as_ref().map(|r| r.critical_values[1]),
-            });
+            rows.push(adf_row(&p.column, "predictor", &values));
         }
     }
     rows
@@ -171,16 +176,7 @@ pub fn diagnostics(
     let mut rows = Vec::new();
     // Data: ADF with a constant on each series after transformation.
     for target in &exp.targets {
-        let r = adf(&target.y, AdfRegression::Constant, None);
-        rows.push(DiagnosticRow {
-            subject: target.name.clone(),
-            kind: "target",
-            test: "adf",
-            lags: r.as_ref().map(|r| r.used_lag),
-            statistic: r.as_ref().map(|r| r.statistic),
-            p_value: r.as_ref().map(|r| r.p_value),
-            critical_5: r.as_ref().map(|r| r.critical_values[1]),
-        });
+        rows.push(adf_row(&target.name, "target", &target.y));
     }
     if with_predictors {
         rows.extend(predictor_diagnostics(exp));
