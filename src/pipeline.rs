@@ -445,7 +445,7 @@ pub fn produce(
             .map_err(|e| Error::io(format!("cannot create {name}"), e))?;
         streams.push(Stream {
             name,
-            file: std::io::BufWriter::with_capacity(1 << 20, file),
+            file: std::io::BufWriter::with_capacity(128 << 10, file),
             hash: Sha256::new(),
             bytes: 0,
             unstarted: 0,
