@@ -158,6 +158,9 @@ pub struct RunContext {
     pub started_unix: u64,
     pub threads: usize,
     pub shard: String,
+    /// Sync every file to disk before returning (a results folder about to
+    /// be swapped in); `verify`'s scratch copy, compared and removed, needs not.
+    pub durable: bool,
 }
 
 pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
@@ -190,6 +193,7 @@ pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
             .shard
             .map(|(k, n)| format!("{k}/{n}"))
             .unwrap_or_else(|| "1/1".into()),
+        durable: true,
     };
     // An invalid experiment writes nothing (SPEC §1): not even cache entries.
     let take_back = |e: Error| {

@@ -222,6 +222,8 @@ struct Stream {
     bytes: usize,
     /// Bytes written since the disk was last asked to start writing.
     unstarted: usize,
+    /// Whether the file must reach the disk (see `RunContext::durable`).
+    durable: bool,
 }
 
 /// Every this many bytes of a table, the disk is asked to start writing
@@ -236,7 +238,7 @@ impl Stream {
             .write_all(data)
             .map_err(|e| Error::io(format!("cannot write {}", self.name), e))?;
         self.unstarted += data.len();
-        if self.unstarted >= START_WRITEBACK {
+        if self.durable && self.unstarted >= START_WRITEBACK {
             self.unstarted = 0;
             start_writeback(self.file.get_ref());
         }
@@ -260,12 +262,12 @@ fn start_writeback(file: &std::fs::File) {
 #[cfg(not(target_os = "linux"))]
 fn start_writeback(_file: &std::fs::File) {}
 
-/// Write a whole file and sync it.
-fn write_file(dir: &Path, name: &str, bytes: &[u8]) -> Result<OutputFile> {
+/// Write a whole file, and sync it when it must reach the disk.
+fn write_file(dir: &Path, name: &str, bytes: &[u8], durable: bool) -> Result<OutputFile> {
     let mut file = std::fs::File::create(dir.join(name))
         .map_err(|e| Error::io(format!("cannot create {name}"), e))?;
     file.write_all(bytes)
-        .and_then(|_| file.sync_all())
+        .and_then(|_| if durable { file.sync_all() } else { Ok(()) })
         .map_err(|e| Error::io(format!("cannot write {name}"), e))?;
     Ok(OutputFile::of(name, bytes))
 }
@@ -430,7 +432,7 @@ pub struct Produced {
 }
 
 /// Write every file of a results folder into `dir`, each synced to disk when
-/// this returns. `source(t)` gives target t's cell outputs in plan order
+/// this returns if `ctx.durable`. `source(t)` gives target t's cell outputs in plan order
 /// (candidates × schemes; combinations empty).
 pub fn produce(
     exp: &Experiment,
@@ -449,6 +451,7 @@ pub fn produce(
             hash: Sha256::new(),
             bytes: 0,
             unstarted: 0,
+            durable: ctx.durable,
         });
     }
     crate::timing(ctx.started, "experiment loaded, tables start");
@@ -509,8 +512,9 @@ pub fn produce(
         });
     }
     // The large tables reach the disk while the reports are rendered.
+    let durable = ctx.durable;
     let syncing = std::thread::spawn(move || -> Result<()> {
-        for (name, f) in files {
+        for (name, f) in files.into_iter().filter(|_| durable) {
             f.sync_all()
                 .map_err(|e| Error::io(format!("cannot write {name}"), e))?;
         }
@@ -544,7 +548,7 @@ pub fn produce(
         report::render::reports_of(folder, Some(report_parts), &core, &exp.formats, &templates)
             .map_err(Error::Run)?;
     for (name, bytes) in &rendered {
-        outputs.push(write_file(dir, name, bytes)?);
+        outputs.push(write_file(dir, name, bytes, ctx.durable)?);
     }
     crate::timing(ctx.started, "reports written");
     let mut manifest = core;
@@ -552,7 +556,12 @@ pub fn produce(
     if let Some(run) = run_section {
         manifest["run"] = run;
     }
-    write_file(dir, "manifest.json", &report::manifest::to_bytes(&manifest))?;
+    write_file(
+        dir,
+        "manifest.json",
+        &report::manifest::to_bytes(&manifest),
+        ctx.durable,
+    )?;
     crate::timing(ctx.started, "manifest written");
     syncing
         .join()

@@ -232,6 +232,7 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<usize> {
         started_unix: crate::now_unix(),
         threads,
         shard: format!("merged {count}"),
+        durable: true,
     };
     let per = exp.candidates.len() * exp.schemes.len();
     let source = |t: usize| -> Result<Vec<CellOutput>> {

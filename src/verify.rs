@@ -88,6 +88,7 @@ pub fn verify(dir: &Path, jobs: Option<usize>) -> Result<Verdict> {
         started_unix: crate::now_unix(),
         threads,
         shard: "verify".into(),
+        durable: false,
     };
     // Rerun into a scratch folder that is never swapped in.
     let scratch = std::env::temp_dir().join(format!(
