@@ -154,8 +154,11 @@ impl<R: std::io::BufRead> CellReader<R> {
             self.line_no += 1;
             let at = |e: String| format!("line {}: {e}", self.line_no);
             let text = std::str::from_utf8(&self.line).map_err(|_| at("not UTF-8 text".into()))?;
-            let line = text.strip_suffix('\n').unwrap_or(text);
-            let line = line.strip_suffix('\r').unwrap_or(line);
+            // As str::lines: "\n" or "\r\n" ends a line.
+            let line = match text.strip_suffix('\n') {
+                Some(l) => l.strip_suffix('\r').unwrap_or(l),
+                None => text,
+            };
             let (tag, rest) = line.split_once(' ').unwrap_or((line, ""));
             match tag {
                 "cell" => {

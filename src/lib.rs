@@ -219,8 +219,15 @@ pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
         });
     }
     let staging = output::stage(&folder)?;
-    let produced =
-        pool.install(|| produce_run(&exp, &cells, cache.as_ref(), &tick, staging.dir(), &ctx));
+    let produced = produce_run(
+        &exp,
+        &cells,
+        cache.as_ref(),
+        &tick,
+        staging.dir(),
+        &ctx,
+        &pool,
+    );
     if let Some(b) = &bar {
         b.finish_and_clear();
     }
@@ -261,6 +268,7 @@ pub(crate) fn produce_run(
     progress: &(dyn Fn() + Sync),
     dir: &Path,
     ctx: &RunContext,
+    pool: &rayon::ThreadPool,
 ) -> Result<pipeline::Produced> {
     let source = |t: usize| -> Result<Vec<backtest::CellOutput>> {
         let range = target_range(exp, t);
@@ -275,7 +283,7 @@ pub(crate) fn produce_run(
         }
         Ok(outputs)
     };
-    pipeline::produce(exp, &source, dir, ctx, window_for(ctx.threads))
+    pipeline::produce(exp, &source, dir, ctx, pool, window_for(ctx.threads))
 }
 
 /// An absolute form of a path, for the manifest's `run` section.

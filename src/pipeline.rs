@@ -16,7 +16,6 @@ use crate::report::{self, manifest::OutputFile};
 use crate::score;
 use crate::spec::Experiment;
 use crate::RunContext;
-use rayon::prelude::*;
 use sha2::{Digest, Sha256};
 use std::collections::BTreeMap;
 use std::io::Write;
@@ -327,23 +326,46 @@ struct Progress {
     stop: bool,
 }
 
-/// Compute targets on every worker of the current pool and append them in
-/// target order on a writer thread, while the workers go on. Targets are
-/// handed out in order, one at a time, so the writer can follow closely
-/// behind; a worker waits before starting a target more than `window`
-/// targets ahead of the writer, which bounds the slices held in memory.
-/// When targets fail, the error of the lowest failing one is returned (the
-/// targets below it are still computed, so the choice does not depend on
-/// timing).
+/// Stops the other threads of [`stream_in_order`] when the thread holding it
+/// panics, so that none of them waits for a target that will never come
+/// (the panic then reaches the caller when the threads are joined).
+struct StopOnPanic<'a> {
+    progress: &'a std::sync::Mutex<Progress>,
+    moved: &'a std::sync::Condvar,
+}
+
+impl Drop for StopOnPanic<'_> {
+    fn drop(&mut self) {
+        if std::thread::panicking() {
+            self.progress.lock().unwrap_or_else(|e| e.into_inner()).stop = true;
+            self.moved.notify_all();
+        }
+    }
+}
+
+/// Compute targets on every thread of `pool` and append them in target
+/// order on a writer thread, while the workers go on. Targets are handed
+/// out in order, one at a time, so the writer can follow closely behind; a
+/// worker waits before starting a target more than `window` targets ahead
+/// of the writer, which bounds the slices held in memory. When targets
+/// fail, the error of the lowest failing one is returned (the targets below
+/// it are still computed, so the choice does not depend on timing).
+///
+/// One worker loop runs on each pool thread, and none begins a target until
+/// all have started: a pool thread waiting inside a join picks up queued
+/// work, and a worker loop started there would wait for the writer while
+/// the target beneath it, which the writer needs, could not finish. Once
+/// every loop runs, only a target's own small jobs are left to pick up.
 fn stream_in_order(
     exp: &Experiment,
     parts: &report::PartContext,
     source: &(dyn Fn(usize) -> Result<Vec<CellOutput>> + Sync),
     mut w: Written,
+    pool: &rayon::ThreadPool,
     window: usize,
 ) -> Result<Written> {
     use std::sync::atomic::{AtomicUsize, Ordering};
-    use std::sync::{Condvar, Mutex};
+    use std::sync::{Barrier, Condvar, Mutex};
     let n = exp.targets.len();
     let next = AtomicUsize::new(0);
     let progress = Mutex::new(Progress {
@@ -354,8 +376,14 @@ fn stream_in_order(
     let moved = Condvar::new();
     let lock = || progress.lock().unwrap_or_else(|e| e.into_inner());
     let (tx, rx) = std::sync::mpsc::channel::<(usize, Slice)>();
+    let workers = pool.current_num_threads().max(1);
+    let all_started = Barrier::new(workers);
     std::thread::scope(|scope| -> Result<Written> {
         let writer = scope.spawn(|| -> Result<Written> {
+            let _guard = StopOnPanic {
+                progress: &progress,
+                moved: &moved,
+            };
             let mut pending: BTreeMap<usize, Slice> = BTreeMap::new();
             let mut expected = 0;
             let mut outcome = Ok(());
@@ -377,11 +405,20 @@ fn stream_in_order(
             }
             outcome.map(|_| w)
         });
-        let tx = tx; // moved in, so the channel closes when the workers finish
-        let workers = rayon::current_num_threads().max(1);
-        (0..workers)
-            .into_par_iter()
-            .for_each_with(tx, |tx, _| loop {
+        // One loop on each pool thread (and only one: the barrier below
+        // would otherwise wait for a loop that never starts).
+        // Owned here, so that a panicking worker's unwinding drops it and the
+        // writer's channel closes.
+        let tx = tx;
+        pool.broadcast(|_| {
+            let tx = tx.clone();
+            let _guard = StopOnPanic {
+                progress: &progress,
+                moved: &moved,
+            };
+            // A loop holds its thread here until every loop has one.
+            all_started.wait();
+            loop {
                 let t = next.fetch_add(1, Ordering::Relaxed);
                 if t >= n {
                     return;
@@ -414,7 +451,9 @@ fn stream_in_order(
                         return;
                     }
                 }
-            });
+            }
+        });
+        drop(tx); // the channel closes when the workers finish
         let written = writer
             .join()
             .map_err(|_| Error::Run("the table writer stopped unexpectedly".into()))?;
@@ -439,6 +478,7 @@ pub fn produce(
     source: &(dyn Fn(usize) -> Result<Vec<CellOutput>> + Sync),
     dir: &Path,
     ctx: &RunContext,
+    pool: &rayon::ThreadPool,
     window: usize,
 ) -> Result<Produced> {
     let mut streams: Vec<Stream> = Vec::new();
@@ -474,12 +514,15 @@ pub fn produce(
     };
     if ctx.threads <= 1 {
         // One thread of work means one: compute and write in turn.
-        for t in 0..exp.targets.len() {
-            let s = slice(exp, &parts, t, source(t)?);
-            w.append(t == 0, s)?;
-        }
+        w = pool.install(|| -> Result<Written> {
+            for t in 0..exp.targets.len() {
+                let s = slice(exp, &parts, t, source(t)?);
+                w.append(t == 0, s)?;
+            }
+            Ok(w)
+        })?;
     } else {
-        w = stream_in_order(exp, &parts, source, w, window.max(1))?;
+        w = stream_in_order(exp, &parts, source, w, pool, window.max(1))?;
     }
     let written = w;
     let Written {
@@ -544,9 +587,11 @@ pub fn produce(
     };
     crate::timing(ctx.started, "rows ready");
     let folder = report::Folder::assemble(grid, rows, experiment_text, &BTreeMap::new(), &core);
-    let rendered =
-        report::render::reports_of(folder, Some(report_parts), &core, &exp.formats, &templates)
-            .map_err(Error::Run)?;
+    let rendered = pool
+        .install(|| {
+            report::render::reports_of(folder, Some(report_parts), &core, &exp.formats, &templates)
+        })
+        .map_err(Error::Run)?;
     for (name, bytes) in &rendered {
         outputs.push(write_file(dir, name, bytes, ctx.durable)?);
     }

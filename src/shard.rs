@@ -247,7 +247,7 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<usize> {
             .collect()
     };
     let staging = output::stage(out)?;
-    pool.install(|| pipeline::produce(&exp, &source, staging.dir(), &ctx, threads * 8))?;
+    pipeline::produce(&exp, &source, staging.dir(), &ctx, &pool, threads * 8)?;
     rows.into_inner()
         .unwrap_or_else(|e| e.into_inner())
         .finish(&cells)?;
@@ -261,6 +261,26 @@ struct Shard {
     /// The hash of cells.txt its manifest records.
     expected: String,
     path: PathBuf,
+}
+
+impl Shard {
+    fn hash_error(&self) -> Error {
+        invalid(
+            &self.path,
+            "the shard's rows do not match its manifest's hash (damaged or edited)",
+        )
+    }
+
+    /// When reading a shard's rows fails, the likeliest cause is an edit:
+    /// say so if the whole file no longer matches its manifest's hash.
+    fn damaged(&self) -> Option<Error> {
+        use sha2::Digest;
+        let mut file = std::fs::File::open(&self.path).ok()?;
+        let mut hash = sha2::Sha256::new();
+        std::io::copy(&mut file, &mut hash).ok()?;
+        let hex: String = hash.finalize().iter().map(|b| format!("{b:02x}")).collect();
+        (hex != self.expected).then(|| self.hash_error())
+    }
 }
 
 /// The shards' rows, and cells read ahead of the target that needs them
@@ -283,6 +303,18 @@ impl Rows {
             return Ok(o);
         }
         let k = plan::shard_of(&cells[i], count);
+        self.take_from(k, i, cells, index, count)
+            .map_err(|e| self.shards[k - 1].damaged().unwrap_or(e))
+    }
+
+    fn take_from(
+        &mut self,
+        k: usize,
+        i: usize,
+        cells: &[Cell],
+        index: &std::collections::HashMap<&str, usize>,
+        count: usize,
+    ) -> Result<CellOutput> {
         let shard = &mut self.shards[k - 1];
         loop {
             let Some((id, out)) = shard
@@ -348,10 +380,7 @@ impl Rows {
                 ));
             }
             if shard.reader.digest() != shard.expected {
-                return Err(invalid(
-                    &shard.path,
-                    "the shard's rows do not match its manifest's hash (damaged or edited)",
-                ));
+                return Err(shard.hash_error());
             }
         }
         Ok(())

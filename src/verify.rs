@@ -105,7 +105,7 @@ pub fn verify(dir: &Path, jobs: Option<usize>) -> Result<Verdict> {
         }
     }
     let _cleanup = Cleanup(scratch.clone());
-    pool.install(|| crate::produce_run(&exp, &cells, None, &|| {}, &scratch, &ctx))?;
+    crate::produce_run(&exp, &cells, None, &|| {}, &scratch, &ctx, &pool)?;
     let mut files: Vec<String> = std::fs::read_dir(&scratch)
         .map_err(|e| Error::io("cannot list the rerun", e))?
         .flatten()

@@ -201,6 +201,24 @@ fn identical_across_thread_counts_shards_and_merge() {
                 String::from_utf8_lossy(&o.stderr)
             );
             assert!(!dir.join("bad").exists());
+            // An edit that leaves a row unreadable is named as an edit too.
+            let rows = std::fs::read_to_string(edited.join("cells.txt")).unwrap();
+            std::fs::write(edited.join("cells.txt"), rows.replacen("\nf ", "\nf x ", 1)).unwrap();
+            let o = outturn(&[
+                "merge",
+                shards[0].to_str().unwrap(),
+                edited.to_str().unwrap(),
+                shards[2].to_str().unwrap(),
+                "--out",
+                dir.join("bad").to_str().unwrap(),
+            ]);
+            assert_eq!(o.status.code(), Some(2));
+            assert!(
+                String::from_utf8_lossy(&o.stderr).contains("do not match its manifest's hash"),
+                "{}",
+                String::from_utf8_lossy(&o.stderr)
+            );
+            assert!(!dir.join("bad").exists());
         }
     }
     // verify: untouched passes, tampered fails naming the file and row.
@@ -488,5 +506,70 @@ fn the_lowest_failing_target_is_reported_at_any_thread_count() {
         assert!(left.is_empty(), "--jobs {jobs} left {left:?}");
     }
     assert!(messages.windows(2).all(|w| w[0] == w[1]));
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn many_targets_on_many_threads_finish() {
+    // Workers wait for the table writer when they run too far ahead; a
+    // worker loop must never end up waiting inside the thread pool above
+    // a target the writer needs (that hung runs of a few hundred targets
+    // on 3 or more threads). Run such a panel repeatedly with a watchdog.
+    let dir = scratch("threads");
+    let mut text = String::from("t");
+    for j in 0..300 {
+        text.push_str(&format!(",y{j}"));
+    }
+    text.push('\n');
+    let mut state = 7u64;
+    for t in 1..=120 {
+        text.push_str(&t.to_string());
+        for _ in 0..300 {
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            text.push_str(&format!(
+                ",{:.6}",
+                (state >> 11) as f64 / (1u64 << 53) as f64
+            ));
+        }
+        text.push('\n');
+    }
+    let exp = write_experiment(
+        &dir,
+        "threads",
+        &text,
+        300,
+        "candidates:\n  - family: naive\n  - family: mean\n  - family: ar\n    lags: [1, 2]\nbacktest:\n  schemes: [{expanding: {first_origin: 60}}]\n  horizons: [1]\nreport:\n  formats: [markdown]\n",
+    );
+    let out = dir.join("results");
+    for round in 0..12 {
+        let jobs = if round % 2 == 0 { "4" } else { "8" };
+        let mut child = Command::new(BIN)
+            .args([
+                "run",
+                exp.to_str().unwrap(),
+                "--out",
+                out.to_str().unwrap(),
+                "--quiet",
+                "--no-cache",
+                "--jobs",
+                jobs,
+            ])
+            .spawn()
+            .expect("run outturn");
+        let started = std::time::Instant::now();
+        let status = loop {
+            if let Some(status) = child.try_wait().unwrap() {
+                break status;
+            }
+            if started.elapsed() > std::time::Duration::from_secs(60) {
+                let _ = child.kill();
+                panic!("round {round} (--jobs {jobs}) did not finish in 60 s");
+            }
+            std::thread::sleep(std::time::Duration::from_millis(20));
+        };
+        assert!(status.success(), "round {round} (--jobs {jobs}) failed");
+    }
     let _ = std::fs::remove_dir_all(&dir);
 }

@@ -204,7 +204,7 @@ fn detailed_rows(
     let file = std::fs::File::open(path)?;
     let mut reader = csv::ReaderBuilder::new()
         .has_headers(true)
-        .flexible(true)
+        .flexible(false)
         .from_reader(std::io::BufReader::with_capacity(1 << 20, file));
     let bad = |e: csv::Error| std::io::Error::new(std::io::ErrorKind::InvalidData, e);
     let header = reader.headers().map_err(bad)?.clone();
