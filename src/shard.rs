@@ -219,6 +219,7 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<usize> {
             reader: cellio::CellReader::new(std::io::BufReader::with_capacity(1 << 20, file)),
             expected: m["outputs"][0]["sha256"].as_str().unwrap_or("").to_string(),
             path,
+            last: None,
         });
     }
     let shards: Vec<Shard> = by_shard.into_iter().flatten().collect();
@@ -261,6 +262,8 @@ struct Shard {
     /// The hash of cells.txt its manifest records.
     expected: String,
     path: PathBuf,
+    /// Plan index of the last cell read.
+    last: Option<usize>,
 }
 
 impl Shard {
@@ -333,6 +336,15 @@ impl Rows {
                     format!("cell '{id}' is not in the experiment's grid"),
                 ));
             };
+            // A shard holds its cells in plan order; refuse any other order
+            // outright, so the outcome does not depend on which target asks first.
+            if shard.last.is_some_and(|last| j <= last) {
+                return Err(invalid(
+                    &shard.path,
+                    format!("cell '{id}' is out of order or repeated (damaged or edited)"),
+                ));
+            }
+            shard.last = Some(j);
             if plan::shard_of(&cells[j], count) != k {
                 return Err(invalid(
                     &shard.path,
