@@ -24,8 +24,8 @@ fn outturn(args: &[&str]) -> std::process::Output {
     Command::new(BIN).args(args).output().expect("run outturn")
 }
 
-/// `outturn run EXP --out OUT --quiet --no-cache` with more arguments.
-fn run(exp: &Path, out: &Path, more: &[&str]) -> std::process::Output {
+/// The arguments of `outturn run EXP --out OUT --quiet --no-cache MORE…`.
+fn run_args<'a>(exp: &'a Path, out: &'a Path, more: &[&'a str]) -> Vec<&'a str> {
     let mut args = vec![
         "run",
         exp.to_str().unwrap(),
@@ -35,7 +35,12 @@ fn run(exp: &Path, out: &Path, more: &[&str]) -> std::process::Output {
         "--no-cache",
     ];
     args.extend_from_slice(more);
-    outturn(&args)
+    args
+}
+
+/// `outturn run EXP --out OUT --quiet --no-cache` with more arguments.
+fn run(exp: &Path, out: &Path, more: &[&str]) -> std::process::Output {
+    outturn(&run_args(exp, out, more))
 }
 
 fn ok(args: &[&str]) {
@@ -186,39 +191,11 @@ fn identical_across_thread_counts_shards_and_merge() {
             let changed = format!("{}{}{}", &rows[..at], fields.join(" "), &rows[line_end..]);
             assert_ne!(changed, rows);
             std::fs::write(edited.join("cells.txt"), changed).unwrap();
-            let o = outturn(&[
-                "merge",
-                shards[0].to_str().unwrap(),
-                edited.to_str().unwrap(),
-                shards[2].to_str().unwrap(),
-                "--out",
-                dir.join("bad").to_str().unwrap(),
-            ]);
-            assert_eq!(o.status.code(), Some(2));
-            assert!(
-                String::from_utf8_lossy(&o.stderr).contains("do not match its manifest's hash"),
-                "{}",
-                String::from_utf8_lossy(&o.stderr)
-            );
-            assert!(!dir.join("bad").exists());
+            refused_as_edited(&shards, &edited, &dir.join("bad"));
             // An edit that leaves a row unreadable is named as an edit too.
             let rows = std::fs::read_to_string(edited.join("cells.txt")).unwrap();
             std::fs::write(edited.join("cells.txt"), rows.replacen("\nf ", "\nf x ", 1)).unwrap();
-            let o = outturn(&[
-                "merge",
-                shards[0].to_str().unwrap(),
-                edited.to_str().unwrap(),
-                shards[2].to_str().unwrap(),
-                "--out",
-                dir.join("bad").to_str().unwrap(),
-            ]);
-            assert_eq!(o.status.code(), Some(2));
-            assert!(
-                String::from_utf8_lossy(&o.stderr).contains("do not match its manifest's hash"),
-                "{}",
-                String::from_utf8_lossy(&o.stderr)
-            );
-            assert!(!dir.join("bad").exists());
+            refused_as_edited(&shards, &edited, &dir.join("bad"));
         }
     }
     // verify: untouched passes, tampered fails naming the file and row.
@@ -379,6 +356,46 @@ fn write_panel(dir: &Path, k: usize, n: usize) -> PathBuf {
     )
 }
 
+/// Merging shards 1 and 3 with `edited` in place of shard 2 is refused as
+/// an edit (exit code 2), and nothing is written at `out`.
+fn refused_as_edited(shards: &[PathBuf], edited: &Path, out: &Path) {
+    let o = outturn(&[
+        "merge",
+        shards[0].to_str().unwrap(),
+        edited.to_str().unwrap(),
+        shards[2].to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    let said = String::from_utf8_lossy(&o.stderr);
+    assert!(said.contains("do not match its manifest's hash"), "{said}");
+    assert!(!out.exists());
+}
+
+/// A panel text of `k` series y0…y{k−1} over periods t = 1…n: each cell is
+/// `value(j, u)` with u uniform on [0, 1) from a fixed generator (`seed`).
+fn uniform_panel(k: usize, n: usize, seed: u64, value: impl Fn(usize, f64) -> f64) -> String {
+    let mut text = String::from("t");
+    for j in 0..k {
+        text.push_str(&format!(",y{j}"));
+    }
+    text.push('\n');
+    let mut state = seed;
+    for t in 1..=n {
+        text.push_str(&t.to_string());
+        for j in 0..k {
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            let u = (state >> 11) as f64 / (1u64 << 53) as f64;
+            text.push_str(&format!(",{:.6}", value(j, u)));
+        }
+        text.push('\n');
+    }
+    text
+}
+
 /// Write `data` as panel.csv and an experiment over its targets y0…y{k−1}
 /// (time column t) with the keys in `rest`; returns the experiment's path.
 fn write_experiment(dir: &Path, name: &str, data: &str, k: usize, rest: &str) -> PathBuf {
@@ -460,28 +477,8 @@ fn the_lowest_failing_target_is_reported_at_any_thread_count() {
     // same way whatever the thread count: the lowest failing target named,
     // exit code 2, and nothing written.
     let dir = scratch("failing");
-    let mut text = String::from("t");
-    for j in 0..12 {
-        text.push_str(&format!(",y{j}"));
-    }
-    text.push('\n');
-    let mut state = 99u64;
-    for t in 1..=90 {
-        text.push_str(&t.to_string());
-        for j in 0..12 {
-            state = state
-                .wrapping_mul(6364136223846793005)
-                .wrapping_add(1442695040888963407);
-            // y3 and y9 do not vary: every ar design on them is singular.
-            let v = if j == 3 || j == 9 {
-                5.0
-            } else {
-                (state >> 11) as f64 / (1u64 << 53) as f64
-            };
-            text.push_str(&format!(",{v:.6}"));
-        }
-        text.push('\n');
-    }
+    // y3 and y9 do not vary: every ar design on them is singular.
+    let text = uniform_panel(12, 90, 99, |j, u| if j == 3 || j == 9 { 5.0 } else { u });
     let exp = write_experiment(
         &dir,
         "failing",
@@ -516,25 +513,7 @@ fn many_targets_on_many_threads_finish() {
     // a target the writer needs (that hung runs of a few hundred targets
     // on 3 or more threads). Run such a panel repeatedly with a watchdog.
     let dir = scratch("threads");
-    let mut text = String::from("t");
-    for j in 0..300 {
-        text.push_str(&format!(",y{j}"));
-    }
-    text.push('\n');
-    let mut state = 7u64;
-    for t in 1..=120 {
-        text.push_str(&t.to_string());
-        for _ in 0..300 {
-            state = state
-                .wrapping_mul(6364136223846793005)
-                .wrapping_add(1442695040888963407);
-            text.push_str(&format!(
-                ",{:.6}",
-                (state >> 11) as f64 / (1u64 << 53) as f64
-            ));
-        }
-        text.push('\n');
-    }
+    let text = uniform_panel(300, 120, 7, |_, u| u);
     let exp = write_experiment(
         &dir,
         "threads",
@@ -546,16 +525,7 @@ fn many_targets_on_many_threads_finish() {
     for round in 0..12 {
         let jobs = if round % 2 == 0 { "4" } else { "8" };
         let mut child = Command::new(BIN)
-            .args([
-                "run",
-                exp.to_str().unwrap(),
-                "--out",
-                out.to_str().unwrap(),
-                "--quiet",
-                "--no-cache",
-                "--jobs",
-                jobs,
-            ])
+            .args(run_args(&exp, &out, &["--jobs", jobs]))
             .spawn()
             .expect("run outturn");
         let started = std::time::Instant::now();
