@@ -173,11 +173,11 @@ fn interrupted() -> Result<()> {
     Ok(())
 }
 
-/// Write `files` (name, bytes) as the folder `target`, replacing an earlier
-/// results folder only when every file has been written.
-pub fn write_folder(target: &Path, files: &[(String, Vec<u8>)]) -> Result<()> {
-    let _guard = WRITING.lock().unwrap_or_else(|e| e.into_inner());
-    interrupted()?;
+/// Get ready to replace `target`: its parent exists, an earlier crash is
+/// recovered from, the target is ours to replace, and this process's
+/// temporary folder beside it is named, cleared and registered (so an
+/// interrupt removes it). The caller creates the folder.
+fn prepare(target: &Path) -> Result<PathBuf> {
     if let Some(parent) = target.parent().filter(|p| !p.as_os_str().is_empty()) {
         std::fs::create_dir_all(parent)
             .map_err(|e| Error::io(format!("cannot create {}", parent.display()), e))?;
@@ -188,6 +188,15 @@ pub fn write_folder(target: &Path, files: &[(String, Vec<u8>)]) -> Result<()> {
     let tmp = sibling(target, &format!("tmp-{}", std::process::id()));
     let _ = std::fs::remove_dir_all(&tmp);
     register(&tmp);
+    Ok(tmp)
+}
+
+/// Write `files` (name, bytes) as the folder `target`, replacing an earlier
+/// results folder only when every file has been written.
+pub fn write_folder(target: &Path, files: &[(String, Vec<u8>)]) -> Result<()> {
+    let _guard = WRITING.lock().unwrap_or_else(|e| e.into_inner());
+    interrupted()?;
+    let tmp = prepare(target)?;
     let result = (|| -> Result<()> {
         std::fs::create_dir(&tmp)
             .map_err(|e| Error::io(format!("cannot create {}", tmp.display()), e))?;
@@ -243,16 +252,7 @@ pub struct Staging {
 
 pub fn stage(target: &Path) -> Result<Staging> {
     interrupted()?;
-    if let Some(parent) = target.parent().filter(|p| !p.as_os_str().is_empty()) {
-        std::fs::create_dir_all(parent)
-            .map_err(|e| Error::io(format!("cannot create {}", parent.display()), e))?;
-    }
-    recover(target);
-    check_target(target)?;
-    release_cache(target);
-    let tmp = sibling(target, &format!("tmp-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&tmp);
-    register(&tmp);
+    let tmp = prepare(target)?;
     if let Err(e) = std::fs::create_dir(&tmp) {
         unregister(&tmp);
         return Err(Error::io(format!("cannot create {}", tmp.display()), e));

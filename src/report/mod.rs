@@ -681,20 +681,8 @@ impl Rows {
         let mut forecasts: HashMap<(usize, usize, usize, usize), Vec<ForecastRow>> = HashMap::new();
         if let Some(bytes) = files.get("forecasts.csv") {
             let f = Csv::parse("forecasts.csv", bytes)?;
-            let cols: Vec<Option<usize>> = [
-                "target",
-                "candidate",
-                "scheme",
-                "horizon",
-                "origin",
-                "period",
-                "forecast",
-                "actual",
-                "error",
-            ]
-            .iter()
-            .map(|n| f.col(n))
-            .collect();
+            let cols: Vec<Option<usize>> =
+                tables::FORECAST_COLUMNS.iter().map(|n| f.col(n)).collect();
             for r in &f.rows {
                 let Some(k) = key(r, &cols) else {
                     continue;

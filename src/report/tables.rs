@@ -109,23 +109,27 @@ fn push_intervals(
     }
 }
 
+/// The leading columns of forecasts.csv (SPEC §5), which the report reads.
+pub const FORECAST_COLUMNS: [&str; 9] = [
+    "target",
+    "candidate",
+    "scheme",
+    "horizon",
+    "origin",
+    "period",
+    "forecast",
+    "actual",
+    "error",
+];
+
 /// Every backtest forecast (`forecasts.csv`). The largest table by far:
 /// rows are written straight into one buffer, numbers without allocation.
 pub fn forecasts_csv(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8> {
-    let mut header: Vec<String> = [
-        "target",
-        "candidate",
-        "scheme",
-        "horizon",
-        "origin",
-        "period",
-        "forecast",
-        "actual",
-        "error",
-        "is_mse",
-    ]
-    .map(String::from)
-    .to_vec();
+    let mut header: Vec<String> = FORECAST_COLUMNS
+        .iter()
+        .chain(&["is_mse"])
+        .map(|c| c.to_string())
+        .collect();
     header.extend(interval_headers(exp));
     let with_order = exp.candidates.iter().any(|c| c.family.selects());
     if with_order {
