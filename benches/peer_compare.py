@@ -5,6 +5,8 @@ Subcommands
   experiment  write the outturn experiment equivalent to the peer's grid
   compare     check outturn's forecasts.csv against a peer's --out CSV
   bench       run commands in interleaved rounds; print wall time and peak RSS
+              (a command whose line holds {k} runs as two copies side by
+              side, {k} = 1 and 2; its wall time lasts until both finish)
 
 Wall time is a monotonic clock read around each child process (start-up
 included); peak RSS is the kernel's ru_maxrss of that child as returned by
@@ -147,15 +149,24 @@ def cmd_compare(a):
 
 
 def run_once(argv, log):
+    """Run a command, or two copies of it side by side when its words hold
+    {k} (k = 1, 2); the wall time lasts until every copy has finished and
+    the peak is the largest single copy's."""
+    copies = [argv]
+    if any("{k}" in w for w in argv):
+        copies = [[w.replace("{k}", str(k)) for w in argv] for k in (1, 2)]
     with open(log, "ab") as lf:
         t0 = time.monotonic()
-        proc = subprocess.Popen(argv, stdin=subprocess.DEVNULL, stdout=lf, stderr=lf)
-        _, status, ru = os.wait4(proc.pid, 0)
+        procs = [subprocess.Popen(c, stdin=subprocess.DEVNULL, stdout=lf, stderr=lf) for c in copies]
+        peak = 0.0
+        for c, proc in zip(copies, procs):
+            _, status, ru = os.wait4(proc.pid, 0)
+            code = os.waitstatus_to_exitcode(status)
+            if code != 0:
+                sys.exit(f"command failed (exit {code}): {shlex.join(c)}; see {log}")
+            peak = max(peak, ru.ru_maxrss / 1024.0)  # KiB -> MiB
         wall = time.monotonic() - t0
-    proc.returncode = os.waitstatus_to_exitcode(status)
-    if proc.returncode != 0:
-        sys.exit(f"command failed (exit {proc.returncode}): {shlex.join(argv)}; see {log}")
-    return wall, ru.ru_maxrss / 1024.0  # KiB -> MiB
+    return wall, peak
 
 
 def cmd_bench(a):
@@ -199,6 +210,15 @@ def cmd_table(a):
         paired = [x / y for x, y in zip(wn, wd)]
         print(f"  ratio {num + '/' + den:<28} {of_medians:8.2f}x  "
               f"(per-round: median {statistics.median(paired):.2f}, min {min(paired):.2f}, max {max(paired):.2f})")
+    # Two copies of a run side by side against one alone: the throughput
+    # the machine gives two independent copies of the same work, a ceiling
+    # for what a second thread can give one run of it.
+    for one, two in (x.split("/") for x in (a.throughput or [])):
+        w1, w2 = res[one]["wall"], res[two]["wall"]
+        of_medians = 2 * statistics.median(w1) / statistics.median(w2)
+        paired = [2 * x / y for x, y in zip(w1, w2)]
+        print(f"  throughput 2×{one}/{two:<18} {of_medians:8.2f}x  "
+              f"(per-round: median {statistics.median(paired):.2f}, min {min(paired):.2f}, max {max(paired):.2f})")
 
 
 def main():
@@ -229,6 +249,7 @@ def main():
     t.add_argument("--json", required=True)
     t.add_argument("--count", nargs=2, action="append", metavar=("LABEL", "N"))
     t.add_argument("--ratio", action="append", metavar="NUM/DEN")
+    t.add_argument("--throughput", action="append", metavar="ONE/TWO_SIDE_BY_SIDE")
 
     a = ap.parse_args()
     if a.sub == "experiment":
