@@ -167,6 +167,7 @@ pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
     let started = Instant::now();
     let started_unix = now_unix();
     let exp = spec::load(path)?;
+    timing(started, "experiment and data read");
     let folder = opts.out.clone().unwrap_or_else(|| default_folder(&exp));
     output::check_target(&folder)?;
     let cells = plan::cells(&exp);

@@ -456,8 +456,9 @@ pub struct TargetData {
     pub n: usize,
     /// The transformed target at positions 1..N.
     pub y: Vec<f64>,
-    /// Period labels of positions 1..N+F, as written in the data file (F future rows).
-    pub labels: Vec<String>,
+    /// Period labels of positions 1..N+F, as written in the data file (F
+    /// future rows); shared by the targets (they have the same rows).
+    pub labels: std::sync::Arc<[String]>,
     /// Period ordinals of positions 1..N+F.
     pub ordinals: Vec<i64>,
     /// Transformed predictor values at positions 1..N+F, one vector per declared predictor.

@@ -137,6 +137,36 @@ fn parse_column(
     Some((values, invalid))
 }
 
+/// Parse `columns` of `rows` in one pass along the rows: the values of
+/// each column whose every cell is a number or empty.
+fn parse_columns(
+    rows: &[super::data::RawRow],
+    columns: impl Iterator<Item = usize>,
+) -> std::collections::HashMap<usize, Vec<Option<f64>>> {
+    let mut columns: Vec<usize> = columns.collect();
+    columns.sort_unstable();
+    columns.dedup();
+    let mut values: Vec<Option<Vec<Option<f64>>>> = columns
+        .iter()
+        .map(|_| Some(Vec::with_capacity(rows.len())))
+        .collect();
+    for row in rows {
+        for (&col, column) in columns.iter().zip(values.iter_mut()) {
+            if let Some(v) = column {
+                match parse_number(&row.cells[col]) {
+                    Ok(x) => v.push(x),
+                    Err(_) => *column = None,
+                }
+            }
+        }
+    }
+    columns
+        .into_iter()
+        .zip(values)
+        .filter_map(|(col, v)| Some((col, v?)))
+        .collect()
+}
+
 /// Values beyond these sizes cannot go through least squares: their squares
 /// overflow (or all underflow to zero) in 64-bit floating point.
 const LARGEST_VALUE: f64 = 1e100;
@@ -415,13 +445,31 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
         .map(|(p, node)| column_or_error(ctx, table, &p.column, node, "the predictor"))
         .collect();
 
+    // The target and predictor columns, parsed in one pass along the rows
+    // (a wide panel read column by column jumps between rows for every
+    // cell). A column with a cell that is not a number is left out here and
+    // goes through `parse_column`, which reports the cell, in its turn.
+    let parsed = parse_columns(
+        rows,
+        req.targets
+            .iter()
+            .filter_map(|(name, _)| table.column(name))
+            .chain(pred_cols.iter().flatten().copied()),
+    );
+    let parsed_or_report = |ctx: &mut Ctx, col: usize, used: usize| match parsed.get(&col) {
+        Some(values) => Some((values[..used].to_vec(), vec![false; used])),
+        None => parse_column(ctx, table, rows, col, used),
+    };
+    // Every target has the same rows, so the same period labels (the
+    // transform's lag is the experiment's): built once.
+    let mut shared_labels: Option<std::sync::Arc<[String]>> = None;
     let mut targets = Vec::new();
     for (name, node) in req.targets {
         let Some(col) = column_or_error(ctx, table, name, node, "the target") else {
             continue;
         };
         // Parse the target column; the last non-empty cell ends it.
-        let Some((raw, invalid)) = parse_column(ctx, table, rows, col, rows.len()) else {
+        let Some((raw, invalid)) = parsed_or_report(ctx, col, rows.len()) else {
             continue;
         };
         if invalid.iter().any(|&b| b) {
@@ -495,10 +543,14 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
             .map(|v| v.unwrap_or(f64::NAN))
             .collect();
         let total = rows.len() - lag;
-        let labels: Vec<String> = rows[lag..]
-            .iter()
-            .map(|r| r.cells[time_idx].to_string())
-            .collect();
+        let labels = shared_labels
+            .get_or_insert_with(|| {
+                rows[lag..]
+                    .iter()
+                    .map(|r| r.cells[time_idx].to_string())
+                    .collect()
+            })
+            .clone();
         let pos_ordinals: Vec<i64> = ords[lag..].to_vec();
         let raw_target: Vec<f64> = raw[lag..=last]
             .iter()
@@ -519,7 +571,7 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
                 continue;
             };
             let used_rows = if p.known_ahead { rows.len() } else { last + 1 };
-            let Some((mut praw, invalid)) = parse_column(ctx, table, rows, pcol, used_rows) else {
+            let Some((mut praw, invalid)) = parsed_or_report(ctx, pcol, used_rows) else {
                 pred_ok = false;
                 continue;
             };
