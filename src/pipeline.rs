@@ -1,9 +1,10 @@
 //! From cell outputs to a results folder, target by target (SPEC §5), with
 //! memory bounded by a window of targets: each target's cells are run (or
 //! taken from shards), combined, scored and tested, and its slice of every
-//! table is formatted, on all workers at once; a writer thread appends the
-//! slices to the files in experiment order, as soon as each is ready, and
-//! computes their SHA-256 as they stream. Only the
+//! table is formatted, on all workers at once; the slices are appended to
+//! the files in experiment order, as soon as each is ready, by the worker
+//! that finishes the one next in turn, and hashed (SHA-256) as they stream.
+//! Only the
 //! small tables and the rows the report draws (the first few targets in
 //! full, the first forecast of each series for the rest) stay in memory.
 //! A single run, a merge of shards and `verify` all produce folders here, so
@@ -316,13 +317,19 @@ impl Written {
     }
 }
 
-/// How far the workers have got, shared with the writer.
+/// How far the workers have got.
 struct Progress {
     /// Targets appended so far (all targets below this are written).
     written: usize,
+    /// Computed slices waiting for the targets before them.
+    pending: BTreeMap<usize, Slice>,
+    /// A worker is appending slices: the others leave theirs in `pending`.
+    appending: bool,
     /// The lowest target whose computation failed, with its error.
     failed: Option<(usize, Error)>,
-    /// The writer failed: stop handing out work.
+    /// Appending to the files failed, with the error.
+    write_failed: Option<Error>,
+    /// Stop handing out work (appending failed, or a thread panicked).
     stop: bool,
 }
 
@@ -343,24 +350,27 @@ impl Drop for StopOnPanic<'_> {
     }
 }
 
-/// Compute targets on every thread of `pool` and append them in target
-/// order on a writer thread, while the workers go on. Targets are handed
-/// out in order, one at a time, so the writer can follow closely behind; a
-/// worker waits before starting a target more than `window` targets ahead
-/// of the writer, which bounds the slices held in memory. When targets
-/// fail, the error of the lowest failing one is returned (the targets below
-/// it are still computed, so the choice does not depend on timing).
+/// Compute targets on every thread of `pool` and append them to the files
+/// in target order as soon as each and all before it are ready. Targets are
+/// handed out in order, one at a time; the worker that finishes the next
+/// target to be written appends it itself, while its slice is still in its
+/// core's cache, and then any later ones already waiting; a worker that
+/// finishes out of turn leaves its slice waiting and goes on. A worker
+/// waits before starting a target more than `window` targets ahead of the
+/// files, which bounds the slices held in memory. When targets fail, the
+/// error of the lowest failing one is returned (the targets below it are
+/// still computed, so the choice does not depend on timing).
 ///
 /// One worker loop runs on each pool thread, and none begins a target until
 /// all have started: a pool thread waiting inside a join picks up queued
-/// work, and a worker loop started there would wait for the writer while
-/// the target beneath it, which the writer needs, could not finish. Once
+/// work, and a worker loop started there would wait for the files to move
+/// on while the target beneath it, which they need, could not finish. Once
 /// every loop runs, only a target's own small jobs are left to pick up.
 fn stream_in_order(
     exp: &Experiment,
     parts: &report::PartContext,
     source: &(dyn Fn(usize) -> Result<Vec<CellOutput>> + Sync),
-    mut w: Written,
+    w: Written,
     pool: &rayon::ThreadPool,
     window: usize,
 ) -> Result<Written> {
@@ -370,99 +380,113 @@ fn stream_in_order(
     let next = AtomicUsize::new(0);
     let progress = Mutex::new(Progress {
         written: 0,
+        pending: BTreeMap::new(),
+        appending: false,
         failed: None,
+        write_failed: None,
         stop: false,
     });
     let moved = Condvar::new();
     let lock = || progress.lock().unwrap_or_else(|e| e.into_inner());
-    let (tx, rx) = std::sync::mpsc::channel::<(usize, Slice)>();
+    // Only the worker that set `appending` touches the files.
+    let files = Mutex::new(w);
     let workers = pool.current_num_threads().max(1);
     let all_started = Barrier::new(workers);
-    std::thread::scope(|scope| -> Result<Written> {
-        let writer = scope.spawn(|| -> Result<Written> {
-            let _guard = StopOnPanic {
-                progress: &progress,
-                moved: &moved,
+    // Append the waiting slices that are next in turn, unless another
+    // worker is at it (it will find them).
+    let append_ready = || {
+        let mut p = lock();
+        if p.appending || p.stop {
+            return;
+        }
+        p.appending = true;
+        loop {
+            let t = p.written;
+            let Some(s) = p.pending.remove(&t) else {
+                break;
             };
-            let mut pending: BTreeMap<usize, Slice> = BTreeMap::new();
-            let mut expected = 0;
-            let mut outcome = Ok(());
-            for (t, s) in rx {
-                if outcome.is_err() {
-                    continue; // drain, so no worker blocks on a full queue
+            drop(p);
+            let appended = files
+                .lock()
+                .unwrap_or_else(|e| e.into_inner())
+                .append(t == 0, s);
+            p = lock();
+            match appended {
+                Ok(()) => {
+                    p.written = t + 1;
+                    moved.notify_all();
                 }
-                pending.insert(t, s);
-                while let Some(s) = pending.remove(&expected) {
-                    if let Err(e) = w.append(expected == 0, s) {
-                        outcome = Err(e);
-                        lock().stop = true;
-                        break;
-                    }
-                    expected += 1;
+                Err(e) => {
+                    p.write_failed = Some(e);
+                    p.stop = true;
+                    p.pending.clear();
+                    moved.notify_all();
+                    break;
                 }
-                lock().written = expected;
-                moved.notify_all();
             }
-            outcome.map(|_| w)
-        });
-        // One loop on each pool thread (and only one: the barrier below
-        // would otherwise wait for a loop that never starts).
-        // Owned here, so that a panicking worker's unwinding drops it and the
-        // writer's channel closes.
-        let tx = tx;
-        pool.broadcast(|_| {
-            let tx = tx.clone();
-            let _guard = StopOnPanic {
-                progress: &progress,
-                moved: &moved,
-            };
-            // A loop holds its thread here until every loop has one.
-            all_started.wait();
-            loop {
-                let t = next.fetch_add(1, Ordering::Relaxed);
-                if t >= n {
-                    return;
-                }
-                {
-                    let mut p = lock();
-                    loop {
-                        // Past a failed target nothing more is needed.
-                        if p.stop || p.failed.as_ref().is_some_and(|(f, _)| t > *f) {
-                            return;
-                        }
-                        if t < p.written + window {
-                            break;
-                        }
-                        p = moved.wait(p).unwrap_or_else(|e| e.into_inner());
-                    }
-                }
-                match source(t).map(|o| slice(exp, parts, t, o)) {
-                    Ok(s) => {
-                        if tx.send((t, s)).is_err() {
-                            return;
-                        }
-                    }
-                    Err(e) => {
-                        let mut p = lock();
-                        if p.failed.as_ref().is_none_or(|(f, _)| t < *f) {
-                            p.failed = Some((t, e));
-                        }
-                        moved.notify_all();
+        }
+        p.appending = false;
+    };
+    // One loop on each pool thread (and only one: the barrier below would
+    // otherwise wait for a loop that never starts).
+    pool.broadcast(|_| {
+        let _guard = StopOnPanic {
+            progress: &progress,
+            moved: &moved,
+        };
+        // A loop holds its thread here until every loop has one.
+        all_started.wait();
+        loop {
+            let t = next.fetch_add(1, Ordering::Relaxed);
+            if t >= n {
+                return;
+            }
+            {
+                let mut p = lock();
+                loop {
+                    // Past a failed target nothing more is needed.
+                    if p.stop || p.failed.as_ref().is_some_and(|(f, _)| t > *f) {
                         return;
                     }
+                    if t < p.written + window {
+                        break;
+                    }
+                    p = moved.wait(p).unwrap_or_else(|e| e.into_inner());
                 }
             }
-        });
-        drop(tx); // the channel closes when the workers finish
-        let written = writer
-            .join()
-            .map_err(|_| Error::Run("the table writer stopped unexpectedly".into()))?;
-        let failed = lock().failed.take();
-        match failed {
-            Some((_, e)) => Err(e),
-            None => written,
+            match source(t).map(|o| slice(exp, parts, t, o)) {
+                Ok(s) => {
+                    let mut p = lock();
+                    if p.stop {
+                        return;
+                    }
+                    p.pending.insert(t, s);
+                    drop(p);
+                    append_ready();
+                }
+                Err(e) => {
+                    let mut p = lock();
+                    if p.failed.as_ref().is_none_or(|(f, _)| t < *f) {
+                        p.failed = Some((t, e));
+                    }
+                    moved.notify_all();
+                    return;
+                }
+            }
         }
-    })
+    });
+    let mut p = lock();
+    if let Some(e) = p.write_failed.take() {
+        return Err(e);
+    }
+    if let Some((_, e)) = p.failed.take() {
+        return Err(e);
+    }
+    if p.written < n {
+        return Err(Error::Run("the table writer stopped unexpectedly".into()));
+    }
+    drop(p);
+    Ok(files.into_inner().unwrap_or_else(|e| e.into_inner()))
 }
 
 /// What `produce` wrote.
