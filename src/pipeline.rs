@@ -333,18 +333,53 @@ struct Progress {
     stop: bool,
 }
 
+/// A barrier for the worker loops that waits by spinning, then yielding,
+/// rather than sleeping: the loops arrive within microseconds of each
+/// other, and a thread put to sleep took 1-4 ms to wake on the test machine
+/// (its core idles in the meantime).
+struct StartLine {
+    arrived: std::sync::atomic::AtomicUsize,
+    all: usize,
+}
+
+impl StartLine {
+    fn new(all: usize) -> StartLine {
+        StartLine {
+            arrived: std::sync::atomic::AtomicUsize::new(0),
+            all,
+        }
+    }
+
+    fn wait(&self) {
+        use std::sync::atomic::Ordering;
+        self.arrived.fetch_add(1, Ordering::AcqRel);
+        let mut spins = 0u32;
+        while self.arrived.load(Ordering::Acquire) < self.all {
+            if spins < 10_000 {
+                spins += 1;
+                std::hint::spin_loop();
+            } else {
+                std::thread::yield_now();
+            }
+        }
+    }
+}
+
 /// Stops the other threads of [`stream_in_order`] when the thread holding it
 /// panics, so that none of them waits for a target that will never come
 /// (the panic then reaches the caller when the threads are joined).
 struct StopOnPanic<'a> {
     progress: &'a std::sync::Mutex<Progress>,
     moved: &'a std::sync::Condvar,
+    halted: &'a std::sync::atomic::AtomicBool,
 }
 
 impl Drop for StopOnPanic<'_> {
     fn drop(&mut self) {
         if std::thread::panicking() {
             self.progress.lock().unwrap_or_else(|e| e.into_inner()).stop = true;
+            self.halted
+                .store(true, std::sync::atomic::Ordering::Release);
             self.moved.notify_all();
         }
     }
@@ -375,7 +410,7 @@ fn stream_in_order(
     window: usize,
 ) -> Result<Written> {
     use std::sync::atomic::{AtomicUsize, Ordering};
-    use std::sync::{Barrier, Condvar, Mutex};
+    use std::sync::{Condvar, Mutex};
     let n = exp.targets.len();
     let next = AtomicUsize::new(0);
     let progress = Mutex::new(Progress {
@@ -388,10 +423,14 @@ fn stream_in_order(
     });
     let moved = Condvar::new();
     let lock = || progress.lock().unwrap_or_else(|e| e.into_inner());
+    // `Progress::written`, and whether anything failed or stopped, for a
+    // look without the lock.
+    let written_so_far = AtomicUsize::new(0);
+    let halted = std::sync::atomic::AtomicBool::new(false);
     // Only the worker that set `appending` touches the files.
     let files = Mutex::new(w);
     let workers = pool.current_num_threads().max(1);
-    let all_started = Barrier::new(workers);
+    let all_started = StartLine::new(workers);
     // Append the waiting slices that are next in turn, unless another
     // worker is at it (it will find them).
     let append_ready = || {
@@ -414,11 +453,13 @@ fn stream_in_order(
             match appended {
                 Ok(()) => {
                     p.written = t + 1;
+                    written_so_far.store(t + 1, Ordering::Release);
                     moved.notify_all();
                 }
                 Err(e) => {
                     p.write_failed = Some(e);
                     p.stop = true;
+                    halted.store(true, Ordering::Release);
                     p.pending.clear();
                     moved.notify_all();
                     break;
@@ -433,6 +474,7 @@ fn stream_in_order(
         let _guard = StopOnPanic {
             progress: &progress,
             moved: &moved,
+            halted: &halted,
         };
         // A loop holds its thread here until every loop has one.
         all_started.wait();
@@ -441,7 +483,11 @@ fn stream_in_order(
             if t >= n {
                 return;
             }
-            {
+            // Without a failure and within the window, no need for the
+            // lock (two workers meeting there at the start cost a sleep).
+            let clear = !halted.load(Ordering::Acquire)
+                && t < written_so_far.load(Ordering::Acquire) + window;
+            if !clear {
                 let mut p = lock();
                 loop {
                     // Past a failed target nothing more is needed.
@@ -469,6 +515,7 @@ fn stream_in_order(
                     if p.failed.as_ref().is_none_or(|(f, _)| t < *f) {
                         p.failed = Some((t, e));
                     }
+                    halted.store(true, Ordering::Release);
                     moved.notify_all();
                     return;
                 }
@@ -611,11 +658,11 @@ pub fn produce(
     };
     crate::timing(ctx.started, "rows ready");
     let folder = report::Folder::assemble(grid, rows, experiment_text, &BTreeMap::new(), &core);
-    let rendered = pool
-        .install(|| {
-            report::render::reports_of(folder, Some(report_parts), &core, &exp.formats, &templates)
-        })
-        .map_err(Error::Run)?;
+    // On this thread: handing the work to a pool thread that has gone to
+    // sleep costs the time it takes to wake (milliseconds on a virtual machine).
+    let rendered =
+        report::render::reports_of(folder, Some(report_parts), &core, &exp.formats, &templates)
+            .map_err(Error::Run)?;
     for (name, bytes) in &rendered {
         outputs.push(write_file(dir, name, bytes, ctx.durable)?);
     }

@@ -157,10 +157,16 @@ pub fn reports_of(
             render_one(name, source, html, &value)?.into_bytes(),
         )))
     };
-    let (markdown, html) = rayon::join(
-        || render(ReportFormat::Markdown),
-        || render(ReportFormat::Html),
-    );
+    let (markdown, html) = if formats.len() > 1 {
+        std::thread::scope(|scope| {
+            let html = scope.spawn(|| render(ReportFormat::Html));
+            let markdown = render(ReportFormat::Markdown);
+            let html = html.join().unwrap_or_else(|p| std::panic::resume_unwind(p));
+            (markdown, html)
+        })
+    } else {
+        (render(ReportFormat::Markdown), render(ReportFormat::Html))
+    };
     let out: Vec<(String, Vec<u8>)> = [markdown?, html?].into_iter().flatten().collect();
     // Freeing the large trees takes a few milliseconds the caller need not wait for.
     // (Should no thread start, they are freed here.)
