@@ -211,7 +211,7 @@ def cmd_table(a):
         print(f"  ratio {num + '/' + den:<28} {of_medians:8.2f}x  "
               f"(per-round: median {statistics.median(paired):.2f}, min {min(paired):.2f}, max {max(paired):.2f})")
     # Two copies of a run side by side against one alone: the throughput
-    # the machine gives two independent copies of the same work, a ceiling
+    # the machine gives two independent copies of the same work, a yardstick
     # for what a second thread can give one run of it.
     for one, two in (x.split("/") for x in (a.throughput or [])):
         w1, w2 = res[one]["wall"], res[two]["wall"]

@@ -121,7 +121,7 @@ if [[ $DO_PEER == 1 ]]; then
         --throughput outturn-1/outturn-1x2
     echo "   targets: statsmodels/outturn-1 ≥ 50, numpy/outturn-1 ≥ 10, outturn-1/outturn-2 ≥ 1.8"
     echo "   outturn-1x2 is two --jobs 1 runs side by side: the throughput line is what this machine"
-    echo "   gives two independent copies of the run, a ceiling for outturn-1/outturn-2"
+    echo "   gives two independent copies of the run, a yardstick for outturn-1/outturn-2"
 fi
 
 if [[ $DO_SCALE == 1 ]]; then
