@@ -249,8 +249,8 @@ pub fn run(path: &Path, opts: &RunOptions) -> Result<RunSummary> {
     })
 }
 
-/// How many targets the workers may run ahead of the table writer: enough
-/// to keep every thread busy, few enough to bound memory.
+/// How many targets the workers may run ahead of the files: enough to keep
+/// every thread busy, few enough to bound memory.
 fn window_for(threads: usize) -> usize {
     (threads * 8).max(8)
 }

@@ -272,7 +272,7 @@ fn write_file(dir: &Path, name: &str, bytes: &[u8], durable: bool) -> Result<Out
     Ok(OutputFile::of(name, bytes))
 }
 
-/// The streams and what the report keeps, filled by the writer thread.
+/// The streams and what the report keeps, filled as slices are appended.
 struct Written {
     streams: Vec<Stream>,
     /// The report's rows of the targets appended so far.
@@ -334,12 +334,15 @@ struct Progress {
 }
 
 /// A barrier for the worker loops that waits by spinning, then yielding,
-/// rather than sleeping: the loops arrive within microseconds of each
+/// and only then sleeping: the loops arrive within microseconds of each
 /// other, and a thread put to sleep took 1-4 ms to wake on the test machine
-/// (its core idles in the meantime).
+/// (its core idles in the meantime). With more threads than cores the late
+/// ones need the cores the early ones spin on, hence the bounded spin.
 struct StartLine {
     arrived: std::sync::atomic::AtomicUsize,
     all: usize,
+    asleep: std::sync::Mutex<()>,
+    woken: std::sync::Condvar,
 }
 
 impl StartLine {
@@ -347,20 +350,36 @@ impl StartLine {
         StartLine {
             arrived: std::sync::atomic::AtomicUsize::new(0),
             all,
+            asleep: std::sync::Mutex::new(()),
+            woken: std::sync::Condvar::new(),
         }
     }
 
     fn wait(&self) {
         use std::sync::atomic::Ordering;
-        self.arrived.fetch_add(1, Ordering::AcqRel);
-        let mut spins = 0u32;
-        while self.arrived.load(Ordering::Acquire) < self.all {
-            if spins < 10_000 {
-                spins += 1;
-                std::hint::spin_loop();
-            } else {
-                std::thread::yield_now();
+        let here = || self.arrived.load(Ordering::Acquire) >= self.all;
+        if self.arrived.fetch_add(1, Ordering::AcqRel) + 1 >= self.all {
+            // The last one wakes any that went to sleep (they check under
+            // the lock before sleeping, so none misses this).
+            let _g = self.asleep.lock().unwrap_or_else(|e| e.into_inner());
+            self.woken.notify_all();
+            return;
+        }
+        for _ in 0..10_000 {
+            if here() {
+                return;
             }
+            std::hint::spin_loop();
+        }
+        for _ in 0..100 {
+            if here() {
+                return;
+            }
+            std::thread::yield_now();
+        }
+        let mut g = self.asleep.lock().unwrap_or_else(|e| e.into_inner());
+        while !here() {
+            g = self.woken.wait(g).unwrap_or_else(|e| e.into_inner());
         }
     }
 }
@@ -530,7 +549,10 @@ fn stream_in_order(
         return Err(e);
     }
     if p.written < n {
-        return Err(Error::Run("the table writer stopped unexpectedly".into()));
+        return Err(Error::Run(format!(
+            "internal error: {} of {n} targets were written",
+            p.written
+        )));
     }
     drop(p);
     Ok(files.into_inner().unwrap_or_else(|e| e.into_inner()))

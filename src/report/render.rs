@@ -159,9 +159,14 @@ pub fn reports_of(
     };
     let (markdown, html) = if formats.len() > 1 {
         std::thread::scope(|scope| {
-            let html = scope.spawn(|| render(ReportFormat::Html));
+            // Should no thread start, the HTML renders after the Markdown.
+            let html =
+                std::thread::Builder::new().spawn_scoped(scope, || render(ReportFormat::Html));
             let markdown = render(ReportFormat::Markdown);
-            let html = html.join().unwrap_or_else(|p| std::panic::resume_unwind(p));
+            let html = match html {
+                Ok(h) => h.join().unwrap_or_else(|p| std::panic::resume_unwind(p)),
+                Err(_) => render(ReportFormat::Html),
+            };
             (markdown, html)
         })
     } else {
