@@ -709,3 +709,44 @@ pub fn produce(
         failed_cells: failed,
     })
 }
+
+#[cfg(test)]
+mod tests {
+    use super::StartLine;
+    use std::sync::atomic::{AtomicUsize, Ordering};
+    use std::time::{Duration, Instant};
+
+    /// Every thread leaves the start line only after all have arrived, with
+    /// more threads than cores and with one that arrives late enough for
+    /// the others to have gone to sleep (the last one must wake them).
+    #[test]
+    fn start_line_lets_all_go_together() {
+        for (threads, late) in [(16, Duration::ZERO), (4, Duration::from_millis(200))] {
+            let (done, finished) = std::sync::mpsc::channel();
+            std::thread::spawn(move || {
+                let line = StartLine::new(threads);
+                let arrived = AtomicUsize::new(0);
+                std::thread::scope(|s| {
+                    for k in 0..threads {
+                        let (line, arrived) = (&line, &arrived);
+                        s.spawn(move || {
+                            if k == 0 {
+                                std::thread::sleep(late);
+                            }
+                            arrived.fetch_add(1, Ordering::SeqCst);
+                            line.wait();
+                            // Nobody passes before everybody has arrived.
+                            assert_eq!(arrived.load(Ordering::SeqCst), threads);
+                        });
+                    }
+                });
+                let _ = done.send(());
+            });
+            let started = Instant::now();
+            finished
+                .recv_timeout(Duration::from_secs(30))
+                .expect("the start line hung or a thread passed it early");
+            assert!(started.elapsed() >= late);
+        }
+    }
+}
