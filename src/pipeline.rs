@@ -167,10 +167,9 @@ fn slice(
         })
         .collect();
     let draw = exp.formats.contains(&crate::spec::ReportFormat::Html);
-    let report_rows = report::Rows::parse(&report_tables, parts.grid()).map(|rows| {
-        let (part, rows) = parts.part(t, rows, draw);
-        (rows, part)
-    });
+    let report_rows = report::Rows::parse(&report_tables, parts.grid())
+        .and_then(|rows| parts.part(t, rows, draw))
+        .map(|(part, rows)| (rows, part));
     Slice {
         tables,
         report_rows,
@@ -589,14 +588,14 @@ pub fn produce(
     }
     crate::timing(ctx.started, "experiment loaded, tables start");
     let grid = report::Grid::of(exp);
+    let first = exp.for_target(0);
     let parts = report::PartContext::new(
         grid.clone(),
         &exp.source_text,
-        &report::tables::diagnostics_csv(&score::stability::predictor_diagnostics(
-            &exp.for_target(0),
-        )),
-    )
-    .map_err(Error::Run)?;
+        Box::new(move || {
+            report::tables::diagnostics_csv(&score::stability::predictor_diagnostics(&first))
+        }),
+    );
     let mut w = Written {
         streams,
         report_rows: None,

@@ -951,23 +951,33 @@ pub struct PartContext {
     grid: Grid,
     settings: Settings,
     /// The predictors' unit-root rows, which only the first target's slice
-    /// of diagnostics.csv holds.
-    predictor_rows: Vec<DiagnosticRow>,
+    /// of diagnostics.csv holds: made when a part first needs them (by a
+    /// worker, not before the workers start).
+    predictor_rows: std::sync::OnceLock<Result<Vec<DiagnosticRow>, String>>,
+    predictor_diagnostics: Box<dyn Fn() -> Vec<u8> + Send + Sync>,
 }
 
 impl PartContext {
-    /// `predictor_diagnostics` is the predictors' part of diagnostics.csv
+    /// `predictor_diagnostics` makes the predictors' part of diagnostics.csv
     /// (with its header), as the first target's slice holds it.
     pub fn new(
         grid: Grid,
         experiment_text: &str,
-        predictor_diagnostics: &[u8],
-    ) -> Result<PartContext, String> {
-        Ok(PartContext {
+        predictor_diagnostics: Box<dyn Fn() -> Vec<u8> + Send + Sync>,
+    ) -> PartContext {
+        PartContext {
             grid,
             settings: Settings::read(experiment_text),
-            predictor_rows: parse_diagnostics(predictor_diagnostics)?,
-        })
+            predictor_rows: std::sync::OnceLock::new(),
+            predictor_diagnostics,
+        }
+    }
+
+    fn predictor_rows(&self) -> Result<&[DiagnosticRow], String> {
+        self.predictor_rows
+            .get_or_init(|| parse_diagnostics(&(self.predictor_diagnostics)()))
+            .as_deref()
+            .map_err(Clone::clone)
     }
 
     pub fn grid(&self) -> &Grid {
@@ -976,13 +986,18 @@ impl PartContext {
 
     /// The report part of target `t` from that target's rows, which are
     /// handed back for the whole folder.
-    pub fn part(&self, t: usize, mut rows: Rows, draw: bool) -> (TargetPart, Rows) {
+    pub fn part(&self, t: usize, mut rows: Rows, draw: bool) -> Result<(TargetPart, Rows), String> {
         // The folder as the report sees it for target t: its rows, and the
         // predictors' rows ahead of them as in the whole table.
-        let borrowed = if t == 0 { 0 } else { self.predictor_rows.len() };
+        let predictors = if t == 0 {
+            &[][..]
+        } else {
+            self.predictor_rows()?
+        };
+        let borrowed = predictors.len();
         if borrowed > 0 {
             let own = std::mem::take(&mut rows.diagnostics);
-            rows.diagnostics = self.predictor_rows.clone();
+            rows.diagnostics = predictors.to_vec();
             rows.diagnostics.extend(own);
         }
         let folder = Folder::from_rows(
@@ -995,7 +1010,7 @@ impl PartContext {
         let part = folder.target_part(t, draw);
         let mut rows = folder.into_rows();
         rows.diagnostics.drain(..borrowed);
-        (part, rows)
+        Ok((part, rows))
     }
 }
 
