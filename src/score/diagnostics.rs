@@ -248,7 +248,7 @@ pub fn adf(x: &[f64], regression: AdfRegression, max_lag: Option<usize>) -> Opti
     let qr = Householder::of(&cols, &y)?;
     for lag in 0..=maxlag {
         let k = startlag + lag;
-        let fit = qr.fit(&cols, &y, k, false)?;
+        let fit = qr.fit(&cols, &y, k)?;
         let aic = gaussian_aic(fit.ssr, rows, k);
         if !aic.is_finite() {
             return None;
@@ -278,9 +278,10 @@ pub fn adf(x: &[f64], regression: AdfRegression, max_lag: Option<usize>) -> Opti
     if rows <= k {
         return None;
     }
-    let fit = ols(&cols, &y)?;
+    let qr = Householder::of(&cols, &y)?;
+    let fit = qr.fit(&cols, &y, k)?;
     let s2 = fit.ssr / (rows - k) as f64;
-    let se = (s2 * fit.xtx_inv_diag[0]).sqrt();
+    let se = (s2 * qr.xtx_inv_diag(k)[0]).sqrt();
     let statistic = fit.beta[0] / se;
     if !statistic.is_finite() {
         return None;
@@ -428,16 +429,6 @@ pub fn mackinnon_crit(
 struct OlsFit {
     beta: Vec<f64>,
     ssr: f64,
-    /// Diagonal of (X'X)^{-1} (empty when not asked for).
-    xtx_inv_diag: Vec<f64>,
-}
-
-/// Least squares of `y` on the columns `cols` by Householder QR
-/// (Golub & Van Loan, *Matrix Computations*, §5.2). `None` when the design is
-/// rank-deficient (|R_jj| ≤ max|R_ii|·max(n, k)·ε, numpy's `matrix_rank`
-/// tolerance applied to R's diagonal) or the shapes are inconsistent.
-fn ols(cols: &[Vec<f64>], y: &[f64]) -> Option<OlsFit> {
-    Householder::of(cols, y)?.fit(cols, y, cols.len(), true)
 }
 
 /// A Householder QR of all the columns with `Q'y`. Reflection j touches
@@ -495,9 +486,11 @@ impl Householder {
         Some(Householder { a, qty, rdiag })
     }
 
-    /// The regression of `y` on the first `k` columns; with `covariance`,
-    /// also diag((X'X)^{-1}) (else left empty).
-    fn fit(&self, cols: &[Vec<f64>], y: &[f64], k: usize, covariance: bool) -> Option<OlsFit> {
+    /// Least squares of `y` on the first `k` columns (Golub & Van Loan,
+    /// *Matrix Computations*, §5.2). `None` when they are rank-deficient
+    /// (|R_jj| ≤ max|R_ii|·max(n, k)·ε, numpy's `matrix_rank` tolerance
+    /// applied to R's diagonal).
+    fn fit(&self, cols: &[Vec<f64>], y: &[f64], k: usize) -> Option<OlsFit> {
         let n = y.len();
         let (a, qty, rdiag) = (&self.a, &self.qty, &self.rdiag[..k]);
         let maxd = rdiag.iter().fold(0.0_f64, |m, v| m.max(v.abs()));
@@ -515,10 +508,26 @@ impl Householder {
             }
             beta[i] = s / rdiag[i];
         }
-        // diag((X'X)^{-1}) = row sums of squares of R^{-1}; R^{-1} column by
-        // column (R v = e_c by back substitution).
-        let mut xtx_inv_diag = vec![0.0; if covariance { k } else { 0 }];
-        for c in (0..k).filter(|_| covariance) {
+        let mut ssr = 0.0;
+        for (t, yt) in y.iter().enumerate() {
+            let fitted: f64 = cols[..k].iter().zip(&beta).map(|(c, b)| c[t] * b).sum();
+            let e = yt - fitted;
+            ssr += e * e;
+        }
+        if !ssr.is_finite() || beta.iter().any(|b| !b.is_finite()) {
+            return None;
+        }
+        Some(OlsFit { beta, ssr })
+    }
+
+    /// diag((X'X)^{-1}) of the regression on the first `k` columns (after a
+    /// successful [`Householder::fit`]): row sums of squares of R^{-1},
+    /// R^{-1} column by column (R v = e_c by back substitution).
+    fn xtx_inv_diag(&self, k: usize) -> Vec<f64> {
+        let (a, rdiag) = (&self.a, &self.rdiag[..k]);
+        let r = |row: usize, col: usize| if row == col { rdiag[row] } else { a[col][row] };
+        let mut xtx_inv_diag = vec![0.0; k];
+        for c in 0..k {
             let mut v = vec![0.0; k];
             for i in (0..=c).rev() {
                 let mut s = if i == c { 1.0 } else { 0.0 };
@@ -531,20 +540,7 @@ impl Householder {
                 *dst += vi * vi;
             }
         }
-        let mut ssr = 0.0;
-        for (t, yt) in y.iter().enumerate() {
-            let fitted: f64 = cols[..k].iter().zip(&beta).map(|(c, b)| c[t] * b).sum();
-            let e = yt - fitted;
-            ssr += e * e;
-        }
-        if !ssr.is_finite() || beta.iter().any(|b| !b.is_finite()) {
-            return None;
-        }
-        Some(OlsFit {
-            beta,
-            ssr,
-            xtx_inv_diag,
-        })
+        xtx_inv_diag
     }
 }
 
