@@ -318,8 +318,6 @@ impl Written {
 
 /// How far the workers have got.
 struct Progress {
-    /// Targets appended so far (all targets below this are written).
-    written: usize,
     /// Computed slices waiting for the targets before them.
     pending: BTreeMap<usize, Slice>,
     /// A worker is appending slices: the others leave theirs in `pending`.
@@ -432,7 +430,6 @@ fn stream_in_order(
     let n = exp.targets.len();
     let next = AtomicUsize::new(0);
     let progress = Mutex::new(Progress {
-        written: 0,
         pending: BTreeMap::new(),
         appending: false,
         failed: None,
@@ -441,9 +438,11 @@ fn stream_in_order(
     });
     let moved = Condvar::new();
     let lock = || progress.lock().unwrap_or_else(|e| e.into_inner());
-    // `Progress::written`, and whether anything failed or stopped, for a
-    // look without the lock.
+    // Targets appended so far (all below are written): changed only by the
+    // appending worker, under the lock, so that waiters re-checking under
+    // the lock see it; read without the lock where a stale value is safe.
     let written_so_far = AtomicUsize::new(0);
+    // Whether anything failed or stopped, for a look without the lock.
     let halted = std::sync::atomic::AtomicBool::new(false);
     // Only the worker that set `appending` touches the files.
     let files = Mutex::new(w);
@@ -458,7 +457,7 @@ fn stream_in_order(
         }
         p.appending = true;
         loop {
-            let t = p.written;
+            let t = written_so_far.load(Ordering::Acquire);
             let Some(s) = p.pending.remove(&t) else {
                 break;
             };
@@ -470,7 +469,6 @@ fn stream_in_order(
             p = lock();
             match appended {
                 Ok(()) => {
-                    p.written = t + 1;
                     written_so_far.store(t + 1, Ordering::Release);
                     moved.notify_all();
                 }
@@ -512,7 +510,7 @@ fn stream_in_order(
                     if p.stop || p.failed.as_ref().is_some_and(|(f, _)| t > *f) {
                         return;
                     }
-                    if t < p.written + window {
+                    if t < written_so_far.load(Ordering::Acquire) + window {
                         break;
                     }
                     p = moved.wait(p).unwrap_or_else(|e| e.into_inner());
@@ -547,10 +545,10 @@ fn stream_in_order(
     if let Some((_, e)) = p.failed.take() {
         return Err(e);
     }
-    if p.written < n {
+    let written = written_so_far.load(Ordering::Acquire);
+    if written < n {
         return Err(Error::Run(format!(
-            "internal error: {} of {n} targets were written",
-            p.written
+            "internal error: {written} of {n} targets were written"
         )));
     }
     drop(p);
@@ -616,7 +614,6 @@ pub fn produce(
     } else {
         w = stream_in_order(exp, &parts, source, w, pool, window.max(1))?;
     }
-    let written = w;
     let Written {
         streams,
         report_rows,
@@ -624,7 +621,7 @@ pub fn produce(
         experiment_text,
         cell_facts,
         failed,
-    } = written;
+    } = w;
     crate::timing(ctx.started, "tables streamed");
     let mut outputs = Vec::new();
     let mut files = Vec::new();
