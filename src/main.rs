@@ -129,9 +129,60 @@ fn parse_shard(text: &str) -> Result<(usize, usize), String> {
     Ok((k, n))
 }
 
+/// The progress bar on a terminal (nothing with `--quiet` or when stderr
+/// is not a terminal), and developer timing under OUTTURN_DEBUG_TIMING.
+struct Bar {
+    show: bool,
+    timing: bool,
+    bar: std::sync::OnceLock<indicatif::ProgressBar>,
+}
+
+impl Bar {
+    fn new(quiet: bool) -> Bar {
+        use std::io::IsTerminal;
+        Bar {
+            show: !quiet && std::io::stderr().is_terminal(),
+            timing: std::env::var_os("OUTTURN_DEBUG_TIMING").is_some(),
+            bar: std::sync::OnceLock::new(),
+        }
+    }
+}
+
+impl outturn::Progress for Bar {
+    fn begin(&self, cells: usize) {
+        if !self.show {
+            return;
+        }
+        let pb = indicatif::ProgressBar::new(cells as u64);
+        pb.set_style(
+            indicatif::ProgressStyle::with_template(
+                "{spinner} backtesting [{bar:30}] {pos}/{len} cells {elapsed}",
+            )
+            .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar())
+            .progress_chars("=> "),
+        );
+        let _ = self.bar.set(pb);
+    }
+    fn cell_done(&self) {
+        if let Some(b) = self.bar.get() {
+            b.inc(1);
+        }
+    }
+    fn end(&self) {
+        if let Some(b) = self.bar.get() {
+            b.finish_and_clear();
+        }
+    }
+    fn step(&self, step: &str, seconds: f64) {
+        if self.timing {
+            eprintln!("timing: {step} at {seconds:.3} s");
+        }
+    }
+}
+
 fn main() -> ExitCode {
     let _ = ctrlc::set_handler(|| {
-        outturn::output::cleanup_pending();
+        outturn::interrupted();
         eprintln!("interrupted: earlier results are left as they were");
         std::process::exit(130);
     });
@@ -158,14 +209,20 @@ fn main() -> ExitCode {
                     return ExitCode::from(2);
                 }
             };
-            let opts = outturn::RunOptions { out, jobs: jobs.map(usize::from), quiet, shard, no_cache };
-            outturn::run(&file, &opts).map(|s| {
+            let opts = outturn::RunOptions { out, jobs: jobs.map(usize::from), shard, no_cache };
+            outturn::run(&file, &opts, &Bar::new(quiet)).map(|s| {
+                if s.failed_cells > 0 && !quiet {
+                    eprintln!(
+                        "warning: {} cell(s) could not be estimated; they are recorded in the manifest and the report",
+                        s.failed_cells
+                    );
+                }
                 if !quiet {
                     eprintln!("{} cells, {} forecasts in {:.2} s → {}", s.cells, s.forecasts, s.seconds, s.folder.display());
                 }
             })
         }
-        Command::Verify { dir, jobs } => match outturn::verify::verify(&dir, jobs.map(usize::from)) {
+        Command::Verify { dir, jobs } => match outturn::verify(&dir, jobs.map(usize::from)) {
             Ok(v) => match v.difference {
                 None => {
                     println!("verified: all {} outputs of {} are byte-identical to a rerun", v.files, dir.display());
@@ -178,13 +235,13 @@ fn main() -> ExitCode {
             },
             Err(e) => Err(e),
         },
-        Command::Merge { dirs, out } => outturn::shard::merge(&dirs, &out).map(|cells| {
+        Command::Merge { dirs, out } => outturn::merge(&dirs, &out).map(|cells| {
             eprintln!("merged {} shard folder(s), {cells} cells → {}", dirs.len(), out.display());
         }),
-        Command::Render { dir, templates } => outturn::report::render::render_folder(&dir, templates.as_deref()),
-        Command::Draft { data } => outturn::draft::draft(&data).map(|text| print!("{text}")),
+        Command::Render { dir, templates } => outturn::render(&dir, templates.as_deref()),
+        Command::Draft { data } => outturn::draft(&data).map(|text| print!("{text}")),
         Command::Kinds => {
-            print!("{}", outturn::kinds::text());
+            print!("{}", outturn::kinds());
             Ok(())
         }
     };

@@ -119,7 +119,13 @@ fn render_with_user_templates_writes_them_and_records_their_hashes() {
     );
 
     let after = manifest(&dir);
-    let sha = outturn::spec::sha256_hex;
+    let sha = |bytes: &[u8]| -> String {
+        use sha2::Digest;
+        sha2::Sha256::digest(bytes)
+            .iter()
+            .map(|b| format!("{b:02x}"))
+            .collect()
+    };
     let recorded: Vec<(String, String)> = after["templates"]
         .as_array()
         .unwrap()

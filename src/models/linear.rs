@@ -12,12 +12,12 @@
 //! on that sample gives the forecast, so nothing after the estimation end is
 //! ever looked at.
 
-use super::{EstimationProblem, ForecastRow, Order, OutlookRow, Schedule};
-use crate::linalg::{LeastSquares, LinalgError, Solution};
+use super::{CellModel, Model, Order, Problem, Step};
+use crate::numerics::lsq::{LeastSquares, LinalgError, Solution};
 use crate::spec::{Criterion, Experiment, Family, TargetData, Trend};
 
 /// The regressors of an ar or ardl candidate for one target.
-pub struct Design<'a> {
+pub(crate) struct Design<'a> {
     y: &'a [f64],
     n: usize,
     trend: Trend,
@@ -116,14 +116,14 @@ impl<'a> Design<'a> {
 
 /// The candidate orders of a design: column subsets of its largest-order row.
 #[derive(Debug, Clone)]
-pub struct Submodel {
+pub(crate) struct Submodel {
     pub columns: Vec<usize>,
     pub order: Order,
     pub lags: usize,
 }
 
 /// Submodels of a family: one (all columns) unless it selects its order.
-pub fn submodels(family: &Family, design: &Design) -> (Vec<Submodel>, Option<Criterion>) {
+fn submodels(family: &Family, design: &Design) -> (Vec<Submodel>, Option<Criterion>) {
     let t = design.trend.terms();
     let max_p = design.lags;
     let max_q = design.predictor_lags;
@@ -211,14 +211,11 @@ struct Chosen {
 
 /// Solves the regressions of y_{s+h} on the rows at s for a nondecreasing
 /// sequence of estimation ends E (rows with s + h ≤ E), for every submodel,
-/// and picks one.
-struct Estimator<'r> {
-    rows: &'r Rows,
-    y: &'r [f64],
+/// and picks one. The rows, series and submodels are the model's; the
+/// estimator holds only the factorisations.
+struct Estimator {
     h: usize,
     window: Option<usize>,
-    subs: &'r [Submodel],
-    criterion: Option<Criterion>,
     ls: Vec<LeastSquares>,
     scratch: Vec<f64>,
     next_s: usize,
@@ -226,37 +223,34 @@ struct Estimator<'r> {
     chosen: Option<Chosen>,
 }
 
-impl<'r> Estimator<'r> {
-    fn new(
-        rows: &'r Rows,
-        y: &'r [f64],
-        h: usize,
-        window: Option<usize>,
-        subs: &'r [Submodel],
-        criterion: Option<Criterion>,
-    ) -> Self {
+/// What an estimator reads: one horizon's rows, the series and the submodels.
+struct Inputs<'r> {
+    rows: &'r Rows,
+    y: &'r [f64],
+    subs: &'r [Submodel],
+    criterion: Option<Criterion>,
+}
+
+impl Estimator {
+    fn new(k: usize, h: usize, window: Option<usize>, subs: &[Submodel]) -> Self {
         Estimator {
-            rows,
-            y,
             h,
             window,
-            subs,
-            criterion,
             ls: subs
                 .iter()
                 .map(|s| LeastSquares::new(s.columns.len()))
                 .collect(),
-            scratch: vec![0.0; rows.k],
+            scratch: vec![0.0; k],
             next_s: 1,
             last_end: None,
             chosen: None,
         }
     }
 
-    fn add(&mut self, s: usize) {
-        let Some(x) = self.rows.at(s) else { return };
-        let dep = self.y[s + self.h - 1];
-        for (ls, sub) in self.ls.iter_mut().zip(self.subs) {
+    fn add(&mut self, inp: &Inputs, s: usize) {
+        let Some(x) = inp.rows.at(s) else { return };
+        let dep = inp.y[s + self.h - 1];
+        for (ls, sub) in self.ls.iter_mut().zip(inp.subs) {
             let buf = &mut self.scratch[..sub.columns.len()];
             for (b, &c) in buf.iter_mut().zip(&sub.columns) {
                 *b = x[c];
@@ -265,58 +259,53 @@ impl<'r> Estimator<'r> {
         }
     }
 
-    fn at(&mut self, end: usize) -> Result<&Chosen, LinalgError> {
+    fn at(&mut self, inp: &Inputs, end: usize) -> Result<&Chosen, LinalgError> {
         if self.last_end != Some(end) || self.chosen.is_none() {
             match self.window {
                 None => {
                     while self.next_s + self.h <= end {
-                        self.add(self.next_s);
+                        self.add(inp, self.next_s);
                         self.next_s += 1;
                     }
                 }
                 Some(w) => {
                     // The last `w` regression rows with s + h ≤ E (all while fewer exist).
                     self.ls.iter_mut().for_each(LeastSquares::clear);
-                    let mut chosen = Vec::with_capacity(w);
-                    let mut s = end.saturating_sub(self.h);
-                    while s >= 1 && chosen.len() < w {
-                        if self.rows.at(s).is_some() {
-                            chosen.push(s);
-                        }
-                        s -= 1;
-                    }
-                    for &s in chosen.iter().rev() {
-                        self.add(s);
+                    let rows = inp.rows;
+                    for s in crate::plan::last_rows(end.saturating_sub(self.h), w, |s| {
+                        rows.at(s).is_some()
+                    }) {
+                        self.add(inp, s);
                     }
                 }
             }
-            self.chosen = Some(self.choose()?);
+            self.chosen = Some(self.choose(inp)?);
             self.last_end = Some(end);
         }
         self.chosen.as_ref().ok_or(LinalgError::NonFinite)
     }
 
     /// Residuals of the estimation at `end` for the chosen submodel, in time order.
-    fn residuals(&self, end: usize, chosen: &Chosen) -> Vec<f64> {
+    fn residuals(&self, inp: &Inputs, end: usize, chosen: &Chosen) -> Vec<f64> {
         let mut rows: Vec<usize> = (1..=end.saturating_sub(self.h))
-            .filter(|&s| self.rows.at(s).is_some())
+            .filter(|&s| inp.rows.at(s).is_some())
             .collect();
         if let Some(w) = self.window {
             if rows.len() > w {
                 rows.drain(..rows.len() - w);
             }
         }
-        let columns = &self.subs[chosen.index].columns;
+        let columns = &inp.subs[chosen.index].columns;
         rows.iter()
             .filter_map(|&s| {
-                let x = self.rows.at(s)?;
-                Some(self.y[s + self.h - 1] - predict(&chosen.solution, x, columns))
+                let x = inp.rows.at(s)?;
+                Some(inp.y[s + self.h - 1] - predict(&chosen.solution, x, columns))
             })
             .collect()
     }
 
-    fn choose(&self) -> Result<Chosen, LinalgError> {
-        let Some(criterion) = self.criterion else {
+    fn choose(&self, inp: &Inputs) -> Result<Chosen, LinalgError> {
+        let Some(criterion) = inp.criterion else {
             return Ok(Chosen {
                 index: 0,
                 solution: self.ls[0].solve()?,
@@ -344,16 +333,15 @@ impl<'r> Estimator<'r> {
     }
 }
 
-fn problem(h: usize, origin: usize, e: impl ToString) -> EstimationProblem {
-    EstimationProblem {
+fn problem(h: usize, e: impl ToString) -> Problem {
+    Problem {
         horizon: h,
-        origin,
         message: e.to_string(),
     }
 }
 
-fn missing_regressors(h: usize, origin: usize) -> EstimationProblem {
-    problem(h, origin, "the regressors at this origin do not exist yet (too few earlier observations for the lags)")
+fn missing_regressors(h: usize) -> Problem {
+    problem(h, "the regressors at this origin do not exist yet (too few earlier observations for the lags)")
 }
 
 fn predict(sol: &Solution, x: &[f64], columns: &[usize]) -> f64 {
@@ -390,145 +378,177 @@ fn iterated_variances(design: &Design, sub: &Submodel, sol: &Solution, max_h: us
         .collect()
 }
 
-/// Direct forecasts (and iterated ones for ar under `multi_step: iterated`).
-/// Backtest forecasts, and the residuals of the last estimation of the
-/// shortest horizon's regression (for residual diagnostics). With
-/// `outlook: Some(window)` the outlook (E = N, the last `window` rows) is
-/// also produced by carrying the same estimator on to N when its window is
-/// the scheme's own; otherwise it is left to [`outlook`] (None returned).
-pub type Backtest = (Vec<ForecastRow>, Vec<f64>, Option<Vec<OutlookRow>>);
-
-pub fn backtest(
-    design: &Design,
-    family: &Family,
-    sched: &Schedule,
-    horizons: &[usize],
+/// ar or ardl for one target: direct forecasts (one regression per
+/// horizon), or iterated ones for ar under `multi_step: iterated` (one
+/// one-step regression). Expanding windows fold new rows into the QR
+/// factors as the estimation end moves; rolling windows refactorise their
+/// last `window` rows; the fixed scheme estimates once.
+pub(crate) struct Linear<'a> {
+    design: Design<'a>,
+    subs: Vec<Submodel>,
+    criterion: Option<Criterion>,
     iterated: bool,
-    outlook: Option<Option<usize>>,
-) -> Result<Backtest, EstimationProblem> {
-    let carry_on = outlook.is_some_and(|w| w == sched.window());
-    let n = design.n;
-    let (subs, criterion) = submodels(family, design);
-    let record_order = criterion.is_some();
-    let mut out = Vec::new();
-    if iterated {
-        let rows = Rows::build(design, 1);
-        let mut est = Estimator::new(&rows, design.y, 1, sched.window(), &subs, criterion);
-        let max_h = horizons.iter().copied().max().unwrap_or(1);
-        let mut per_h: Vec<Vec<ForecastRow>> = vec![Vec::new(); horizons.len()];
-        let first = sched.first_origin;
-        let last = *sched.origins(horizons[0]).end();
-        let mut path = vec![0.0; max_h];
-        for origin in first..=last {
-            let wanted: Vec<usize> = (0..horizons.len())
-                .filter(|&i| sched.origins(horizons[i]).contains(&origin))
-                .collect();
-            if wanted.is_empty() {
-                continue;
-            }
-            let end = sched.estimation_end(origin);
-            let chosen = est.at(end).map_err(|e| problem(1, origin, e))?;
-            let sub = &subs[chosen.index];
-            iterate_path(design, sub, &chosen.solution, origin, &mut path)
-                .ok_or_else(|| missing_regressors(1, origin))?;
-            let variances = iterated_variances(design, sub, &chosen.solution, max_h);
-            for i in wanted {
-                let h = horizons[i];
-                per_h[i].push(ForecastRow {
-                    horizon: h,
-                    origin,
-                    forecast: path[h - 1],
-                    is_mse: Some(chosen.solution.mse()),
-                    is_var: Some(chosen.solution.sst / chosen.solution.rows as f64),
-                    variance: Some(variances[h - 1]),
-                    order: record_order.then_some(sub.order),
-                });
-            }
+    /// The experiment's horizons; direct models hold one set of rows per horizon.
+    horizons: &'a [usize],
+    rows: Vec<Rows>,
+    /// Kept as the estimator behaved before the model trait: a direct cell
+    /// that also gives the outlook from the same estimator (no rolling
+    /// window) took its residuals after that estimator reached E = N.
+    residuals_at_outlook: bool,
+}
+
+/// The estimators of a linear model and the estimation end they stand at
+/// (solved lazily, only for the horizons forecast there).
+pub(crate) struct LinearFit {
+    estimators: Vec<Estimator>,
+    end: usize,
+}
+
+impl<'a> Linear<'a> {
+    pub fn new(cell: &CellModel<'a>, iterated: bool) -> Result<Linear<'a>, String> {
+        let design =
+            Design::new(cell.exp, cell.family, cell.target).ok_or("not a least-squares family")?;
+        let (subs, criterion) = submodels(cell.family, &design);
+        let horizons = cell.exp.horizons.as_slice();
+        let rows = if iterated {
+            vec![Rows::build(&design, 1)]
+        } else {
+            horizons.iter().map(|&h| Rows::build(&design, h)).collect()
+        };
+        let carried =
+            cell.with_outlook && crate::plan::outlook_window(cell.exp) == cell.schedule.window();
+        Ok(Linear {
+            design,
+            subs,
+            criterion,
+            iterated,
+            horizons,
+            rows,
+            residuals_at_outlook: carried && !iterated && cell.schedule.window().is_none(),
+        })
+    }
+
+    fn inputs(&self, i: usize) -> Inputs<'_> {
+        Inputs {
+            rows: &self.rows[i],
+            y: self.design.y,
+            subs: &self.subs,
+            criterion: self.criterion,
         }
-        out.extend(per_h.into_iter().flatten());
-        let end = sched.estimation_end(last);
-        let residuals = est.at(end).ok().map(|c| Chosen {
+    }
+
+    fn step(&self, chosen: &Chosen, forecast: f64, variance: f64) -> Step {
+        Step {
+            forecast,
+            variance: Some(variance),
+            is_mse: Some(chosen.solution.mse()),
+            is_var: Some(chosen.solution.sst / chosen.solution.rows as f64),
+            order: self
+                .criterion
+                .is_some()
+                .then_some(self.subs[chosen.index].order),
+        }
+    }
+}
+
+impl Model for Linear<'_> {
+    type Fit = LinearFit;
+    const STRICT: bool = true;
+    const CARRIES: bool = true;
+
+    fn fit(&self, end: usize, window: Option<usize>) -> Result<LinearFit, String> {
+        let k = self.design.coefficients();
+        let estimators = if self.iterated {
+            vec![Estimator::new(k, 1, window, &self.subs)]
+        } else {
+            self.horizons
+                .iter()
+                .map(|&h| Estimator::new(k, h, window, &self.subs))
+                .collect()
+        };
+        Ok(LinearFit { estimators, end })
+    }
+
+    fn update(
+        &self,
+        fit: &mut LinearFit,
+        end: usize,
+        _window: Option<usize>,
+    ) -> Result<(), String> {
+        fit.end = end;
+        Ok(())
+    }
+
+    fn forecast(
+        &self,
+        fit: &mut LinearFit,
+        origin: usize,
+        horizons: &[usize],
+    ) -> Vec<Result<Step, Problem>> {
+        let end = fit.end;
+        if self.iterated {
+            let inputs = self.inputs(0);
+            let one = (|| -> Result<Vec<Step>, Problem> {
+                let chosen = fit.estimators[0]
+                    .at(&inputs, end)
+                    .map_err(|e| problem(1, e))?;
+                let sub = &self.subs[chosen.index];
+                let max_h = self.horizons.iter().copied().max().unwrap_or(1);
+                let mut path = vec![0.0; max_h];
+                iterate_path(&self.design, sub, &chosen.solution, origin, &mut path)
+                    .ok_or_else(|| missing_regressors(1))?;
+                let variances = iterated_variances(&self.design, sub, &chosen.solution, max_h);
+                Ok(horizons
+                    .iter()
+                    .map(|&h| self.step(chosen, path[h - 1], variances[h - 1]))
+                    .collect::<Vec<_>>())
+            })();
+            return match one {
+                Ok(steps) => steps.into_iter().map(Ok).collect(),
+                Err(p) => horizons.iter().map(|_| Err(p.clone())).collect(),
+            };
+        }
+        horizons
+            .iter()
+            .map(|&h| {
+                let i = self
+                    .horizons
+                    .iter()
+                    .position(|&x| x == h)
+                    .ok_or_else(|| problem(h, "not a horizon of the experiment"))?;
+                let inputs = self.inputs(i);
+                let chosen = fit.estimators[i]
+                    .at(&inputs, end)
+                    .map_err(|e| problem(h, e))?;
+                let x = inputs
+                    .rows
+                    .at(origin)
+                    .ok_or_else(|| missing_regressors(h))?;
+                let sub = &self.subs[chosen.index];
+                Ok(self.step(
+                    chosen,
+                    predict(&chosen.solution, x, &sub.columns),
+                    chosen.solution.sigma2(),
+                ))
+            })
+            .collect()
+    }
+
+    fn residuals(&self, fit: &mut LinearFit, end: usize) -> Vec<f64> {
+        let inputs = self.inputs(0);
+        let est = &mut fit.estimators[0];
+        if self.residuals_at_outlook {
+            let _ = est.at(&inputs, self.design.n);
+        }
+        let Ok(c) = est.at(&inputs, end) else {
+            return Vec::new();
+        };
+        let c = Chosen {
             index: c.index,
             solution: c.solution.clone(),
-        });
-        let residuals = residuals
-            .map(|c| est.residuals(end, &c))
-            .unwrap_or_default();
-        let look = carry_on.then(|| match est.at(n) {
-            Ok(chosen) => {
-                let sub = &subs[chosen.index];
-                let ok = iterate_path(design, sub, &chosen.solution, n, &mut path).is_some();
-                let variances = iterated_variances(design, sub, &chosen.solution, max_h);
-                horizons
-                    .iter()
-                    .map(|&h| OutlookRow {
-                        horizon: h,
-                        forecast: ok.then(|| path[h - 1]),
-                        variance: ok.then(|| variances[h - 1]),
-                    })
-                    .collect()
-            }
-            Err(_) => horizons
-                .iter()
-                .map(|&h| OutlookRow {
-                    horizon: h,
-                    forecast: None,
-                    variance: None,
-                })
-                .collect(),
-        });
-        return Ok((out, residuals, look));
+        };
+        est.residuals(&inputs, end, &c)
     }
-    let mut residuals = Vec::new();
-    let mut look = Vec::new();
-    out.reserve(horizons.iter().map(|&h| sched.origins(h).count()).sum());
-    for (hi, &h) in horizons.iter().enumerate() {
-        let rows = Rows::build(design, h);
-        let mut est = Estimator::new(&rows, design.y, h, sched.window(), &subs, criterion);
-        for origin in sched.origins(h) {
-            let end = sched.estimation_end(origin);
-            let chosen = est.at(end).map_err(|e| problem(h, origin, e))?;
-            let sub = &subs[chosen.index];
-            let x = rows
-                .at(origin)
-                .ok_or_else(|| missing_regressors(h, origin))?;
-            out.push(ForecastRow {
-                horizon: h,
-                origin,
-                forecast: predict(&chosen.solution, x, &sub.columns),
-                is_mse: Some(chosen.solution.mse()),
-                is_var: Some(chosen.solution.sst / chosen.solution.rows as f64),
-                variance: Some(chosen.solution.sigma2()),
-                order: record_order.then_some(sub.order),
-            });
-        }
-        if carry_on {
-            let mut x = vec![0.0; rows.k];
-            look.push(match est.at(n) {
-                Ok(chosen) if design.row(n, h, &mut x) => OutlookRow {
-                    horizon: h,
-                    forecast: Some(predict(&chosen.solution, &x, &subs[chosen.index].columns)),
-                    variance: Some(chosen.solution.sigma2()),
-                },
-                _ => OutlookRow {
-                    horizon: h,
-                    forecast: None,
-                    variance: None,
-                },
-            });
-        }
-        if hi == 0 {
-            let end = sched.estimation_end(*sched.origins(h).end());
-            if let Ok(c) = est.at(end) {
-                let c = Chosen {
-                    index: c.index,
-                    solution: c.solution.clone(),
-                };
-                residuals = est.residuals(end, &c);
-            }
-        }
-    }
-    Ok((out, residuals, carry_on.then_some(look)))
 }
 
 /// Iterated forecasts ŷ_{T+1..T+H} of an ar design from origin T: earlier
@@ -564,61 +584,6 @@ fn iterate_path(
         path[step - 1] = f;
     }
     Some(())
-}
-
-/// Forecasts beyond the data from origin N with E = N.
-pub fn outlook(
-    design: &Design,
-    family: &Family,
-    window: Option<usize>,
-    horizons: &[usize],
-    iterated: bool,
-) -> Vec<OutlookRow> {
-    let n = design.n;
-    let (subs, criterion) = submodels(family, design);
-    let none = |h| OutlookRow {
-        horizon: h,
-        forecast: None,
-        variance: None,
-    };
-    if iterated {
-        let rows = Rows::build(design, 1);
-        let mut est = Estimator::new(&rows, design.y, 1, window, &subs, criterion);
-        let max_h = horizons.iter().copied().max().unwrap_or(1);
-        let mut path = vec![0.0; max_h];
-        let Ok(chosen) = est.at(n) else {
-            return horizons.iter().map(|&h| none(h)).collect();
-        };
-        let sub = &subs[chosen.index];
-        if iterate_path(design, sub, &chosen.solution, n, &mut path).is_none() {
-            return horizons.iter().map(|&h| none(h)).collect();
-        }
-        let variances = iterated_variances(design, sub, &chosen.solution, max_h);
-        return horizons
-            .iter()
-            .map(|&h| OutlookRow {
-                horizon: h,
-                forecast: Some(path[h - 1]),
-                variance: Some(variances[h - 1]),
-            })
-            .collect();
-    }
-    horizons
-        .iter()
-        .map(|&h| {
-            let rows = Rows::build(design, h);
-            let mut est = Estimator::new(&rows, design.y, h, window, &subs, criterion);
-            let mut x = vec![0.0; rows.k];
-            match est.at(n) {
-                Ok(chosen) if design.row(n, h, &mut x) => OutlookRow {
-                    horizon: h,
-                    forecast: Some(predict(&chosen.solution, &x, &subs[chosen.index].columns)),
-                    variance: Some(chosen.solution.sigma2()),
-                },
-                _ => none(h),
-            }
-        })
-        .collect()
 }
 
 #[cfg(test)]

@@ -1,16 +1,30 @@
-//! models: one file per family. Each family turns a cell's target data and
-//! scheme into forecast rows; shared least squares lives in `crate::linalg`.
+//! models: one file per family behind one trait, and the registry that
+//! maps a checked candidate to its model.
+//!
+//! A [`Model`] estimates on a window ([`Model::fit`]), moves its estimate
+//! to a later estimation end ([`Model::update`]: rows folded into a
+//! factorisation, or a likelihood warm-started at the previous optimum),
+//! forecasts from an origin at the horizons asked for, and gives the
+//! residuals of its estimation. The origin loop that drives it under every
+//! scheme is written once, in `backtest`. Shared numerics (least squares,
+//! the optimisers, autocovariances) live in `numerics`.
+//!
+//! Adding a family: its file here, one arm in [`visit`], and its entry in
+//! `spec` (grammar and id).
 
-pub mod arima;
-pub mod combination;
-pub mod linear;
-pub mod simple;
-pub mod smoothing;
-pub mod statespace;
+pub(crate) mod arima;
+pub(crate) mod benchmarks;
+pub(crate) mod combination;
+pub(crate) mod likelihood;
+pub(crate) mod linear;
+pub(crate) mod smoothing;
+
+use crate::plan::Schedule;
+use crate::spec::{Experiment, Family, MultiStep, TargetData};
 
 /// One forecast of a backtest.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct ForecastRow {
+pub(crate) struct ForecastRow {
     pub horizon: usize,
     /// Origin position T.
     pub origin: usize,
@@ -29,7 +43,7 @@ pub struct ForecastRow {
 /// The order chosen by a candidate with `select`, written like its id's
 /// brackets: `3` for ar(3), `2,1` for ardl(2,1), `1,1,0` for arima(1,1,0).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Order {
+pub(crate) enum Order {
     Ar(usize),
     Ardl(usize, usize),
     Arima(usize, usize, usize),
@@ -47,40 +61,175 @@ impl std::fmt::Display for Order {
 
 /// One forecast beyond the data, from origin N.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct OutlookRow {
+pub(crate) struct OutlookRow {
     pub horizon: usize,
     /// None when an input it needs is not in the data (a known-ahead predictor's future value).
     pub forecast: Option<f64>,
     pub variance: Option<f64>,
 }
 
+/// A forecast from one origin at one horizon, as a model gives it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(crate) struct Step {
+    pub forecast: f64,
+    /// Forecast variance σ̂_h² for Gaussian intervals, if the family has one.
+    pub variance: Option<f64>,
+    /// In-sample MSE of the estimation that produced it (SPEC §4), if any.
+    pub is_mse: Option<f64>,
+    /// Σ(y − ȳ)²/rows of that estimation's dependent values (for in-sample R²).
+    pub is_var: Option<f64>,
+    /// The order chosen inside the training window, for candidates with `select`.
+    pub order: Option<Order>,
+}
+
+/// Why a forecast could not be made: the horizon of the estimation that
+/// failed (an iterated model's one-step regression reports horizon 1) and why.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct Problem {
+    pub horizon: usize,
+    pub message: String,
+}
+
 /// Why a cell could not be estimated at some origin.
 #[derive(Debug, Clone, PartialEq)]
-pub struct EstimationProblem {
+pub(crate) struct EstimationProblem {
     pub horizon: usize,
     pub origin: usize,
     pub message: String,
 }
 
-/// Where a cell's estimation sample ends at each origin and how it is cut.
-#[derive(Debug, Clone, Copy)]
-pub struct Schedule<'a> {
-    pub scheme: &'a crate::spec::Scheme,
-    pub first_origin: usize,
-    pub n: usize,
+/// One family's estimation and forecasts for one target (positions 1..N of
+/// SPEC §4). `window` is the scheme's rolling window (regression rows for
+/// least squares, observations otherwise; see `plan`), `None` for all.
+pub(crate) trait Model {
+    /// An estimate, and whatever it needs to forecast (factorisations, filter states).
+    type Fit;
+    /// Whether a failed estimation makes the experiment invalid (SPEC §4:
+    /// least squares and the benchmarks, found by `check`), rather than
+    /// being recorded in the cell (likelihood families keep their previous
+    /// estimate, or fail the cell when there is none).
+    const STRICT: bool;
+    /// Whether [`Model::update`] to E = N carries the backtest's estimate
+    /// on to the outlook exactly as a fresh fit would give it (cheaper).
+    const CARRIES: bool = false;
+
+    /// Estimate with estimation end `end`, from scratch.
+    fn fit(&self, end: usize, window: Option<usize>) -> Result<Self::Fit, String>;
+
+    /// Move the estimate to a later estimation end. On failure the estimate
+    /// is left as it was.
+    fn update(&self, fit: &mut Self::Fit, end: usize, window: Option<usize>) -> Result<(), String> {
+        *fit = self.fit(end, window)?;
+        Ok(())
+    }
+
+    /// Forecasts from `origin` at each of `horizons` (ascending), one result each.
+    fn forecast(
+        &self,
+        fit: &mut Self::Fit,
+        origin: usize,
+        horizons: &[usize],
+    ) -> Vec<Result<Step, Problem>>;
+
+    /// In-sample residuals of the estimate at estimation end `end`, in time order
+    /// (one-step where the family has them; the shortest horizon's regression
+    /// for direct least squares), for residual diagnostics.
+    fn residuals(&self, fit: &mut Self::Fit, end: usize) -> Vec<f64>;
+
+    /// The order an estimate chose, for families that select one.
+    fn order(&self, _fit: &Self::Fit) -> Option<Order> {
+        None
+    }
 }
 
-impl Schedule<'_> {
-    pub fn origins(&self, horizon: usize) -> std::ops::RangeInclusive<usize> {
-        crate::plan::origins(self.scheme, self.first_origin, self.n, horizon)
-    }
-    pub fn estimation_end(&self, origin: usize) -> usize {
-        crate::plan::estimation_end(self.scheme, self.first_origin, origin)
-    }
-    pub fn window(&self) -> Option<usize> {
-        match self.scheme.kind {
-            crate::spec::SchemeKind::Rolling => self.scheme.window,
-            _ => None,
+/// What runs a model: the registry hands it the concrete model of a cell.
+pub(crate) trait Visitor {
+    type Out;
+    fn visit<M: Model>(self, model: &M) -> Self::Out;
+}
+
+/// Everything a model of a cell is built from.
+pub(crate) struct CellModel<'a> {
+    pub exp: &'a Experiment,
+    pub family: &'a Family,
+    pub target: &'a TargetData,
+    pub schedule: Schedule<'a>,
+    /// Whether this cell also gives the outlook.
+    pub with_outlook: bool,
+}
+
+/// The registry: build the model of a cell and hand it to `visitor`.
+/// `Err` when the candidate cannot be modelled on these data at all
+/// (e.g. a seasonal model on data without a season); combinations are
+/// formed from their members' rows and have no model.
+pub(crate) fn visit<V: Visitor>(cell: &CellModel, visitor: V) -> Result<V::Out, String> {
+    let exp = cell.exp;
+    Ok(match cell.family {
+        Family::Naive | Family::Mean | Family::Drift | Family::SeasonalNaive => visitor.visit(
+            &benchmarks::Benchmark::new(cell.family, cell.target, exp.season_length())?,
+        ),
+        Family::Ar { .. }
+        | Family::Ardl { .. }
+        | Family::ArSelect { .. }
+        | Family::ArdlSelect { .. } => {
+            let iterated = exp.multi_step == MultiStep::Iterated
+                && matches!(cell.family, Family::Ar { .. } | Family::ArSelect { .. });
+            visitor.visit(&linear::Linear::new(cell, iterated)?)
         }
-    }
+        Family::Arima { p, d, q, drift } => visitor.visit(&likelihood::OnSeries {
+            y: &cell.target.y,
+            model: likelihood::Arima {
+                order: arima::ArimaOrder {
+                    p: *p,
+                    d: *d,
+                    q: *q,
+                    drift: *drift,
+                },
+            },
+        }),
+        Family::ArimaSelect {
+            criterion,
+            ps,
+            d,
+            qs,
+            drift,
+        } => visitor.visit(&likelihood::OnSeries {
+            y: &cell.target.y,
+            model: likelihood::ArimaSelect {
+                criterion: *criterion,
+                orders: ps
+                    .iter()
+                    .flat_map(|&p| {
+                        qs.iter().map(move |&q| arima::ArimaOrder {
+                            p,
+                            d: *d,
+                            q,
+                            drift: *drift,
+                        })
+                    })
+                    .collect(),
+            },
+        }),
+        Family::Smoothing { trend, season } => visitor.visit(&likelihood::OnSeries {
+            y: &cell.target.y,
+            model: likelihood::Smoothing {
+                spec: smoothing::spec_of(
+                    *trend,
+                    *season,
+                    exp.season_length(),
+                    exp.frequency.name(),
+                )?,
+            },
+        }),
+        Family::Combination { .. } => return Err("a combination is formed from its members".into()),
+    })
+}
+
+/// Whether a family is estimated by maximum likelihood (its failures are
+/// recorded per cell; `check` does not run it).
+pub(crate) fn is_likelihood(family: &Family) -> bool {
+    matches!(
+        family,
+        Family::Arima { .. } | Family::ArimaSelect { .. } | Family::Smoothing { .. }
+    )
 }

@@ -90,6 +90,7 @@
 //! warm-start from a fixed predecessor (the previous origin of the same
 //! cell), never from whichever fit happened to finish first.
 
+use crate::spec::{SmoothingSeason, SmoothingTrend};
 use std::fmt;
 
 const PAR_LO: f64 = 1e-4;
@@ -97,34 +98,42 @@ const PAR_HI: f64 = 1.0 - 1e-4;
 const PHI_LO: f64 = 0.8;
 const PHI_HI: f64 = 0.98;
 
-/// Trend component.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
-pub enum TrendKind {
-    None,
-    Additive,
-    Damped,
-}
-
-/// Seasonal component.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
-pub enum SeasonKind {
-    None,
-    Additive,
-    Multiplicative,
+/// The model of a `smoothing(trend,season)` candidate on data whose season
+/// length is `season` (None for annual and index data).
+pub(crate) fn spec_of(
+    trend: SmoothingTrend,
+    season: SmoothingSeason,
+    season_length: Option<usize>,
+    frequency: &str,
+) -> Result<EtsSpec, String> {
+    let period = match (season, season_length) {
+        (SmoothingSeason::None, m) => m.unwrap_or(1),
+        (_, Some(m)) => m,
+        (_, None) => {
+            return Err(format!(
+                "a seasonal smoothing model needs seasonal data; {frequency} data have no season length"
+            ))
+        }
+    };
+    EtsSpec::new(trend, season, period).map_err(|e| e.to_string())
 }
 
 /// Which ETS(A,·,·) model. `period` is the season length m (4 quarterly,
 /// 12 monthly, 52 weekly, 7 daily); it is ignored without a season.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
-pub struct EtsSpec {
-    pub trend: TrendKind,
-    pub season: SeasonKind,
+pub(crate) struct EtsSpec {
+    pub trend: SmoothingTrend,
+    pub season: SmoothingSeason,
     pub period: usize,
 }
 
 impl EtsSpec {
     /// A validated spec: a seasonal model needs `period` ≥ 2.
-    pub fn new(trend: TrendKind, season: SeasonKind, period: usize) -> Result<Self, EtsError> {
+    pub(crate) fn new(
+        trend: SmoothingTrend,
+        season: SmoothingSeason,
+        period: usize,
+    ) -> Result<Self, EtsError> {
         let spec = EtsSpec {
             trend,
             season,
@@ -134,7 +143,7 @@ impl EtsSpec {
         Ok(spec)
     }
 
-    pub fn validate(&self) -> Result<(), EtsError> {
+    pub(crate) fn validate(&self) -> Result<(), EtsError> {
         if self.has_season() && self.period < 2 {
             return Err(EtsError::InvalidSpec {
                 reason: format!(
@@ -146,16 +155,16 @@ impl EtsSpec {
         Ok(())
     }
 
-    pub fn has_trend(&self) -> bool {
-        self.trend != TrendKind::None
+    pub(crate) fn has_trend(&self) -> bool {
+        self.trend != SmoothingTrend::None
     }
 
-    pub fn has_season(&self) -> bool {
-        self.season != SeasonKind::None
+    pub(crate) fn has_season(&self) -> bool {
+        self.season != SmoothingSeason::None
     }
 
     fn multiplicative(&self) -> bool {
-        self.season == SeasonKind::Multiplicative
+        self.season == SmoothingSeason::Multiplicative
     }
 
     /// Number of seasonal slots in the filter (1 without a season).
@@ -168,14 +177,14 @@ impl EtsSpec {
     }
 
     /// Free smoothing parameters (α, β, γ, φ as present).
-    pub fn n_smoothing(&self) -> usize {
+    pub(crate) fn n_smoothing(&self) -> usize {
         1 + usize::from(self.has_trend())
             + usize::from(self.has_season())
-            + usize::from(self.trend == TrendKind::Damped)
+            + usize::from(self.trend == SmoothingTrend::Damped)
     }
 
     /// Free initial states: level, trend, m − 1 seasonal states.
-    pub fn n_initial(&self) -> usize {
+    pub(crate) fn n_initial(&self) -> usize {
         1 + usize::from(self.has_trend())
             + if self.has_season() {
                 self.period - 1
@@ -185,13 +194,13 @@ impl EtsSpec {
     }
 
     /// Free parameters: smoothing parameters plus free initial states (σ² not counted).
-    pub fn n_params(&self) -> usize {
+    pub(crate) fn n_params(&self) -> usize {
         self.n_smoothing() + self.n_initial()
     }
 
     /// Fewest observations `estimate` accepts: `n_params + 4`, and two full
     /// seasons for a seasonal model.
-    pub fn min_obs(&self) -> usize {
+    pub(crate) fn min_obs(&self) -> usize {
         let base = self.n_params() + 4;
         if self.has_season() {
             base.max(2 * self.period)
@@ -201,16 +210,16 @@ impl EtsSpec {
     }
 
     /// `ETS(A,Ad,M)` style name.
-    pub fn short_name(&self) -> String {
+    pub(crate) fn short_name(&self) -> String {
         let t = match self.trend {
-            TrendKind::None => "N",
-            TrendKind::Additive => "A",
-            TrendKind::Damped => "Ad",
+            SmoothingTrend::None => "N",
+            SmoothingTrend::Additive => "A",
+            SmoothingTrend::Damped => "Ad",
         };
         let s = match self.season {
-            SeasonKind::None => "N",
-            SeasonKind::Additive => "A",
-            SeasonKind::Multiplicative => "M",
+            SmoothingSeason::None => "N",
+            SmoothingSeason::Additive => "A",
+            SmoothingSeason::Multiplicative => "M",
         };
         format!("ETS(A,{t},{s})")
     }
@@ -220,7 +229,7 @@ impl EtsSpec {
 /// neutral values: β = 0 and φ = 1 and `trend0` = 0 without a trend, φ = 1 for
 /// an undamped trend, γ = 0 and `season0` empty without a season.
 #[derive(Debug, Clone, PartialEq)]
-pub struct EtsParams {
+pub(crate) struct EtsParams {
     pub alpha: f64,
     pub beta: f64,
     pub gamma: f64,
@@ -235,7 +244,7 @@ pub struct EtsParams {
 
 /// An estimated model.
 #[derive(Debug, Clone, PartialEq)]
-pub struct EtsFit {
+pub(crate) struct EtsFit {
     pub spec: EtsSpec,
     pub params: EtsParams,
     /// Sum of squared one-step errors over the estimation sample.
@@ -255,14 +264,14 @@ pub struct EtsFit {
 
 impl EtsFit {
     /// AIC = −2·loglik + 2·(n_params + 1), σ² counted.
-    pub fn aic(&self) -> f64 {
+    pub(crate) fn aic(&self) -> f64 {
         -2.0 * self.loglik + 2.0 * (self.n_params as f64 + 1.0)
     }
 }
 
 /// Why a model could not be estimated or forecast.
 #[derive(Debug, Clone, PartialEq)]
-pub enum EtsError {
+pub(crate) enum EtsError {
     /// The spec itself is invalid (a season of length < 2).
     InvalidSpec { reason: String },
     /// Fewer observations than [`EtsSpec::min_obs`].
@@ -321,7 +330,7 @@ impl Smooth {
             beta: if spec.has_trend() { p.beta } else { 0.0 },
             gamma: if spec.has_season() { p.gamma } else { 0.0 },
             phi: match spec.trend {
-                TrendKind::Damped => p.phi,
+                SmoothingTrend::Damped => p.phi,
                 _ => 1.0,
             },
         }
@@ -798,7 +807,7 @@ fn smooth_from_u(spec: &EtsSpec, u: &[f64]) -> Smooth {
         i += 1;
     }
     let mut phi = 1.0;
-    if spec.trend == TrendKind::Damped {
+    if spec.trend == SmoothingTrend::Damped {
         phi = map(u[i], PHI_LO, PHI_HI);
     }
     Smooth {
@@ -822,7 +831,7 @@ fn u_from_params(spec: &EtsSpec, p: &EtsParams) -> Option<Vec<f64>> {
     if spec.has_season() {
         u.push(inv(p.gamma / (1.0 - alpha), PAR_LO, PAR_HI));
     }
-    if spec.trend == TrendKind::Damped {
+    if spec.trend == SmoothingTrend::Damped {
         u.push(inv(p.phi, PHI_LO, PHI_HI));
     }
     Some(u)
@@ -1018,7 +1027,7 @@ fn start_grid(spec: &EtsSpec) -> Vec<Vec<f64>> {
     } else {
         &[f64::NAN]
     };
-    let phis: &[f64] = if spec.trend == TrendKind::Damped {
+    let phis: &[f64] = if spec.trend == SmoothingTrend::Damped {
         &[0.85, 0.95]
     } else {
         &[f64::NAN]
@@ -1067,7 +1076,11 @@ fn check_data(spec: &EtsSpec, y: &[f64]) -> Result<(), EtsError> {
 /// example the previous origin's parameters in an expanding or rolling window)
 /// is tried first; an incompatible warm start (wrong season length) only
 /// contributes what fits.
-pub fn estimate(y: &[f64], spec: &EtsSpec, warm: Option<&EtsParams>) -> Result<EtsFit, EtsError> {
+pub(crate) fn estimate(
+    y: &[f64],
+    spec: &EtsSpec,
+    warm: Option<&EtsParams>,
+) -> Result<EtsFit, EtsError> {
     spec.validate()?;
     let n = y.len();
     if n < spec.min_obs() {
@@ -1193,7 +1206,7 @@ pub fn estimate(y: &[f64], spec: &EtsSpec, warm: Option<&EtsParams>) -> Result<E
 
 /// One-step prediction errors of `params` over `y` (`y[0]` is the first period
 /// after the initial states).
-pub fn one_step_errors(
+pub(crate) fn one_step_errors(
     spec: &EtsSpec,
     params: &EtsParams,
     y: &[f64],
@@ -1234,7 +1247,7 @@ fn check_params(spec: &EtsSpec, p: &EtsParams) -> Result<(), EtsError> {
 /// Run the filter with the fit's parameters through all of `y` (which starts
 /// at the estimation sample's first period and may extend past its end) and
 /// forecast h = 1..=max_h beyond its end: (mean, variance) per horizon.
-pub fn forecast(fit: &EtsFit, y: &[f64], max_h: usize) -> Result<Vec<(f64, f64)>, EtsError> {
+pub(crate) fn forecast(fit: &EtsFit, y: &[f64], max_h: usize) -> Result<Vec<(f64, f64)>, EtsError> {
     let spec = &fit.spec;
     spec.validate()?;
     check_params(spec, &fit.params)?;
@@ -1354,15 +1367,15 @@ mod tests {
 
     fn spec_of(case: &Value) -> EtsSpec {
         let trend = match case["trend"].as_str().unwrap() {
-            "none" => TrendKind::None,
-            "additive" => TrendKind::Additive,
-            "damped" => TrendKind::Damped,
+            "none" => SmoothingTrend::None,
+            "additive" => SmoothingTrend::Additive,
+            "damped" => SmoothingTrend::Damped,
             t => panic!("trend {t}"),
         };
         let season = match case["season"].as_str().unwrap() {
-            "none" => SeasonKind::None,
-            "additive" => SeasonKind::Additive,
-            "multiplicative" => SeasonKind::Multiplicative,
+            "none" => SmoothingSeason::None,
+            "additive" => SmoothingSeason::Additive,
+            "multiplicative" => SmoothingSeason::Multiplicative,
             s => panic!("season {s}"),
         };
         EtsSpec::new(trend, season, case["period"].as_u64().unwrap() as usize).unwrap()
@@ -1604,14 +1617,22 @@ mod tests {
     #[test]
     fn linear_variances_equal_closed_forms() {
         let (alpha, beta, gamma, phi, m, s2) = (0.6, 0.15, 0.2, 0.9, 4usize, 2.5);
-        for trend in [TrendKind::None, TrendKind::Additive, TrendKind::Damped] {
-            for season in [SeasonKind::None, SeasonKind::Additive] {
+        for trend in [
+            SmoothingTrend::None,
+            SmoothingTrend::Additive,
+            SmoothingTrend::Damped,
+        ] {
+            for season in [SmoothingSeason::None, SmoothingSeason::Additive] {
                 let spec = EtsSpec::new(trend, season, m).unwrap();
                 let sm = Smooth {
                     alpha,
                     beta: if spec.has_trend() { beta } else { 0.0 },
                     gamma: if spec.has_season() { gamma } else { 0.0 },
-                    phi: if trend == TrendKind::Damped { phi } else { 1.0 },
+                    phi: if trend == SmoothingTrend::Damped {
+                        phi
+                    } else {
+                        1.0
+                    },
                 };
                 let st = State {
                     l: 10.0,
@@ -1632,21 +1653,23 @@ mod tests {
                         - (b * p * (1.0 - p.powf(h))) / ((1.0 - p).powi(2) * (1.0 - p * p))
                             * (2.0 * a * (1.0 - p * p) + b * p * (1.0 + 2.0 * p - p.powf(h)));
                     let rel = match (trend, season) {
-                        (TrendKind::None, SeasonKind::None) => 1.0 + a * a * (h - 1.0),
-                        (TrendKind::Additive, SeasonKind::None) => {
+                        (SmoothingTrend::None, SmoothingSeason::None) => 1.0 + a * a * (h - 1.0),
+                        (SmoothingTrend::Additive, SmoothingSeason::None) => {
                             1.0 + (h - 1.0)
                                 * (a * a + a * b * h + b * b * h / 6.0 * (2.0 * h - 1.0))
                         }
-                        (TrendKind::Damped, SeasonKind::None) => 1.0 + a * a * (h - 1.0) + damped,
-                        (TrendKind::None, SeasonKind::Additive) => {
+                        (SmoothingTrend::Damped, SmoothingSeason::None) => {
+                            1.0 + a * a * (h - 1.0) + damped
+                        }
+                        (SmoothingTrend::None, SmoothingSeason::Additive) => {
                             1.0 + a * a * (h - 1.0) + g * k * (2.0 * a + g)
                         }
-                        (TrendKind::Additive, SeasonKind::Additive) => {
+                        (SmoothingTrend::Additive, SmoothingSeason::Additive) => {
                             1.0 + (h - 1.0)
                                 * (a * a + a * b * h + b * b / 6.0 * h * (2.0 * h - 1.0))
                                 + g * k * (2.0 * a + g + b * mm * (k + 1.0))
                         }
-                        (TrendKind::Damped, SeasonKind::Additive) => {
+                        (SmoothingTrend::Damped, SmoothingSeason::Additive) => {
                             1.0 + a * a * (h - 1.0)
                                 + g * k * (2.0 * a + g)
                                 + damped
@@ -1766,19 +1789,19 @@ mod tests {
     fn typed_errors() {
         let y: Vec<f64> = (0..40).map(|t| 10.0 + (t as f64 * 0.7).sin()).collect();
         assert!(matches!(
-            EtsSpec::new(TrendKind::None, SeasonKind::Additive, 1),
+            EtsSpec::new(SmoothingTrend::None, SmoothingSeason::Additive, 1),
             Err(EtsError::InvalidSpec { .. })
         ));
         let bad = EtsSpec {
-            trend: TrendKind::None,
-            season: SeasonKind::Multiplicative,
+            trend: SmoothingTrend::None,
+            season: SmoothingSeason::Multiplicative,
             period: 1,
         };
         assert!(matches!(
             estimate(&y, &bad, None),
             Err(EtsError::InvalidSpec { .. })
         ));
-        let aam = EtsSpec::new(TrendKind::Additive, SeasonKind::Additive, 12).unwrap();
+        let aam = EtsSpec::new(SmoothingTrend::Additive, SmoothingSeason::Additive, 12).unwrap();
         assert!(matches!(
             estimate(&y[..20], &aam, None),
             Err(EtsError::TooShort {
@@ -1786,7 +1809,7 @@ mod tests {
                 got: 20
             })
         ));
-        let anm = EtsSpec::new(TrendKind::None, SeasonKind::Multiplicative, 4).unwrap();
+        let anm = EtsSpec::new(SmoothingTrend::None, SmoothingSeason::Multiplicative, 4).unwrap();
         let mut z = y.clone();
         z[5] = 0.0;
         assert!(matches!(
@@ -1795,7 +1818,7 @@ mod tests {
         ));
         let mut w = y.clone();
         w[3] = f64::NAN;
-        let ann = EtsSpec::new(TrendKind::None, SeasonKind::None, 1).unwrap();
+        let ann = EtsSpec::new(SmoothingTrend::None, SmoothingSeason::None, 1).unwrap();
         assert!(matches!(
             estimate(&w, &ann, None),
             Err(EtsError::NonFinite { .. })
@@ -1836,11 +1859,15 @@ mod tests {
             let (a, b) = (u(), u());
             (-2.0 * a.ln()).sqrt() * (2.0 * std::f64::consts::PI * b).cos()
         };
-        for trend in [TrendKind::None, TrendKind::Additive, TrendKind::Damped] {
+        for trend in [
+            SmoothingTrend::None,
+            SmoothingTrend::Additive,
+            SmoothingTrend::Damped,
+        ] {
             for season in [
-                SeasonKind::None,
-                SeasonKind::Additive,
-                SeasonKind::Multiplicative,
+                SmoothingSeason::None,
+                SmoothingSeason::Additive,
+                SmoothingSeason::Multiplicative,
             ] {
                 let spec = EtsSpec::new(trend, season, 7).unwrap();
                 let mult = spec.multiplicative();
@@ -1848,13 +1875,19 @@ mod tests {
                     alpha: 0.3,
                     beta: if spec.has_trend() { 0.05 } else { 0.0 },
                     gamma: if spec.has_season() { 0.1 } else { 0.0 },
-                    phi: if trend == TrendKind::Damped { 0.9 } else { 1.0 },
+                    phi: if trend == SmoothingTrend::Damped {
+                        0.9
+                    } else {
+                        1.0
+                    },
                     level0: 100.0,
                     trend0: if spec.has_trend() { 0.5 } else { 0.0 },
                     season0: match season {
-                        SeasonKind::None => vec![],
-                        SeasonKind::Additive => vec![-6.0, -3.0, 0.0, 1.0, 2.0, 3.0, 3.0],
-                        SeasonKind::Multiplicative => vec![0.94, 0.97, 1.0, 1.01, 1.02, 1.03, 1.03],
+                        SmoothingSeason::None => vec![],
+                        SmoothingSeason::Additive => vec![-6.0, -3.0, 0.0, 1.0, 2.0, 3.0, 3.0],
+                        SmoothingSeason::Multiplicative => {
+                            vec![0.94, 0.97, 1.0, 1.01, 1.02, 1.03, 1.03]
+                        }
                     },
                 };
                 let sm = Smooth::of(&truth, &spec);
@@ -1899,13 +1932,13 @@ mod tests {
 
     #[test]
     fn spec_bookkeeping() {
-        let s = EtsSpec::new(TrendKind::Damped, SeasonKind::Multiplicative, 12).unwrap();
+        let s = EtsSpec::new(SmoothingTrend::Damped, SmoothingSeason::Multiplicative, 12).unwrap();
         assert_eq!(s.short_name(), "ETS(A,Ad,M)");
         assert_eq!(s.n_smoothing(), 4);
         assert_eq!(s.n_initial(), 13);
         assert_eq!(s.n_params(), 17);
         assert_eq!(s.min_obs(), 24); // max(17 + 4, 2·12)
-        let n = EtsSpec::new(TrendKind::None, SeasonKind::None, 1).unwrap();
+        let n = EtsSpec::new(SmoothingTrend::None, SmoothingSeason::None, 1).unwrap();
         assert_eq!(n.n_params(), 2);
         assert_eq!(n.min_obs(), 6);
     }

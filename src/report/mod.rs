@@ -6,10 +6,10 @@
 //! templates in `templates/` lay it out (`render.rs`). Charts are inline SVG
 //! built in `charts.rs`.
 
-pub mod charts;
-pub mod manifest;
-pub mod render;
-pub mod tables;
+pub(crate) mod charts;
+pub(crate) mod render;
+
+use crate::results::tables;
 
 use charts::{
     Chart, Dot, LegendItem, LegendKey, Line, Look, Rule, Span, Whisker, XAxis, BENCHMARK, FAINT,

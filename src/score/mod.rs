@@ -7,6 +7,9 @@ pub mod comparison;
 pub mod diagnostics;
 pub mod stability;
 
+#[cfg(test)]
+mod reference_metrics_tests;
+
 use crate::backtest::CellOutput;
 use crate::plan::Cell;
 use crate::spec::{Experiment, Metric, MetricColumn, Scheme};

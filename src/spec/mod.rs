@@ -9,6 +9,9 @@ pub mod model;
 pub mod period;
 pub mod yaml;
 
+#[cfg(test)]
+mod property_tests;
+
 pub use model::*;
 
 use crate::error::{nearest, Diagnostic, Error, Location, Result};

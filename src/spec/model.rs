@@ -392,7 +392,7 @@ impl Family {
     }
 }
 
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 pub enum SmoothingTrend {
     None,
     Additive,
@@ -406,7 +406,7 @@ impl SmoothingTrend {
     }
 }
 
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 pub enum SmoothingSeason {
     None,
     Additive,

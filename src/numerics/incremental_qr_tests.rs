@@ -7,8 +7,8 @@
 //! generated here; no expected number comes from it. Tolerance as required:
 //! 1e-10 × max(1, |coefficient|).
 
+use super::lsq::LeastSquares;
 use nalgebra::{DMatrix, DVector};
-use outturn::linalg::LeastSquares;
 
 fn series(n: usize) -> (Vec<f64>, Vec<f64>) {
     let mut state = 99u64;

@@ -5,9 +5,9 @@
 //! construction of the contract: invalid input is an `Error::Invalid`,
 //! never a panic, and a valid experiment never yields a non-finite forecast.
 
-use outturn::error::Error;
-use outturn::spec::data::read_table;
-use outturn::spec::period::{format_label, parse_label, Frequency, LabelStyle};
+use crate::error::Error;
+use crate::spec::data::read_table;
+use crate::spec::period::{format_label, parse_label, Frequency, LabelStyle};
 use proptest::prelude::*;
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicUsize, Ordering};
@@ -85,7 +85,7 @@ fn config(cases: u32) -> ProptestConfig {
 fn load_never_panics(dir: &Path, yaml: &str, csv: &str) -> Result<(), TestCaseError> {
     std::fs::write(dir.join("exp.yaml"), yaml).expect("write");
     std::fs::write(dir.join("data.csv"), csv).expect("write");
-    let result = std::panic::catch_unwind(|| outturn::spec::load(&dir.join("exp.yaml")));
+    let result = std::panic::catch_unwind(|| crate::spec::load(&dir.join("exp.yaml")));
     let _ = std::fs::remove_dir_all(dir);
     match result {
         Err(_) => Err(TestCaseError::fail(format!(
@@ -223,7 +223,7 @@ proptest! {
     /// Any text at all: the YAML layer returns a tree or a positioned error.
     #[test]
     fn any_text_parses_or_fails_cleanly(text in "\\PC{0,200}") {
-        if let Err(e) = outturn::spec::yaml::parse(&text) {
+        if let Err(e) = crate::spec::yaml::parse(&text) {
             prop_assert!(e.line >= 1 && e.column >= 1);
         }
     }
@@ -331,7 +331,7 @@ proptest! {
         let dir = scratch("cell");
         std::fs::write(dir.join("exp.yaml"), BASE).expect("write");
         std::fs::write(dir.join("data.csv"), &csv).expect("write");
-        let result = outturn::spec::load(&dir.join("exp.yaml"));
+        let result = crate::spec::load(&dir.join("exp.yaml"));
         let _ = std::fs::remove_dir_all(&dir);
         if let Err(Error::Invalid(diags)) = result {
             for d in diags {
@@ -381,7 +381,7 @@ proptest! {
             Frequency::Quarterly => year * 4 + step % 4,
             Frequency::Monthly => year * 12 + step % 12,
             Frequency::Weekly | Frequency::Daily => {
-                outturn::spec::period::days_from_civil(year, 1, 1) + step
+                crate::spec::period::days_from_civil(year, 1, 1) + step
             }
         };
         let label = format_label(freq, ordinal, style);
@@ -409,14 +409,13 @@ proptest! {
         let dir = scratch("values");
         std::fs::write(dir.join("exp.yaml"), BASE).expect("write");
         std::fs::write(dir.join("data.csv"), csv_with(&values)).expect("write");
-        let opts = outturn::RunOptions {
+        let opts = crate::run::RunOptions {
             out: Some(dir.join("res")),
             jobs: Some(1),
-            quiet: true,
             shard: None,
             no_cache: true,
         };
-        let result = std::panic::catch_unwind(|| outturn::run(&dir.join("exp.yaml"), &opts));
+        let result = std::panic::catch_unwind(|| crate::run::run(&dir.join("exp.yaml"), &opts, &crate::run::Silent));
         let forecasts = std::fs::read_to_string(dir.join("res/forecasts.csv")).ok();
         let _ = std::fs::remove_dir_all(&dir);
         match result {

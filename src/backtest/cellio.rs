@@ -13,7 +13,7 @@
 //! ```
 //! `-` stands for an undefined value.
 
-use crate::backtest::CellOutput;
+use super::CellOutput;
 use crate::models::{ForecastRow, Order, OutlookRow};
 
 fn num(v: f64) -> String {

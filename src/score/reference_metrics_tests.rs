@@ -14,8 +14,8 @@
 //! - ψ-weights: statsmodels 0.14.4 `ArmaProcess(np.r_[1, -phi], [1]).arma2ma(count)`,
 //!   recorded by the same generator in `psi_weights.json`.
 
-use outturn::models::linear::psi_weights;
-use outturn::score::{
+use crate::models::linear::psi_weights;
+use crate::score::{
     coverage, crps, crps_gaussian, interval, interval_score, normal_quantile, Errors,
 };
 use std::path::PathBuf;

@@ -2,9 +2,10 @@
 //! compare every output byte for byte — all but the manifest's `run`
 //! section (SPEC §1, §5). Refuses when an input's hash changed.
 
+use super::merge::load_recorded;
+use super::{RunContext, Silent};
 use crate::error::{Error, Location, Result};
-use crate::shard::load_recorded;
-use crate::{plan, RunContext};
+use crate::plan;
 use serde_json::Value;
 use std::path::Path;
 
@@ -82,19 +83,20 @@ pub fn verify(dir: &Path, jobs: Option<usize>) -> Result<Verdict> {
         .to_string();
     let exp = load_recorded(&manifest, &mpath, &exp_sha, &data_sha)?;
     let cells = plan::cells(&exp);
-    let (pool, threads) = crate::thread_pool(jobs)?;
+    let (pool, threads) = super::thread_pool(jobs)?;
     let ctx = RunContext {
         started,
-        started_unix: crate::now_unix(),
+        started_unix: super::now_unix(),
         threads,
         shard: "verify".into(),
         durable: false,
+        progress: &Silent,
     };
     // Rerun into a scratch folder that is never swapped in.
     let scratch = std::env::temp_dir().join(format!(
         "outturn-verify-{}-{}",
         std::process::id(),
-        crate::now_unix()
+        super::now_unix()
     ));
     std::fs::create_dir_all(&scratch)
         .map_err(|e| Error::io(format!("cannot create {}", scratch.display()), e))?;
@@ -105,7 +107,7 @@ pub fn verify(dir: &Path, jobs: Option<usize>) -> Result<Verdict> {
         }
     }
     let _cleanup = Cleanup(scratch.clone());
-    crate::produce_run(&exp, &cells, None, &|| {}, &scratch, &ctx, &pool)?;
+    super::produce_run(&exp, &cells, None, &scratch, &ctx, &pool)?;
     let mut files: Vec<String> = std::fs::read_dir(&scratch)
         .map_err(|e| Error::io("cannot list the rerun", e))?
         .flatten()

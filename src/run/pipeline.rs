@@ -10,13 +10,15 @@
 //! A single run, a merge of shards and `verify` all produce folders here, so
 //! they write the same bytes.
 
+use super::RunContext;
 use crate::backtest::{self, CellOutput};
 use crate::error::{Error, Result};
 use crate::plan;
-use crate::report::{self, manifest::OutputFile};
+use crate::report;
+use crate::results::manifest::{self, OutputFile};
+use crate::results::tables;
 use crate::score;
 use crate::spec::Experiment;
-use crate::RunContext;
 use sha2::{Digest, Sha256};
 use std::collections::BTreeMap;
 use std::io::Write;
@@ -51,7 +53,7 @@ struct Slice {
     /// the tables exactly as `outturn render` parses a whole folder, and the
     /// target's part of the report built from them.
     report_rows: std::result::Result<(report::Rows, report::TargetPart), String>,
-    cells: Vec<report::manifest::CellFacts>,
+    cells: Vec<manifest::CellFacts>,
     failed: usize,
 }
 
@@ -78,7 +80,7 @@ fn slice(
     // takes some of them over (rayon runs a join in place when none is idle).
     let charted = t < report_targets(exp);
     let forecasts_part = || {
-        let tables = report::tables::forecasts_csv(&sub, &cells, &outputs);
+        let tables = tables::forecasts_csv(&sub, &cells, &outputs);
         let keep = if charted {
             tables.clone()
         } else if t >= report::DETAIL_TARGETS {
@@ -87,34 +89,34 @@ fn slice(
         } else {
             // Beyond the charted targets the report reads the benchmark's
             // forecasts (spans and counts) and where every other series begins.
-            report::tables::forecasts_csv(&sub, &cells, &report_firsts(exp, &cells, &outputs))
+            tables::forecasts_csv(&sub, &cells, &report_firsts(exp, &cells, &outputs))
         };
         (tables, keep)
     };
     let stability_part = || {
         let (stability, fluctuation) = score::stability::rolling(&sub, &errors);
-        let bytes = report::tables::stability_csv(&sub, &stability);
+        let bytes = tables::stability_csv(&sub, &stability);
         let keep = if charted { bytes.clone() } else { Vec::new() };
         (bytes, keep, fluctuation)
     };
     let scores_part = || {
         let scores = score::scores(&sub, &errors);
         let tests = score::comparison::run(&sub, &errors);
-        (report::tables::scores_csv(&sub, &scores), tests)
+        (tables::scores_csv(&sub, &scores), tests)
     };
     let rest_part = || {
         let diagnostics = score::stability::diagnostics(&sub, &cells, &outputs, t == 0);
-        let series = report::tables::series_csv(&sub, t == 0);
+        let series = tables::series_csv(&sub, t == 0);
         let keep = if t < report::DETAIL_TARGETS {
             series.clone()
         } else {
             header(&series).to_vec()
         };
         (
-            report::tables::diagnostics_csv(&diagnostics),
+            tables::diagnostics_csv(&diagnostics),
             series,
             keep,
-            report::tables::outlook_csv(&sub, &cells, &outputs),
+            tables::outlook_csv(&sub, &cells, &outputs),
         )
     };
     let (
@@ -129,7 +131,7 @@ fn slice(
     let cells_facts = cells
         .iter()
         .zip(&outputs)
-        .map(|(c, o)| report::manifest::CellFacts {
+        .map(|(c, o)| manifest::CellFacts {
             id: c.id.clone(),
             failure: o.failure.clone(),
             fallbacks: o.fallbacks,
@@ -140,7 +142,7 @@ fn slice(
     let tables = [
         forecasts_bytes,
         scores_bytes,
-        report::tables::tests_csv(&sub, &tests),
+        tables::tests_csv(&sub, &tests),
         stability_bytes,
         diagnostics_bytes,
         series,
@@ -279,7 +281,7 @@ struct Written {
     /// The report's parts of the targets appended so far.
     report_parts: Vec<report::TargetPart>,
     experiment_text: String,
-    cell_facts: Vec<report::manifest::CellFacts>,
+    cell_facts: Vec<manifest::CellFacts>,
     failed: usize,
 }
 
@@ -584,15 +586,13 @@ pub fn produce(
             durable: ctx.durable,
         });
     }
-    crate::timing(ctx.started, "experiment loaded, tables start");
+    ctx.step("experiment loaded, tables start");
     let grid = report::Grid::of(exp);
     let first = exp.for_target(0);
     let parts = report::PartContext::new(
         grid.clone(),
         &exp.source_text,
-        Box::new(move || {
-            report::tables::diagnostics_csv(&score::stability::predictor_diagnostics(&first))
-        }),
+        Box::new(move || tables::diagnostics_csv(&score::stability::predictor_diagnostics(&first))),
     );
     let mut w = Written {
         streams,
@@ -622,7 +622,7 @@ pub fn produce(
         cell_facts,
         failed,
     } = w;
-    crate::timing(ctx.started, "tables streamed");
+    ctx.step("tables streamed");
     let mut outputs = Vec::new();
     let mut files = Vec::new();
     for s in streams {
@@ -652,13 +652,13 @@ pub fn produce(
         }
         Ok(())
     });
-    let facts = report::manifest::RunFacts {
+    let facts = manifest::RunFacts {
         seconds: ctx.started.elapsed().as_secs_f64(),
         threads: ctx.threads,
-        host: crate::host(),
+        host: super::host(),
         started_unix: ctx.started_unix,
         shard: ctx.shard.clone(),
-        experiment_path: crate::absolute(&exp.source_path),
+        experiment_path: super::absolute(&exp.source_path),
     };
     // Reports: rendered from the tables and the manifest's deterministic
     // part, exactly as `outturn render` does from the folder.
@@ -667,14 +667,13 @@ pub fn produce(
     // The manifest is built once: without its run section it is what the
     // report reads (outputs so far hold only the tables); the run section
     // and the reports' entries are added before it is written.
-    let mut core =
-        report::manifest::manifest_value(exp, &cell_facts, &templates_used, &outputs, &facts);
+    let mut core = manifest::manifest_value(exp, &cell_facts, &templates_used, &outputs, &facts);
     let run_section = core.as_object_mut().and_then(|m| m.remove("run"));
     let rows = match report_rows {
         Some(rows) => rows.map_err(Error::Run)?,
         None => report::Rows::parse(&report::Tables::new(), &grid).map_err(Error::Run)?,
     };
-    crate::timing(ctx.started, "rows ready");
+    ctx.step("rows ready");
     let folder = report::Folder::assemble(grid, rows, experiment_text, &BTreeMap::new(), &core);
     // On this thread: handing the work to a pool thread that has gone to
     // sleep costs the time it takes to wake (milliseconds on a virtual machine).
@@ -684,23 +683,23 @@ pub fn produce(
     for (name, bytes) in &rendered {
         outputs.push(write_file(dir, name, bytes, ctx.durable)?);
     }
-    crate::timing(ctx.started, "reports written");
+    ctx.step("reports written");
     let mut manifest = core;
-    manifest["outputs"] = report::manifest::outputs_value(&outputs);
+    manifest["outputs"] = manifest::outputs_value(&outputs);
     if let Some(run) = run_section {
         manifest["run"] = run;
     }
     write_file(
         dir,
         "manifest.json",
-        &report::manifest::to_bytes(&manifest),
+        &manifest::to_bytes(&manifest),
         ctx.durable,
     )?;
-    crate::timing(ctx.started, "manifest written");
+    ctx.step("manifest written");
     syncing
         .join()
         .map_err(|_| Error::Run("syncing the tables stopped unexpectedly".into()))??;
-    crate::timing(ctx.started, "reports and manifest");
+    ctx.step("reports and manifest");
     Ok(Produced {
         failed_cells: failed,
     })

@@ -1,11 +1,13 @@
 //! plan: the grid expanded into cells (target × candidate × scheme, all
-//! horizons; SPEC §6) with stable ids, and each scheme's origins and
-//! estimation ends (SPEC §4).
+//! horizons; SPEC §6) with stable ids and shards, and each scheme's
+//! schedule (SPEC §4): its origins, estimation ends and estimation windows.
+//! Every stage asks here where a cell sits and which rows an estimation may
+//! use; nothing else restates those rules.
 
 use crate::spec::{Experiment, Scheme, SchemeKind};
 
 #[derive(Debug, Clone, PartialEq, Eq)]
-pub struct Cell {
+pub(crate) struct Cell {
     pub target: usize,
     pub candidate: usize,
     pub scheme: usize,
@@ -14,7 +16,7 @@ pub struct Cell {
 }
 
 /// Cells in output order: targets as listed, candidates as expanded, schemes as listed.
-pub fn cells(exp: &Experiment) -> Vec<Cell> {
+pub(crate) fn cells(exp: &Experiment) -> Vec<Cell> {
     let mut out = Vec::with_capacity(exp.targets.len() * exp.candidates.len() * exp.schemes.len());
     for (t, target) in exp.targets.iter().enumerate() {
         for (c, cand) in exp.candidates.iter().enumerate() {
@@ -31,16 +33,32 @@ pub fn cells(exp: &Experiment) -> Vec<Cell> {
     out
 }
 
+/// The position of a cell in [`cells`]' order.
+pub(crate) fn cell_index(
+    exp: &Experiment,
+    target: usize,
+    candidate: usize,
+    scheme: usize,
+) -> usize {
+    (target * exp.candidates.len() + candidate) * exp.schemes.len() + scheme
+}
+
+/// The cells of target `t` in plan order (candidates × schemes).
+pub(crate) fn target_range(exp: &Experiment, t: usize) -> std::ops::Range<usize> {
+    let per = exp.candidates.len() * exp.schemes.len();
+    t * per..(t + 1) * per
+}
+
 /// The shard (1-based, of `count`) a cell belongs to: a stable hash of its id
 /// (the first eight bytes of its SHA-256), so shards do not depend on order.
-pub fn shard_of(cell: &Cell, count: usize) -> usize {
-    let hex = crate::spec::sha256_hex(cell.id.as_bytes());
+pub(crate) fn shard_of(cell: &Cell, count: usize) -> usize {
+    let hex = crate::digest::sha256_hex(cell.id.as_bytes());
     let h = u64::from_str_radix(&hex[..16], 16).unwrap_or(0);
     (h % count.max(1) as u64) as usize + 1
 }
 
 /// Origins of a scheme at horizon h: T0..=N−h, or T0 alone with `origins: first`.
-pub fn origins(
+pub(crate) fn origins(
     scheme: &Scheme,
     first_origin: usize,
     n: usize,
@@ -56,7 +74,7 @@ pub fn origins(
 
 /// Estimation end E at origin T (SPEC §4): T0 for fixed, else
 /// T0 + k·⌊(T − T0)/k⌋ with k = refit_every (k = 1 gives E = T).
-pub fn estimation_end(scheme: &Scheme, first_origin: usize, origin: usize) -> usize {
+pub(crate) fn estimation_end(scheme: &Scheme, first_origin: usize, origin: usize) -> usize {
     match scheme.kind {
         SchemeKind::Fixed => first_origin,
         SchemeKind::Expanding | SchemeKind::Rolling => {
@@ -66,12 +84,74 @@ pub fn estimation_end(scheme: &Scheme, first_origin: usize, origin: usize) -> us
     }
 }
 
-/// First position of the estimation sample of observation-based models
-/// (mean, drift): 1, or the start of the last `window` observations.
-pub fn sample_start(scheme: &Scheme, estimation_end: usize) -> usize {
-    match (scheme.kind, scheme.window) {
-        (SchemeKind::Rolling, Some(w)) if estimation_end > w => estimation_end - w + 1,
+/// The rolling window of a scheme (None: the estimation sample starts at the first position).
+fn rolling_window(scheme: &Scheme) -> Option<usize> {
+    match scheme.kind {
+        SchemeKind::Rolling => scheme.window,
+        _ => None,
+    }
+}
+
+/// First position of an estimation sample of observations ending at `end`:
+/// 1, or the first of the last `window` observations (SPEC §4: mean, drift,
+/// arima and smoothing keep the last `window` observations).
+pub(crate) fn window_start(end: usize, window: Option<usize>) -> usize {
+    match window {
+        Some(w) if end > w => end - w + 1,
         _ => 1,
+    }
+}
+
+/// First position of the estimation sample of observation-based models
+/// (mean, drift, arima, smoothing) under a scheme.
+pub(crate) fn sample_start(scheme: &Scheme, estimation_end: usize) -> usize {
+    window_start(estimation_end, rolling_window(scheme))
+}
+
+/// The regression rows of a window (SPEC §4: least squares keeps the last
+/// `window` rows, all of them while fewer exist): of the origins
+/// `last, last − 1, …, 1` whose row exists, the latest `window`, in time order.
+pub(crate) fn last_rows(last: usize, window: usize, exists: impl Fn(usize) -> bool) -> Vec<usize> {
+    let mut chosen = Vec::with_capacity(window);
+    let mut s = last;
+    while s >= 1 && chosen.len() < window {
+        if exists(s) {
+            chosen.push(s);
+        }
+        s -= 1;
+    }
+    chosen.reverse();
+    chosen
+}
+
+/// The window of the outlook estimation (E = N): the last `window` rows when
+/// every scheme is rolling (the first scheme's window), else everything.
+pub(crate) fn outlook_window(exp: &Experiment) -> Option<usize> {
+    if exp.schemes.iter().all(|s| s.kind == SchemeKind::Rolling) {
+        exp.schemes[0].window
+    } else {
+        None
+    }
+}
+
+/// Where a cell's estimation sample ends at each origin and how it is cut.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct Schedule<'a> {
+    pub scheme: &'a Scheme,
+    pub first_origin: usize,
+    pub n: usize,
+}
+
+impl Schedule<'_> {
+    pub fn origins(&self, horizon: usize) -> std::ops::RangeInclusive<usize> {
+        origins(self.scheme, self.first_origin, self.n, horizon)
+    }
+    pub fn estimation_end(&self, origin: usize) -> usize {
+        estimation_end(self.scheme, self.first_origin, origin)
+    }
+    /// The rolling window (rows or observations), if the scheme rolls.
+    pub fn window(&self) -> Option<usize> {
+        rolling_window(self.scheme)
     }
 }
 

@@ -1,21 +1,17 @@
-//! Likelihood-based families (smoothing, arima) under the backtest schemes.
-//! One small trait — estimate on a sample, forecast from the end of a longer
-//! series — and one schedule loop shared by both:
-//! - fixed: estimate once on 1..=T0, then only filter up to each origin;
-//! - expanding: re-estimate at every estimation end, warm-started from the
-//!   previous estimate;
-//! - rolling: estimate on the last `window` observations.
-//!
-//! When a re-estimation fails (no convergence, non-finite likelihood) and an
-//! earlier estimate exists, that estimate is kept and the fallback counted;
-//! the count is recorded per cell in the manifest and the report. When the
-//! first estimation fails the cell fails as a whole and is recorded, never
-//! dropped silently.
+//! The likelihood families (smoothing, arima) as [`Model`]s. Each family
+//! estimates on a sample of observations and forecasts from the end of a
+//! longer series; [`OnSeries`] adapts that to the origin loop:
+//! - a fit holds the estimate and the first position of its sample (the
+//!   last `window` observations under a rolling scheme, else position 1);
+//! - an update re-estimates warm-started from the previous estimate and,
+//!   when that fails, keeps the previous estimate (the loop counts it);
+//! - a forecast filters from the sample's start to the origin (beyond the
+//!   estimation sample under a fixed scheme) and forecasts beyond it.
 
-use super::{ForecastRow, Order, OutlookRow, Schedule};
+use super::{Model, Order, Problem, Step};
 
-/// A model fitted by maximum likelihood.
-pub trait Likelihood {
+/// A model estimated by maximum likelihood on a sample of observations.
+pub(crate) trait Likelihood {
     type Fit: Clone;
     /// Estimate on `y` (the estimation sample), optionally warm-started.
     fn estimate(&self, y: &[f64], warm: Option<&Self::Fit>) -> Result<Self::Fit, String>;
@@ -41,125 +37,80 @@ pub trait Likelihood {
     }
 }
 
-/// What a likelihood cell produced.
-#[derive(Debug, Clone, Default)]
-pub struct Outcome {
-    pub forecasts: Vec<ForecastRow>,
-    /// One-step errors of the last estimation, for residual diagnostics.
-    pub residuals: Vec<f64>,
-    /// Origins at which re-estimation failed and the previous estimate was kept.
-    pub fallbacks: usize,
-    /// Why the cell failed as a whole, if it did.
-    pub failure: Option<String>,
+/// A likelihood model on one target's series.
+pub(crate) struct OnSeries<'a, L> {
+    pub y: &'a [f64],
+    pub model: L,
 }
 
-pub fn backtest<M: Likelihood>(
-    model: &M,
-    y: &[f64],
-    sched: &Schedule,
-    horizons: &[usize],
-) -> Outcome {
-    let mut out = Outcome::default();
-    let max_h = horizons.iter().copied().max().unwrap_or(1);
-    let first = sched.first_origin;
-    let last = *sched.origins(horizons[0]).end();
-    // (fit, first position of its estimation sample)
-    let mut current: Option<(M::Fit, usize)> = None;
-    let mut last_end = None;
-    let mut per_h: Vec<Vec<ForecastRow>> = vec![Vec::new(); horizons.len()];
-    for origin in first..=last {
-        let wanted: Vec<usize> = (0..horizons.len())
-            .filter(|&i| sched.origins(horizons[i]).contains(&origin))
-            .collect();
-        if wanted.is_empty() {
-            continue;
-        }
-        let end = sched.estimation_end(origin);
-        if last_end != Some(end) {
-            let start = crate::plan::sample_start(sched.scheme, end);
-            let warm = current.as_ref().map(|(f, _)| f);
-            match model.estimate(&y[start - 1..end], warm) {
-                Ok(fit) => current = Some((fit, start)),
-                Err(e) if current.is_some() => {
-                    let _ = e;
-                    out.fallbacks += 1;
-                }
-                Err(e) => {
-                    out.failure = Some(format!(
-                        "estimation failed at the first estimation end (position {end}): {e}"
-                    ));
-                    return out;
-                }
-            }
-            last_end = Some(end);
-        }
-        let Some((fit, start)) = &current else {
-            continue;
-        };
-        match model.forecast(fit, &y[start - 1..origin], max_h) {
-            Ok(path) => {
-                for i in wanted {
-                    let h = horizons[i];
+/// An estimate and the first position of its estimation sample.
+pub(crate) struct SampleFit<F> {
+    fit: F,
+    start: usize,
+}
+
+impl<L: Likelihood> Model for OnSeries<'_, L> {
+    type Fit = SampleFit<L::Fit>;
+    const STRICT: bool = false;
+
+    fn fit(&self, end: usize, window: Option<usize>) -> Result<Self::Fit, String> {
+        let start = crate::plan::window_start(end, window);
+        let fit = self.model.estimate(&self.y[start - 1..end], None)?;
+        Ok(SampleFit { fit, start })
+    }
+
+    fn update(&self, fit: &mut Self::Fit, end: usize, window: Option<usize>) -> Result<(), String> {
+        let start = crate::plan::window_start(end, window);
+        let next = self
+            .model
+            .estimate(&self.y[start - 1..end], Some(&fit.fit))?;
+        *fit = SampleFit { fit: next, start };
+        Ok(())
+    }
+
+    fn forecast(
+        &self,
+        fit: &mut Self::Fit,
+        origin: usize,
+        horizons: &[usize],
+    ) -> Vec<Result<Step, Problem>> {
+        let max_h = horizons.iter().copied().max().unwrap_or(1);
+        match self
+            .model
+            .forecast(&fit.fit, &self.y[fit.start - 1..origin], max_h)
+        {
+            Ok(path) => horizons
+                .iter()
+                .map(|&h| {
                     let (mean, var) = path[h - 1];
-                    per_h[i].push(ForecastRow {
-                        horizon: h,
-                        origin,
+                    Ok(Step {
                         forecast: mean,
-                        is_mse: Some(model.is_mse(fit)),
-                        is_var: None,
                         variance: (var.is_finite() && var >= 0.0).then_some(var),
-                        order: model.order(fit),
-                    });
-                }
-            }
-            Err(e) => {
-                out.failure = Some(format!(
-                    "forecasting failed at origin position {origin}: {e}"
-                ));
-                return out;
-            }
+                        is_mse: Some(self.model.is_mse(&fit.fit)),
+                        is_var: None,
+                        order: self.model.order(&fit.fit),
+                    })
+                })
+                .collect(),
+            Err(message) => horizons
+                .iter()
+                .map(|&h| {
+                    Err(Problem {
+                        horizon: h,
+                        message: message.clone(),
+                    })
+                })
+                .collect(),
         }
     }
-    out.forecasts = per_h.into_iter().flatten().collect();
-    if let (Some((fit, start)), Some(end)) = (&current, last_end) {
-        out.residuals = model.residuals(fit, &y[start - 1..end]);
-    }
-    out
-}
 
-/// Forecasts beyond the data from origin N with E = N (the last `window`
-/// observations when given).
-pub fn outlook<M: Likelihood>(
-    model: &M,
-    y: &[f64],
-    window: Option<usize>,
-    horizons: &[usize],
-) -> Vec<OutlookRow> {
-    let n = y.len();
-    let start = match window {
-        Some(w) if n > w => n - w + 1,
-        _ => 1,
-    };
-    let max_h = horizons.iter().copied().max().unwrap_or(1);
-    let path = model
-        .estimate(&y[start - 1..n], None)
-        .and_then(|fit| model.forecast(&fit, &y[start - 1..n], max_h))
-        .ok();
-    horizons
-        .iter()
-        .map(|&h| {
-            let step = path.as_ref().map(|p| p[h - 1]);
-            OutlookRow {
-                horizon: h,
-                forecast: step.map(|s| s.0),
-                variance: step.and_then(|s| (s.1.is_finite() && s.1 >= 0.0).then_some(s.1)),
-            }
-        })
-        .collect()
+    fn residuals(&self, fit: &mut Self::Fit, end: usize) -> Vec<f64> {
+        self.model.residuals(&fit.fit, &self.y[fit.start - 1..end])
+    }
 }
 
 /// Exponential smoothing through [`super::smoothing`].
-pub struct Smoothing {
+pub(crate) struct Smoothing {
     pub spec: super::smoothing::EtsSpec,
 }
 
@@ -186,7 +137,7 @@ impl Likelihood for Smoothing {
 }
 
 /// arima(p,d,q) through [`super::arima`].
-pub struct Arima {
+pub(crate) struct Arima {
     pub order: super::arima::ArimaOrder,
 }
 
@@ -212,13 +163,13 @@ impl Likelihood for Arima {
 /// training window: every order of the grid is estimated on the same
 /// window (exact likelihood uses all of it) and warm-started from its own
 /// previous estimate.
-pub struct ArimaSelect {
+pub(crate) struct ArimaSelect {
     pub criterion: crate::spec::Criterion,
     pub orders: Vec<super::arima::ArimaOrder>,
 }
 
 #[derive(Clone)]
-pub struct SelectedFit {
+pub(crate) struct SelectedFit {
     fits: Vec<Option<super::arima::ArimaFit>>,
     chosen: usize,
 }

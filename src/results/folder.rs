@@ -436,4 +436,26 @@ mod tests {
         assert_eq!(listing(&dir), vec!["res".to_string()]);
         let _ = std::fs::remove_dir_all(&dir);
     }
+
+    #[test]
+    fn recover_puts_back_or_clears_a_half_swapped_folder() {
+        // A crash after the first step of the two-step swap: the old folder
+        // sits at the `-old` name and there is no target; it is put back.
+        let dir = scratch("recover");
+        let target = dir.join("res");
+        write_folder(&target, &files("one")).unwrap();
+        let old = sibling(&target, "old");
+        std::fs::rename(&target, &old).unwrap();
+        recover(&target);
+        assert_eq!(std::fs::read(target.join("scores.csv")).unwrap(), b"one");
+        assert!(!old.exists());
+        // A crash after the second step: the target is the newer folder and
+        // the `-old` one is removed.
+        std::fs::create_dir(&old).unwrap();
+        std::fs::write(old.join("manifest.json"), b"{}").unwrap();
+        recover(&target);
+        assert!(!old.exists());
+        assert_eq!(std::fs::read(target.join("scores.csv")).unwrap(), b"one");
+        let _ = std::fs::remove_dir_all(&dir);
+    }
 }

@@ -9,7 +9,7 @@
 //! seasonal naive (⌊(h − 1)/m⌋ + 1)·σ̂² with σ̂² the mean squared seasonal
 //! change, all over the estimation sample.
 
-use super::{EstimationProblem, ForecastRow, OutlookRow, Schedule};
+use super::{Model, Problem, Step};
 use crate::spec::{Family, TargetData};
 
 /// A simple family's forecast at origin T for horizon h with estimation
@@ -100,43 +100,88 @@ fn simple_forecast(
     }
 }
 
-pub fn backtest(
-    family: &Family,
-    target: &TargetData,
-    sched: &Schedule,
-    horizons: &[usize],
+/// A benchmark family on one target's series.
+pub(crate) struct Benchmark<'a> {
+    family: &'a Family,
+    y: &'a [f64],
     season: Option<usize>,
-) -> Result<Vec<ForecastRow>, EstimationProblem> {
-    let mut rows = Vec::new();
-    for &h in horizons {
-        for origin in sched.origins(h) {
-            let end = sched.estimation_end(origin);
-            let start = crate::plan::sample_start(sched.scheme, end);
-            let f = simple_forecast(family, &target.y, origin, h, start, end, season).map_err(
-                |message| EstimationProblem {
-                    horizon: h,
-                    origin,
-                    message,
-                },
-            )?;
-            rows.push(ForecastRow {
-                horizon: h,
-                origin,
-                forecast: f.forecast,
-                is_mse: f.is_mse,
-                is_var: matches!(family, Family::Mean).then_some(f.is_mse).flatten(),
-                variance: f.variance,
-                order: None,
-            });
-        }
+}
+
+impl<'a> Benchmark<'a> {
+    pub fn new(
+        family: &'a Family,
+        target: &'a TargetData,
+        season: Option<usize>,
+    ) -> Result<Self, String> {
+        Ok(Benchmark {
+            family,
+            y: &target.y,
+            season,
+        })
     }
-    Ok(rows)
+}
+
+/// The estimation sample a..=E (positions).
+pub(crate) struct Sample {
+    start: usize,
+    end: usize,
+}
+
+impl Model for Benchmark<'_> {
+    type Fit = Sample;
+    const STRICT: bool = true;
+
+    fn fit(&self, end: usize, window: Option<usize>) -> Result<Sample, String> {
+        Ok(Sample {
+            start: crate::plan::window_start(end, window),
+            end,
+        })
+    }
+
+    fn forecast(
+        &self,
+        fit: &mut Sample,
+        origin: usize,
+        horizons: &[usize],
+    ) -> Vec<Result<Step, Problem>> {
+        horizons
+            .iter()
+            .map(|&h| {
+                let f = simple_forecast(
+                    self.family,
+                    self.y,
+                    origin,
+                    h,
+                    fit.start,
+                    fit.end,
+                    self.season,
+                )
+                .map_err(|message| Problem {
+                    horizon: h,
+                    message,
+                })?;
+                Ok(Step {
+                    forecast: f.forecast,
+                    variance: f.variance,
+                    is_mse: f.is_mse,
+                    is_var: matches!(self.family, Family::Mean)
+                        .then_some(f.is_mse)
+                        .flatten(),
+                    order: None,
+                })
+            })
+            .collect()
+    }
+
+    fn residuals(&self, fit: &mut Sample, end: usize) -> Vec<f64> {
+        residuals(self.family, self.y, fit.start, end, self.season)
+    }
 }
 
 /// In-sample residuals of a simple family over the estimation sample a..=E:
 /// one-step changes (naive), deviations from the mean (mean), one-step
 /// residuals net of the slope (drift), seasonal changes (seasonal naive).
-pub fn residuals(
+fn residuals(
     family: &Family,
     y: &[f64],
     start: usize,
@@ -163,33 +208,6 @@ pub fn residuals(
         },
         _ => Vec::new(),
     }
-}
-
-/// Forecasts beyond the data from origin N with E = N (the last `window`
-/// observations when `window` is given).
-pub fn outlook(
-    family: &Family,
-    target: &TargetData,
-    window: Option<usize>,
-    horizons: &[usize],
-    season: Option<usize>,
-) -> Vec<OutlookRow> {
-    let n = target.n;
-    let start = match window {
-        Some(w) if n > w => n - w + 1,
-        _ => 1,
-    };
-    horizons
-        .iter()
-        .map(|&h| {
-            let f = simple_forecast(family, &target.y, n, h, start, n, season).ok();
-            OutlookRow {
-                horizon: h,
-                forecast: f.map(|f| f.forecast),
-                variance: f.and_then(|f| f.variance),
-            }
-        })
-        .collect()
 }
 
 #[cfg(test)]

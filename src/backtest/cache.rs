@@ -8,10 +8,11 @@
 //! key and a checksum of the body and are validated on read; anything that
 //! does not validate is ignored and recomputed.
 
-use crate::backtest::{outlook_window, CellOutput};
-use crate::cellio;
+use super::{cellio, CellOutput};
+use crate::digest::sha256_hex;
+use crate::plan::outlook_window;
 use crate::plan::Cell;
-use crate::spec::{sha256_hex, Experiment};
+use crate::spec::Experiment;
 use std::path::{Path, PathBuf};
 
 pub struct Cache {

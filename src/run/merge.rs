@@ -4,59 +4,16 @@
 //! one experiment are all present exactly once, rebuilds every cell's output
 //! in plan order, and finalizes exactly as a single run does.
 
+use super::{pipeline, RunContext};
+use crate::backtest::cellio;
 use crate::backtest::{is_computed, CellOutput};
 use crate::error::{Error, Location, Result};
 use crate::plan::{self, Cell};
+use crate::results::folder as output;
+use crate::results::shard::grid_digest;
 use crate::spec::{self, sha256_hex, Experiment};
-use crate::{cellio, output, pipeline, RunContext};
-use serde_json::{json, Value};
+use serde_json::Value;
 use std::path::{Path, PathBuf};
-
-/// A digest of the grid: every cell id in plan order.
-fn grid_digest(cells: &[Cell]) -> String {
-    let ids: Vec<&str> = cells.iter().map(|c| c.id.as_str()).collect();
-    sha256_hex(ids.join("\n").as_bytes())
-}
-
-pub fn shard_files(
-    exp: &Experiment,
-    cells: &[Cell],
-    selected: &[usize],
-    outputs: &[CellOutput],
-    (k, n): (usize, usize),
-    ctx: &RunContext,
-) -> Vec<(String, Vec<u8>)> {
-    let mut text = String::new();
-    for (&i, out) in selected.iter().zip(outputs) {
-        cellio::write_cell(&cells[i].id, out, &mut text);
-    }
-    let manifest = json!({
-        "shard_of": {
-            "experiment": exp.name,
-            "experiment_sha256": sha256_hex(exp.source_text.as_bytes()),
-            "data_sha256": exp.data_bytes_sha256,
-            "tool_version": env!("CARGO_PKG_VERSION"),
-            "grid_sha256": grid_digest(cells),
-            "shard": k,
-            "count": n,
-        },
-        "cells": selected.iter().map(|&i| cells[i].id.clone()).collect::<Vec<_>>(),
-        "outputs": [{"file": "cells.txt", "sha256": sha256_hex(text.as_bytes())}],
-        "run": {
-            "started_unix": ctx.started_unix,
-            "seconds": ctx.started.elapsed().as_secs_f64(),
-            "threads": ctx.threads,
-            "shard": ctx.shard,
-            "experiment_path": crate::absolute(&exp.source_path),
-        },
-    });
-    let mut m = serde_json::to_vec_pretty(&manifest).unwrap_or_default();
-    m.push(b'\n');
-    vec![
-        ("cells.txt".into(), text.into_bytes()),
-        ("manifest.json".into(), m),
-    ]
-}
 
 fn invalid(path: &Path, msg: impl Into<String>) -> Error {
     Error::invalid(
@@ -227,13 +184,14 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<usize> {
         shards,
         pending: std::collections::HashMap::new(),
     });
-    let (pool, threads) = crate::thread_pool(None)?;
+    let (pool, threads) = super::thread_pool(None)?;
     let ctx = RunContext {
         started,
-        started_unix: crate::now_unix(),
+        started_unix: super::now_unix(),
         threads,
         shard: format!("merged {count}"),
         durable: true,
+        progress: &super::Silent,
     };
     let per = exp.candidates.len() * exp.schemes.len();
     let source = |t: usize| -> Result<Vec<CellOutput>> {

@@ -1,0 +1,356 @@
+//! backtest: the origin loop, once for every family, and the cells of a
+//! plan run through it in parallel. A cell returns its forecast rows (and,
+//! for the first scheme, the outlook rows); it never writes files. Results
+//! come back in plan order whatever the thread count. Combinations are
+//! formed afterwards from their members' rows (SPEC §6). Finished cells go
+//! to the resume cache (`cache`) in the lossless text of `cellio`.
+
+pub(crate) mod cache;
+pub(crate) mod cellio;
+
+use crate::error::{Diagnostic, Error, Location, Result};
+use crate::models::{
+    self, combination, CellModel, EstimationProblem, ForecastRow, Model, OutlookRow, Problem,
+};
+use crate::plan::{self, Cell, Schedule};
+use crate::run::Progress;
+use crate::spec::{Experiment, Family};
+use rayon::prelude::*;
+
+#[derive(Debug, Clone, Default)]
+pub(crate) struct CellOutput {
+    pub forecasts: Vec<ForecastRow>,
+    /// Outlook rows, produced by the cell of the first scheme only.
+    pub outlook: Vec<OutlookRow>,
+    /// Re-estimations that failed and kept the previous estimate (likelihood families).
+    pub fallbacks: usize,
+    /// Why the cell failed as a whole (likelihood families, combinations of failed members).
+    pub failure: Option<String>,
+    /// In-sample residuals of the cell's last estimation (one-step where the
+    /// family has them; the shortest horizon's regression for direct models).
+    pub residuals: Vec<f64>,
+    /// Wall-clock seconds the cell took (recorded only in the manifest's `run` section).
+    pub seconds: f64,
+    /// Whether the output came from the resume cache (recorded only under `run`).
+    pub cached: bool,
+}
+
+/// The origin loop of one cell (SPEC §4): from the first origin to the
+/// last, re-estimate whenever the estimation end moves (fit the first time,
+/// update afterwards) and forecast at every horizon whose origins include
+/// this one; then the residuals of the last estimation and, for the first
+/// scheme, the outlook from N with E = N.
+///
+/// A strict model's failure makes the experiment invalid; the problem
+/// reported is the shortest horizon's first one (the others are not
+/// computed further). A likelihood model whose re-estimation fails keeps its
+/// previous estimate (counted as a fallback); one whose first estimation or
+/// any forecast fails fails the cell.
+struct OriginLoop<'a> {
+    schedule: Schedule<'a>,
+    horizons: &'a [usize],
+    /// Some(window of the outlook estimation) when this cell gives the outlook.
+    outlook: Option<Option<usize>>,
+    n: usize,
+}
+
+impl models::Visitor for OriginLoop<'_> {
+    type Out = std::result::Result<CellOutput, EstimationProblem>;
+
+    fn visit<M: Model>(self, model: &M) -> Self::Out {
+        let sched = self.schedule;
+        let horizons = self.horizons;
+        let window = sched.window();
+        let mut out = CellOutput::default();
+        let mut per_h: Vec<Vec<ForecastRow>> = vec![Vec::new(); horizons.len()];
+        // A strict model's first problem per horizon.
+        let mut problems: Vec<Option<EstimationProblem>> = vec![None; horizons.len()];
+        let first = sched.first_origin;
+        let last = *sched.origins(horizons[0]).end();
+        let mut current: Option<M::Fit> = None;
+        let mut last_end = None;
+        let mut wanted: Vec<usize> = Vec::with_capacity(horizons.len());
+        let mut asked: Vec<usize> = Vec::with_capacity(horizons.len());
+        for origin in first..=last {
+            wanted.clear();
+            wanted.extend((0..horizons.len()).filter(|&i| {
+                problems[i].is_none() && sched.origins(horizons[i]).contains(&origin)
+            }));
+            if wanted.is_empty() {
+                continue;
+            }
+            let end = sched.estimation_end(origin);
+            if last_end != Some(end) {
+                let fitted = match current.as_mut() {
+                    Some(fit) => model.update(fit, end, window),
+                    None => model.fit(end, window).map(|f| current = Some(f)),
+                };
+                if let Err(e) = fitted {
+                    if M::STRICT {
+                        // Strict models report their problems at the forecast.
+                        let p = EstimationProblem {
+                            horizon: 0,
+                            origin,
+                            message: e,
+                        };
+                        return Err(p);
+                    }
+                    if current.is_some() {
+                        out.fallbacks += 1;
+                    } else {
+                        out.failure = Some(format!(
+                            "estimation failed at the first estimation end (position {end}): {e}"
+                        ));
+                        return Ok(out);
+                    }
+                }
+                last_end = Some(end);
+            }
+            let Some(fit) = current.as_mut() else {
+                continue;
+            };
+            asked.clear();
+            asked.extend(wanted.iter().map(|&i| horizons[i]));
+            for (&i, step) in wanted.iter().zip(model.forecast(fit, origin, &asked)) {
+                match step {
+                    Ok(step) => per_h[i].push(ForecastRow {
+                        horizon: horizons[i],
+                        origin,
+                        forecast: step.forecast,
+                        is_mse: step.is_mse,
+                        is_var: step.is_var,
+                        variance: step.variance,
+                        order: step.order,
+                    }),
+                    Err(Problem { horizon, message }) if M::STRICT => {
+                        problems[i] = Some(EstimationProblem {
+                            horizon,
+                            origin,
+                            message,
+                        });
+                    }
+                    Err(Problem { message, .. }) => {
+                        out.failure = Some(format!(
+                            "forecasting failed at origin position {origin}: {message}"
+                        ));
+                        return Ok(out);
+                    }
+                }
+            }
+        }
+        if let Some(p) = problems.into_iter().flatten().next() {
+            return Err(p);
+        }
+        out.forecasts = per_h.into_iter().flatten().collect();
+        if let (Some(fit), Some(end)) = (current.as_mut(), last_end) {
+            out.residuals = model.residuals(fit, end);
+        }
+        if let Some(outlook_window) = self.outlook {
+            let carried = M::CARRIES && outlook_window == window;
+            let fit = match current.as_mut() {
+                Some(fit) if carried => model.update(fit, self.n, window).ok().map(|_| fit),
+                _ => {
+                    current = model.fit(self.n, outlook_window).ok();
+                    current.as_mut()
+                }
+            };
+            out.outlook = match fit {
+                Some(fit) => horizons
+                    .iter()
+                    .zip(model.forecast(fit, self.n, horizons))
+                    .map(|(&h, step)| OutlookRow {
+                        horizon: h,
+                        forecast: step.as_ref().ok().map(|s| s.forecast),
+                        variance: step.ok().and_then(|s| s.variance),
+                    })
+                    .collect(),
+                None => horizons
+                    .iter()
+                    .map(|&h| OutlookRow {
+                        horizon: h,
+                        forecast: None,
+                        variance: None,
+                    })
+                    .collect(),
+            };
+        }
+        Ok(out)
+    }
+}
+
+/// Run one cell: its model through the origin loop.
+pub(crate) fn run_cell(
+    exp: &Experiment,
+    cell: &Cell,
+) -> std::result::Result<CellOutput, EstimationProblem> {
+    let target = &exp.targets[cell.target];
+    let candidate = &exp.candidates[cell.candidate];
+    if matches!(candidate.family, Family::Combination { .. }) {
+        return Ok(CellOutput::default());
+    }
+    let schedule = Schedule {
+        scheme: &exp.schemes[cell.scheme],
+        first_origin: target.first_origins[cell.scheme],
+        n: target.n,
+    };
+    let with_outlook = cell.scheme == 0;
+    let model = CellModel {
+        exp,
+        family: &candidate.family,
+        target,
+        schedule,
+        with_outlook,
+    };
+    let origin_loop = OriginLoop {
+        schedule,
+        horizons: &exp.horizons,
+        outlook: with_outlook.then(|| plan::outlook_window(exp)),
+        n: target.n,
+    };
+    models::visit(&model, origin_loop).map_err(|message| EstimationProblem {
+        horizon: 0,
+        origin: 0,
+        message,
+    })?
+}
+
+/// Turn an estimation problem into a diagnostic that points at the candidate's line.
+pub(crate) fn problem_diagnostic(
+    exp: &Experiment,
+    cell: &Cell,
+    p: &EstimationProblem,
+) -> Diagnostic {
+    let target = &exp.targets[cell.target];
+    let cand = &exp.candidates[cell.candidate];
+    let scheme = &exp.schemes[cell.scheme];
+    let at = if p.origin >= 1 {
+        format!(", origin {}", exp.period_label(target, p.origin))
+    } else {
+        String::new()
+    };
+    let horizon = if p.horizon >= 1 {
+        format!(" (horizon {}{at})", p.horizon)
+    } else {
+        String::new()
+    };
+    let hint = if cand.family.coefficients().is_some() {
+        " — start the scheme later, widen the window, or use fewer lags"
+    } else {
+        ""
+    };
+    Diagnostic::new(
+        Some(Location {
+            file: exp.source_path.clone(),
+            line: Some(cand.line),
+            column: None,
+        }),
+        format!(
+            "candidate {} on target '{}' under scheme {}{horizon}: {}{hint}",
+            cand.id, target.name, scheme.id, p.message
+        ),
+    )
+}
+
+/// Fill the combination cells from their members' rows.
+pub(crate) fn combine(exp: &Experiment, cells: &[Cell], outputs: &mut [CellOutput]) {
+    for i in 0..cells.len() {
+        let cell = &cells[i];
+        let Family::Combination { members, weights } = &exp.candidates[cell.candidate].family
+        else {
+            continue;
+        };
+        let member_cells: Vec<usize> = members
+            .iter()
+            .map(|&m| plan::cell_index(exp, cell.target, m, cell.scheme))
+            .collect();
+        if let Some(&bad) = member_cells.iter().find(|&&j| outputs[j].failure.is_some()) {
+            outputs[i].failure = Some(format!(
+                "member {} failed",
+                exp.candidates[cells[bad].candidate].id
+            ));
+            continue;
+        }
+        let y = &exp.targets[cell.target].y;
+        let rows: Vec<&[ForecastRow]> = member_cells
+            .iter()
+            .map(|&j| outputs[j].forecasts.as_slice())
+            .collect();
+        let result = combination::backtest(*weights, &rows, y, &exp.horizons);
+        let outlook = if cell.scheme == 0 {
+            let looks: Vec<&[OutlookRow]> = member_cells
+                .iter()
+                .map(|&j| outputs[j].outlook.as_slice())
+                .collect();
+            combination::outlook(*weights, &looks, &rows, y, &exp.horizons)
+        } else {
+            Vec::new()
+        };
+        match result {
+            Ok(forecasts) => {
+                outputs[i].forecasts = forecasts;
+                outputs[i].outlook = outlook;
+            }
+            Err(e) => outputs[i].failure = Some(e),
+        }
+    }
+}
+
+/// Whether a cell computes anything itself (combinations are formed from members).
+pub(crate) fn is_computed(exp: &Experiment, cell: &Cell) -> bool {
+    !matches!(
+        exp.candidates[cell.candidate].family,
+        Family::Combination { .. }
+    )
+}
+
+/// Run the selected cells in parallel (reading and filling the cache when
+/// given) and return their outputs in the given order. Estimation problems
+/// of least-squares and benchmark families make the experiment invalid
+/// (SPEC §4) and are reported together.
+pub(crate) fn run_selected(
+    exp: &Experiment,
+    cells: &[Cell],
+    selected: &[usize],
+    cache: Option<&cache::Cache>,
+    progress: &dyn Progress,
+) -> Result<Vec<CellOutput>> {
+    let results: Vec<std::result::Result<CellOutput, EstimationProblem>> = selected
+        .par_iter()
+        .map(|&i| {
+            let cell = &cells[i];
+            let key = cache.map(|_| cache::Cache::key(exp, cell));
+            if let (Some(c), Some(k)) = (cache, &key) {
+                if let Some(mut hit) = c.get(k) {
+                    hit.cached = true;
+                    progress.cell_done();
+                    return Ok(hit);
+                }
+            }
+            let started = std::time::Instant::now();
+            let r = run_cell(exp, cell).map(|mut o| {
+                o.seconds = started.elapsed().as_secs_f64();
+                o
+            });
+            if let (Some(c), Some(k), Ok(out)) = (cache, &key, &r) {
+                c.put(k, &cell.id, out);
+            }
+            progress.cell_done();
+            r
+        })
+        .collect();
+    let mut diags = Vec::new();
+    let mut outputs = Vec::with_capacity(results.len());
+    for (&i, r) in selected.iter().zip(results) {
+        match r {
+            Ok(o) => outputs.push(o),
+            Err(p) => {
+                diags.push(problem_diagnostic(exp, &cells[i], &p));
+                outputs.push(CellOutput::default());
+            }
+        }
+    }
+    if !diags.is_empty() {
+        return Err(Error::Invalid(diags));
+    }
+    Ok(outputs)
+}

@@ -1,0 +1,12 @@
+//! numerics: the arithmetic every stage shares, written once. Least squares
+//! (a QR factor grown row by row, with its Householder counterpart for a
+//! whole design), autocovariances and long-run variances, distribution
+//! functions, information criteria and the optimisers. Nothing here knows
+//! about experiments.
+
+pub(crate) mod lsq;
+
+#[cfg(test)]
+mod incremental_qr_tests;
+#[cfg(test)]
+mod reference_ols_tests;

@@ -1,0 +1,269 @@
+//! run: the commands as thin orchestration over the stages — `run` and
+//! `check` here, `merge`, `verify`, `render`, `draft` and `kinds` in their
+//! own files; `pipeline` turns cell outputs into a results folder for run,
+//! merge and verify alike.
+
+pub(crate) mod draft;
+pub(crate) mod kinds;
+pub(crate) mod merge;
+pub(crate) mod pipeline;
+pub(crate) mod render;
+pub(crate) mod verify;
+
+use crate::backtest::{self, cache, CellOutput};
+use crate::error::{Error, Result};
+use crate::plan;
+use crate::results::{folder, shard};
+use crate::spec::{self, Experiment};
+use std::path::{Path, PathBuf};
+use std::time::Instant;
+
+/// What a run tells whoever watches it. The library never prints: the
+/// command line implements this (a progress bar on a terminal, nothing
+/// under `--quiet`); everything has a default that does nothing.
+pub trait Progress: Sync {
+    /// The run is about to compute `cells` cells.
+    fn begin(&self, _cells: usize) {}
+    /// One more cell finished (computed or taken from the cache).
+    fn cell_done(&self) {}
+    /// The computation is over (the bar can go).
+    fn end(&self) {}
+    /// A step of the run ended `seconds` after it started (developer timing).
+    fn step(&self, _step: &str, _seconds: f64) {}
+}
+
+/// Progress that shows nothing.
+pub struct Silent;
+impl Progress for Silent {}
+
+/// What `check` found: the grid and the work it implies.
+#[derive(Debug, Clone)]
+pub struct CheckSummary {
+    pub experiment: String,
+    pub targets: usize,
+    pub candidates: usize,
+    pub schemes: usize,
+    pub horizons: usize,
+    pub cells: usize,
+    pub forecasts: usize,
+}
+
+fn count_forecasts(exp: &Experiment) -> usize {
+    let mut total = 0;
+    for t in &exp.targets {
+        for (s, scheme) in exp.schemes.iter().enumerate() {
+            for &h in &exp.horizons {
+                total += plan::origins(scheme, t.first_origins[s], t.n, h).count();
+            }
+        }
+    }
+    total * exp.candidates.len()
+}
+
+/// Validate an experiment and its data; estimation problems (too few rows,
+/// singular designs) are found by running the cells in memory. Writes nothing.
+pub fn check(path: &Path) -> Result<CheckSummary> {
+    let exp = spec::load(path)?;
+    let cells = plan::cells(&exp);
+    // Least-squares and benchmark cells are cheap and are where SPEC §4's
+    // "invalid experiment" problems arise; likelihood families are left to the run.
+    let quick: Vec<usize> = (0..cells.len())
+        .filter(|&i| {
+            backtest::is_computed(&exp, &cells[i])
+                && !crate::models::is_likelihood(&exp.candidates[cells[i].candidate].family)
+        })
+        .collect();
+    backtest::run_selected(&exp, &cells, &quick, None, &Silent)?;
+    Ok(CheckSummary {
+        experiment: exp.name.clone(),
+        targets: exp.targets.len(),
+        candidates: exp.candidates.len(),
+        schemes: exp.schemes.len(),
+        horizons: exp.horizons.len(),
+        cells: cells.len(),
+        forecasts: count_forecasts(&exp),
+    })
+}
+
+pub struct RunOptions {
+    pub out: Option<PathBuf>,
+    pub jobs: Option<usize>,
+    /// Run only shard K of N (1-based) and write a shard folder.
+    pub shard: Option<(usize, usize)>,
+    /// Skip the resume cache.
+    pub no_cache: bool,
+}
+
+pub struct RunSummary {
+    pub folder: PathBuf,
+    pub cells: usize,
+    pub forecasts: usize,
+    /// Cells that could not be estimated (recorded in the manifest and the report).
+    pub failed_cells: usize,
+    pub seconds: f64,
+}
+
+/// Default results folder: `results/<experiment>/` relative to the working directory.
+fn default_folder(exp: &Experiment) -> PathBuf {
+    PathBuf::from("results").join(&exp.name)
+}
+
+pub(crate) fn now_unix() -> u64 {
+    std::time::SystemTime::now()
+        .duration_since(std::time::UNIX_EPOCH)
+        .map(|d| d.as_secs())
+        .unwrap_or(0)
+}
+
+pub(crate) fn host() -> String {
+    std::fs::read_to_string("/etc/hostname")
+        .map(|s| s.trim().to_string())
+        .unwrap_or_default()
+}
+
+/// An absolute form of a path, for the manifest's `run` section.
+pub(crate) fn absolute(p: &Path) -> String {
+    std::path::absolute(p)
+        .unwrap_or_else(|_| p.to_path_buf())
+        .to_string_lossy()
+        .to_string()
+}
+
+pub(crate) fn thread_pool(jobs: Option<usize>) -> Result<(rayon::ThreadPool, usize)> {
+    let threads = jobs
+        .unwrap_or_else(|| {
+            std::thread::available_parallelism()
+                .map(|n| n.get())
+                .unwrap_or(1)
+        })
+        .max(1);
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(threads)
+        .build()
+        .map_err(|e| Error::Run(format!("cannot start {threads} worker threads: {e}")))?;
+    Ok((pool, threads))
+}
+
+/// Facts about a run that live only in the manifest's `run` section.
+pub(crate) struct RunContext<'a> {
+    pub started: Instant,
+    pub started_unix: u64,
+    pub threads: usize,
+    pub shard: String,
+    /// Sync every file to disk before returning (a results folder about to
+    /// be swapped in); `verify`'s scratch copy, compared and removed, needs not.
+    pub durable: bool,
+    pub progress: &'a dyn Progress,
+}
+
+impl RunContext<'_> {
+    /// Tell the progress how far into the run a step ended.
+    pub fn step(&self, step: &str) {
+        self.progress
+            .step(step, self.started.elapsed().as_secs_f64());
+    }
+}
+
+/// Stop every write in progress and remove the temporary folders of this
+/// process (call on interrupt, before exiting).
+pub fn interrupted() {
+    folder::cleanup_pending();
+}
+
+pub fn run(path: &Path, opts: &RunOptions, progress: &dyn Progress) -> Result<RunSummary> {
+    let started = Instant::now();
+    let started_unix = now_unix();
+    let exp = spec::load(path)?;
+    let ctx = RunContext {
+        started,
+        started_unix,
+        threads: 0,
+        shard: opts
+            .shard
+            .map(|(k, n)| format!("{k}/{n}"))
+            .unwrap_or_else(|| "1/1".into()),
+        durable: true,
+        progress,
+    };
+    ctx.step("experiment and data read");
+    let folder = opts.out.clone().unwrap_or_else(|| default_folder(&exp));
+    folder::check_target(&folder)?;
+    let cells = plan::cells(&exp);
+    let (pool, threads) = thread_pool(opts.jobs)?;
+    let ctx = RunContext { threads, ..ctx };
+    let selected: Vec<usize> = (0..cells.len())
+        .filter(|&i| backtest::is_computed(&exp, &cells[i]))
+        .filter(|&i| {
+            opts.shard
+                .is_none_or(|(k, n)| plan::shard_of(&cells[i], n) == k)
+        })
+        .collect();
+    let cache = (!opts.no_cache).then(|| cache::Cache::beside(&folder));
+    progress.begin(selected.len());
+    // An invalid experiment writes nothing (SPEC §1): not even cache entries.
+    let take_back = |e: Error| {
+        if let (Error::Invalid(_), Some(c)) = (&e, &cache) {
+            c.take_back();
+        }
+        e
+    };
+    if let Some((k, n)) = opts.shard {
+        let computed = pool
+            .install(|| backtest::run_selected(&exp, &cells, &selected, cache.as_ref(), progress));
+        progress.end();
+        let computed = computed.map_err(take_back)?;
+        let files = shard::shard_files(&exp, &cells, &selected, &computed, (k, n), &ctx);
+        folder::write_folder(&folder, &files)?;
+        return Ok(RunSummary {
+            folder,
+            cells: selected.len(),
+            forecasts: computed.iter().map(|o| o.forecasts.len()).sum(),
+            failed_cells: computed.iter().filter(|o| o.failure.is_some()).count(),
+            seconds: started.elapsed().as_secs_f64(),
+        });
+    }
+    let staging = folder::stage(&folder)?;
+    let produced = produce_run(&exp, &cells, cache.as_ref(), staging.dir(), &ctx, &pool);
+    progress.end();
+    let produced = produced.map_err(take_back)?;
+    staging.commit_synced()?;
+    ctx.step("results folder swapped in");
+    Ok(RunSummary {
+        folder,
+        cells: cells.len(),
+        forecasts: count_forecasts(&exp),
+        failed_cells: produced.failed_cells,
+        seconds: started.elapsed().as_secs_f64(),
+    })
+}
+
+/// How many targets the workers may run ahead of the files: enough to keep
+/// every thread busy, few enough to bound memory.
+pub(crate) fn window_for(threads: usize) -> usize {
+    (threads * 8).max(8)
+}
+
+/// Run every target's cells and write the whole results folder into `dir`.
+pub(crate) fn produce_run(
+    exp: &Experiment,
+    cells: &[plan::Cell],
+    cache: Option<&cache::Cache>,
+    dir: &Path,
+    ctx: &RunContext,
+    pool: &rayon::ThreadPool,
+) -> Result<pipeline::Produced> {
+    let source = |t: usize| -> Result<Vec<CellOutput>> {
+        let range = plan::target_range(exp, t);
+        let selected: Vec<usize> = range
+            .clone()
+            .filter(|&i| backtest::is_computed(exp, &cells[i]))
+            .collect();
+        let computed = backtest::run_selected(exp, cells, &selected, cache, ctx.progress)?;
+        let mut outputs = vec![CellOutput::default(); range.len()];
+        for (i, o) in selected.into_iter().zip(computed) {
+            outputs[i - range.start] = o;
+        }
+        Ok(outputs)
+    };
+    pipeline::produce(exp, &source, dir, ctx, pool, window_for(ctx.threads))
+}
