@@ -6,6 +6,9 @@ with both builds at --jobs 1 and --jobs 2, and every file of every results
 folder must be identical, the manifest aside from its `run` section and the
 tool version. `check` output, exit codes and error messages must agree too.
 
+For the first thread count the new build also re-renders a copy of the
+folder the old build wrote (same bytes) and verifies it (exit 0).
+
 The experiments:
   - the demo (experiments/*.yaml);
   - every experiment the test suite runs, captured with --capture (below);
@@ -219,9 +222,26 @@ def compare_case(before: str, after: str, exp: Path, work: Path, jobs: list) -> 
             if db.get(name) != da.get(name):
                 problems.append(f"--jobs {j}: {name} differs" if name in db and name in da
                                 else f"--jobs {j}: {name} only {'before' if name in db else 'after'}")
-        if db:
-            # Keep the folders of the first thread count for a closer look.
-            pass
+        if j == jobs[0] and cb == 0 and db and "scores.csv" in db:
+            problems += cross_checks(after, work / f"before-j{j}", work)
+    return problems
+
+
+def cross_checks(after: str, before_folder: Path, work: Path) -> list:
+    """The new build re-renders and verifies a folder the old build wrote."""
+    problems = []
+    copy = work / "render-copy"
+    shutil.rmtree(copy, ignore_errors=True)
+    shutil.copytree(before_folder, copy)
+    code, _, err = run_one(after, ["render", str(copy)], work)
+    if code != 0:
+        problems.append(f"render of the earlier folder: exit {code}: {err[:300]}")
+    elif digest_folder(copy) != digest_folder(before_folder):
+        changed = [n for n, h in digest_folder(copy).items() if digest_folder(before_folder).get(n) != h]
+        problems.append(f"render of the earlier folder changed {changed}")
+    code, out, err = run_one(after, ["verify", str(before_folder), "--jobs", "2"], work)
+    if code != 0:
+        problems.append(f"verify of the earlier folder: exit {code}: {(out + err)[:300]}")
     return problems
 
 

@@ -19,9 +19,6 @@ pub(crate) fn sha256_hex(bytes: &[u8]) -> String {
     hex(Sha256::digest(bytes))
 }
 
-/// A running SHA-256, for files hashed as they stream.
-pub(crate) type Hasher = Sha256;
-
 #[cfg(test)]
 mod tests {
     #[test]

@@ -242,7 +242,8 @@ struct DiagnosticRow {
     critical_5: Option<f64>,
 }
 
-/// Settings read back from the stored experiment file, for display.
+/// What the report says about the experiment's settings, from its checked
+/// declaration (never from the YAML text).
 #[derive(Default, Clone)]
 struct Settings {
     title: Option<String>,
@@ -252,9 +253,45 @@ struct Settings {
     rank_by: Option<String>,
     multi_step: String,
     alpha: Option<f64>,
+    /// (column, transform, release lag, known ahead)
     predictors: Vec<(String, String, String, bool)>,
+    /// (name, first, last) as written
     periods: Vec<(String, String, String)>,
-    formats: Option<Vec<String>>,
+}
+
+impl Settings {
+    fn of(d: &crate::spec::Declaration) -> Settings {
+        Settings {
+            title: Some(d.title.clone()),
+            notes: d.notes.clone(),
+            frequency: d.frequency.name().to_string(),
+            transform: d.transform.name().to_string(),
+            rank_by: Some(d.rank_by.name().to_string()),
+            multi_step: match d.multi_step {
+                crate::spec::MultiStep::Direct => "direct",
+                crate::spec::MultiStep::Iterated => "iterated",
+            }
+            .to_string(),
+            alpha: d.tests.confidence_set.as_ref().map(|c| c.alpha),
+            predictors: d
+                .predictors
+                .iter()
+                .map(|p| {
+                    (
+                        p.column.clone(),
+                        p.transform.name().to_string(),
+                        p.release_lag.to_string(),
+                        p.known_ahead,
+                    )
+                })
+                .collect(),
+            periods: d
+                .periods
+                .iter()
+                .map(|p| (p.name.clone(), p.from.clone(), p.to.clone()))
+                .collect(),
+        }
+    }
 }
 
 /// Every table of a results folder, parsed; rows keep the files' order.
@@ -273,134 +310,6 @@ pub struct Folder {
     settings: Settings,
     experiment_text: String,
     table_hashes: Vec<(String, String, usize)>,
-}
-
-fn yaml_scalar(node: &crate::spec::yaml::Node) -> Option<String> {
-    match &node.kind {
-        crate::spec::yaml::Kind::Scalar(s, _) if !node.is_null() => Some(s.clone()),
-        _ => None,
-    }
-}
-
-fn yaml_get<'a>(
-    node: &'a crate::spec::yaml::Node,
-    key: &str,
-) -> Option<&'a crate::spec::yaml::Node> {
-    match &node.kind {
-        crate::spec::yaml::Kind::Map(entries) => entries
-            .iter()
-            .find(|(k, _)| yaml_scalar(k).as_deref() == Some(key))
-            .map(|(_, v)| v),
-        _ => None,
-    }
-}
-
-fn yaml_items(node: Option<&crate::spec::yaml::Node>) -> Vec<&crate::spec::yaml::Node> {
-    match node.map(|n| &n.kind) {
-        Some(crate::spec::yaml::Kind::Seq(items)) => items.iter().collect(),
-        _ => Vec::new(),
-    }
-}
-
-impl Settings {
-    /// Read the display settings from the experiment file; a file that does
-    /// not parse gives defaults (it was checked when the folder was written).
-    fn read(text: &str) -> Settings {
-        let mut s = Settings {
-            frequency: String::new(),
-            transform: "none".into(),
-            multi_step: "direct".into(),
-            ..Default::default()
-        };
-        let Ok(root) = crate::spec::yaml::parse(text) else {
-            return s;
-        };
-        let get = |path: &[&str]| -> Option<String> {
-            let mut node = &root;
-            for key in path {
-                node = yaml_get(node, key)?;
-            }
-            yaml_scalar(node)
-        };
-        s.title = get(&["report", "title"]);
-        s.notes = get(&["notes"]);
-        s.frequency = get(&["data", "frequency"]).unwrap_or_default();
-        s.transform = get(&["transform"]).unwrap_or_else(|| "none".into());
-        s.rank_by = get(&["scoring", "rank_by"]);
-        s.multi_step = get(&["backtest", "multi_step"]).unwrap_or_else(|| "direct".into());
-        s.alpha =
-            get(&["scoring", "tests", "confidence_set", "alpha"]).and_then(|a| a.parse().ok());
-        if s.alpha.is_none()
-            && yaml_get(&root, "scoring")
-                .and_then(|n| yaml_get(n, "tests"))
-                .and_then(|n| yaml_get(n, "confidence_set"))
-                .is_some()
-        {
-            s.alpha = Some(0.1);
-        }
-        for p in yaml_items(yaml_get(&root, "predictors")) {
-            let column = yaml_get(p, "column")
-                .and_then(yaml_scalar)
-                .unwrap_or_default();
-            let transform = yaml_get(p, "transform")
-                .and_then(yaml_scalar)
-                .unwrap_or_else(|| "none".into());
-            let release_lag = yaml_get(p, "release_lag")
-                .and_then(yaml_scalar)
-                .unwrap_or_else(|| "0".into());
-            let known = yaml_get(p, "known_ahead").and_then(yaml_scalar).as_deref() == Some("true");
-            s.predictors.push((column, transform, release_lag, known));
-        }
-        if let Some(crate::spec::yaml::Kind::Map(entries)) = yaml_get(&root, "scoring")
-            .and_then(|n| yaml_get(n, "periods"))
-            .map(|n| &n.kind)
-        {
-            for (k, v) in entries {
-                let items = yaml_items(Some(v));
-                let from = items
-                    .first()
-                    .and_then(|n| yaml_scalar(n))
-                    .unwrap_or_default();
-                let to = items
-                    .get(1)
-                    .and_then(|n| yaml_scalar(n))
-                    .unwrap_or_default();
-                s.periods
-                    .push((yaml_scalar(k).unwrap_or_default(), from, to));
-            }
-        }
-        if let Some(f) = yaml_get(&root, "report").and_then(|n| yaml_get(n, "formats")) {
-            s.formats = Some(
-                yaml_items(Some(f))
-                    .into_iter()
-                    .filter_map(yaml_scalar)
-                    .collect(),
-            );
-        }
-        s
-    }
-}
-
-/// The report formats an experiment file asks for (both when it names none).
-pub fn formats_of(experiment_text: &str) -> Vec<crate::spec::ReportFormat> {
-    use crate::spec::ReportFormat;
-    match Settings::read(experiment_text).formats {
-        None => vec![ReportFormat::Html, ReportFormat::Markdown],
-        Some(list) => {
-            let mut out = Vec::new();
-            for f in list {
-                let format = match f.as_str() {
-                    "html" => ReportFormat::Html,
-                    "markdown" => ReportFormat::Markdown,
-                    _ => continue,
-                };
-                if !out.contains(&format) {
-                    out.push(format);
-                }
-            }
-            out
-        }
-    }
 }
 
 fn index_of(list: &[String]) -> HashMap<&str, usize> {
@@ -423,7 +332,11 @@ fn str_list(v: Option<&Value>) -> Vec<String> {
 impl Folder {
     /// Parse the tables of a results folder. `scores.csv` is required; every
     /// other table adds its section when present.
-    pub fn parse(files: &BTreeMap<String, Vec<u8>>, manifest: &Value) -> Result<Folder, String> {
+    pub fn parse(
+        files: &BTreeMap<String, Vec<u8>>,
+        manifest: &Value,
+        declared: &crate::spec::Declaration,
+    ) -> Result<Folder, String> {
         let scores_bytes = files
             .get("scores.csv")
             .ok_or("the results folder has no scores.csv")?;
@@ -441,6 +354,7 @@ impl Folder {
         Ok(Folder::assemble(
             grid,
             rows,
+            declared,
             experiment_text,
             files,
             manifest,
@@ -859,11 +773,12 @@ impl Folder {
     pub fn assemble(
         grid: Grid,
         rows: Rows,
+        declared: &crate::spec::Declaration,
         experiment_text: String,
         files: &BTreeMap<String, Vec<u8>>,
         manifest: &Value,
     ) -> Folder {
-        let settings = Settings::read(&experiment_text);
+        let settings = Settings::of(declared);
         // Table hashes come from the manifest (the report may be given only
         // the rows it draws of the large tables); by file name.
         let mut table_hashes: Vec<(String, String, usize)> = match manifest["outputs"].as_array() {
@@ -885,7 +800,7 @@ impl Folder {
                 .filter(|(name, _)| {
                     !name.starts_with("report.") && name.as_str() != "manifest.json"
                 })
-                .map(|(name, bytes)| (name.clone(), crate::spec::sha256_hex(bytes), bytes.len()))
+                .map(|(name, bytes)| (name.clone(), crate::digest::sha256_hex(bytes), bytes.len()))
                 .collect(),
         };
         table_hashes.sort();
@@ -962,12 +877,12 @@ impl PartContext {
     /// (with its header), as the first target's slice holds it.
     pub fn new(
         grid: Grid,
-        experiment_text: &str,
+        declared: &crate::spec::Declaration,
         predictor_diagnostics: Box<dyn Fn() -> Vec<u8> + Send + Sync>,
     ) -> PartContext {
         PartContext {
             grid,
-            settings: Settings::read(experiment_text),
+            settings: Settings::of(declared),
             predictor_rows: std::sync::OnceLock::new(),
             predictor_diagnostics,
         }

@@ -4,11 +4,10 @@
 //! re-renders a folder in place and updates the manifest's hashes.
 
 use super::{report_data, Folder, TargetPart};
-use crate::digest::sha256_hex;
 use crate::error::{Error, Result};
 use crate::spec::ReportFormat;
-use serde_json::{json, Value};
-use std::collections::{BTreeMap, HashMap};
+use serde_json::Value;
+use std::collections::BTreeMap;
 use std::path::Path;
 
 /// The two report templates: (file name, source).
@@ -122,11 +121,11 @@ fn render_one(
 pub fn reports(
     files: &BTreeMap<String, Vec<u8>>,
     manifest: &Value,
-    formats: &[ReportFormat],
+    declared: &crate::spec::Declaration,
     templates: &Templates,
 ) -> std::result::Result<Vec<(String, Vec<u8>)>, String> {
-    let folder = Folder::parse(files, manifest)?;
-    reports_of(folder, None, manifest, formats, templates)
+    let folder = Folder::parse(files, manifest, declared)?;
+    reports_of(folder, None, manifest, &declared.formats, templates)
 }
 
 /// The report files of a parsed folder (see [`reports`]), with the targets'

@@ -2,7 +2,8 @@
 //! outputs. Everything except the `run` section is deterministic; timing,
 //! threads and host live in `run` alone.
 
-use crate::spec::{sha256_hex, Experiment};
+use crate::digest::sha256_hex;
+use crate::spec::Experiment;
 use serde_json::{json, Value};
 
 /// An output file as the manifest records it.

@@ -7,11 +7,12 @@
 use super::{pipeline, RunContext};
 use crate::backtest::cellio;
 use crate::backtest::{is_computed, CellOutput};
+use crate::digest::sha256_hex;
 use crate::error::{Error, Location, Result};
 use crate::plan::{self, Cell};
 use crate::results::folder as output;
 use crate::results::shard::grid_digest;
-use crate::spec::{self, sha256_hex, Experiment};
+use crate::spec::{self, Experiment};
 use serde_json::Value;
 use std::path::{Path, PathBuf};
 

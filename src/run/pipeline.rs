@@ -591,7 +591,7 @@ pub fn produce(
     let first = exp.for_target(0);
     let parts = report::PartContext::new(
         grid.clone(),
-        &exp.source_text,
+        &exp.declared,
         Box::new(move || tables::diagnostics_csv(&score::stability::predictor_diagnostics(&first))),
     );
     let mut w = Written {
@@ -674,7 +674,14 @@ pub fn produce(
         None => report::Rows::parse(&report::Tables::new(), &grid).map_err(Error::Run)?,
     };
     ctx.step("rows ready");
-    let folder = report::Folder::assemble(grid, rows, experiment_text, &BTreeMap::new(), &core);
+    let folder = report::Folder::assemble(
+        grid,
+        rows,
+        &exp.declared,
+        experiment_text,
+        &BTreeMap::new(),
+        &core,
+    );
     // On this thread: handing the work to a pool thread that has gone to
     // sleep costs the time it takes to wake (milliseconds on a virtual machine).
     let rendered =

@@ -7,7 +7,6 @@ use crate::error::{Error, Result};
 use crate::report::render::{
     default_templates, load_templates, manifest_core, reports, used_templates,
 };
-use crate::spec::ReportFormat;
 use serde_json::{json, Value};
 use std::collections::{BTreeMap, HashMap};
 use std::path::Path;
@@ -154,17 +153,33 @@ pub fn render_folder(dir: &Path, templates: Option<&Path>) -> Result<()> {
         Some(t) => load_templates(t)?,
         None => default_templates(),
     };
-    let formats = files
-        .get("experiment.yaml")
-        .map(|b| crate::report::formats_of(&String::from_utf8_lossy(b)))
-        .unwrap_or_else(|| vec![ReportFormat::Html, ReportFormat::Markdown]);
-    let used = used_templates(&templates, &formats);
+    // What the stored experiment file declares, checked as a run checks it.
+    let experiment_path = dir.join("experiment.yaml");
+    let text = match files.get("experiment.yaml") {
+        Some(bytes) => String::from_utf8(bytes.clone()).map_err(|_| {
+            Error::invalid(
+                None,
+                format!("{}: not UTF-8 text", experiment_path.display()),
+            )
+        })?,
+        None => {
+            return Err(Error::invalid(
+                None,
+                format!(
+                    "{} is missing: a results folder keeps the experiment file it ran",
+                    experiment_path.display()
+                ),
+            ))
+        }
+    };
+    let declared = crate::spec::declaration(&experiment_path, &text)?;
+    let used = used_templates(&templates, &declared.formats);
     manifest["templates"] = json!(used
         .iter()
         .map(|(name, text)| json!({"name": name, "sha256": sha256_hex(text.as_bytes())}))
         .collect::<Vec<_>>());
     let core = manifest_core(&manifest);
-    let out = reports(&files, &core, &formats, &templates).map_err(Error::Run)?;
+    let out = reports(&files, &core, &declared, &templates).map_err(Error::Run)?;
     for (name, bytes) in &out {
         write_atomic(dir, name, bytes)?;
         let entry = json!({"file": name, "sha256": sha256_hex(bytes), "bytes": bytes.len()});

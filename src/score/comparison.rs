@@ -7,7 +7,8 @@
 
 use super::compare;
 use super::{group_errors, in_sample_rmse, rmse, Errors};
-use crate::spec::{sha256_hex, Candidate, Experiment, Family, Trend};
+use crate::digest::sha256_hex;
+use crate::spec::{Candidate, Experiment, Family, Trend};
 
 #[derive(Debug, Clone, PartialEq)]
 pub struct TestRow {

@@ -469,21 +469,21 @@ pub struct TargetData {
     pub raw: Vec<f64>,
 }
 
+/// What an experiment file declares, checked, before any data is read:
+/// everything a report needs to describe a stored experiment.
 #[derive(Debug, Clone)]
-pub struct Experiment {
+pub struct Declaration {
     pub name: String,
     pub notes: Option<String>,
     pub title: String,
     pub source_path: PathBuf,
     pub source_text: String,
-    pub data_path: PathBuf,
-    pub data_bytes_sha256: String,
+    /// The data file as written (relative to the experiment file).
+    pub data_file: String,
     pub time_column: String,
     pub frequency: Frequency,
-    pub label_style: LabelStyle,
     pub transform: Transform,
     pub predictors: Vec<Predictor>,
-    pub targets: Vec<TargetData>,
     pub candidates: Vec<Candidate>,
     pub schemes: Vec<Scheme>,
     pub horizons: Vec<usize>,
@@ -503,39 +503,52 @@ pub struct Experiment {
     pub seed: u64,
 }
 
+/// The checked experiment: its declaration and its data, resolved to positions.
+#[derive(Debug, Clone)]
+pub struct Experiment {
+    pub declared: Declaration,
+    pub data_path: PathBuf,
+    pub data_bytes_sha256: String,
+    pub label_style: LabelStyle,
+    pub targets: Vec<TargetData>,
+}
+
+impl std::ops::Deref for Experiment {
+    type Target = Declaration;
+    fn deref(&self) -> &Declaration {
+        &self.declared
+    }
+}
+
 impl Experiment {
     /// The same experiment restricted to one target (for processing target
     /// by target; candidate, scheme and benchmark indices are unchanged).
     pub fn for_target(&self, t: usize) -> Experiment {
         Experiment {
-            targets: vec![self.targets[t].clone()],
-            name: self.name.clone(),
-            notes: self.notes.clone(),
-            title: self.title.clone(),
-            source_path: self.source_path.clone(),
-            source_text: self.source_text.clone(),
+            declared: self.declared.clone(),
             data_path: self.data_path.clone(),
             data_bytes_sha256: self.data_bytes_sha256.clone(),
-            time_column: self.time_column.clone(),
-            frequency: self.frequency,
             label_style: self.label_style,
-            transform: self.transform,
-            predictors: self.predictors.clone(),
-            candidates: self.candidates.clone(),
-            schemes: self.schemes.clone(),
-            horizons: self.horizons.clone(),
-            multi_step: self.multi_step,
-            metrics: self.metrics.clone(),
-            intervals: self.intervals.clone(),
-            tests: self.tests.clone(),
-            periods: self.periods.clone(),
-            rolling_window: self.rolling_window,
-            rank_by: self.rank_by,
-            benchmark: self.benchmark,
-            formats: self.formats.clone(),
-            seed: self.seed,
+            targets: vec![self.targets[t].clone()],
         }
     }
+
+    pub fn period_label(&self, target: &TargetData, position: usize) -> String {
+        if position >= 1 && position <= target.labels.len() {
+            return target.labels[position - 1].clone();
+        }
+        let last = target.ordinals.len();
+        let base = target.ordinals[last - 1];
+        let steps = position as i64 - last as i64;
+        super::period::format_label(
+            self.frequency,
+            base + steps * self.frequency.step(),
+            self.label_style,
+        )
+    }
+}
+
+impl Declaration {
     /// The metric columns of the scores table, in order: each metric, and
     /// per-level metrics once per interval level.
     pub fn metric_columns(&self) -> Vec<MetricColumn> {
@@ -563,20 +576,6 @@ impl Experiment {
             Some(l) => format!("{}_{}", col.metric.name(), self.intervals[l].percent),
             None => col.metric.name().to_string(),
         }
-    }
-
-    pub fn period_label(&self, target: &TargetData, position: usize) -> String {
-        if position >= 1 && position <= target.labels.len() {
-            return target.labels[position - 1].clone();
-        }
-        let last = target.ordinals.len();
-        let base = target.ordinals[last - 1];
-        let steps = position as i64 - last as i64;
-        super::period::format_label(
-            self.frequency,
-            base + steps * self.frequency.step(),
-            self.label_style,
-        )
     }
 
     pub fn season_length(&self) -> Option<usize> {

@@ -1,0 +1,407 @@
+//! The candidates (SPEC §2, §3): each entry of `candidates` expands into
+//! one checked candidate per grid point, with its id. The lag families and
+//! the benchmarks are here; arima, smoothing and combinations in `families`.
+
+use super::decode::{Ctx, MapView};
+use super::yaml::{Kind, Node};
+use super::{Candidate, Criterion, Family, Predictor, Trend};
+use crate::error::nearest;
+
+pub(super) const FAMILIES: &[&str] = &[
+    "naive",
+    "mean",
+    "drift",
+    "seasonal_naive",
+    "ar",
+    "ardl",
+    "arima",
+    "smoothing",
+    "combination",
+];
+
+/// Combination members named by id, resolved once every candidate is expanded.
+pub(super) type PendingMembers = Vec<(usize, Vec<(String, Node)>)>;
+
+pub(super) fn decode_candidate(
+    ctx: &mut Ctx,
+    item: &Node,
+    index: usize,
+    predictors: &PredictorNames,
+    out: &mut Vec<Candidate>,
+    pending: &mut PendingMembers,
+) {
+    let path = format!("candidates[{index}]");
+    let family_name = match &item.kind {
+        Kind::Map(_) => None,
+        _ => {
+            ctx.error(
+                item,
+                format!(
+                    "{path} must be a mapping with a 'family', e.g. {{family: ar, lags: [1, 2]}}"
+                ),
+            );
+            return;
+        }
+    }
+    .or_else(|| {
+        if let Kind::Map(entries) = &item.kind {
+            entries
+                .iter()
+                .find(|(k, _)| matches!(&k.kind, Kind::Scalar(s, _) if s == "family"))
+                .map(|(_, v)| v.clone())
+        } else {
+            None
+        }
+    });
+    let Some(family_node) = family_name else {
+        ctx.error(
+            item,
+            format!("{path} needs 'family': one of {}", FAMILIES.join(", ")),
+        );
+        return;
+    };
+    let Some(family) = ctx.choice(&family_node, &format!("{path}.family"), FAMILIES) else {
+        return;
+    };
+    match family.as_str() {
+        "arima" => super::families::decode_arima(ctx, item, &path, out),
+        "smoothing" => super::families::decode_smoothing(ctx, item, &path, out),
+        "combination" => super::families::decode_combination(ctx, item, &path, out, pending),
+        _ => decode_lag_family(ctx, item, &path, &family, predictors, out),
+    }
+}
+
+/// The benchmarks, ar and ardl: lags or an order chosen by `select`, and a trend.
+fn decode_lag_family(
+    ctx: &mut Ctx,
+    item: &Node,
+    path: &str,
+    family: &str,
+    predictors: &PredictorNames,
+    out: &mut Vec<Candidate>,
+) {
+    let (allowed, later): (&[&str], &[&str]) = match family {
+        "ar" => (
+            &["family", "label", "lags", "trend", "select", "max_lags"],
+            &[],
+        ),
+        "ardl" => (
+            &[
+                "family",
+                "label",
+                "lags",
+                "trend",
+                "predictors",
+                "predictor_lags",
+                "select",
+                "max_lags",
+            ],
+            &[],
+        ),
+        _ => (&["family", "label"], &[]),
+    };
+    let Some(view) = ctx.map(item, &path, allowed, later) else {
+        return;
+    };
+    if later.iter().any(|k| view.get(k).is_some()) {
+        return;
+    }
+    let Ok(label) = candidate_label(ctx, &view, path) else {
+        return;
+    };
+    let base = label.unwrap_or_else(|| family.to_string());
+    let trend = match view.get("trend") {
+        Some(n) => match ctx
+            .choice(n, &format!("{path}.trend"), &Trend::NAMES)
+            .and_then(|s| Trend::parse(&s))
+        {
+            Some(t) => t,
+            None => return,
+        },
+        None => Trend::Constant,
+    };
+    let trend_suffix = if trend == Trend::Constant {
+        String::new()
+    } else {
+        format!(",{}", trend.name())
+    };
+    let line = item.line;
+    // Order selection: `select` with `max_lags` replaces `lags` (and `predictor_lags`).
+    let Ok(select) = decode_select(ctx, item, &view, path) else {
+        return;
+    };
+    if let (Some((criterion, max_lags)), "ar") = (select, family) {
+        out.push(Candidate {
+            id: format!("{base}({},{max_lags}{trend_suffix})", criterion.name()),
+            family: Family::ArSelect {
+                criterion,
+                max_lags,
+                trend,
+            },
+            line,
+        });
+        return;
+    }
+    match family {
+        "naive" => out.push(Candidate {
+            id: base,
+            family: Family::Naive,
+            line,
+        }),
+        "mean" => out.push(Candidate {
+            id: base,
+            family: Family::Mean,
+            line,
+        }),
+        "drift" => out.push(Candidate {
+            id: base,
+            family: Family::Drift,
+            line,
+        }),
+        "seasonal_naive" => out.push(Candidate {
+            id: base,
+            family: Family::SeasonalNaive,
+            line,
+        }),
+        "ar" => {
+            let Some(lags_node) = view.get("lags") else {
+                ctx.error(item, format!("{path}: ar needs 'lags': a list of orders like [1, 2, 4] or {{from: 1, to: 8}}"));
+                return;
+            };
+            let Some(orders) = ctx.orders(lags_node, &format!("{path}.lags"), 1) else {
+                return;
+            };
+            for p in orders {
+                out.push(Candidate {
+                    id: format!("{base}({p}{trend_suffix})"),
+                    family: Family::Ar { lags: p, trend },
+                    line,
+                });
+            }
+        }
+        "ardl" if select.is_some() => {
+            let Some((criterion, max_lags)) = select else {
+                return;
+            };
+            let Some(chosen) = ardl_predictors(ctx, item, &view, path, predictors) else {
+                return;
+            };
+            out.push(Candidate {
+                id: format!("{base}({},{max_lags}{trend_suffix})", criterion.name()),
+                family: Family::ArdlSelect {
+                    criterion,
+                    max_lags,
+                    predictors: chosen,
+                    trend,
+                },
+                line,
+            });
+        }
+        "ardl" => {
+            let lags = match view.get("lags") {
+                Some(n) => ctx.orders(n, &format!("{path}.lags"), 0),
+                None => {
+                    ctx.error(item, format!("{path}: ardl needs 'lags': the orders p of the target's own lags (0 allowed)"));
+                    None
+                }
+            };
+            let qs = match view.get("predictor_lags") {
+                Some(n) => ctx.orders(n, &format!("{path}.predictor_lags"), 1),
+                None => {
+                    ctx.error(item, format!("{path}: ardl needs 'predictor_lags': the orders q of each predictor's lags"));
+                    None
+                }
+            };
+            let chosen = ardl_predictors(ctx, item, &view, path, predictors);
+            let (Some(lags), Some(qs), Some(chosen)) = (lags, qs, chosen) else {
+                return;
+            };
+            for &p in &lags {
+                for &q in &qs {
+                    out.push(Candidate {
+                        id: format!("{base}({p},{q}{trend_suffix})"),
+                        family: Family::Ardl {
+                            lags: p,
+                            predictor_lags: q,
+                            predictors: chosen.clone(),
+                            trend,
+                        },
+                        line,
+                    });
+                }
+            }
+        }
+        _ => {}
+    }
+}
+
+pub(super) fn candidate_label(
+    ctx: &mut Ctx,
+    view: &MapView,
+    path: &str,
+) -> std::result::Result<Option<String>, ()> {
+    match view.get("label") {
+        Some(n) => match ctx.string(n, &format!("{path}.label")) {
+            Some(s)
+                if !s.is_empty()
+                    && s.bytes().all(|b| {
+                        b.is_ascii_alphanumeric() || b == b'_' || b == b'-' || b == b'.'
+                    }) =>
+            {
+                Ok(Some(s))
+            }
+            Some(s) => {
+                ctx.error(
+                    n,
+                    format!("{path}.label '{s}' must use only letters, digits, '_', '-' and '.'"),
+                );
+                Err(())
+            }
+            None => Err(()),
+        },
+        None => Ok(None),
+    }
+}
+
+/// A list of names from a closed set, e.g. smoothing trends.
+pub(super) fn names(
+    ctx: &mut Ctx,
+    node: &Node,
+    what: &str,
+    options: &[&str],
+) -> Option<Vec<usize>> {
+    let mut out = Vec::new();
+    let items = ctx.list(node);
+    if items.is_empty() {
+        ctx.error(node, format!("{what} is an empty list"));
+        return None;
+    }
+    for item in items {
+        let s = ctx.choice(item, what, options)?;
+        let i = options.iter().position(|o| *o == s)?;
+        if out.contains(&i) {
+            ctx.error(item, format!("{what} lists '{s}' twice"));
+            return None;
+        }
+        out.push(i);
+    }
+    Some(out)
+}
+
+/// `select` with `max_lags`: Ok(None) without select, Err(()) when reported.
+fn decode_select(
+    ctx: &mut Ctx,
+    item: &Node,
+    view: &MapView,
+    path: &str,
+) -> Result<Option<(Criterion, usize)>, ()> {
+    Ok(match view.get("select") {
+        Some(n) => {
+            let Some(criterion) = ctx
+                .choice(n, &format!("{path}.select"), &Criterion::NAMES)
+                .and_then(|s| Criterion::parse(&s))
+            else {
+                return Err(());
+            };
+            for key in ["lags", "predictor_lags"] {
+                if let Some(k) = view.key_node(key) {
+                    ctx.error(k, format!("{path}: '{key}' cannot be combined with 'select'; the order is chosen up to 'max_lags'"));
+                }
+            }
+            let Some(max) = (match view.get("max_lags") {
+                Some(m) => ctx.integer(m, &format!("{path}.max_lags"), 1),
+                None => {
+                    ctx.error(
+                        item,
+                        format!("{path}: 'select' needs 'max_lags': the largest order to consider"),
+                    );
+                    None
+                }
+            }) else {
+                return Err(());
+            };
+            if max > 1000 {
+                ctx.error(
+                    item,
+                    format!("{path}.max_lags {max} is larger than any data set could support"),
+                );
+                return Err(());
+            }
+            Some((criterion, max as usize))
+        }
+        None => {
+            if let Some(k) = view.key_node("max_lags") {
+                ctx.error(k, format!("{path}: 'max_lags' goes with 'select: aic|bic|hqic'; without select, list the orders under 'lags'"));
+                return Err(());
+            }
+            None
+        }
+    })
+}
+
+/// The top-level predictors as far as they could be read.
+pub(super) struct PredictorNames<'a> {
+    pub list: &'a [Predictor],
+    /// Columns whose declaration has an error of its own.
+    pub failed: &'a [String],
+    /// Some declaration could not be read at all (no column name).
+    pub unreadable: bool,
+}
+
+/// The declared predictors an ardl entry names, as indices; None when
+/// missing, empty or unknown (each reported, unless the declaration itself
+/// was already reported).
+fn ardl_predictors(
+    ctx: &mut Ctx,
+    item: &Node,
+    view: &MapView,
+    path: &str,
+    declared: &PredictorNames,
+) -> Option<Vec<usize>> {
+    let predictors = declared.list;
+    let mut chosen = Vec::new();
+    match view.get("predictors") {
+        Some(n) => {
+            let items = ctx.list(n);
+            if items.is_empty() {
+                ctx.error(
+                    n,
+                    format!("{path}.predictors is empty; name at least one declared predictor"),
+                );
+            }
+            for p in items {
+                let Some(col) = ctx.string(p, &format!("{path}.predictors")) else {
+                    continue;
+                };
+                match predictors.iter().position(|d| d.column == col) {
+                    Some(i) if chosen.contains(&i) => {
+                        ctx.error(p, format!("{path}.predictors names '{col}' twice"))
+                    }
+                    Some(i) => chosen.push(i),
+                    None if declared.unreadable || declared.failed.contains(&col) => {}
+                    None => {
+                        let names: Vec<&str> =
+                            predictors.iter().map(|d| d.column.as_str()).collect();
+                        let hint = nearest(&col, &names)
+                            .map(|n| format!(" did you mean '{n}'?"))
+                            .unwrap_or_default();
+                        ctx.error(
+                                    p,
+                                    format!("{path}.predictors: '{col}' is not declared under the top-level 'predictors' key.{hint} Declared: {}",
+                                        if names.is_empty() { "none".to_string() } else { names.join(", ") }),
+                                );
+                    }
+                }
+            }
+        }
+        None => ctx.error(
+            item,
+            format!("{path}: ardl needs 'predictors': the declared predictor columns it uses"),
+        ),
+    }
+    if chosen.is_empty() {
+        None
+    } else {
+        Some(chosen)
+    }
+}

@@ -1,0 +1,723 @@
+//! The top level of the experiment file (SPEC §2), in two phases:
+//! [`decode`] reads every key without touching the data (what `render`
+//! needs to describe a stored experiment), and [`with_data`] reads the data
+//! file and resolves periods to positions (what a run needs). Problems are
+//! collected in the context, so `check` lists those of the file and of its
+//! data in one pass.
+
+use super::candidates::{decode_candidate, PendingMembers, PredictorNames};
+use super::decode::{Ctx, MapView};
+use super::period::Frequency;
+use super::schemes::{decode_schemes, PendingScheme};
+use super::scoring::{decode_scoring, Scoring};
+use super::yaml::{Kind, Node};
+use super::{
+    data, resolve, Candidate, Declaration, Experiment, Family, MultiStep, Predictor, ReportFormat,
+    Transform,
+};
+use crate::error::nearest;
+use std::path::{Path, PathBuf};
+
+const TOP_KEYS: &[&str] = &[
+    "version",
+    "experiment",
+    "notes",
+    "data",
+    "target",
+    "transform",
+    "predictors",
+    "candidates",
+    "backtest",
+    "scoring",
+    "report",
+    "seed",
+];
+
+/// The keys of `data`, as far as they could be read.
+#[derive(Default)]
+struct DataKeys {
+    file: Option<(String, Node)>,
+    time: Option<(String, Node)>,
+    frequency: Option<Frequency>,
+    start: Option<(String, Node)>,
+    end: Option<(String, Node)>,
+}
+
+/// The declared predictors and where each is written.
+#[derive(Default)]
+struct Predictors {
+    list: Vec<Predictor>,
+    nodes: Vec<Node>,
+    /// Predictors declared with an error of their own: candidates that name
+    /// them are not reported again.
+    failed: Vec<String>,
+    unreadable: bool,
+}
+
+/// Everything the experiment file says, as far as it could be read.
+pub(super) struct Decoded {
+    name: Option<String>,
+    notes: Option<String>,
+    title: Option<String>,
+    formats: Vec<ReportFormat>,
+    seed: u64,
+    transform: Option<Transform>,
+    data: DataKeys,
+    targets: Vec<(String, Node)>,
+    predictors: Predictors,
+    schemes: Vec<PendingScheme>,
+    horizons: Vec<usize>,
+    multi_step: MultiStep,
+    candidates: Vec<Candidate>,
+    scoring: Scoring,
+    benchmark: usize,
+}
+
+/// Read every key of the experiment file. None only when the file is not a
+/// mapping at all; otherwise problems are in `ctx`.
+pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
+    let top = ctx.map(root, "the experiment", TOP_KEYS, &[])?;
+    let anchor = top.anchor();
+    let need = |ctx: &mut Ctx, key: &str| -> Option<&Node> {
+        let node = top.get(key);
+        if node.is_none() {
+            ctx.error(&anchor, format!("the experiment needs the key '{key}'"));
+        }
+        node
+    };
+    if let Some(v) = need(ctx, "version") {
+        if let Some(s) = ctx.string(v, "version") {
+            if s != "1" {
+                ctx.error(v, format!("version {s} is not known; this outturn reads experiment files of version 1"));
+            }
+        }
+    }
+    let name = need(ctx, "experiment").and_then(|n| {
+        let s = ctx.string(n, "experiment")?;
+        if s.is_empty() || !s.bytes().all(|b| b.is_ascii_lowercase() || b.is_ascii_digit() || b == b'_' || b == b'-') {
+            ctx.error(n, format!("experiment '{s}' must use only a-z, 0-9, '_' and '-' (it names the results folder)"));
+            return None;
+        }
+        Some(s)
+    });
+    let notes = top.get("notes").and_then(|n| {
+        if n.is_null() {
+            None
+        } else {
+            ctx.string(n, "notes")
+        }
+    });
+    let (title, formats) = decode_report(ctx, top.get("report"));
+    let seed = match top.get("seed") {
+        Some(n) => ctx.unsigned(n, "seed").unwrap_or(0),
+        None => 0,
+    };
+    let transform = match top.get("transform") {
+        Some(n) => ctx
+            .choice(n, "transform", &Transform::NAMES)
+            .and_then(|s| Transform::parse(&s)),
+        None => Some(Transform::None),
+    };
+    let data = need(ctx, "data")
+        .map(|d| decode_data_keys(ctx, d))
+        .unwrap_or_default();
+    let targets = need(ctx, "target")
+        .map(|t| decode_targets(ctx, t))
+        .unwrap_or_default();
+    let predictors = decode_predictors(ctx, top.get("predictors"), &targets);
+    // backtest before candidates: multi_step matters there.
+    let (schemes, horizons, multi_step) = match need(ctx, "backtest") {
+        Some(b) => decode_backtest(ctx, b),
+        None => (Vec::new(), Vec::new(), MultiStep::Direct),
+    };
+    let candidates = match need(ctx, "candidates") {
+        Some(c) => decode_candidates(ctx, c, &predictors),
+        None => Vec::new(),
+    };
+    let scoring = match top.get("scoring") {
+        Some(node) => decode_scoring(ctx, node, data.frequency),
+        None => Scoring::default(),
+    };
+    let benchmark = resolve_benchmark(ctx, &scoring, &candidates);
+    let decoded = Decoded {
+        name,
+        notes,
+        title,
+        formats,
+        seed,
+        transform,
+        data,
+        targets,
+        predictors,
+        schemes,
+        horizons,
+        multi_step,
+        candidates,
+        scoring,
+        benchmark,
+    };
+    check_seasons(ctx, &decoded, &top);
+    Some(decoded)
+}
+
+/// `report`: the title and the formats (both when none is named).
+fn decode_report(ctx: &mut Ctx, node: Option<&Node>) -> (Option<String>, Vec<ReportFormat>) {
+    let mut title = None;
+    let mut formats = vec![ReportFormat::Html, ReportFormat::Markdown];
+    let Some(view) = node.and_then(|r| ctx.map(r, "report", &["formats", "title"], &[])) else {
+        return (title, formats);
+    };
+    if let Some(t) = view.get("title") {
+        title = ctx.string(t, "report.title");
+    }
+    if let Some(f) = view.get("formats") {
+        let mut out = Vec::new();
+        for item in ctx.list(f) {
+            match ctx
+                .choice(item, "report format", &["html", "markdown"])
+                .as_deref()
+            {
+                Some("html") if !out.contains(&ReportFormat::Html) => out.push(ReportFormat::Html),
+                Some("markdown") if !out.contains(&ReportFormat::Markdown) => {
+                    out.push(ReportFormat::Markdown)
+                }
+                _ => {}
+            }
+        }
+        formats = out;
+    }
+    (title, formats)
+}
+
+/// `data`: the file, the time column, the frequency and an optional span.
+fn decode_data_keys(ctx: &mut Ctx, d: &Node) -> DataKeys {
+    let mut keys = DataKeys::default();
+    let Some(view) = ctx.map(
+        d,
+        "data",
+        &["file", "time", "frequency", "start", "end"],
+        &[],
+    ) else {
+        return keys;
+    };
+    let a = view.anchor();
+    match view.get("file") {
+        Some(n) => keys.file = ctx.string(n, "data.file").map(|s| (s, n.clone())),
+        None => ctx.error(
+            &a,
+            "data needs 'file': the path of the CSV, relative to the experiment file",
+        ),
+    }
+    match view.get("time") {
+        Some(n) => keys.time = ctx.string(n, "data.time").map(|s| (s, n.clone())),
+        None => ctx.error(
+            &a,
+            "data needs 'time': the column holding the period labels",
+        ),
+    }
+    match view.get("frequency") {
+        Some(n) => {
+            keys.frequency = ctx
+                .choice(n, "data.frequency", &Frequency::NAMES)
+                .and_then(|s| Frequency::parse(&s))
+        }
+        None => ctx.error(
+            &a,
+            format!(
+                "data needs 'frequency': one of {}",
+                Frequency::NAMES.join(", ")
+            ),
+        ),
+    }
+    keys.start = view
+        .get("start")
+        .and_then(|n| ctx.string(n, "data.start").map(|s| (s, n.clone())));
+    keys.end = view
+        .get("end")
+        .and_then(|n| ctx.string(n, "data.end").map(|s| (s, n.clone())));
+    keys
+}
+
+/// `target`: one column or a list of distinct columns.
+fn decode_targets(ctx: &mut Ctx, t: &Node) -> Vec<(String, Node)> {
+    let mut targets: Vec<(String, Node)> = Vec::new();
+    let items = ctx.list(t);
+    if items.is_empty() {
+        ctx.error(t, "target is an empty list; name at least one column");
+    }
+    for item in items {
+        if let Some(s) = ctx.string(item, "target") {
+            if targets.iter().any(|(n, _)| *n == s) {
+                ctx.error(item, format!("target '{s}' is listed twice"));
+            } else {
+                targets.push((s, item.clone()));
+            }
+        }
+    }
+    targets
+}
+
+/// `predictors`: the declared predictor columns with their transforms and
+/// release lags, or known ahead.
+fn decode_predictors(ctx: &mut Ctx, p: Option<&Node>, targets: &[(String, Node)]) -> Predictors {
+    let mut out = Predictors::default();
+    let Some(p) = p.filter(|p| !p.is_null()) else {
+        return out;
+    };
+    let items = match &p.kind {
+        Kind::Seq(items) => items.iter().collect::<Vec<_>>(),
+        _ => {
+            out.unreadable = true;
+            ctx.error(
+                p,
+                "predictors must be a list of entries, each with a 'column'",
+            );
+            Vec::new()
+        }
+    };
+    for (i, item) in items.into_iter().enumerate() {
+        let path = format!("predictors[{}]", i + 1);
+        let Some(view) = ctx.map(
+            item,
+            &path,
+            &["column", "transform", "release_lag", "known_ahead"],
+            &[],
+        ) else {
+            out.unreadable = true;
+            continue;
+        };
+        let Some(column) = view
+            .get("column")
+            .and_then(|n| ctx.string(n, &format!("{path}.column")))
+        else {
+            if view.get("column").is_none() {
+                ctx.error(
+                    item,
+                    format!("{path} needs 'column': the data column to use"),
+                );
+            }
+            out.unreadable = true;
+            continue;
+        };
+        match decode_predictor(ctx, item, &view, &path, column, &out.list, targets) {
+            Ok(Some(predictor)) => {
+                out.list.push(predictor);
+                out.nodes.push(item.clone());
+            }
+            Ok(None) => {}
+            Err(column) => out.failed.push(column),
+        }
+    }
+    out
+}
+
+/// One predictor entry: Ok(None) when it repeats a column (reported), Err
+/// with its column when a setting of its own is wrong (reported).
+fn decode_predictor(
+    ctx: &mut Ctx,
+    item: &Node,
+    view: &MapView,
+    path: &str,
+    column: String,
+    declared: &[Predictor],
+    targets: &[(String, Node)],
+) -> Result<Option<Predictor>, String> {
+    let transform = match view.get("transform") {
+        Some(n) => ctx
+            .choice(n, &format!("{path}.transform"), &Transform::NAMES)
+            .and_then(|s| Transform::parse(&s)),
+        None => Some(Transform::None),
+    };
+    let release_lag = match view.get("release_lag") {
+        Some(n) => ctx
+            .integer(n, &format!("{path}.release_lag"), 0)
+            .map(|v| v as usize),
+        None => Some(0),
+    };
+    let known_ahead = match view.get("known_ahead") {
+        Some(n) => ctx.boolean(n, &format!("{path}.known_ahead")),
+        None => Some(false),
+    };
+    let (Some(transform), Some(release_lag), Some(known_ahead)) =
+        (transform, release_lag, known_ahead)
+    else {
+        return Err(column);
+    };
+    if known_ahead && release_lag > 0 {
+        ctx.error(item, format!("{path}: known_ahead cannot be combined with release_lag (a value known in advance is not published late)"));
+    }
+    if declared.iter().any(|p| p.column == column) {
+        ctx.error(
+            item,
+            format!("{path}: column '{column}' is declared as a predictor twice"),
+        );
+        return Ok(None);
+    }
+    if targets.iter().any(|(t, _)| *t == column) {
+        ctx.error(
+            item,
+            format!(
+                "{path}: '{column}' is a target; its own lags enter through ar and ardl 'lags'"
+            ),
+        );
+    }
+    Ok(Some(Predictor {
+        column,
+        transform,
+        release_lag,
+        known_ahead,
+        line: item.line,
+    }))
+}
+
+/// `backtest`: the schemes, the horizons (ascending) and the multi-step rule.
+fn decode_backtest(ctx: &mut Ctx, b: &Node) -> (Vec<PendingScheme>, Vec<usize>, MultiStep) {
+    let mut schemes: Vec<PendingScheme> = Vec::new();
+    let mut horizons: Vec<usize> = Vec::new();
+    let mut multi_step = MultiStep::Direct;
+    let Some(view) = ctx.map(b, "backtest", &["schemes", "horizons", "multi_step"], &[]) else {
+        return (schemes, horizons, multi_step);
+    };
+    let a = view.anchor();
+    match view.get("horizons") {
+        Some(h) => {
+            for item in ctx.list(h) {
+                if let Some(v) = ctx.integer(item, "backtest.horizons", 1) {
+                    if horizons.contains(&(v as usize)) {
+                        ctx.error(item, format!("horizon {v} is listed twice"));
+                    } else if v > 100_000 {
+                        ctx.error(
+                            item,
+                            format!("horizon {v} is larger than any data set could support"),
+                        );
+                    } else {
+                        horizons.push(v as usize);
+                    }
+                }
+            }
+            if horizons.is_empty() && !matches!(&h.kind, Kind::Seq(v) if !v.is_empty()) {
+                ctx.error(
+                    h,
+                    "backtest.horizons is empty; list at least one horizon, e.g. [1, 4]",
+                );
+            }
+        }
+        None => ctx.error(
+            &a,
+            "backtest needs 'horizons': the steps ahead to forecast, e.g. [1, 4]",
+        ),
+    }
+    horizons.sort_unstable();
+    if let Some(m) = view.get("multi_step") {
+        if let Some(s) = ctx.choice(m, "backtest.multi_step", &["direct", "iterated"]) {
+            multi_step = if s == "iterated" {
+                MultiStep::Iterated
+            } else {
+                MultiStep::Direct
+            };
+        }
+    }
+    match view.get("schemes") {
+        Some(s) => schemes = decode_schemes(ctx, s),
+        None => ctx.error(
+            &a,
+            "backtest needs 'schemes': a list of fixed, expanding or rolling entries",
+        ),
+    }
+    (schemes, horizons, multi_step)
+}
+
+/// `candidates`: every entry expanded, ids checked for duplicates, and
+/// combination members resolved (no combinations of combinations).
+fn decode_candidates(ctx: &mut Ctx, c: &Node, predictors: &Predictors) -> Vec<Candidate> {
+    let mut candidates: Vec<Candidate> = Vec::new();
+    let mut pending: PendingMembers = Vec::new();
+    match &c.kind {
+        Kind::Seq(items) if !items.is_empty() => {
+            let names = PredictorNames {
+                list: &predictors.list,
+                failed: &predictors.failed,
+                unreadable: predictors.unreadable,
+            };
+            for (i, item) in items.iter().enumerate() {
+                decode_candidate(ctx, item, i + 1, &names, &mut candidates, &mut pending);
+            }
+        }
+        _ => ctx.error(
+            c,
+            "candidates must be a non-empty list of model entries, each with a 'family'",
+        ),
+    }
+    for (i, c) in candidates.iter().enumerate() {
+        if let Some(first) = candidates[..i].iter().find(|o| o.id == c.id) {
+            ctx.error(
+                &line_node(c.line),
+                format!("candidate id '{}' is produced twice (also by the entry on line {}); give one entry a 'label'", c.id, first.line),
+            );
+        }
+    }
+    for (index, members) in pending {
+        let mut resolved = Vec::new();
+        for (id, node) in members {
+            match candidates.iter().position(|c| c.id == id) {
+                Some(i) if matches!(candidates[i].family, Family::Combination { .. }) => {
+                    ctx.error(&node, format!("member '{id}' is itself a combination; combine the underlying candidates instead"));
+                }
+                Some(i) => resolved.push(i),
+                None => ctx.error(
+                    &node,
+                    format!(
+                        "member '{id}' names no candidate; {}",
+                        ids_hint(&id, &candidates)
+                    ),
+                ),
+            }
+        }
+        if let Family::Combination { members, .. } = &mut candidates[index].family {
+            *members = resolved;
+        }
+    }
+    candidates
+}
+
+/// "did you mean …? candidate ids are: …" for a name that matches no candidate.
+fn ids_hint(name: &str, candidates: &[Candidate]) -> String {
+    let ids: Vec<&str> = candidates.iter().map(|c| c.id.as_str()).collect();
+    let hint = nearest(name, &ids)
+        .map(|n| format!("did you mean '{n}'? "))
+        .unwrap_or_default();
+    format!("{hint}candidate ids are: {}", ids.join(", "))
+}
+
+/// A position at the start of a line, for problems of a whole entry.
+fn line_node(line: usize) -> Node {
+    Node {
+        kind: Kind::Scalar(String::new(), false),
+        line,
+        column: 1,
+    }
+}
+
+/// SPEC §4: the id named, else naive when it is a candidate, else the first candidate.
+fn resolve_benchmark(ctx: &mut Ctx, scoring: &Scoring, candidates: &[Candidate]) -> usize {
+    match &scoring.benchmark {
+        Some((name, node)) => match candidates.iter().position(|c| c.id == *name) {
+            Some(i) => i,
+            None => {
+                ctx.error(
+                    node,
+                    format!(
+                        "benchmark '{name}' names no candidate; {}",
+                        ids_hint(name, candidates)
+                    ),
+                );
+                0
+            }
+        },
+        None => candidates.iter().position(|c| c.id == "naive").unwrap_or(0),
+    }
+}
+
+/// Seasonal models and transforms need data with a season length.
+fn check_seasons(ctx: &mut Ctx, d: &Decoded, top: &MapView) {
+    let Some(frequency) = d.data.frequency.filter(|f| f.season_length().is_none()) else {
+        return;
+    };
+    for c in &d.candidates {
+        if c.family == Family::SeasonalNaive {
+            ctx.error(
+                &line_node(c.line),
+                format!(
+                    "seasonal_naive needs seasonal data; {} data have no season length — remove this candidate or use naive",
+                    frequency.name()
+                ),
+            );
+        }
+    }
+    if d.transform == Some(Transform::SeasonalDiff) {
+        if let Some(n) = top.get("transform") {
+            ctx.error(
+                n,
+                format!(
+                    "seasonal_diff needs seasonal data; {} data have no season length — use diff",
+                    frequency.name()
+                ),
+            );
+        }
+    }
+    for (p, node) in d.predictors.list.iter().zip(&d.predictors.nodes) {
+        if p.transform == Transform::SeasonalDiff {
+            ctx.error(
+                node,
+                format!(
+                    "predictor '{}': seasonal_diff needs seasonal data; {} data have no season length — use diff",
+                    p.column,
+                    frequency.name()
+                ),
+            );
+        }
+    }
+}
+
+impl Decoded {
+    /// The checked declaration, when the file has no problem of its own.
+    pub(super) fn declaration(self, ctx: &Ctx, path: &Path, text: &str) -> Option<Declaration> {
+        if !ctx.diags.is_empty()
+            || self.candidates.is_empty()
+            || self.schemes.is_empty()
+            || self.horizons.is_empty()
+        {
+            return None;
+        }
+        let (
+            Some(name),
+            Some((data_file, _)),
+            Some((time_column, _)),
+            Some(frequency),
+            Some(transform),
+        ) = (
+            self.name,
+            self.data.file,
+            self.data.time,
+            self.data.frequency,
+            self.transform,
+        )
+        else {
+            return None;
+        };
+        let Scoring {
+            metrics,
+            rank_by,
+            intervals,
+            tests,
+            periods,
+            rolling_window,
+            ..
+        } = self.scoring;
+        Some(Declaration {
+            title: self.title.unwrap_or_else(|| name.clone()),
+            name,
+            notes: self.notes,
+            source_path: path.to_path_buf(),
+            source_text: text.to_string(),
+            data_file,
+            time_column,
+            frequency,
+            transform,
+            predictors: self.predictors.list,
+            candidates: self.candidates,
+            schemes: self.schemes.into_iter().map(|p| p.scheme).collect(),
+            horizons: self.horizons,
+            multi_step: self.multi_step,
+            metrics,
+            intervals,
+            tests,
+            periods,
+            rolling_window,
+            rank_by,
+            benchmark: self.benchmark,
+            formats: self.formats,
+            seed: self.seed,
+        })
+    }
+}
+
+/// Read the data and resolve the decoded experiment against it. The data
+/// are checked even when the experiment file has problems of its own, so
+/// that `check` lists both.
+pub(super) fn with_data(ctx: &mut Ctx, d: Decoded, path: &Path, text: &str) -> Option<Experiment> {
+    let (
+        Some((data_file, data_file_node)),
+        Some((time_col, time_node)),
+        Some(frequency),
+        Some(transform),
+    ) = (&d.data.file, &d.data.time, d.data.frequency, d.transform)
+    else {
+        return None;
+    };
+    let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
+    let data_path: PathBuf = base.join(data_file);
+    let bytes = match std::fs::read(&data_path) {
+        Ok(b) => b,
+        Err(e) => {
+            ctx.error(
+                data_file_node,
+                format!("cannot read the data file {}: {e}", data_path.display()),
+            );
+            return None;
+        }
+    };
+    let table = match data::read_table(&data_path, &bytes) {
+        Ok(t) => t,
+        Err(diag) => {
+            ctx.diags.push(diag);
+            return None;
+        }
+    };
+    let resolved = resolve::resolve_data(
+        ctx,
+        &table,
+        resolve::DataRequest {
+            time: (time_col, time_node),
+            frequency,
+            start: d.data.start.as_ref().map(|(s, n)| (s.as_str(), n)),
+            end: d.data.end.as_ref().map(|(s, n)| (s.as_str(), n)),
+            targets: &d.targets,
+            transform,
+            predictors: &d.predictors.list,
+            predictor_nodes: &d.predictors.nodes,
+            schemes: &d
+                .schemes
+                .iter()
+                .map(|p| (&p.scheme, &p.node))
+                .collect::<Vec<_>>(),
+            horizons: &d.horizons,
+        },
+    );
+    let resolved = resolved.filter(|_| d.name.is_some())?;
+    if !ctx.diags.is_empty() {
+        return None;
+    }
+    check_period_sets(ctx, &d, &resolved);
+    let period_problems = !ctx.diags.is_empty();
+    let declared = d.declaration(ctx, path, text)?;
+    if period_problems {
+        return None;
+    }
+    Some(Experiment {
+        declared,
+        data_path,
+        data_bytes_sha256: crate::digest::sha256_hex(&bytes),
+        label_style: resolved.label_style,
+        targets: resolved.targets,
+    })
+}
+
+/// A period set must hold some scored period: target periods after a
+/// scheme's first origin.
+fn check_period_sets(ctx: &mut Ctx, d: &Decoded, resolved: &resolve::Resolved) {
+    for (set, node) in d.scoring.periods.iter().zip(&d.scoring.period_nodes) {
+        let scored = resolved.targets.iter().any(|t| {
+            let first = t.first_origins.iter().copied().min().unwrap_or(0);
+            t.ordinals[first.min(t.n)..t.n]
+                .iter()
+                .any(|&o| o >= set.from_ordinal && o <= set.to_ordinal)
+        });
+        if !scored {
+            let t = &resolved.targets[0];
+            let first = t.first_origins.iter().copied().min().unwrap_or(0);
+            let range = if first < t.n {
+                format!("{} to {}", t.labels[first], t.labels[t.n - 1])
+            } else {
+                "none".to_string()
+            };
+            ctx.error(
+                node,
+                format!(
+                    "scoring.periods.{}: {} to {} holds no forecast to score (the scored periods run from {range}); move it into that range or remove it",
+                    set.name, set.from, set.to
+                ),
+            );
+        }
+    }
+}
