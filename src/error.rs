@@ -1,7 +1,8 @@
 //! Errors and diagnostics. Invalid input is collected as a list of
 //! diagnostics (so `check` can report every problem in one pass, sorted by
-//! location); failures during a run are a single typed error. `main` maps the
-//! first kind to exit code 2 and the second to exit code 1 (SPEC §1).
+//! location); failures during a run are one typed error per kind. `main`
+//! maps each kind to its exit code ([`Error::exit_code`]: 2 for input that
+//! is invalid or not outturn's, 1 for a run that failed, 130 interrupted).
 
 use std::fmt;
 use std::path::PathBuf;
@@ -54,14 +55,27 @@ pub enum Error {
     /// The experiment or its data is invalid; nothing was written.
     #[error("{}", render_diagnostics(.0))]
     Invalid(Vec<Diagnostic>),
-    /// The run failed (I/O, numerics).
-    #[error("{0}")]
-    Run(String),
-    #[error("{context}: {source}")]
+    /// A folder to be replaced that outturn did not write; it is left untouched.
+    #[error("error: {} exists and is not an outturn results folder (no manifest.json); refusing to replace it — choose another --out", .0.display())]
+    NotOurs(PathBuf),
+    /// Reading or writing a file failed.
+    #[error("error: {context}: {source}")]
     Io {
         context: String,
         source: std::io::Error,
     },
+    /// The report could not be built from tables the run itself wrote.
+    #[error("error: the report could not be built: {0}")]
+    Report(String),
+    /// The worker threads could not be started.
+    #[error("error: cannot start {threads} worker threads: {message}")]
+    Threads { threads: usize, message: String },
+    /// Something outturn relies on did not hold (a bug: please report it).
+    #[error("error: internal: {0}")]
+    Internal(String),
+    /// An interrupt stopped the run; earlier results are left as they were.
+    #[error("interrupted: earlier results are left as they were")]
+    Interrupted,
 }
 
 impl Error {
@@ -74,11 +88,12 @@ impl Error {
             source,
         }
     }
-    /// Exit code per SPEC §1.
+    /// Exit code (SPEC §1, §7.9).
     pub fn exit_code(&self) -> i32 {
         match self {
-            Error::Invalid(_) => 2,
-            _ => 1,
+            Error::Invalid(_) | Error::NotOurs(_) => 2,
+            Error::Interrupted => 130,
+            Error::Io { .. } | Error::Report(_) | Error::Threads { .. } | Error::Internal(_) => 1,
         }
     }
 }

@@ -19,7 +19,7 @@
 //! - `report`: a typed view of the results laid out by the templates;
 //! - `run`: the commands as thin orchestration.
 //!
-//! `error` and `digest` are shared by all. The library returns typed errors
+//! `error`, `digest` and `progress` are shared by all. The library returns typed errors
 //! and never prints: progress goes through [`Progress`], which the command
 //! line owns.
 
@@ -29,6 +29,7 @@ pub mod error;
 mod models;
 mod numerics;
 mod plan;
+mod progress;
 mod report;
 mod results;
 mod run;

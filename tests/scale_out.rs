@@ -543,3 +543,107 @@ fn many_targets_on_many_threads_finish() {
     }
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// Shard files edited after the run are refused with exit code 2, naming
+/// the file, and nothing is written — never an abort or a panic: a shard
+/// count far beyond any run, a row moved to another horizon with the
+/// manifest's hash recomputed to match, a truncated cells.txt and a
+/// manifest that is not JSON.
+#[test]
+fn edited_shard_files_are_refused_without_abort() {
+    use sha2::Digest;
+    let dir = scratch("edited-shards");
+    let exp = demo();
+    let mut shards = Vec::new();
+    for k in 1..=3 {
+        let out = dir.join(format!("k{k}"));
+        let shard = format!("{k}/3");
+        ok(&run_args(&exp, &out, &["--shard", &shard]));
+        shards.push(out);
+    }
+    let copy = |name: &str| -> Vec<PathBuf> {
+        shards
+            .iter()
+            .enumerate()
+            .map(|(i, s)| {
+                let to = dir.join(format!("{name}{}", i + 1));
+                std::fs::create_dir_all(&to).unwrap();
+                for f in ["manifest.json", "cells.txt"] {
+                    std::fs::copy(s.join(f), to.join(f)).unwrap();
+                }
+                to
+            })
+            .collect()
+    };
+    let refused = |given: &[PathBuf], says: &[&str]| {
+        let out = dir.join("merged");
+        let mut args = vec!["merge".to_string()];
+        args.extend(given.iter().map(|s| s.to_string_lossy().to_string()));
+        args.extend(["--out".to_string(), out.to_string_lossy().to_string()]);
+        let args: Vec<&str> = args.iter().map(String::as_str).collect();
+        let o = outturn(&args);
+        let said = String::from_utf8_lossy(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{said}");
+        for s in says {
+            assert!(said.contains(s), "expected '{s}' in: {said}");
+        }
+        assert!(!said.contains("panicked"), "{said}");
+        assert!(!out.exists());
+    };
+    // A shard count of 1e15 (it used to allocate a table that size and abort).
+    let counts = copy("count");
+    for d in &counts {
+        let m = std::fs::read_to_string(d.join("manifest.json")).unwrap();
+        std::fs::write(
+            d.join("manifest.json"),
+            m.replace("\"count\": 3", "\"count\": 1000000000000000"),
+        )
+        .unwrap();
+    }
+    refused(&counts, &["manifest.json", "shard count"]);
+    // A forecast row moved to horizon 99, the hash recomputed (it used to panic while scoring).
+    let moved = copy("moved");
+    let holder = moved
+        .iter()
+        .find(|d| {
+            std::fs::read_to_string(d.join("cells.txt"))
+                .unwrap()
+                .contains("\nf ")
+        })
+        .unwrap()
+        .clone();
+    let rows = std::fs::read_to_string(holder.join("cells.txt")).unwrap();
+    let at = rows.find("\nf ").unwrap() + 1;
+    let end = at + rows[at..].find('\n').unwrap();
+    let mut fields: Vec<&str> = rows[at..end].split(' ').collect();
+    fields[1] = "99";
+    let changed = format!("{}{}{}", &rows[..at], fields.join(" "), &rows[end..]);
+    std::fs::write(holder.join("cells.txt"), &changed).unwrap();
+    let digest: String = sha2::Sha256::digest(changed.as_bytes())
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect();
+    let m = std::fs::read_to_string(holder.join("manifest.json")).unwrap();
+    let old = m
+        .split("\"sha256\": \"")
+        .nth(1)
+        .unwrap()
+        .split('"')
+        .next()
+        .unwrap();
+    std::fs::write(holder.join("manifest.json"), m.replace(old, &digest)).unwrap();
+    refused(
+        &moved,
+        &["cells.txt", "does not match the experiment's plan"],
+    );
+    // cells.txt cut in the middle of a cell.
+    let cut = copy("cut");
+    let rows = std::fs::read(cut[0].join("cells.txt")).unwrap();
+    std::fs::write(cut[0].join("cells.txt"), &rows[..rows.len() / 2]).unwrap();
+    refused(&cut, &["cells.txt"]);
+    // A manifest that is not JSON.
+    let garbled = copy("garbled");
+    std::fs::write(garbled[1].join("manifest.json"), b"garbage\x00\xff").unwrap();
+    refused(&garbled, &["manifest.json", "not a shard manifest"]);
+    let _ = std::fs::remove_dir_all(&dir);
+}

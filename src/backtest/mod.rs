@@ -13,7 +13,7 @@ use crate::models::{
     self, combination, CellModel, EstimationProblem, ForecastRow, Model, OutlookRow, Problem,
 };
 use crate::plan::{self, Cell, Schedule};
-use crate::run::Progress;
+use crate::progress::Progress;
 use crate::spec::{Experiment, Family};
 use rayon::prelude::*;
 
@@ -54,24 +54,106 @@ struct OriginLoop<'a> {
     n: usize,
 }
 
+/// What the loop does when an estimation fails.
+enum Refit {
+    /// Estimated (or kept the previous estimate, counted).
+    Ready,
+    /// The cell fails: no earlier estimate to keep.
+    CellFails(String),
+}
+
+impl OriginLoop<'_> {
+    /// Estimate for `end`: fit the first time, update afterwards; a failed
+    /// update keeps the previous estimate (a fallback).
+    fn estimate<M: Model>(
+        &self,
+        model: &M,
+        current: &mut Option<M::Fit>,
+        (origin, end): (usize, usize),
+        out: &mut CellOutput,
+    ) -> std::result::Result<Refit, EstimationProblem> {
+        let window = self.schedule.window();
+        let fitted = match current.as_mut() {
+            Some(fit) => model.update(fit, end, window),
+            None => model.fit(end, window).map(|f| *current = Some(f)),
+        };
+        match fitted {
+            Ok(()) => Ok(Refit::Ready),
+            // Strict models report their problems at the forecast; a
+            // failure here has no horizon.
+            Err(message) if M::STRICT => Err(EstimationProblem {
+                horizon: 0,
+                origin,
+                message,
+            }),
+            Err(_) if current.is_some() => {
+                out.fallbacks += 1;
+                Ok(Refit::Ready)
+            }
+            Err(e) => Ok(Refit::CellFails(format!(
+                "estimation failed at the first estimation end (position {end}): {e}"
+            ))),
+        }
+    }
+
+    /// The outlook from N with E = N: the backtest's estimate carried on
+    /// when the model can and the windows agree, else a fresh fit; rows
+    /// without a forecast where the model cannot give one.
+    fn outlook<M: Model>(
+        &self,
+        model: &M,
+        current: &mut Option<M::Fit>,
+        outlook_window: Option<usize>,
+    ) -> Vec<OutlookRow> {
+        let window = self.schedule.window();
+        let carried = M::CARRIES && outlook_window == window;
+        let fit = match current.as_mut() {
+            Some(fit) if carried => model.update(fit, self.n, window).ok().map(|_| fit),
+            _ => {
+                *current = model.fit(self.n, outlook_window).ok();
+                current.as_mut()
+            }
+        };
+        match fit {
+            Some(fit) => self
+                .horizons
+                .iter()
+                .zip(model.forecast(fit, self.n, self.horizons))
+                .map(|(&h, step)| OutlookRow {
+                    horizon: h,
+                    forecast: step.as_ref().ok().map(|s| s.forecast),
+                    variance: step.ok().and_then(|s| s.variance),
+                })
+                .collect(),
+            None => self
+                .horizons
+                .iter()
+                .map(|&h| OutlookRow {
+                    horizon: h,
+                    forecast: None,
+                    variance: None,
+                })
+                .collect(),
+        }
+    }
+}
+
 impl models::Visitor for OriginLoop<'_> {
     type Out = std::result::Result<CellOutput, EstimationProblem>;
 
     fn visit<M: Model>(self, model: &M) -> Self::Out {
         let sched = self.schedule;
         let horizons = self.horizons;
-        let window = sched.window();
         let mut out = CellOutput::default();
         let mut per_h: Vec<Vec<ForecastRow>> = vec![Vec::new(); horizons.len()];
         // A strict model's first problem per horizon.
         let mut problems: Vec<Option<EstimationProblem>> = vec![None; horizons.len()];
-        let first = sched.first_origin;
         let last = *sched.origins(horizons[0]).end();
         let mut current: Option<M::Fit> = None;
         let mut last_end = None;
         let mut wanted: Vec<usize> = Vec::with_capacity(horizons.len());
         let mut asked: Vec<usize> = Vec::with_capacity(horizons.len());
-        for origin in first..=last {
+        for origin in sched.first_origin..=last {
             wanted.clear();
             wanted.extend((0..horizons.len()).filter(|&i| {
                 problems[i].is_none() && sched.origins(horizons[i]).contains(&origin)
@@ -81,28 +163,11 @@ impl models::Visitor for OriginLoop<'_> {
             }
             let end = sched.estimation_end(origin);
             if last_end != Some(end) {
-                let fitted = match current.as_mut() {
-                    Some(fit) => model.update(fit, end, window),
-                    None => model.fit(end, window).map(|f| current = Some(f)),
-                };
-                if let Err(e) = fitted {
-                    if M::STRICT {
-                        // Strict models report their problems at the forecast.
-                        let p = EstimationProblem {
-                            horizon: 0,
-                            origin,
-                            message: e,
-                        };
-                        return Err(p);
-                    }
-                    if current.is_some() {
-                        out.fallbacks += 1;
-                    } else {
-                        out.failure = Some(format!(
-                            "estimation failed at the first estimation end (position {end}): {e}"
-                        ));
-                        return Ok(out);
-                    }
+                if let Refit::CellFails(why) =
+                    self.estimate(model, &mut current, (origin, end), &mut out)?
+                {
+                    out.failure = Some(why);
+                    return Ok(out);
                 }
                 last_end = Some(end);
             }
@@ -146,33 +211,7 @@ impl models::Visitor for OriginLoop<'_> {
             out.residuals = model.residuals(fit, end);
         }
         if let Some(outlook_window) = self.outlook {
-            let carried = M::CARRIES && outlook_window == window;
-            let fit = match current.as_mut() {
-                Some(fit) if carried => model.update(fit, self.n, window).ok().map(|_| fit),
-                _ => {
-                    current = model.fit(self.n, outlook_window).ok();
-                    current.as_mut()
-                }
-            };
-            out.outlook = match fit {
-                Some(fit) => horizons
-                    .iter()
-                    .zip(model.forecast(fit, self.n, horizons))
-                    .map(|(&h, step)| OutlookRow {
-                        horizon: h,
-                        forecast: step.as_ref().ok().map(|s| s.forecast),
-                        variance: step.ok().and_then(|s| s.variance),
-                    })
-                    .collect(),
-                None => horizons
-                    .iter()
-                    .map(|&h| OutlookRow {
-                        horizon: h,
-                        forecast: None,
-                        variance: None,
-                    })
-                    .collect(),
-            };
+            out.outlook = self.outlook(model, &mut current, outlook_window);
         }
         Ok(out)
     }
@@ -212,6 +251,60 @@ pub(crate) fn run_cell(
         origin: 0,
         message,
     })?
+}
+
+/// Whether a cell's output read back from a file (a shard folder, the
+/// cache) is what that cell computes: one forecast per horizon and origin
+/// of its schedule, in plan order, or none for a failed cell; the outlook's
+/// horizons for a cell of the first scheme; at most N residuals. Rows that
+/// came from anywhere else would be scored against positions that do not
+/// exist.
+pub(crate) fn check_output(
+    exp: &Experiment,
+    cell: &Cell,
+    out: &CellOutput,
+) -> std::result::Result<(), String> {
+    let target = &exp.targets[cell.target];
+    if out.failure.is_some() {
+        if out.forecasts.is_empty() && out.outlook.is_empty() {
+            return Ok(());
+        }
+        return Err("a failed cell holds forecast rows".into());
+    }
+    let schedule = Schedule {
+        scheme: &exp.schemes[cell.scheme],
+        first_origin: target.first_origins[cell.scheme],
+        n: target.n,
+    };
+    let mut rows = out.forecasts.iter();
+    for &h in &exp.horizons {
+        for origin in schedule.origins(h) {
+            match rows.next() {
+                Some(r) if r.horizon == h && r.origin == origin => {}
+                Some(r) => {
+                    return Err(format!(
+                        "a forecast for horizon {} from origin {} where the plan has horizon {h} from origin {origin}",
+                        r.horizon, r.origin
+                    ))
+                }
+                None => return Err(format!("no forecast for horizon {h} from origin {origin}")),
+            }
+        }
+    }
+    if rows.next().is_some() {
+        return Err("more forecasts than the plan has".into());
+    }
+    let outlook: Vec<usize> = out.outlook.iter().map(|r| r.horizon).collect();
+    let expected: &[usize] = if cell.scheme == 0 { &exp.horizons } else { &[] };
+    if outlook != expected {
+        return Err(format!(
+            "outlook rows for horizons {outlook:?} where the plan has {expected:?}"
+        ));
+    }
+    if out.residuals.len() > target.n {
+        return Err("more residuals than observations".into());
+    }
+    Ok(())
 }
 
 /// Turn an estimation problem into a diagnostic that points at the candidate's line.
@@ -320,7 +413,7 @@ pub(crate) fn run_selected(
             let cell = &cells[i];
             let key = cache.map(|_| cache::Cache::key(exp, cell));
             if let (Some(c), Some(k)) = (cache, &key) {
-                if let Some(mut hit) = c.get(k) {
+                if let Some(mut hit) = c.get(k).filter(|o| check_output(exp, cell, o).is_ok()) {
                     hit.cached = true;
                     progress.cell_done();
                     return Ok(hit);

@@ -72,22 +72,6 @@ pub fn used_templates(templates: &Templates, formats: &[ReportFormat]) -> Vec<(S
     out
 }
 
-/// The manifest without its `outputs` and `run` keys: what a report may show.
-pub fn manifest_core(manifest: &Value) -> Value {
-    let mut core = manifest.clone();
-    if let Some(map) = core.as_object_mut() {
-        map.remove("run");
-        // The tables' hashes stay (the report lists them); the reports' own go.
-        if let Some(outputs) = map.get_mut("outputs").and_then(Value::as_array_mut) {
-            outputs.retain(|o| {
-                let name = o["file"].as_str().unwrap_or("");
-                !name.starts_with("report.") && name != "manifest.json"
-            });
-        }
-    }
-    core
-}
-
 /// Render one template with the report data.
 fn render_one(
     name: &str,

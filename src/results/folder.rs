@@ -128,10 +128,7 @@ pub fn check_target(target: &Path) -> Result<()> {
         .map(|mut d| d.next().is_none())
         .unwrap_or(false);
     if !target.is_dir() || !(is_ours || is_empty) {
-        return Err(Error::Run(format!(
-            "{} exists and is not an outturn results folder (no manifest.json); refusing to replace it — choose another --out",
-            target.display()
-        )));
+        return Err(Error::NotOurs(target.to_path_buf()));
     }
     Ok(())
 }
@@ -166,9 +163,7 @@ fn exchange(_a: &Path, _b: &Path) -> bool {
 
 fn interrupted() -> Result<()> {
     if INTERRUPTED.load(Ordering::SeqCst) {
-        return Err(Error::Run(
-            "interrupted: earlier results are left as they were".into(),
-        ));
+        return Err(Error::Interrupted);
     }
     Ok(())
 }

@@ -4,7 +4,7 @@
 //! `outturn check` accepts when saved in the current folder.
 
 use crate::error::{Error, Location, Result};
-use crate::spec::data::{parse_number, read_table};
+use crate::spec::data::{parse_number, read_table, RawTable};
 use crate::spec::period::{parse_label, Frequency};
 use std::path::Path;
 
@@ -46,39 +46,29 @@ fn detect_frequency(labels: &[&str]) -> Option<Frequency> {
     None
 }
 
-pub fn draft(path: &Path) -> Result<String> {
-    let loc = || {
-        Some(Location {
-            file: path.to_path_buf(),
-            line: None,
-            column: None,
-        })
-    };
-    let bytes = std::fs::read(path)
-        .map_err(|e| Error::invalid(loc(), format!("cannot read the data file: {e}")))?;
-    let table = read_table(path, &bytes).map_err(|d| Error::Invalid(vec![d]))?;
-    let n_rows = table.rows.len();
-    // The time column: the first whose labels fit a frequency.
-    let mut time = None;
+/// A numeric column and where it ends.
+struct Col {
+    name: String,
+    last: usize,
+    complete_to_last: bool,
+}
+
+/// The time column: the first whose labels fit a frequency.
+fn time_column(table: &RawTable) -> Option<(usize, Frequency)> {
     for (i, _) in table.headers.iter().enumerate() {
         let labels: Vec<&str> = table.rows.iter().map(|r| &r.cells[i]).collect();
         if labels.iter().any(|l| l.is_empty()) {
             continue;
         }
         if let Some(f) = detect_frequency(&labels) {
-            time = Some((i, f));
-            break;
+            return Some((i, f));
         }
     }
-    let Some((time_idx, freq)) = time else {
-        return Err(Error::invalid(loc(), "no column holds period labels of one frequency without gaps (e.g. 2004Q1, 2004-01, 2004-01-05, 2004 or 1, 2, 3 …)"));
-    };
-    // Numeric columns and where each ends.
-    struct Col {
-        name: String,
-        last: usize,
-        complete_to_last: bool,
-    }
+    None
+}
+
+/// Every column but the time column whose cells are all numbers or empty.
+fn numeric_columns(table: &RawTable, time_idx: usize) -> Vec<Col> {
     let mut cols = Vec::new();
     for (i, name) in table.headers.iter().enumerate() {
         if i == time_idx {
@@ -100,18 +90,11 @@ pub fn draft(path: &Path) -> Result<String> {
             complete_to_last: first == 0 && values[..=last].iter().all(Option::is_some),
         });
     }
-    let usable: Vec<&Col> = cols.iter().filter(|c| c.complete_to_last).collect();
-    let Some(target) = usable.first() else {
-        return Err(Error::invalid(
-            loc(),
-            "no numeric column without gaps to forecast",
-        ));
-    };
-    let n = target.last + 1;
-    let seasonal = freq.season_length();
-    let first_label = &table.rows[0].cells[time_idx];
-    let origin_row = (n * 6 / 10).max(1) - 1;
-    let origin = &table.rows[origin_row].cells[time_idx];
+    cols
+}
+
+/// An experiment name from the data file's name (a-z, 0-9 and '-').
+fn experiment_name(path: &Path) -> String {
     let stem = path
         .file_stem()
         .map(|s| s.to_string_lossy().to_lowercase())
@@ -126,6 +109,59 @@ pub fn draft(path: &Path) -> Result<String> {
             }
         })
         .collect();
+    if name.is_empty() {
+        "experiment".into()
+    } else {
+        name
+    }
+}
+
+pub fn draft(path: &Path) -> Result<String> {
+    let loc = || {
+        Some(Location {
+            file: path.to_path_buf(),
+            line: None,
+            column: None,
+        })
+    };
+    let bytes = std::fs::read(path)
+        .map_err(|e| Error::invalid(loc(), format!("cannot read the data file: {e}")))?;
+    let table = read_table(path, &bytes).map_err(|d| Error::Invalid(vec![d]))?;
+    let Some((time_idx, freq)) = time_column(&table) else {
+        return Err(Error::invalid(loc(), "no column holds period labels of one frequency without gaps (e.g. 2004Q1, 2004-01, 2004-01-05, 2004 or 1, 2, 3 …)"));
+    };
+    let cols = numeric_columns(&table, time_idx);
+    let usable: Vec<&Col> = cols.iter().filter(|c| c.complete_to_last).collect();
+    let Some(target) = usable.first() else {
+        return Err(Error::invalid(
+            loc(),
+            "no numeric column without gaps to forecast",
+        ));
+    };
+    // Columns ending up to three periods early become predictors with a
+    // release lag; columns running past the target are known ahead.
+    let predictors: Vec<(&Col, usize, bool)> = usable[1..]
+        .iter()
+        .filter(|c| c.last + 3 >= target.last)
+        .map(|c| (*c, target.last.saturating_sub(c.last), c.last > target.last))
+        .collect();
+    Ok(starter(path, &table, time_idx, freq, target, &predictors))
+}
+
+/// The commented starter experiment.
+fn starter(
+    path: &Path,
+    table: &RawTable,
+    time_idx: usize,
+    freq: Frequency,
+    target: &Col,
+    predictors: &[(&Col, usize, bool)],
+) -> String {
+    let n_rows = table.rows.len();
+    let n = target.last + 1;
+    let first_label = &table.rows[0].cells[time_idx];
+    let origin_row = (n * 6 / 10).max(1) - 1;
+    let origin = &table.rows[origin_row].cells[time_idx];
     let mut y = String::new();
     y.push_str(&format!(
         "# Starter experiment drafted from {} ({} rows; periods {} to {}).\n",
@@ -139,14 +175,7 @@ pub fn draft(path: &Path) -> Result<String> {
     );
     y.push_str("#   outturn check FILE && outturn run FILE\n");
     y.push_str("version: 1\n");
-    y.push_str(&format!(
-        "experiment: {}\n",
-        if name.is_empty() {
-            "experiment".into()
-        } else {
-            name
-        }
-    ));
+    y.push_str(&format!("experiment: {}\n", experiment_name(path)));
     y.push_str("notes: Drafted by outturn draft; say what question this experiment answers.\n\n");
     y.push_str("data:\n");
     y.push_str(&format!(
@@ -162,16 +191,9 @@ pub fn draft(path: &Path) -> Result<String> {
     y.push('\n');
     y.push_str(&format!("target: {}\n", target.name));
     y.push_str("transform: none                   # none | log | diff | log_diff | pct_change | seasonal_diff\n");
-    // Columns ending up to three periods early become predictors with a
-    // release lag; columns running past the target are known ahead.
-    let predictors: Vec<(&Col, usize, bool)> = usable[1..]
-        .iter()
-        .filter(|c| c.last + 3 >= target.last)
-        .map(|c| (*c, target.last.saturating_sub(c.last), c.last > target.last))
-        .collect();
     if !predictors.is_empty() {
         y.push_str("\npredictors:\n");
-        for (c, lag, ahead) in &predictors {
+        for (c, lag, ahead) in predictors {
             y.push_str(&format!("  - column: {}\n", c.name));
             if *ahead {
                 y.push_str(
@@ -184,7 +206,7 @@ pub fn draft(path: &Path) -> Result<String> {
         }
     }
     y.push_str("\ncandidates:\n  - family: naive\n  - family: mean\n  - family: drift\n");
-    if seasonal.is_some() {
+    if freq.season_length().is_some() {
         y.push_str("  - family: seasonal_naive\n");
     }
     y.push_str("  - family: ar\n    lags: {from: 1, to: 4}\n");
@@ -202,5 +224,5 @@ pub fn draft(path: &Path) -> Result<String> {
     y.push_str("\nscoring:\n  metrics: [rmse, mae, mase]\n  benchmark: naive\n");
     y.push_str("\nreport:\n  formats: [html, markdown]\n");
     y.push_str("\nseed: 1\n");
-    Ok(y)
+    y
 }

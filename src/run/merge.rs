@@ -11,7 +11,7 @@ use crate::digest::sha256_hex;
 use crate::error::{Error, Location, Result};
 use crate::plan::{self, Cell};
 use crate::results::folder as output;
-use crate::results::shard::grid_digest;
+use crate::results::shard::{grid_digest, ShardManifest};
 use crate::spec::{self, Experiment};
 use serde_json::Value;
 use std::path::{Path, PathBuf};
@@ -27,28 +27,14 @@ fn invalid(path: &Path, msg: impl Into<String>) -> Error {
     )
 }
 
-fn read_json(path: &Path) -> Result<Value> {
-    let bytes = std::fs::read(path).map_err(|e| invalid(path, format!("cannot read: {e}")))?;
-    serde_json::from_slice(&bytes)
-        .map_err(|e| invalid(path, format!("not a readable manifest: {e}")))
-}
-
-/// Load the experiment a manifest records and check its inputs are unchanged.
-pub fn load_recorded(
-    manifest: &Value,
-    manifest_path: &Path,
+/// Load the experiment a manifest records (by the absolute path in its
+/// `run` section) and check its inputs are unchanged.
+pub(crate) fn load_recorded(
+    experiment_path: &str,
     experiment_sha: &str,
     data_sha: &str,
 ) -> Result<Experiment> {
-    let path = manifest["run"]["experiment_path"]
-        .as_str()
-        .map(PathBuf::from)
-        .ok_or_else(|| {
-            invalid(
-                manifest_path,
-                "the manifest does not record the experiment file's path",
-            )
-        })?;
+    let path = PathBuf::from(experiment_path);
     let text = std::fs::read(&path).map_err(|e| {
         invalid(
             &path,
@@ -65,6 +51,86 @@ pub fn load_recorded(
     Ok(exp)
 }
 
+/// A shard folder's manifest.
+fn read_shard_manifest(path: &Path) -> Result<ShardManifest> {
+    let bytes = std::fs::read(path).map_err(|e| invalid(path, format!("cannot read: {e}")))?;
+    if bytes.len() > MAX_MANIFEST_BYTES {
+        return Err(invalid(path, "too large for a shard manifest (edited?)"));
+    }
+    if serde_json::from_slice::<Value>(&bytes).is_ok_and(|v| v.get("shard_of").is_none()) {
+        return Err(invalid(
+            path,
+            "not a shard folder (run with --shard K/N to make one)",
+        ));
+    }
+    ShardManifest::from_bytes(&bytes).map_err(|e| invalid(path, e))
+}
+
+/// A shard manifest lists its cells: a few hundred bytes per cell.
+const MAX_MANIFEST_BYTES: usize = 1 << 30;
+
+/// Every shard of one run, each exactly once.
+fn check_shards(manifests: &[(PathBuf, PathBuf, ShardManifest)]) -> Result<()> {
+    let first = &manifests[0].2.shard_of;
+    let count = first.count;
+    for (_, mpath, m) in &manifests[1..] {
+        let s = &m.shard_of;
+        let differs = [
+            (
+                s.experiment_sha256 != first.experiment_sha256,
+                "a different experiment file",
+            ),
+            (s.data_sha256 != first.data_sha256, "different data"),
+            (
+                s.tool_version != first.tool_version,
+                "a different outturn version",
+            ),
+            (s.grid_sha256 != first.grid_sha256, "a different grid"),
+            (s.count != first.count, "a different shard count"),
+        ];
+        if let Some((_, what)) = differs.iter().find(|(d, _)| *d) {
+            return Err(invalid(
+                mpath,
+                format!(
+                    "this shard comes from {what} than {}; shards of one run only",
+                    manifests[0].1.display()
+                ),
+            ));
+        }
+    }
+    let mut seen: Vec<Option<&Path>> = vec![None; count + 1];
+    for (d, mpath, m) in manifests {
+        let k = m.shard_of.shard;
+        if let Some(prev) = seen[k] {
+            return Err(invalid(
+                mpath,
+                format!("shard {k}/{count} is given twice (also {})", prev.display()),
+            ));
+        }
+        seen[k] = Some(d);
+    }
+    let missing: Vec<String> = (1..=count)
+        .filter(|&k| seen[k].is_none())
+        .map(|k| format!("{k}/{count}"))
+        .collect();
+    if !missing.is_empty() {
+        let more = missing.len().saturating_sub(10);
+        return Err(Error::invalid(
+            None,
+            format!(
+                "missing shard(s): {}{}",
+                missing[..missing.len().min(10)].join(", "),
+                if more > 0 {
+                    format!(" and {more} more")
+                } else {
+                    String::new()
+                }
+            ),
+        ));
+    }
+    Ok(())
+}
+
 /// `outturn merge DIR... --out DIR`.
 pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<usize> {
     let started = std::time::Instant::now();
@@ -77,82 +143,19 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<usize> {
     let mut manifests = Vec::new();
     for d in dirs {
         let mpath = d.join("manifest.json");
-        let m = read_json(&mpath)?;
-        if !m["shard_of"].is_object() {
-            return Err(invalid(
-                &mpath,
-                "not a shard folder (run with --shard K/N to make one)",
-            ));
-        }
+        let m = read_shard_manifest(&mpath)?;
         manifests.push((d.clone(), mpath, m));
     }
-    let first = &manifests[0].2["shard_of"];
-    let count = first["count"].as_u64().unwrap_or(0) as usize;
-    for (_, mpath, m) in &manifests[1..] {
-        let s = &m["shard_of"];
-        for key in [
-            "experiment_sha256",
-            "data_sha256",
-            "tool_version",
-            "grid_sha256",
-            "count",
-        ] {
-            if s[key] != first[key] {
-                let what = match key {
-                    "experiment_sha256" => "a different experiment file",
-                    "data_sha256" => "different data",
-                    "tool_version" => "a different outturn version",
-                    "grid_sha256" => "a different grid",
-                    _ => "a different shard count",
-                };
-                return Err(invalid(
-                    mpath,
-                    format!(
-                        "this shard comes from {what} than {}; shards of one run only",
-                        manifests[0].1.display()
-                    ),
-                ));
-            }
-        }
-    }
-    let mut seen = vec![None; count + 1];
-    for (d, mpath, m) in &manifests {
-        let k = m["shard_of"]["shard"].as_u64().unwrap_or(0) as usize;
-        if k == 0 || k > count {
-            return Err(invalid(
-                mpath,
-                format!("shard number {k} is outside 1..{count}"),
-            ));
-        }
-        if let Some(prev) = &seen[k] {
-            return Err(invalid(
-                mpath,
-                format!(
-                    "shard {k}/{count} is given twice (also {})",
-                    Path::new(prev).display()
-                ),
-            ));
-        }
-        seen[k] = Some(d.to_string_lossy().to_string());
-    }
-    let missing: Vec<String> = (1..=count)
-        .filter(|&k| seen[k].is_none())
-        .map(|k| format!("{k}/{count}"))
-        .collect();
-    if !missing.is_empty() {
-        return Err(Error::invalid(
-            None,
-            format!("missing shard(s): {}", missing.join(", ")),
-        ));
-    }
+    check_shards(&manifests)?;
+    let first = manifests[0].2.shard_of.clone();
+    let count = first.count;
     let exp = load_recorded(
-        &manifests[0].2,
-        &manifests[0].1,
-        first["experiment_sha256"].as_str().unwrap_or(""),
-        first["data_sha256"].as_str().unwrap_or(""),
+        &manifests[0].2.run.experiment_path,
+        &first.experiment_sha256,
+        &first.data_sha256,
     )?;
     let cells = plan::cells(&exp);
-    if grid_digest(&cells) != first["grid_sha256"].as_str().unwrap_or("") {
+    if grid_digest(&cells) != first.grid_sha256 {
         return Err(invalid(
             &manifests[0].1,
             "the experiment's grid no longer matches the shards'",
@@ -169,13 +172,13 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<usize> {
     // failure on the way leaves nothing written.
     let mut by_shard: Vec<Option<Shard>> = (0..count).map(|_| None).collect();
     for (d, _, m) in &manifests {
-        let k = m["shard_of"]["shard"].as_u64().unwrap_or(0) as usize;
+        let k = m.shard_of.shard;
         let path = d.join("cells.txt");
         let file =
             std::fs::File::open(&path).map_err(|e| invalid(&path, format!("cannot read: {e}")))?;
         by_shard[k - 1] = Some(Shard {
             reader: cellio::CellReader::new(std::io::BufReader::with_capacity(1 << 20, file)),
-            expected: m["outputs"][0]["sha256"].as_str().unwrap_or("").to_string(),
+            expected: m.cells_sha256().to_string(),
             path,
             last: None,
         });
@@ -202,7 +205,7 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<usize> {
                 if !is_computed(&exp, &cells[i]) {
                     return Ok(CellOutput::default());
                 }
-                rows.take(i, &cells, &index, count)
+                rows.take(&exp, i, &cells, &index, count)
             })
             .collect()
     };
@@ -256,6 +259,7 @@ impl Rows {
     /// Cell `i`'s output, from the shard that holds it.
     fn take(
         &mut self,
+        exp: &Experiment,
         i: usize,
         cells: &[Cell],
         index: &std::collections::HashMap<&str, usize>,
@@ -265,12 +269,13 @@ impl Rows {
             return Ok(o);
         }
         let k = plan::shard_of(&cells[i], count);
-        self.take_from(k, i, cells, index, count)
+        self.take_from(exp, k, i, cells, index, count)
             .map_err(|e| self.shards[k - 1].damaged().unwrap_or(e))
     }
 
     fn take_from(
         &mut self,
+        exp: &Experiment,
         k: usize,
         i: usize,
         cells: &[Cell],
@@ -308,6 +313,12 @@ impl Rows {
                 return Err(invalid(
                     &shard.path,
                     format!("cell '{id}' belongs to another shard (damaged or edited)"),
+                ));
+            }
+            if let Err(why) = crate::backtest::check_output(exp, &cells[j], &out) {
+                return Err(invalid(
+                    &shard.path,
+                    format!("cell '{id}' does not match the experiment's plan (damaged or edited): {why}"),
                 ));
             }
             if j == i {

@@ -10,31 +10,17 @@ pub(crate) mod pipeline;
 pub(crate) mod render;
 pub(crate) mod verify;
 
+#[cfg(test)]
+mod property_tests;
+
 use crate::backtest::{self, cache, CellOutput};
 use crate::error::{Error, Result};
 use crate::plan;
+pub use crate::progress::{Progress, Silent};
 use crate::results::{folder, shard};
 use crate::spec::{self, Experiment};
 use std::path::{Path, PathBuf};
 use std::time::Instant;
-
-/// What a run tells whoever watches it. The library never prints: the
-/// command line implements this (a progress bar on a terminal, nothing
-/// under `--quiet`); everything has a default that does nothing.
-pub trait Progress: Sync {
-    /// The run is about to compute `cells` cells.
-    fn begin(&self, _cells: usize) {}
-    /// One more cell finished (computed or taken from the cache).
-    fn cell_done(&self) {}
-    /// The computation is over (the bar can go).
-    fn end(&self) {}
-    /// A step of the run ended `seconds` after it started (developer timing).
-    fn step(&self, _step: &str, _seconds: f64) {}
-}
-
-/// Progress that shows nothing.
-pub struct Silent;
-impl Progress for Silent {}
 
 /// What `check` found: the grid and the work it implies.
 #[derive(Debug, Clone)]
@@ -140,7 +126,10 @@ pub(crate) fn thread_pool(jobs: Option<usize>) -> Result<(rayon::ThreadPool, usi
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(threads)
         .build()
-        .map_err(|e| Error::Run(format!("cannot start {threads} worker threads: {e}")))?;
+        .map_err(|e| Error::Threads {
+            threads,
+            message: e.to_string(),
+        })?;
     Ok((pool, threads))
 }
 
@@ -212,7 +201,14 @@ pub fn run(path: &Path, opts: &RunOptions, progress: &dyn Progress) -> Result<Ru
             .install(|| backtest::run_selected(&exp, &cells, &selected, cache.as_ref(), progress));
         progress.end();
         let computed = computed.map_err(take_back)?;
-        let files = shard::shard_files(&exp, &cells, &selected, &computed, (k, n), &ctx);
+        let run = shard::ShardRun {
+            started_unix: ctx.started_unix,
+            seconds: ctx.started.elapsed().as_secs_f64(),
+            threads: ctx.threads,
+            shard: ctx.shard.clone(),
+            experiment_path: absolute(&exp.source_path),
+        };
+        let files = shard::shard_files(&exp, &cells, &selected, &computed, (k, n), run);
         folder::write_folder(&folder, &files)?;
         return Ok(RunSummary {
             folder,

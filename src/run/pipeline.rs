@@ -549,7 +549,7 @@ fn stream_in_order(
     }
     let written = written_so_far.load(Ordering::Acquire);
     if written < n {
-        return Err(Error::Run(format!(
+        return Err(Error::Internal(format!(
             "internal error: {written} of {n} targets were written"
         )));
     }
@@ -638,8 +638,8 @@ pub fn produce(
             .map_err(|e| Error::io(format!("cannot write {name}"), e.into_error()))?;
         files.push((name, file));
         outputs.push(OutputFile {
-            name: name.to_string(),
-            sha256: hash.finalize().iter().map(|b| format!("{b:02x}")).collect(),
+            file: name.to_string(),
+            sha256: crate::digest::hex(hash.finalize()),
             bytes,
         });
     }
@@ -667,11 +667,11 @@ pub fn produce(
     // The manifest is built once: without its run section it is what the
     // report reads (outputs so far hold only the tables); the run section
     // and the reports' entries are added before it is written.
-    let mut core = manifest::manifest_value(exp, &cell_facts, &templates_used, &outputs, &facts);
-    let run_section = core.as_object_mut().and_then(|m| m.remove("run"));
+    let mut manifest = manifest::Manifest::of(exp, &cell_facts, &templates_used, outputs, &facts);
+    let core = manifest.core_value();
     let rows = match report_rows {
-        Some(rows) => rows.map_err(Error::Run)?,
-        None => report::Rows::parse(&report::Tables::new(), &grid).map_err(Error::Run)?,
+        Some(rows) => rows.map_err(Error::Report)?,
+        None => report::Rows::parse(&report::Tables::new(), &grid).map_err(Error::Report)?,
     };
     ctx.step("rows ready");
     let folder = report::Folder::assemble(
@@ -686,26 +686,18 @@ pub fn produce(
     // sleep costs the time it takes to wake (milliseconds on a virtual machine).
     let rendered =
         report::render::reports_of(folder, Some(report_parts), &core, &exp.formats, &templates)
-            .map_err(Error::Run)?;
+            .map_err(Error::Report)?;
     for (name, bytes) in &rendered {
-        outputs.push(write_file(dir, name, bytes, ctx.durable)?);
+        manifest
+            .outputs
+            .push(write_file(dir, name, bytes, ctx.durable)?);
     }
     ctx.step("reports written");
-    let mut manifest = core;
-    manifest["outputs"] = manifest::outputs_value(&outputs);
-    if let Some(run) = run_section {
-        manifest["run"] = run;
-    }
-    write_file(
-        dir,
-        "manifest.json",
-        &manifest::to_bytes(&manifest),
-        ctx.durable,
-    )?;
+    write_file(dir, "manifest.json", &manifest.to_bytes(), ctx.durable)?;
     ctx.step("manifest written");
     syncing
         .join()
-        .map_err(|_| Error::Run("syncing the tables stopped unexpectedly".into()))??;
+        .map_err(|_| Error::Internal("syncing the tables stopped unexpectedly".into()))??;
     ctx.step("reports and manifest");
     Ok(Produced {
         failed_cells: failed,

@@ -4,10 +4,9 @@
 
 use crate::digest::sha256_hex;
 use crate::error::{Error, Result};
-use crate::report::render::{
-    default_templates, load_templates, manifest_core, reports, used_templates,
-};
-use serde_json::{json, Value};
+use crate::report::render::{default_templates, load_templates, reports, used_templates};
+use crate::results::manifest::{Manifest, OutputFile, TemplateRecord};
+use serde_json::Value;
 use std::collections::{BTreeMap, HashMap};
 use std::path::Path;
 
@@ -101,13 +100,9 @@ pub fn render_folder(dir: &Path, templates: Option<&Path>) -> Result<()> {
             ))
         }
     };
-    let mut manifest: Value = serde_json::from_slice(&manifest_bytes).map_err(|e| {
-        Error::invalid(
-            None,
-            format!("{}: not valid JSON: {e}", manifest_path.display()),
-        )
-    })?;
-    if !dir.join("scores.csv").exists() {
+    if serde_json::from_slice::<Value>(&manifest_bytes).is_ok_and(|v| v.get("shard_of").is_some())
+        || !dir.join("scores.csv").exists()
+    {
         return Err(Error::invalid(
             None,
             format!(
@@ -118,15 +113,17 @@ pub fn render_folder(dir: &Path, templates: Option<&Path>) -> Result<()> {
     }
     // The large tables are read row by row, keeping the rows of the targets
     // the report shows in detail (a 1000-series folder holds gigabytes).
-    let detailed: Option<HashMap<String, usize>> = manifest
-        .pointer("/grid/targets")
-        .and_then(Value::as_array)
-        .map(|list| {
-            list.iter()
-                .enumerate()
-                .filter_map(|(t, name)| Some((name.as_str()?.to_string(), t)))
-                .collect()
-        });
+    let mut manifest = Manifest::from_bytes(&manifest_bytes)
+        .map_err(|e| Error::invalid(None, format!("{}: {e}", manifest_path.display())))?;
+    let detailed: Option<HashMap<String, usize>> = Some(
+        manifest
+            .grid
+            .targets
+            .iter()
+            .enumerate()
+            .map(|(t, name)| (name.clone(), t))
+            .collect(),
+    );
     let mut files = BTreeMap::new();
     for name in TABLES {
         let path = dir.join(name);
@@ -174,31 +171,29 @@ pub fn render_folder(dir: &Path, templates: Option<&Path>) -> Result<()> {
     };
     let declared = crate::spec::declaration(&experiment_path, &text)?;
     let used = used_templates(&templates, &declared.formats);
-    manifest["templates"] = json!(used
+    manifest.templates = used
         .iter()
-        .map(|(name, text)| json!({"name": name, "sha256": sha256_hex(text.as_bytes())}))
-        .collect::<Vec<_>>());
-    let core = manifest_core(&manifest);
-    let out = reports(&files, &core, &declared, &templates).map_err(Error::Run)?;
+        .map(|(name, text)| TemplateRecord {
+            name: name.clone(),
+            sha256: sha256_hex(text.as_bytes()),
+        })
+        .collect();
+    let core = manifest.core_value();
+    // The tables are the folder's, not this run's: a problem with them is the input's.
+    let out = reports(&files, &core, &declared, &templates).map_err(|e| {
+        Error::invalid(
+            None,
+            format!(
+                "{}: the stored tables cannot be reported: {e}",
+                dir.display()
+            ),
+        )
+    })?;
     for (name, bytes) in &out {
         write_atomic(dir, name, bytes)?;
-        let entry = json!({"file": name, "sha256": sha256_hex(bytes), "bytes": bytes.len()});
-        match manifest.get_mut("outputs").and_then(Value::as_array_mut) {
-            Some(outputs) => {
-                match outputs
-                    .iter_mut()
-                    .find(|o| o.get("file").and_then(Value::as_str) == Some(name.as_str()))
-                {
-                    Some(o) => *o = entry,
-                    None => outputs.push(entry),
-                }
-            }
-            None => manifest["outputs"] = json!([entry]),
-        }
+        manifest.set_output(OutputFile::of(name, bytes));
     }
-    let mut bytes = serde_json::to_vec_pretty(&manifest)
-        .map_err(|e| Error::Run(format!("cannot write the manifest: {e}")))?;
-    bytes.push(b'\n');
+    let bytes = manifest.to_bytes();
     if bytes != manifest_bytes {
         write_atomic(dir, "manifest.json", &bytes)?;
     }

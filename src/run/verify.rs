@@ -6,6 +6,8 @@ use super::merge::load_recorded;
 use super::{RunContext, Silent};
 use crate::error::{Error, Location, Result};
 use crate::plan;
+use crate::results::manifest::Manifest;
+use crate::spec::Experiment;
 use serde_json::Value;
 use std::path::Path;
 
@@ -50,39 +52,56 @@ fn without_run(mut v: Value) -> Value {
     v
 }
 
-pub fn verify(dir: &Path, jobs: Option<usize>) -> Result<Verdict> {
-    let started = std::time::Instant::now();
+/// The experiment a results folder records, with its inputs checked unchanged.
+fn recorded_experiment(dir: &Path) -> Result<Experiment> {
     let mpath = dir.join("manifest.json");
-    let bytes = std::fs::read(&mpath).map_err(|e| {
+    let at = |message: String| {
         Error::invalid(
             Some(Location {
                 file: mpath.clone(),
                 line: None,
                 column: None,
             }),
-            format!("cannot read: {e}"),
+            message,
         )
-    })?;
-    let manifest: Value = serde_json::from_slice(&bytes).map_err(|e| {
-        Error::invalid(
-            Some(Location {
-                file: mpath.clone(),
-                line: None,
-                column: None,
-            }),
-            format!("not a results manifest: {e}"),
-        )
-    })?;
-    let exp_sha = manifest["experiment"]["sha256"]
-        .as_str()
-        .unwrap_or("")
-        .to_string();
-    let data_sha = manifest["data"][0]["sha256"]
-        .as_str()
-        .unwrap_or("")
-        .to_string();
-    let exp = load_recorded(&manifest, &mpath, &exp_sha, &data_sha)?;
-    let cells = plan::cells(&exp);
+    };
+    let bytes = std::fs::read(&mpath).map_err(|e| at(format!("cannot read: {e}")))?;
+    if serde_json::from_slice::<Value>(&bytes).is_ok_and(|v| v.get("shard_of").is_some()) {
+        return Err(at(
+            "this is a shard folder; merge the shards (outturn merge) and verify the merged folder"
+                .into(),
+        ));
+    }
+    let manifest = Manifest::from_bytes(&bytes).map_err(at)?;
+    let recorded = manifest
+        .run
+        .as_ref()
+        .ok_or_else(|| at("the manifest does not record the experiment file's path".into()))?;
+    let data_sha = manifest
+        .data
+        .first()
+        .map(|d| d.sha256.as_str())
+        .unwrap_or("");
+    load_recorded(
+        &recorded.experiment_path,
+        &manifest.experiment.sha256,
+        data_sha,
+    )
+}
+
+/// A scratch folder for the rerun, removed when dropped (it is never swapped in).
+struct Scratch(std::path::PathBuf);
+
+impl Drop for Scratch {
+    fn drop(&mut self) {
+        let _ = std::fs::remove_dir_all(&self.0);
+    }
+}
+
+/// Rerun `exp` into a scratch folder.
+fn rerun(exp: &Experiment, jobs: Option<usize>) -> Result<Scratch> {
+    let started = std::time::Instant::now();
+    let cells = plan::cells(exp);
     let (pool, threads) = super::thread_pool(jobs)?;
     let ctx = RunContext {
         started,
@@ -92,61 +111,62 @@ pub fn verify(dir: &Path, jobs: Option<usize>) -> Result<Verdict> {
         durable: false,
         progress: &Silent,
     };
-    // Rerun into a scratch folder that is never swapped in.
-    let scratch = std::env::temp_dir().join(format!(
+    let scratch = Scratch(std::env::temp_dir().join(format!(
         "outturn-verify-{}-{}",
         std::process::id(),
         super::now_unix()
-    ));
-    std::fs::create_dir_all(&scratch)
-        .map_err(|e| Error::io(format!("cannot create {}", scratch.display()), e))?;
-    struct Cleanup(std::path::PathBuf);
-    impl Drop for Cleanup {
-        fn drop(&mut self) {
-            let _ = std::fs::remove_dir_all(&self.0);
-        }
+    )));
+    std::fs::create_dir_all(&scratch.0)
+        .map_err(|e| Error::io(format!("cannot create {}", scratch.0.display()), e))?;
+    super::produce_run(exp, &cells, None, &scratch.0, &ctx, &pool)?;
+    Ok(scratch)
+}
+
+/// The first difference between a rerun's file and the folder's, in words.
+fn difference(name: &str, ours: &[u8], theirs: &[u8]) -> Option<String> {
+    if name != "manifest.json" {
+        return first_difference(name, ours, theirs);
     }
-    let _cleanup = Cleanup(scratch.clone());
-    super::produce_run(&exp, &cells, None, &scratch, &ctx, &pool)?;
-    let mut files: Vec<String> = std::fs::read_dir(&scratch)
+    let a = serde_json::from_slice::<Value>(ours).map(without_run).ok();
+    let b = serde_json::from_slice::<Value>(theirs)
+        .map(without_run)
+        .ok();
+    if a.is_some() && a == b {
+        return None;
+    }
+    let pretty = |v: Option<Value>| {
+        v.map(|v| serde_json::to_vec_pretty(&v).unwrap_or_default())
+            .unwrap_or_default()
+    };
+    first_difference(
+        "manifest.json (outside its run section)",
+        &pretty(a),
+        &pretty(b),
+    )
+    .or_else(|| Some("manifest.json differs".into()))
+}
+
+pub fn verify(dir: &Path, jobs: Option<usize>) -> Result<Verdict> {
+    let exp = recorded_experiment(dir)?;
+    let scratch = rerun(&exp, jobs)?;
+    let mut files: Vec<String> = std::fs::read_dir(&scratch.0)
         .map_err(|e| Error::io("cannot list the rerun", e))?
         .flatten()
         .map(|e| e.file_name().to_string_lossy().to_string())
         .collect();
     files.sort();
     for name in &files {
-        let ours = std::fs::read(scratch.join(name))
+        let ours = std::fs::read(scratch.0.join(name))
             .map_err(|e| Error::io(format!("cannot read the rerun's {name}"), e))?;
-        let path = dir.join(name);
-        let Ok(theirs) = std::fs::read(&path) else {
+        let Ok(theirs) = std::fs::read(dir.join(name)) else {
             return Ok(Verdict {
                 difference: Some(format!("{name} is missing from the folder")),
                 files: files.len(),
             });
         };
-        let diff = if name == "manifest.json" {
-            let a = serde_json::from_slice::<Value>(&ours).map(without_run).ok();
-            let b = serde_json::from_slice::<Value>(&theirs)
-                .map(without_run)
-                .ok();
-            if a.is_some() && a == b {
-                None
-            } else {
-                let pa = a
-                    .map(|v| serde_json::to_vec_pretty(&v).unwrap_or_default())
-                    .unwrap_or_default();
-                let pb = b
-                    .map(|v| serde_json::to_vec_pretty(&v).unwrap_or_default())
-                    .unwrap_or_default();
-                first_difference("manifest.json (outside its run section)", &pa, &pb)
-                    .or_else(|| Some("manifest.json differs".into()))
-            }
-        } else {
-            first_difference(name, &ours, &theirs)
-        };
-        if diff.is_some() {
+        if let Some(d) = difference(name, &ours, &theirs) {
             return Ok(Verdict {
-                difference: diff,
+                difference: Some(d),
                 files: files.len(),
             });
         }

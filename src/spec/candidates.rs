@@ -100,7 +100,7 @@ fn decode_lag_family(
         ),
         _ => (&["family", "label"], &[]),
     };
-    let Some(view) = ctx.map(item, &path, allowed, later) else {
+    let Some(view) = ctx.map(item, path, allowed, later) else {
         return;
     };
     if later.iter().any(|k| view.get(k).is_some()) {
@@ -163,75 +163,149 @@ fn decode_lag_family(
             family: Family::SeasonalNaive,
             line,
         }),
-        "ar" => {
-            let Some(lags_node) = view.get("lags") else {
-                ctx.error(item, format!("{path}: ar needs 'lags': a list of orders like [1, 2, 4] or {{from: 1, to: 8}}"));
-                return;
-            };
-            let Some(orders) = ctx.orders(lags_node, &format!("{path}.lags"), 1) else {
-                return;
-            };
-            for p in orders {
-                out.push(Candidate {
-                    id: format!("{base}({p}{trend_suffix})"),
-                    family: Family::Ar { lags: p, trend },
-                    line,
-                });
-            }
-        }
-        "ardl" if select.is_some() => {
-            let Some((criterion, max_lags)) = select else {
-                return;
-            };
-            let Some(chosen) = ardl_predictors(ctx, item, &view, path, predictors) else {
-                return;
-            };
-            out.push(Candidate {
-                id: format!("{base}({},{max_lags}{trend_suffix})", criterion.name()),
-                family: Family::ArdlSelect {
-                    criterion,
-                    max_lags,
-                    predictors: chosen,
-                    trend,
-                },
+        "ar" => expand_ar(
+            ctx,
+            item,
+            &view,
+            path,
+            Entry {
+                base,
+                trend_suffix,
+                trend,
                 line,
-            });
-        }
+            },
+            out,
+        ),
         "ardl" => {
-            let lags = match view.get("lags") {
-                Some(n) => ctx.orders(n, &format!("{path}.lags"), 0),
-                None => {
-                    ctx.error(item, format!("{path}: ardl needs 'lags': the orders p of the target's own lags (0 allowed)"));
-                    None
-                }
+            let entry = Entry {
+                base,
+                trend_suffix,
+                trend,
+                line,
             };
-            let qs = match view.get("predictor_lags") {
-                Some(n) => ctx.orders(n, &format!("{path}.predictor_lags"), 1),
-                None => {
-                    ctx.error(item, format!("{path}: ardl needs 'predictor_lags': the orders q of each predictor's lags"));
-                    None
-                }
-            };
-            let chosen = ardl_predictors(ctx, item, &view, path, predictors);
-            let (Some(lags), Some(qs), Some(chosen)) = (lags, qs, chosen) else {
-                return;
-            };
-            for &p in &lags {
-                for &q in &qs {
-                    out.push(Candidate {
-                        id: format!("{base}({p},{q}{trend_suffix})"),
-                        family: Family::Ardl {
-                            lags: p,
-                            predictor_lags: q,
-                            predictors: chosen.clone(),
-                            trend,
-                        },
-                        line,
-                    });
-                }
-            }
+            expand_ardl(ctx, item, &view, path, select, predictors, entry, out)
         }
         _ => {}
+    }
+}
+
+/// What every candidate of one entry shares: the id's base (family or
+/// label), the trend and its id suffix, and the entry's line.
+struct Entry {
+    base: String,
+    trend_suffix: String,
+    trend: Trend,
+    line: usize,
+}
+
+/// `family: ar` with `lags`: one candidate per order.
+fn expand_ar(
+    ctx: &mut Ctx,
+    item: &Node,
+    view: &MapView,
+    path: &str,
+    e: Entry,
+    out: &mut Vec<Candidate>,
+) {
+    let Some(lags_node) = view.get("lags") else {
+        ctx.error(
+            item,
+            format!(
+                "{path}: ar needs 'lags': a list of orders like [1, 2, 4] or {{from: 1, to: 8}}"
+            ),
+        );
+        return;
+    };
+    let Some(orders) = ctx.orders(lags_node, &format!("{path}.lags"), 1) else {
+        return;
+    };
+    for p in orders {
+        out.push(Candidate {
+            id: format!("{}({p}{})", e.base, e.trend_suffix),
+            family: Family::Ar {
+                lags: p,
+                trend: e.trend,
+            },
+            line: e.line,
+        });
+    }
+}
+
+/// `family: ardl`: one candidate per (lags, predictor_lags) pair, or one
+/// that selects its orders.
+#[allow(clippy::too_many_arguments)]
+fn expand_ardl(
+    ctx: &mut Ctx,
+    item: &Node,
+    view: &MapView,
+    path: &str,
+    select: Option<(Criterion, usize)>,
+    predictors: &PredictorNames,
+    e: Entry,
+    out: &mut Vec<Candidate>,
+) {
+    if let Some((criterion, max_lags)) = select {
+        let Some(chosen) = ardl_predictors(ctx, item, view, path, predictors) else {
+            return;
+        };
+        out.push(Candidate {
+            id: format!(
+                "{}({},{max_lags}{})",
+                e.base,
+                criterion.name(),
+                e.trend_suffix
+            ),
+            family: Family::ArdlSelect {
+                criterion,
+                max_lags,
+                predictors: chosen,
+                trend: e.trend,
+            },
+            line: e.line,
+        });
+        return;
+    }
+    let lags = match view.get("lags") {
+        Some(n) => ctx.orders(n, &format!("{path}.lags"), 0),
+        None => {
+            ctx.error(
+                item,
+                format!(
+                    "{path}: ardl needs 'lags': the orders p of the target's own lags (0 allowed)"
+                ),
+            );
+            None
+        }
+    };
+    let qs = match view.get("predictor_lags") {
+        Some(n) => ctx.orders(n, &format!("{path}.predictor_lags"), 1),
+        None => {
+            ctx.error(
+                item,
+                format!(
+                    "{path}: ardl needs 'predictor_lags': the orders q of each predictor's lags"
+                ),
+            );
+            None
+        }
+    };
+    let chosen = ardl_predictors(ctx, item, view, path, predictors);
+    let (Some(lags), Some(qs), Some(chosen)) = (lags, qs, chosen) else {
+        return;
+    };
+    for &p in &lags {
+        for &q in &qs {
+            out.push(Candidate {
+                id: format!("{}({p},{q}{})", e.base, e.trend_suffix),
+                family: Family::Ardl {
+                    lags: p,
+                    predictor_lags: q,
+                    predictors: chosen.clone(),
+                    trend: e.trend,
+                },
+                line: e.line,
+            });
+        }
     }
 }
 

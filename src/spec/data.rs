@@ -30,10 +30,6 @@ impl Cells {
         self.ends.len()
     }
 
-    pub fn is_empty(&self) -> bool {
-        self.ends.is_empty()
-    }
-
     pub fn iter(&self) -> impl Iterator<Item = &str> {
         (0..self.len()).map(move |i| &self[i])
     }
@@ -68,6 +64,56 @@ impl RawTable {
             column: column.map(|c| c + 1),
         })
     }
+}
+
+/// A header row names every column once, and is not a row of numbers.
+fn check_header(cells: &Cells) -> Result<(), String> {
+    if let Some(pos) = cells.iter().position(|c| c.is_empty()) {
+        return Err(format!(
+            "the header row has an empty name in column {}",
+            pos + 1
+        ));
+    }
+    if cells.iter().all(|c| c.parse::<f64>().is_ok()) {
+        return Err(
+            "the first row holds only numbers; the data file needs a header row naming the columns"
+                .into(),
+        );
+    }
+    let mut seen = std::collections::HashSet::new();
+    for c in cells.iter() {
+        if !seen.insert(c) {
+            return Err(format!("the header names column '{c}' twice"));
+        }
+    }
+    Ok(())
+}
+
+/// A data row, padded with empty cells to the header's `width`; more cells
+/// than the header names is an error.
+fn data_row(
+    path: &Path,
+    line: usize,
+    mut cells: Cells,
+    width: usize,
+) -> Result<RawRow, Diagnostic> {
+    if cells.len() > width {
+        return Err(Diagnostic::new(
+            Some(Location {
+                file: path.to_path_buf(),
+                line: Some(line),
+                column: Some(width + 1),
+            }),
+            format!(
+                "this row has {} cells but the header names {width} columns; remove the extra cells or name their column in the header",
+                cells.len(),
+            ),
+        ));
+    }
+    while cells.len() < width {
+        cells.push("");
+    }
+    Ok(RawRow { line, cells })
 }
 
 /// Read a CSV file. Blank lines are skipped; a UTF-8 byte-order mark is ignored.
@@ -136,52 +182,11 @@ pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
                 }
                 match &headers {
                     None => {
-                        if let Some(pos) = cells.iter().position(|c| c.is_empty()) {
-                            return Err(at(
-                                Some(line),
-                                format!("the header row has an empty name in column {}", pos + 1),
-                            ));
-                        }
-                        if cells.iter().all(|c| c.parse::<f64>().is_ok()) {
-                            return Err(at(
-                                Some(line),
-                                "the first row holds only numbers; the data file needs a header row naming the columns"
-                                    .into(),
-                            ));
-                        }
-                        let mut seen = std::collections::HashSet::new();
-                        for c in cells.iter() {
-                            if !seen.insert(c) {
-                                return Err(at(
-                                    Some(line),
-                                    format!("the header names column '{c}' twice"),
-                                ));
-                            }
-                        }
+                        check_header(&cells).map_err(|m| at(Some(line), m))?;
                         header_line = line;
                         headers = Some(cells.iter().map(String::from).collect());
                     }
-                    Some(h) => {
-                        if cells.len() > h.len() {
-                            return Err(Diagnostic::new(
-                                Some(Location {
-                                    file: path.to_path_buf(),
-                                    line: Some(line),
-                                    column: Some(h.len() + 1),
-                                }),
-                                format!(
-                                    "this row has {} cells but the header names {} columns; remove the extra cells or name their column in the header",
-                                    cells.len(),
-                                    h.len()
-                                ),
-                            ));
-                        }
-                        let mut cells = cells;
-                        while cells.len() < h.len() {
-                            cells.push("");
-                        }
-                        rows.push(RawRow { line, cells });
-                    }
+                    Some(h) => rows.push(data_row(path, line, cells, h.len())?),
                 }
             }
             Err(e) => {

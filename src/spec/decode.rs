@@ -288,12 +288,6 @@ impl<'n> MapView<'n> {
             .find(|(k, _)| matches!(&k.kind, Kind::Scalar(s, _) if s == key))
             .map(|(k, _)| k)
     }
-    pub fn keys(&self) -> impl Iterator<Item = &'n str> {
-        self.entries.iter().filter_map(|(k, _)| match &k.kind {
-            Kind::Scalar(s, _) => Some(s.as_str()),
-            _ => None,
-        })
-    }
     pub fn anchor(&self) -> Node {
         Node {
             kind: Kind::Scalar(String::new(), false),

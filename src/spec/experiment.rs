@@ -8,12 +8,12 @@
 use super::candidates::{decode_candidate, PendingMembers, PredictorNames};
 use super::decode::{Ctx, MapView};
 use super::period::Frequency;
+use super::predictors::{decode_predictors, Predictors};
 use super::schemes::{decode_schemes, PendingScheme};
 use super::scoring::{decode_scoring, Scoring};
 use super::yaml::{Kind, Node};
 use super::{
-    data, resolve, Candidate, Declaration, Experiment, Family, MultiStep, Predictor, ReportFormat,
-    Transform,
+    data, resolve, Candidate, Declaration, Experiment, Family, MultiStep, ReportFormat, Transform,
 };
 use crate::error::nearest;
 use std::path::{Path, PathBuf};
@@ -41,17 +41,6 @@ struct DataKeys {
     frequency: Option<Frequency>,
     start: Option<(String, Node)>,
     end: Option<(String, Node)>,
-}
-
-/// The declared predictors and where each is written.
-#[derive(Default)]
-struct Predictors {
-    list: Vec<Predictor>,
-    nodes: Vec<Node>,
-    /// Predictors declared with an error of their own: candidates that name
-    /// them are not reported again.
-    failed: Vec<String>,
-    unreadable: bool,
 }
 
 /// Everything the experiment file says, as far as it could be read.
@@ -257,119 +246,6 @@ fn decode_targets(ctx: &mut Ctx, t: &Node) -> Vec<(String, Node)> {
     targets
 }
 
-/// `predictors`: the declared predictor columns with their transforms and
-/// release lags, or known ahead.
-fn decode_predictors(ctx: &mut Ctx, p: Option<&Node>, targets: &[(String, Node)]) -> Predictors {
-    let mut out = Predictors::default();
-    let Some(p) = p.filter(|p| !p.is_null()) else {
-        return out;
-    };
-    let items = match &p.kind {
-        Kind::Seq(items) => items.iter().collect::<Vec<_>>(),
-        _ => {
-            out.unreadable = true;
-            ctx.error(
-                p,
-                "predictors must be a list of entries, each with a 'column'",
-            );
-            Vec::new()
-        }
-    };
-    for (i, item) in items.into_iter().enumerate() {
-        let path = format!("predictors[{}]", i + 1);
-        let Some(view) = ctx.map(
-            item,
-            &path,
-            &["column", "transform", "release_lag", "known_ahead"],
-            &[],
-        ) else {
-            out.unreadable = true;
-            continue;
-        };
-        let Some(column) = view
-            .get("column")
-            .and_then(|n| ctx.string(n, &format!("{path}.column")))
-        else {
-            if view.get("column").is_none() {
-                ctx.error(
-                    item,
-                    format!("{path} needs 'column': the data column to use"),
-                );
-            }
-            out.unreadable = true;
-            continue;
-        };
-        match decode_predictor(ctx, item, &view, &path, column, &out.list, targets) {
-            Ok(Some(predictor)) => {
-                out.list.push(predictor);
-                out.nodes.push(item.clone());
-            }
-            Ok(None) => {}
-            Err(column) => out.failed.push(column),
-        }
-    }
-    out
-}
-
-/// One predictor entry: Ok(None) when it repeats a column (reported), Err
-/// with its column when a setting of its own is wrong (reported).
-fn decode_predictor(
-    ctx: &mut Ctx,
-    item: &Node,
-    view: &MapView,
-    path: &str,
-    column: String,
-    declared: &[Predictor],
-    targets: &[(String, Node)],
-) -> Result<Option<Predictor>, String> {
-    let transform = match view.get("transform") {
-        Some(n) => ctx
-            .choice(n, &format!("{path}.transform"), &Transform::NAMES)
-            .and_then(|s| Transform::parse(&s)),
-        None => Some(Transform::None),
-    };
-    let release_lag = match view.get("release_lag") {
-        Some(n) => ctx
-            .integer(n, &format!("{path}.release_lag"), 0)
-            .map(|v| v as usize),
-        None => Some(0),
-    };
-    let known_ahead = match view.get("known_ahead") {
-        Some(n) => ctx.boolean(n, &format!("{path}.known_ahead")),
-        None => Some(false),
-    };
-    let (Some(transform), Some(release_lag), Some(known_ahead)) =
-        (transform, release_lag, known_ahead)
-    else {
-        return Err(column);
-    };
-    if known_ahead && release_lag > 0 {
-        ctx.error(item, format!("{path}: known_ahead cannot be combined with release_lag (a value known in advance is not published late)"));
-    }
-    if declared.iter().any(|p| p.column == column) {
-        ctx.error(
-            item,
-            format!("{path}: column '{column}' is declared as a predictor twice"),
-        );
-        return Ok(None);
-    }
-    if targets.iter().any(|(t, _)| *t == column) {
-        ctx.error(
-            item,
-            format!(
-                "{path}: '{column}' is a target; its own lags enter through ar and ardl 'lags'"
-            ),
-        );
-    }
-    Ok(Some(Predictor {
-        column,
-        transform,
-        release_lag,
-        known_ahead,
-        line: item.line,
-    }))
-}
-
 /// `backtest`: the schemes, the horizons (ascending) and the multi-step rule.
 fn decode_backtest(ctx: &mut Ctx, b: &Node) -> (Vec<PendingScheme>, Vec<usize>, MultiStep) {
     let mut schemes: Vec<PendingScheme> = Vec::new();
@@ -569,20 +445,13 @@ impl Decoded {
         {
             return None;
         }
-        let (
-            Some(name),
-            Some((data_file, _)),
-            Some((time_column, _)),
-            Some(frequency),
-            Some(transform),
-        ) = (
+        let (Some(name), Some(_), Some(_), Some(frequency), Some(transform)) = (
             self.name,
             self.data.file,
             self.data.time,
             self.data.frequency,
             self.transform,
-        )
-        else {
+        ) else {
             return None;
         };
         let Scoring {
@@ -600,8 +469,6 @@ impl Decoded {
             notes: self.notes,
             source_path: path.to_path_buf(),
             source_text: text.to_string(),
-            data_file,
-            time_column,
             frequency,
             transform,
             predictors: self.predictors.list,

@@ -15,13 +15,11 @@ mod experiment;
 mod families;
 pub mod model;
 pub mod period;
+mod predictors;
 pub mod resolve;
 mod schemes;
 mod scoring;
 pub mod yaml;
-
-#[cfg(test)]
-mod property_tests;
 
 pub use model::*;
 

@@ -127,13 +127,6 @@ impl Metric {
     pub fn per_level(self) -> bool {
         matches!(self, Metric::Coverage | Metric::IntervalScore)
     }
-    /// Metrics that need forecast variances.
-    pub fn needs_variance(self) -> bool {
-        matches!(
-            self,
-            Metric::Coverage | Metric::IntervalScore | Metric::Crps
-        )
-    }
 }
 
 /// One column of the scores table's metric block: a metric, and for
@@ -376,20 +369,6 @@ impl Family {
             _ => self.coefficients().unwrap_or(0),
         }
     }
-
-    pub fn family_name(&self) -> &'static str {
-        match self {
-            Family::Naive => "naive",
-            Family::Mean => "mean",
-            Family::Drift => "drift",
-            Family::SeasonalNaive => "seasonal_naive",
-            Family::Ar { .. } | Family::ArSelect { .. } => "ar",
-            Family::Ardl { .. } | Family::ArdlSelect { .. } => "ardl",
-            Family::Arima { .. } | Family::ArimaSelect { .. } => "arima",
-            Family::Smoothing { .. } => "smoothing",
-            Family::Combination { .. } => "combination",
-        }
-    }
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -478,9 +457,6 @@ pub struct Declaration {
     pub title: String,
     pub source_path: PathBuf,
     pub source_text: String,
-    /// The data file as written (relative to the experiment file).
-    pub data_file: String,
-    pub time_column: String,
     pub frequency: Frequency,
     pub transform: Transform,
     pub predictors: Vec<Predictor>,
@@ -580,15 +556,5 @@ impl Declaration {
 
     pub fn season_length(&self) -> Option<usize> {
         self.frequency.season_length()
-    }
-
-    /// Whether any predictor of a candidate is known ahead (its forecasts are conditional).
-    pub fn is_conditional(&self, candidate: &Candidate) -> bool {
-        match &candidate.family {
-            Family::Ardl { predictors, .. } | Family::ArdlSelect { predictors, .. } => {
-                predictors.iter().any(|&p| self.predictors[p].known_ahead)
-            }
-            _ => false,
-        }
     }
 }

@@ -1,0 +1,91 @@
+//! Resolving the data file against the experiment: period labels checked and
+//! selected (`periods`), columns parsed and transformed (`columns`), every
+//! target laid out in its own position space (SPEC §4) with its predictors
+//! and each scheme's first origin (`target`).
+
+mod columns;
+mod periods;
+mod target;
+
+use super::data::RawTable;
+use super::decode::Ctx;
+use super::model::{Predictor, Scheme, TargetData, Transform};
+use super::period::{Frequency, LabelStyle};
+use super::yaml::Node;
+use columns::{column_or_error, parse_columns};
+
+pub struct DataRequest<'a> {
+    pub time: (&'a str, &'a Node),
+    pub frequency: Frequency,
+    pub start: Option<(&'a str, &'a Node)>,
+    pub end: Option<(&'a str, &'a Node)>,
+    pub targets: &'a [(String, Node)],
+    pub transform: Transform,
+    pub predictors: &'a [Predictor],
+    pub predictor_nodes: &'a [Node],
+    pub schemes: &'a [(&'a Scheme, &'a Node)],
+    pub horizons: &'a [usize],
+}
+
+pub struct Resolved {
+    pub targets: Vec<TargetData>,
+    pub label_style: LabelStyle,
+}
+
+pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option<Resolved> {
+    let freq = req.frequency;
+    if periods::headerless(ctx, table, req.time.0, freq) {
+        return None;
+    }
+    let time_idx = column_or_error(ctx, table, req.time.0, req.time.1, "the time")?;
+    let (ordinals, label_style) = periods::ordinals(ctx, table, time_idx, freq)?;
+    if !periods::in_order(ctx, table, time_idx, &ordinals, freq.step()) {
+        return None;
+    }
+    // start / end select rows first.
+    let range = periods::selected_rows(ctx, &ordinals, freq, req.start, req.end, req.time.1)?;
+    let rows = &table.rows[range.clone()];
+    let predictor_columns: Vec<Option<usize>> = req
+        .predictors
+        .iter()
+        .zip(req.predictor_nodes)
+        .map(|(p, node)| column_or_error(ctx, table, &p.column, node, "the predictor"))
+        .collect();
+    // The target and predictor columns, parsed in one pass along the rows
+    // (a wide panel read column by column jumps between rows for every
+    // cell). A column with a cell that is not a number is left out here and
+    // goes through `parse_column`, which reports the cell, in its turn.
+    let parsed = parse_columns(
+        rows,
+        req.targets
+            .iter()
+            .filter_map(|(name, _)| table.column(name))
+            .chain(predictor_columns.iter().flatten().copied()),
+    );
+    let selection = target::Selection {
+        table,
+        rows,
+        ordinals: &ordinals[range],
+        time_idx,
+        freq,
+        parsed,
+        predictor_columns,
+        lines: rows.iter().map(|r| r.line).collect(),
+    };
+    let mut shared_labels = None;
+    let mut targets = Vec::new();
+    for (name, node) in req.targets {
+        let Some(col) = column_or_error(ctx, table, name, node, "the target") else {
+            continue;
+        };
+        if let Some(t) =
+            target::resolve_target(ctx, &selection, &req, (name, node, col), &mut shared_labels)
+        {
+            targets.push(t);
+        }
+    }
+    (targets.len() == req.targets.len()).then_some(Resolved {
+        targets,
+        label_style,
+    })
+}
