@@ -56,8 +56,8 @@ pub enum Error {
     #[error("{}", render_diagnostics(.0))]
     Invalid(Vec<Diagnostic>),
     /// A folder to be replaced that outturn did not write; it is left untouched.
-    #[error("error: {} exists and is not an outturn results folder (no manifest.json); refusing to replace it — choose another --out", .0.display())]
-    NotOurs(PathBuf),
+    #[error("error: {} exists and is not a results folder outturn wrote: {why}; it is left as it is — choose another --out, or empty or remove it first", path.display())]
+    NotOurs { path: PathBuf, why: String },
     /// Reading or writing a file failed.
     #[error("error: {context}: {source}")]
     Io {
@@ -91,7 +91,7 @@ impl Error {
     /// Exit code (SPEC §1, §7.9).
     pub fn exit_code(&self) -> i32 {
         match self {
-            Error::Invalid(_) | Error::NotOurs(_) => 2,
+            Error::Invalid(_) | Error::NotOurs { .. } => 2,
             Error::Interrupted => 130,
             Error::Io { .. } | Error::Report(_) | Error::Threads { .. } | Error::Internal(_) => 1,
         }

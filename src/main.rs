@@ -5,6 +5,9 @@ use clap::{Parser, Subcommand};
 use std::path::PathBuf;
 use std::process::ExitCode;
 
+/// The most worker threads a run starts (more only adds waiting).
+const MAX_JOBS: i64 = 1024;
+
 #[derive(Parser)]
 #[command(
     name = "outturn",
@@ -26,7 +29,7 @@ enum Command {
         #[arg(long)]
         out: Option<PathBuf>,
         /// Worker threads (default: all cores).
-        #[arg(long, value_parser = clap::value_parser!(u16).range(1..))]
+        #[arg(long, value_parser = clap::value_parser!(u16).range(1..=MAX_JOBS))]
         jobs: Option<u16>,
         /// No progress output.
         #[arg(long)]
@@ -50,7 +53,7 @@ enum Command {
         /// The results folder.
         dir: PathBuf,
         /// Worker threads (default: all cores).
-        #[arg(long, value_parser = clap::value_parser!(u16).range(1..))]
+        #[arg(long, value_parser = clap::value_parser!(u16).range(1..=MAX_JOBS))]
         jobs: Option<u16>,
     },
     /// Join the shard folders of one experiment into one results folder.
@@ -182,8 +185,11 @@ impl outturn::Progress for Bar {
 
 fn main() -> ExitCode {
     let _ = ctrlc::set_handler(|| {
-        outturn::interrupted();
-        eprintln!("interrupted: earlier results are left as they were");
+        if outturn::interrupted() {
+            eprintln!("interrupted after the results folder was swapped in: it holds this run's complete results");
+        } else {
+            eprintln!("interrupted: earlier results are left as they were; nothing of this run was written");
+        }
         std::process::exit(130);
     });
     let cli = match Cli::try_parse() {

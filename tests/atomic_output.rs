@@ -145,10 +145,10 @@ fn a_folder_without_a_manifest_is_refused() {
     std::fs::create_dir(dir.join("res")).unwrap();
     std::fs::write(dir.join("res/thesis.tex"), b"precious").unwrap();
     let out = outturn(&dir, &["run", "exp.yaml", "--out", "res", "--quiet"]);
-    assert_eq!(out.status.code(), Some(1));
+    assert_eq!(out.status.code(), Some(2));
     let stderr = String::from_utf8_lossy(&out.stderr);
     assert!(
-        stderr.contains("not an outturn results folder (no manifest.json)"),
+        stderr.contains("is not a results folder outturn wrote: it has no manifest.json"),
         "{stderr}"
     );
     assert_eq!(
@@ -160,8 +160,52 @@ fn a_folder_without_a_manifest_is_refused() {
     // A plain file in the way is refused too.
     std::fs::write(dir.join("file"), b"keep").unwrap();
     let out = outturn(&dir, &["run", "exp.yaml", "--out", "file", "--quiet"]);
-    assert_eq!(out.status.code(), Some(1));
+    assert_eq!(out.status.code(), Some(2));
     assert_eq!(std::fs::read(dir.join("file")).unwrap(), b"keep");
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+/// Only a folder outturn wrote may be replaced: a folder whose
+/// manifest.json another program wrote, a folder of ours with a file added
+/// and a results path that is a symbolic link are refused (exit 2) and
+/// left exactly as they were, and so is what the link points at.
+#[test]
+fn only_folders_outturn_wrote_are_replaced() {
+    let dir = setup("not-ours");
+    let foreign = dir.join("foreign");
+    std::fs::create_dir(&foreign).unwrap();
+    std::fs::write(foreign.join("manifest.json"), b"{\"tool\": \"other\"}").unwrap();
+    std::fs::write(foreign.join("notes.txt"), b"keep").unwrap();
+    let before = snapshot(&foreign);
+    let out = outturn(&dir, &["run", "exp.yaml", "--out", "foreign", "--quiet"]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("not one outturn wrote"));
+    assert_eq!(snapshot(&foreign), before);
+
+    first_run(&dir);
+    std::fs::write(dir.join("res/my-notes.md"), b"keep").unwrap();
+    let before = snapshot(&dir.join("res"));
+    let out = outturn(&dir, &["run", "exp.yaml", "--out", "res", "--quiet"]);
+    assert_eq!(out.status.code(), Some(2));
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        stderr.contains("holds files outturn did not write there (my-notes.md)"),
+        "{stderr}"
+    );
+    assert_eq!(snapshot(&dir.join("res")), before);
+
+    std::fs::remove_file(dir.join("res/my-notes.md")).unwrap();
+    std::os::unix::fs::symlink(dir.join("res"), dir.join("link")).unwrap();
+    let before = snapshot(&dir.join("res"));
+    let out = outturn(&dir, &["run", "exp.yaml", "--out", "link", "--quiet"]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("symbolic link"));
+    assert_eq!(snapshot(&dir.join("res")), before);
+    assert!(std::fs::symlink_metadata(dir.join("link"))
+        .unwrap()
+        .file_type()
+        .is_symlink());
+    assert!(debris(&dir).is_empty(), "{:?}", debris(&dir));
     let _ = std::fs::remove_dir_all(&dir);
 }
 
@@ -264,55 +308,77 @@ scoring:
 ";
     std::fs::write(dir.join("large.yaml"), large).unwrap();
     std::fs::write(dir.join("large.csv"), data(1600)).unwrap();
-    for delay_ms in [150u64, 400, 900] {
-        let mut child = Command::new(env!("CARGO_BIN_EXE_outturn"))
-            .args([
-                "run",
-                "large.yaml",
-                "--out",
-                "res",
-                "--quiet",
-                "--jobs",
-                "2",
-            ])
-            .current_dir(&dir)
-            .stdout(Stdio::null())
-            .stderr(Stdio::piped())
-            .spawn()
-            .expect("outturn starts");
-        std::thread::sleep(Duration::from_millis(delay_ms));
-        let pid = libc::pid_t::try_from(child.id()).expect("pid fits");
-        // SAFETY: sending SIGINT to the child we spawned.
-        unsafe {
-            libc::kill(pid, libc::SIGINT);
-        }
-        let started = Instant::now();
-        let status = loop {
-            if let Some(status) = child.try_wait().expect("wait") {
-                break status;
+    // SIGINT (Ctrl-C), SIGTERM (what batch schedulers and `kill` send) and
+    // SIGHUP (a closing terminal) all end the run the same way.
+    for signal in [libc::SIGINT, libc::SIGTERM, libc::SIGHUP] {
+        for delay_ms in [150u64, 400, 900] {
+            let mut child = Command::new(env!("CARGO_BIN_EXE_outturn"))
+                .args([
+                    "run",
+                    "large.yaml",
+                    "--out",
+                    "res",
+                    "--quiet",
+                    "--jobs",
+                    "2",
+                ])
+                .current_dir(&dir)
+                .stdout(Stdio::null())
+                .stderr(Stdio::piped())
+                .spawn()
+                .expect("outturn starts");
+            std::thread::sleep(Duration::from_millis(delay_ms));
+            let pid = libc::pid_t::try_from(child.id()).expect("pid fits");
+            // SAFETY: sending a signal to the child we spawned.
+            unsafe {
+                libc::kill(pid, signal);
             }
+            let started = Instant::now();
+            let status = loop {
+                if let Some(status) = child.try_wait().expect("wait") {
+                    break status;
+                }
+                assert!(
+                    started.elapsed() < Duration::from_secs(60),
+                    "outturn did not stop after signal {signal}"
+                );
+                std::thread::sleep(Duration::from_millis(20));
+            };
+            let after = snapshot(&dir.join("res"));
             assert!(
-                started.elapsed() < Duration::from_secs(60),
-                "outturn did not stop after SIGINT"
+                debris(&dir).is_empty(),
+                "debris after signal {signal}: {:?}",
+                debris(&dir)
             );
-            std::thread::sleep(Duration::from_millis(20));
-        };
-        let after = snapshot(&dir.join("res"));
-        assert!(debris(&dir).is_empty(), "debris: {:?}", debris(&dir));
-        match status.code() {
-            // Interrupted: the earlier folder as it was, or (signal after the
-            // swap) a complete new one.
-            Some(130) => assert!(
-                after == before || is_complete(&after),
-                "after an interrupt the folder is neither the old one nor complete"
-            ),
-            // The run finished before the signal arrived.
-            Some(0) => assert!(is_complete(&after)),
-            other => panic!("unexpected exit {other:?}"),
-        }
-        if status.code() == Some(130) && after == before {
-            // The interrupt landed mid-run, which is what this test is for.
-            break;
+            let mut said = String::new();
+            use std::io::Read;
+            if let Some(mut e) = child.stderr.take() {
+                let _ = e.read_to_string(&mut said);
+            }
+            // What the run says it left is what it left.
+            if status.code() == Some(130) && after == before {
+                assert!(
+                    said.contains("earlier results are left as they were"),
+                    "{said}"
+                );
+            } else if status.code() == Some(130) {
+                assert!(said.contains("holds this run's complete results"), "{said}");
+            }
+            match status.code() {
+                // Interrupted: the earlier folder as it was, or (signal after the
+                // swap) a complete new one.
+                Some(130) => assert!(
+                    after == before || is_complete(&after),
+                    "after an interrupt the folder is neither the old one nor complete"
+                ),
+                // The run finished before the signal arrived.
+                Some(0) => assert!(is_complete(&after)),
+                other => panic!("unexpected exit {other:?}"),
+            }
+            if status.code() == Some(130) && after == before {
+                // The interrupt landed mid-run, which is what this test is for.
+                break;
+            }
         }
     }
     let _ = std::fs::remove_dir_all(&dir);
@@ -331,4 +397,46 @@ fn is_complete(folder: &BTreeMap<String, Vec<u8>>) -> bool {
         .keys()
         .filter(|name| name.as_str() != "manifest.json")
         .all(|name| text.contains(name.as_str()))
+}
+
+/// A run refused while it runs (here a design that turns singular: a
+/// predictor constant over the sample, beside the constant term) leaves
+/// nothing behind: neither its temporary folder nor the folders it created
+/// to hold the results.
+#[test]
+fn a_run_refused_at_run_time_leaves_no_folders_it_created() {
+    let dir = scratch("parents");
+    let mut text = String::from("period,y,x\n");
+    for i in 0..40 {
+        text.push_str(&format!(
+            "{}Q{},{},1\n",
+            1950 + i / 4,
+            i % 4 + 1,
+            (i * 7 % 11) as f64
+        ));
+    }
+    std::fs::write(dir.join("data.csv"), text).unwrap();
+    std::fs::write(
+        dir.join("exp.yaml"),
+        SMALL
+            .replace("target: y\n", "target: y\npredictors:\n  - column: x\n")
+            .replace(
+                "  - family: ar\n    lags: [1, 2]\n",
+                "  - family: ardl\n    lags: [1]\n    predictors: [x]\n    predictor_lags: [1]\n",
+            ),
+    )
+    .unwrap();
+    let out = outturn(
+        &dir,
+        &["run", "exp.yaml", "--out", "deep/er/res", "--quiet"],
+    );
+    assert_eq!(
+        out.status.code(),
+        Some(2),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    assert!(!dir.join("deep").exists(), "the created parents were left");
+    assert!(debris(&dir).is_empty(), "{:?}", debris(&dir));
+    let _ = std::fs::remove_dir_all(&dir);
 }

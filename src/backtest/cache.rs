@@ -1,7 +1,8 @@
 //! The resume cache: every finished cell is written to
 //! `<results parent>/.outturn-cache/<key>.cell` as soon as it completes,
-//! keyed by a SHA-256 of everything its output depends on (the tool
-//! version, the data file's hash, the target's resolved span, the transform
+//! keyed by a SHA-256 of everything its output depends on (this build of
+//! the code — `OUTTURN_BUILD_ID`, a hash of the sources made by build.rs,
+//! since one version string spans many builds —, the data file's hash, the target's resolved span, the transform
 //! and predictors, the candidate's family, the scheme, horizons, multi-step
 //! rule and season length). Rerunning after an interruption, or after adding
 //! candidates, recomputes only cells whose key is new. Entries carry their
@@ -14,6 +15,9 @@ use crate::plan::outlook_window;
 use crate::plan::Cell;
 use crate::spec::Experiment;
 use std::path::{Path, PathBuf};
+
+/// This build of the code (see build.rs).
+const BUILD: &str = env!("OUTTURN_BUILD_ID");
 
 pub struct Cache {
     dir: PathBuf,
@@ -39,9 +43,14 @@ impl Cache {
     }
 
     pub fn key(exp: &Experiment, cell: &Cell) -> String {
+        Cache::key_of_build(BUILD, exp, cell)
+    }
+
+    /// The key of a cell computed by the build `build`.
+    fn key_of_build(build: &str, exp: &Experiment, cell: &Cell) -> String {
         let target = &exp.targets[cell.target];
         let content = format!(
-            "outturn {}\ndata {}\ntarget {} n={} first={} future={}\ntransform {:?} freq {:?}\npredictors {:?}\nfamily {:?}\nscheme {:?} t0={}\nhorizons {:?} multi_step {:?}\noutlook {} {:?}\n",
+            "outturn {} build {build}\ndata {}\ntarget {} n={} first={} future={}\ntransform {:?} freq {:?}\npredictors {:?}\nfamily {:?}\nscheme {:?} t0={}\nhorizons {:?} multi_step {:?}\noutlook {} {:?}\n",
             env!("CARGO_PKG_VERSION"),
             exp.data_bytes_sha256,
             target.name,
@@ -117,5 +126,41 @@ impl Cache {
         if !self.existed {
             let _ = std::fs::remove_dir_all(&self.dir);
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn another_build_of_the_code_has_other_keys() {
+        // By construction: the build id is part of what the key hashes, so a
+        // cell cached by a changed build is not found by this one and is
+        // recomputed; the same build finds its own entries.
+        let dir = std::env::temp_dir().join(format!("outturn-cache-key-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        std::fs::write(
+            dir.join("d.csv"),
+            "t,y\n1,1\n2,3\n3,2\n4,5\n5,4\n6,6\n7,5\n8,8\n",
+        )
+        .unwrap();
+        std::fs::write(
+            dir.join("e.yaml"),
+            "version: 1\nexperiment: k\ndata: {file: d.csv, time: t, frequency: index}\ntarget: y\ncandidates: [{family: naive}]\nbacktest: {schemes: [expanding], horizons: [1]}\n",
+        )
+        .unwrap();
+        let exp = crate::spec::load(&dir.join("e.yaml")).unwrap();
+        let cell = &crate::plan::cells(&exp)[0];
+        let here = Cache::key(&exp, cell);
+        assert_eq!(here, Cache::key_of_build(BUILD, &exp, cell));
+        assert_ne!(here, Cache::key_of_build("another build", &exp, cell));
+        let cache = Cache::beside(&dir.join("res"));
+        cache.put(&here, &cell.id, &CellOutput::default());
+        assert!(cache.get(&here).is_some());
+        assert!(cache
+            .get(&Cache::key_of_build("another build", &exp, cell))
+            .is_none());
+        let _ = std::fs::remove_dir_all(&dir);
     }
 }

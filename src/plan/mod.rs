@@ -112,7 +112,7 @@ pub(crate) fn sample_start(scheme: &Scheme, estimation_end: usize) -> usize {
 /// `window` rows, all of them while fewer exist): of the origins
 /// `last, last − 1, …, 1` whose row exists, the latest `window`, in time order.
 pub(crate) fn last_rows(last: usize, window: usize, exists: impl Fn(usize) -> bool) -> Vec<usize> {
-    let mut chosen = Vec::with_capacity(window);
+    let mut chosen = Vec::with_capacity(window.min(last));
     let mut s = last;
     while s >= 1 && chosen.len() < window {
         if exists(s) {
@@ -122,6 +122,39 @@ pub(crate) fn last_rows(last: usize, window: usize, exists: impl Fn(usize) -> bo
     }
     chosen.reverse();
     chosen
+}
+
+/// The most forecasts one run makes (a larger grid is refused before it runs).
+pub(crate) const MAX_FORECASTS: usize = 1_000_000_000;
+
+/// How many forecasts the experiment makes: every candidate at every origin
+/// of every scheme and horizon of every target.
+pub(crate) fn forecast_count(exp: &Experiment) -> usize {
+    let mut total: usize = 0;
+    for t in &exp.targets {
+        for (s, scheme) in exp.schemes.iter().enumerate() {
+            for &h in &exp.horizons {
+                total = total.saturating_add(origins(scheme, t.first_origins[s], t.n, h).count());
+            }
+        }
+    }
+    total.saturating_mul(exp.candidates.len())
+}
+
+/// Refuse an experiment that asks for more forecasts than one run makes.
+pub(crate) fn check_size(exp: &Experiment) -> crate::error::Result<()> {
+    let count = forecast_count(exp);
+    if count <= MAX_FORECASTS {
+        return Ok(());
+    }
+    Err(crate::error::Error::invalid(
+        Some(crate::error::Location {
+            file: exp.source_path.clone(),
+            line: exp.schemes.first().map(|s| s.line),
+            column: None,
+        }),
+        format!("the experiment asks for {count} forecasts; one run makes at most {MAX_FORECASTS} — use fewer targets, candidates, horizons or origins (a later first origin)"),
+    ))
 }
 
 /// The window of the outlook estimation (E = N): the last `window` rows when

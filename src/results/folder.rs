@@ -27,9 +27,13 @@ static WRITING: Mutex<()> = Mutex::new(());
 /// Set by an interrupt: a write in progress stops at its next step.
 static INTERRUPTED: AtomicBool = AtomicBool::new(false);
 
+/// Set once a results folder of this process has been swapped in.
+static SWAPPED: AtomicBool = AtomicBool::new(false);
+
 /// Stop any write in progress and remove every temporary folder still
-/// registered (called on interrupt, before the process exits).
-pub fn cleanup_pending() {
+/// registered (called on interrupt, before the process exits). True when
+/// this process had already swapped its results folder in (it is whole).
+pub fn cleanup_pending() -> bool {
     INTERRUPTED.store(true, Ordering::SeqCst);
     // Wait for a write in progress to notice the flag (or to finish its swap).
     let _guard = WRITING.lock().unwrap_or_else(|e| e.into_inner());
@@ -38,6 +42,21 @@ pub fn cleanup_pending() {
             let _ = std::fs::remove_dir_all(p);
         }
     }
+    let swapped = SWAPPED.load(Ordering::SeqCst);
+    if !swapped {
+        remove_created();
+    }
+    swapped
+}
+
+/// A scratch folder to remove if the process is interrupted (`verify`'s rerun).
+pub fn register_scratch(p: &Path) {
+    register(p);
+}
+
+/// The scratch folder is gone or kept on purpose: an interrupt leaves it alone.
+pub fn unregister_scratch(p: &Path) {
+    unregister(p);
 }
 
 fn register(p: &Path) {
@@ -115,20 +134,82 @@ pub fn recover(target: &Path) {
     }
 }
 
-/// Refuse a target that exists and is not an outturn results folder (one
-/// with a manifest.json) nor an empty folder: writing would destroy it.
-/// Cheap, so a run can call it before any work.
+/// The most a manifest of ours can hold (a few hundred bytes per cell).
+const MAX_MANIFEST_BYTES: u64 = 2 << 30;
+
+/// The files a folder's manifest says outturn wrote there (itself
+/// included), or why the folder is not one of outturn's.
+fn our_files(target: &Path) -> std::result::Result<Vec<String>, String> {
+    let path = target.join("manifest.json");
+    let meta =
+        std::fs::symlink_metadata(&path).map_err(|_| "it has no manifest.json".to_string())?;
+    if !meta.is_file() || meta.len() > MAX_MANIFEST_BYTES {
+        return Err("its manifest.json is not a manifest outturn writes".into());
+    }
+    let bytes =
+        std::fs::read(&path).map_err(|e| format!("its manifest.json cannot be read: {e}"))?;
+    let mut files: Vec<String> = match super::manifest::Manifest::from_bytes(&bytes) {
+        Ok(m) => m.outputs.into_iter().map(|o| o.file).collect(),
+        Err(results) => match super::shard::ShardManifest::from_bytes(&bytes) {
+            Ok(m) => m.outputs.into_iter().map(|o| o.file).collect(),
+            Err(_) => {
+                return Err(format!(
+                    "its manifest.json is not one outturn wrote ({results})"
+                ))
+            }
+        },
+    };
+    files.push("manifest.json".into());
+    Ok(files)
+}
+
+/// Refuse a target that outturn may not replace: anything but an empty
+/// folder or a folder outturn wrote — its manifest (results or shard)
+/// reads as ours and lists every file in it. Links are never followed: a
+/// results path that is a symbolic link is refused, so whatever it points
+/// at is left alone. Cheap, so a run can call it before any work.
 pub fn check_target(target: &Path) -> Result<()> {
-    if !target.exists() {
+    let refuse = |why: String| {
+        Err(Error::NotOurs {
+            path: target.to_path_buf(),
+            why,
+        })
+    };
+    let meta = match std::fs::symlink_metadata(target) {
+        Ok(m) => m,
         // A folder left at the `-old` name by a crash counts as the target.
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => return Ok(()),
+        Err(e) => return Err(Error::io(format!("cannot look at {}", target.display()), e)),
+    };
+    if meta.file_type().is_symlink() {
+        return refuse(
+            "it is a symbolic link (outturn follows no links; give the folder itself)".into(),
+        );
+    }
+    if !meta.is_dir() {
+        return refuse("it is not a folder".into());
+    }
+    let entries: Vec<String> = std::fs::read_dir(target)
+        .map_err(|e| Error::io(format!("cannot list {}", target.display()), e))?
+        .flatten()
+        .map(|e| e.file_name().to_string_lossy().to_string())
+        .collect();
+    if entries.is_empty() {
         return Ok(());
     }
-    let is_ours = target.join("manifest.json").is_file();
-    let is_empty = std::fs::read_dir(target)
-        .map(|mut d| d.next().is_none())
-        .unwrap_or(false);
-    if !target.is_dir() || !(is_ours || is_empty) {
-        return Err(Error::NotOurs(target.to_path_buf()));
+    let ours = match our_files(target) {
+        Ok(files) => files,
+        Err(why) => return refuse(why),
+    };
+    let mut foreign: Vec<&String> = entries.iter().filter(|e| !ours.contains(e)).collect();
+    if !foreign.is_empty() {
+        foreign.sort();
+        let shown: Vec<&str> = foreign.iter().take(5).map(|s| s.as_str()).collect();
+        return refuse(format!(
+            "it holds files outturn did not write there ({}{})",
+            shown.join(", "),
+            if foreign.len() > 5 { ", …" } else { "" }
+        ));
     }
     Ok(())
 }
@@ -174,16 +255,56 @@ fn interrupted() -> Result<()> {
 /// interrupt removes it). The caller creates the folder.
 fn prepare(target: &Path) -> Result<PathBuf> {
     if let Some(parent) = target.parent().filter(|p| !p.as_os_str().is_empty()) {
-        std::fs::create_dir_all(parent)
-            .map_err(|e| Error::io(format!("cannot create {}", parent.display()), e))?;
+        create_parents(parent)?;
     }
     recover(target);
-    check_target(target)?;
+    if let Err(e) = check_target(target) {
+        remove_created();
+        return Err(e);
+    }
     release_cache(target);
     let tmp = sibling(target, &format!("tmp-{}", std::process::id()));
     let _ = std::fs::remove_dir_all(&tmp);
     register(&tmp);
     Ok(tmp)
+}
+
+/// Folders this process created to hold its results folder, outermost
+/// first: removed again (when still empty) if the run writes nothing.
+static CREATED: Mutex<Vec<PathBuf>> = Mutex::new(Vec::new());
+
+/// Create `parent` and the folders above it that do not exist, remembering them.
+fn create_parents(parent: &Path) -> Result<()> {
+    let mut missing = Vec::new();
+    let mut at = Some(parent);
+    while let Some(p) = at.filter(|p| !p.as_os_str().is_empty() && !p.exists()) {
+        missing.push(p.to_path_buf());
+        at = p.parent();
+    }
+    std::fs::create_dir_all(parent)
+        .map_err(|e| Error::io(format!("cannot create {}", parent.display()), e))?;
+    missing.reverse();
+    if let Ok(mut list) = CREATED.lock() {
+        list.extend(missing);
+    }
+    Ok(())
+}
+
+/// Remove the folders this process created for its results, innermost
+/// first and only while empty (anything put there since stays).
+fn remove_created() {
+    if let Ok(mut list) = CREATED.lock() {
+        for p in list.drain(..).rev() {
+            let _ = std::fs::remove_dir(p);
+        }
+    }
+}
+
+/// The results are in place: the folders created for them stay.
+fn keep_created() {
+    if let Ok(mut list) = CREATED.lock() {
+        list.clear();
+    }
 }
 
 /// Write `files` (name, bytes) as the folder `target`, replacing an earlier
@@ -214,6 +335,7 @@ pub fn write_folder(target: &Path, files: &[(String, Vec<u8>)]) -> Result<()> {
     })();
     if result.is_err() {
         let _ = std::fs::remove_dir_all(&tmp);
+        remove_created();
     }
     unregister(&tmp);
     result
@@ -222,6 +344,13 @@ pub fn write_folder(target: &Path, files: &[(String, Vec<u8>)]) -> Result<()> {
 /// Put the finished temporary folder in place of the target. From here on
 /// the swap runs to its end; an interrupt waits for it (the caller holds WRITING).
 fn swap(tmp: &Path, target: &Path) -> Result<()> {
+    swap_folders(tmp, target)?;
+    SWAPPED.store(true, Ordering::SeqCst);
+    keep_created();
+    Ok(())
+}
+
+fn swap_folders(tmp: &Path, target: &Path) -> Result<()> {
     if !target.exists() {
         std::fs::rename(tmp, target)
             .map_err(|e| Error::io(format!("cannot move results into {}", target.display()), e))?;
@@ -250,6 +379,7 @@ pub fn stage(target: &Path) -> Result<Staging> {
     let tmp = prepare(target)?;
     if let Err(e) = std::fs::create_dir(&tmp) {
         unregister(&tmp);
+        remove_created();
         return Err(Error::io(format!("cannot create {}", tmp.display()), e));
     }
     Ok(Staging {
@@ -287,6 +417,7 @@ impl Drop for Staging {
         if !self.done {
             let _ = std::fs::remove_dir_all(&self.tmp);
             unregister(&self.tmp);
+            remove_created();
         }
     }
 }

@@ -34,22 +34,11 @@ pub struct CheckSummary {
     pub forecasts: usize,
 }
 
-fn count_forecasts(exp: &Experiment) -> usize {
-    let mut total = 0;
-    for t in &exp.targets {
-        for (s, scheme) in exp.schemes.iter().enumerate() {
-            for &h in &exp.horizons {
-                total += plan::origins(scheme, t.first_origins[s], t.n, h).count();
-            }
-        }
-    }
-    total * exp.candidates.len()
-}
-
 /// Validate an experiment and its data; estimation problems (too few rows,
 /// singular designs) are found by running the cells in memory. Writes nothing.
 pub fn check(path: &Path) -> Result<CheckSummary> {
     let exp = spec::load(path)?;
+    plan::check_size(&exp)?;
     let cells = plan::cells(&exp);
     // Least-squares and benchmark cells are cheap and are where SPEC §4's
     // "invalid experiment" problems arise; likelihood families are left to the run.
@@ -67,7 +56,7 @@ pub fn check(path: &Path) -> Result<CheckSummary> {
         schemes: exp.schemes.len(),
         horizons: exp.horizons.len(),
         cells: cells.len(),
-        forecasts: count_forecasts(&exp),
+        forecasts: plan::forecast_count(&exp),
     })
 }
 
@@ -154,9 +143,10 @@ impl RunContext<'_> {
 }
 
 /// Stop every write in progress and remove the temporary folders of this
-/// process (call on interrupt, before exiting).
-pub fn interrupted() {
-    folder::cleanup_pending();
+/// process (call on interrupt, before exiting). True when the run had
+/// already swapped its results folder in: it holds the complete new results.
+pub fn interrupted() -> bool {
+    folder::cleanup_pending()
 }
 
 pub fn run(path: &Path, opts: &RunOptions, progress: &dyn Progress) -> Result<RunSummary> {
@@ -175,6 +165,7 @@ pub fn run(path: &Path, opts: &RunOptions, progress: &dyn Progress) -> Result<Ru
         progress,
     };
     ctx.step("experiment and data read");
+    plan::check_size(&exp)?;
     let folder = opts.out.clone().unwrap_or_else(|| default_folder(&exp));
     folder::check_target(&folder)?;
     let cells = plan::cells(&exp);
@@ -227,7 +218,7 @@ pub fn run(path: &Path, opts: &RunOptions, progress: &dyn Progress) -> Result<Ru
     Ok(RunSummary {
         folder,
         cells: cells.len(),
-        forecasts: count_forecasts(&exp),
+        forecasts: plan::forecast_count(&exp),
         failed_cells: produced.failed_cells,
         seconds: started.elapsed().as_secs_f64(),
     })

@@ -429,3 +429,96 @@ proptest! {
         }
     }
 }
+
+/// A real cell text and manifests to disturb: what a shard folder holds.
+fn written_files() -> (String, Vec<u8>, Vec<u8>) {
+    use crate::backtest::{cellio, CellOutput};
+    use crate::models::{ForecastRow, OutlookRow};
+    let out = CellOutput {
+        forecasts: (0..4)
+            .map(|i| ForecastRow {
+                horizon: 1 + i % 2,
+                origin: 10 + i,
+                forecast: 0.5 * i as f64,
+                is_mse: Some(1.25),
+                is_var: None,
+                variance: Some(2.0),
+                order: None,
+            })
+            .collect(),
+        outlook: vec![OutlookRow {
+            horizon: 1,
+            forecast: Some(3.0),
+            variance: None,
+        }],
+        residuals: vec![0.1, -0.2],
+        ..Default::default()
+    };
+    let mut text = String::new();
+    cellio::write_cell("y/ar(1)/expanding", &out, &mut text);
+    let manifest = br#"{"data":[{"file":"d.csv","sha256":"ab"}],"experiment":{"file":"e.yaml","name":"e","sha256":"cd"},"grid":{"benchmark":"naive","candidates":["naive"],"cells":[{"id":"y/naive/fixed","status":"ok"}],"horizons":[1],"schemes":["fixed"],"targets":["y"]},"outputs":[{"bytes":1,"file":"scores.csv","sha256":"ef"}],"seed":0,"templates":[],"tool":{"name":"outturn","profile":"release","version":"0.1.0"}}"#.to_vec();
+    let shard = br#"{"cells":["y/naive/fixed"],"outputs":[{"file":"cells.txt","sha256":"ab"}],"run":{"experiment_path":"/e.yaml","seconds":0.1,"shard":"1/2","started_unix":1,"threads":2},"shard_of":{"count":2,"data_sha256":"cd","experiment":"e","experiment_sha256":"ef","grid_sha256":"01","shard":1,"tool_version":"0.1.0"}}"#.to_vec();
+    (text, manifest, shard)
+}
+
+/// Bytes with a few of them replaced, dropped or inserted.
+fn disturbed(base: Vec<u8>) -> impl Strategy<Value = Vec<u8>> {
+    let len = base.len().max(1);
+    prop::collection::vec((0..len, any::<u8>(), 0..3u8), 1..6).prop_map(move |edits| {
+        let mut b = base.clone();
+        for (at, byte, how) in edits {
+            let at = at.min(b.len());
+            match how {
+                0 if at < b.len() => b[at] = byte,
+                1 if at < b.len() => {
+                    b.remove(at);
+                }
+                _ => b.insert(at, byte),
+            }
+        }
+        b
+    })
+}
+
+proptest! {
+    #![proptest_config(config(512))]
+
+    /// What outturn reads back from its own folders — cell rows, results
+    /// and shard manifests — gives a value or an error for any bytes, random
+    /// or a written file disturbed; never a panic. (Property by construction
+    /// of the readers: every read is a checked parse.)
+    #[test]
+    fn folder_files_read_or_fail_cleanly(bytes in prop::collection::vec(any::<u8>(), 0..300)) {
+        let text = String::from_utf8_lossy(&bytes);
+        let _ = crate::backtest::cellio::read_cells(&text);
+        let mut reader = crate::backtest::cellio::CellReader::new(&bytes[..]);
+        while let Ok(Some(_)) = reader.next_cell() {}
+        let _ = crate::results::manifest::Manifest::from_bytes(&bytes);
+        let _ = crate::results::shard::ShardManifest::from_bytes(&bytes);
+    }
+
+    #[test]
+    fn disturbed_cell_rows_read_or_fail_cleanly(bytes in disturbed(written_files().0.into_bytes())) {
+        let text = String::from_utf8_lossy(&bytes);
+        if let Ok(cells) = crate::backtest::cellio::read_cells(&text) {
+            for (_, out) in cells {
+                prop_assert!(out.forecasts.len() <= bytes.len());
+            }
+        }
+    }
+
+    #[test]
+    fn disturbed_manifests_read_or_fail_cleanly(
+        results in disturbed(written_files().1),
+        shard in disturbed(written_files().2),
+    ) {
+        if let Ok(m) = crate::results::shard::ShardManifest::from_bytes(&shard) {
+            // Whatever reads as a shard manifest has a usable shard and count.
+            prop_assert!(m.shard_of.shard >= 1 && m.shard_of.shard <= m.shard_of.count);
+            prop_assert!(m.shard_of.count <= crate::results::shard::MAX_SHARDS);
+        }
+        if let Ok(m) = crate::results::manifest::Manifest::from_bytes(&results) {
+            prop_assert_eq!(m.tool.name, "outturn");
+        }
+    }
+}

@@ -95,6 +95,7 @@ struct Scratch(std::path::PathBuf);
 impl Drop for Scratch {
     fn drop(&mut self) {
         let _ = std::fs::remove_dir_all(&self.0);
+        crate::results::folder::unregister_scratch(&self.0);
     }
 }
 
@@ -116,6 +117,8 @@ fn rerun(exp: &Experiment, jobs: Option<usize>) -> Result<Scratch> {
         std::process::id(),
         super::now_unix()
     )));
+    // An interrupt removes it too.
+    crate::results::folder::register_scratch(&scratch.0);
     std::fs::create_dir_all(&scratch.0)
         .map_err(|e| Error::io(format!("cannot create {}", scratch.0.display()), e))?;
     super::produce_run(exp, &cells, None, &scratch.0, &ctx, &pool)?;

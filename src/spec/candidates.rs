@@ -127,7 +127,7 @@ fn decode_lag_family(
     };
     let line = item.line;
     // Order selection: `select` with `max_lags` replaces `lags` (and `predictor_lags`).
-    let Ok(select) = decode_select(ctx, item, &view, path) else {
+    let Ok(select) = decode_select(ctx, item, &view, path, family) else {
         return;
     };
     if let (Some((criterion, max_lags)), "ar") = (select, family) {
@@ -368,6 +368,7 @@ fn decode_select(
     item: &Node,
     view: &MapView,
     path: &str,
+    family: &str,
 ) -> Result<Option<(Criterion, usize)>, ()> {
     Ok(match view.get("select") {
         Some(n) => {
@@ -394,10 +395,17 @@ fn decode_select(
             }) else {
                 return Err(());
             };
-            if max > 1000 {
+            // Every order up to max_lags is fitted in every window (for ardl
+            // every (p, q) pair): the search is bounded, not only the order.
+            let cap = if family == "ardl" {
+                super::limits::MAX_ARDL_SEARCH
+            } else {
+                super::limits::MAX_AR_SEARCH
+            };
+            if max > cap as i64 {
                 ctx.error(
                     item,
-                    format!("{path}.max_lags {max} is larger than any data set could support"),
+                    format!("{path}.max_lags {max} is more than outturn searches for {family} (at most {cap}: every order up to it is fitted in every window)"),
                 );
                 return Err(());
             }

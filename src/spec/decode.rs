@@ -224,6 +224,16 @@ impl<'a> Ctx<'a> {
                 self.error(node, format!("{what}: the range {from}..{to} is too large"));
                 return None;
             }
+            if to > super::limits::MAX_ORDER as i64 {
+                self.error(
+                    node,
+                    format!(
+                        "{what}: {to} is larger than outturn estimates (at most {} lags)",
+                        super::limits::MAX_ORDER
+                    ),
+                );
+                return None;
+            }
             return Some((from..=to).map(|v| v as usize).collect());
         }
         let items = self.list(node);
@@ -237,6 +247,16 @@ impl<'a> Ctx<'a> {
         let mut out = Vec::new();
         for item in items {
             let v = self.integer(item, what, min)? as usize;
+            if v > super::limits::MAX_ORDER {
+                self.error(
+                    item,
+                    format!(
+                        "{what}: {v} is larger than outturn estimates (at most {} lags)",
+                        super::limits::MAX_ORDER
+                    ),
+                );
+                return None;
+            }
             if out.contains(&v) {
                 self.error(item, format!("{what} lists {v} twice"));
                 return None;

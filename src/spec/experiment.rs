@@ -7,6 +7,7 @@
 
 use super::candidates::{decode_candidate, PendingMembers, PredictorNames};
 use super::decode::{Ctx, MapView};
+use super::limits;
 use super::period::Frequency;
 use super::predictors::{decode_predictors, Predictors};
 use super::schemes::{decode_schemes, PendingScheme};
@@ -84,7 +85,11 @@ pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
     let name = need(ctx, "experiment").and_then(|n| {
         let s = ctx.string(n, "experiment")?;
         if s.is_empty() || !s.bytes().all(|b| b.is_ascii_lowercase() || b.is_ascii_digit() || b == b'_' || b == b'-') {
-            ctx.error(n, format!("experiment '{s}' must use only a-z, 0-9, '_' and '-' (it names the results folder)"));
+            ctx.error(n, format!("experiment '{}' must use only a-z, 0-9, '_' and '-' (it names the results folder)", super::decode::clip(&s)));
+            return None;
+        }
+        if s.len() > limits::MAX_NAME {
+            ctx.error(n, format!("the experiment name has {} characters; at most {} (it names the results folder)", s.len(), limits::MAX_NAME));
             return None;
         }
         Some(s)
@@ -128,6 +133,9 @@ pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
         None => Scoring::default(),
     };
     let benchmark = resolve_benchmark(ctx, &scoring, &candidates);
+    if let Some(c) = top.get("candidates") {
+        limits::check_grid(ctx, c, targets.len(), candidates.len(), schemes.len());
+    }
     let decoded = Decoded {
         name,
         notes,
@@ -256,12 +264,16 @@ fn decode_backtest(ctx: &mut Ctx, b: &Node) -> (Vec<PendingScheme>, Vec<usize>, 
     };
     let a = view.anchor();
     match view.get("horizons") {
+        Some(h) if matches!(&h.kind, Kind::Scalar(t, _) if t.contains(',')) => ctx.error(
+            h,
+            "backtest.horizons must be a list of whole numbers, e.g. [1, 3] (this is one quoted text)",
+        ),
         Some(h) => {
             for item in ctx.list(h) {
                 if let Some(v) = ctx.integer(item, "backtest.horizons", 1) {
                     if horizons.contains(&(v as usize)) {
                         ctx.error(item, format!("horizon {v} is listed twice"));
-                    } else if v > 100_000 {
+                    } else if v as usize > limits::MAX_HORIZON {
                         ctx.error(
                             item,
                             format!("horizon {v} is larger than any data set could support"),
@@ -504,6 +516,10 @@ pub(super) fn with_data(ctx: &mut Ctx, d: Decoded, path: &Path, text: &str) -> O
     };
     let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
     let data_path: PathBuf = base.join(data_file);
+    if let Err(m) = super::regular_file(&data_path) {
+        ctx.error(data_file_node, format!("the data file: {m}"));
+        return None;
+    }
     let bytes = match std::fs::read(&data_path) {
         Ok(b) => b,
         Err(e) => {
@@ -542,6 +558,18 @@ pub(super) fn with_data(ctx: &mut Ctx, d: Decoded, path: &Path, text: &str) -> O
         },
     );
     let resolved = resolved.filter(|_| d.name.is_some())?;
+    if !ctx.diags.is_empty() {
+        return None;
+    }
+    limits::check_data_sizes(
+        ctx,
+        &d.candidates,
+        &d.schemes
+            .iter()
+            .map(|p| (&p.scheme, &p.node))
+            .collect::<Vec<_>>(),
+        &resolved.targets,
+    );
     if !ctx.diags.is_empty() {
         return None;
     }

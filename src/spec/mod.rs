@@ -13,6 +13,7 @@ pub mod data;
 pub mod decode;
 mod experiment;
 mod families;
+mod limits;
 pub mod model;
 pub mod period;
 mod predictors;
@@ -36,6 +37,7 @@ fn parse_file(path: &Path) -> Result<(String, yaml::Node)> {
             column: None,
         })
     };
+    regular_file(path).map_err(|m| Error::invalid(file_loc(), m))?;
     let bytes = std::fs::read(path)
         .map_err(|e| Error::invalid(file_loc(), format!("cannot read the experiment file: {e}")))?;
     let text = String::from_utf8(bytes)
@@ -44,7 +46,22 @@ fn parse_file(path: &Path) -> Result<(String, yaml::Node)> {
     Ok((text, root))
 }
 
+/// Refuse what exists but is not a regular file (a folder, a FIFO, a
+/// device): reading it could block or never end. What does not exist is
+/// left to the read, whose message says so.
+pub(crate) fn regular_file(path: &Path) -> std::result::Result<(), String> {
+    match std::fs::metadata(path) {
+        Ok(m) if !m.is_file() => Err(format!(
+            "{} is not a regular file (a folder, a pipe or a device cannot be read as one)",
+            path.display()
+        )),
+        _ => Ok(()),
+    }
+}
+
 fn parse_text(path: &Path, text: &str) -> Result<yaml::Node> {
+    // A byte-order mark some editors write is not part of the YAML.
+    let text = text.strip_prefix('\u{feff}').unwrap_or(text);
     yaml::parse(text).map_err(|e| {
         Error::invalid(
             Some(Location {

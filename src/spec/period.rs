@@ -253,6 +253,12 @@ pub fn parse_label(freq: Frequency, label: &str) -> Result<(i64, LabelStyle), Pe
             };
             match digits(body) {
                 Some(v) => Ok((if neg { -v } else { v }, LabelStyle::Plain)),
+                None if body.len() > 9 && body.bytes().all(|b| b.is_ascii_digit()) => {
+                    Err(PeriodError(format!(
+                        "'{}' is too large for an index label (at most 9 digits)",
+                        super::decode::clip(label)
+                    )))
+                }
                 None => bad(""),
             }
         }

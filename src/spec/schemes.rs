@@ -93,7 +93,13 @@ fn decode_scheme(ctx: &mut Ctx, item: &Node, path: &str) -> Option<Scheme> {
     let window = match view.get("window") {
         Some(n) => ctx
             .integer(n, &format!("{path}.rolling.window"), 1)
-            .map(|v| v as usize),
+            .and_then(|v| {
+                if v as usize > super::limits::MAX_WINDOW {
+                    ctx.error(n, format!("{path}.rolling.window {v} is larger than any data set could hold (at most {})", super::limits::MAX_WINDOW));
+                    return None;
+                }
+                Some(v as usize)
+            }),
         None => {
             if kind == SchemeKind::Rolling {
                 ctx.error(settings, format!("{path}: rolling needs 'window': the number of most recent regression rows to keep"));

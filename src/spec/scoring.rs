@@ -242,7 +242,7 @@ fn decode_tests(ctx: &mut Ctx, t: &Node, out: &mut Scoring) {
                         r,
                         "scoring.tests.confidence_set.resamples",
                         1,
-                        1_000_000,
+                        super::limits::MAX_RESAMPLES,
                     ),
                     None => Some(2000),
                 };
@@ -254,7 +254,13 @@ fn decode_tests(ctx: &mut Ctx, t: &Node, out: &mut Scoring) {
         if let Some(n) = tv.get("snooping") {
             if let Some(sv) = ctx.map(n, "scoring.tests.snooping", &["resamples"], &[]) {
                 let resamples = match sv.get("resamples") {
-                    Some(r) => count(ctx, r, "scoring.tests.snooping.resamples", 1, 1_000_000),
+                    Some(r) => count(
+                        ctx,
+                        r,
+                        "scoring.tests.snooping.resamples",
+                        1,
+                        super::limits::MAX_RESAMPLES,
+                    ),
                     None => Some(2000),
                 };
                 if let Some(resamples) = resamples {

@@ -1,0 +1,131 @@
+//! The sizes outturn accepts, stated once, and the checks that hold an
+//! experiment to them before anything is allocated (every limit is also in
+//! the refusals page of the docs). Sizes an experiment file can name —
+//! orders, windows, horizons, resamples, the grid — are bounded when the
+//! file is decoded; the ones that depend on the data (enough rows for the
+//! coefficients, observations per ARIMA parameter) right after the data are
+//! resolved, before any cell runs.
+
+use super::decode::Ctx;
+use super::model::{Family, TargetData};
+use super::yaml::{Kind, Node};
+use super::{Candidate, Scheme, SchemeKind};
+
+/// The largest lag order (lags, predictor_lags, max_lags).
+pub(super) const MAX_ORDER: usize = 1000;
+/// The largest `max_lags` of an ar that selects its order (every order up
+/// to it is fitted in every training window).
+pub(super) const MAX_AR_SEARCH: usize = 100;
+/// The largest `max_lags` of an ardl that selects its orders (every (p, q)
+/// pair up to it is fitted in every training window).
+pub(super) const MAX_ARDL_SEARCH: usize = 24;
+/// The largest rolling window, in rows or observations.
+pub(super) const MAX_WINDOW: usize = 10_000_000;
+/// The largest horizon.
+pub(super) const MAX_HORIZON: usize = 100_000;
+/// The most bootstrap resamples of a test.
+pub(super) const MAX_RESAMPLES: i64 = 1_000_000;
+/// The longest experiment name (it names a folder, and its temporary twin).
+pub(super) const MAX_NAME: usize = 200;
+/// The most cells (targets × candidates × schemes) in one run.
+pub(super) const MAX_CELLS: usize = 10_000_000;
+/// Observations per estimated parameter an ARIMA needs in its first
+/// estimation window (its coefficients, the mean or drift, the variance).
+pub(super) const OBSERVATIONS_PER_PARAMETER: usize = 3;
+
+/// A position at the start of a line, for problems of a whole entry.
+fn line_node(line: usize) -> Node {
+    Node {
+        kind: Kind::Scalar(String::new(), false),
+        line,
+        column: 1,
+    }
+}
+
+/// The grid is not larger than one run can hold.
+pub(super) fn check_grid(
+    ctx: &mut Ctx,
+    node: &Node,
+    targets: usize,
+    candidates: usize,
+    schemes: usize,
+) {
+    let cells = targets.saturating_mul(candidates).saturating_mul(schemes);
+    if cells > MAX_CELLS {
+        ctx.error(
+            node,
+            format!("the grid has {targets} target(s) × {candidates} candidate(s) × {schemes} scheme(s) = {cells} cells; one run takes at most {MAX_CELLS} — split the targets over several experiments or run shards of a smaller grid"),
+        );
+    }
+}
+
+/// Enough data for every ARIMA's first estimation:
+/// [`OBSERVATIONS_PER_PARAMETER`] observations per parameter. (Least
+/// squares needs k + 1 rows for k coefficients, SPEC §4; `check` finds that
+/// by running the cells, which the order limits keep cheap.)
+pub(super) fn check_data_sizes(
+    ctx: &mut Ctx,
+    candidates: &[Candidate],
+    schemes: &[(&Scheme, &Node)],
+    targets: &[TargetData],
+) {
+    for c in candidates {
+        let node = line_node(c.line);
+        'target: for t in targets {
+            for (s, (scheme, _)) in schemes.iter().enumerate() {
+                // At the first origin T0 every scheme estimates with E = T0 (SPEC §4).
+                let end = t.first_origins[s];
+                if let Some(problem) = too_little_data(&c.family, scheme, end) {
+                    ctx.error(
+                        &node,
+                        format!(
+                            "candidate {} on target '{}' under scheme {}: {problem}",
+                            c.id, t.name, scheme.id
+                        ),
+                    );
+                    break 'target;
+                }
+            }
+        }
+    }
+}
+
+/// Why a family cannot be estimated with estimation end `end` under a
+/// scheme, if it cannot.
+fn too_little_data(family: &Family, scheme: &Scheme, end: usize) -> Option<String> {
+    let window = match scheme.kind {
+        SchemeKind::Rolling => scheme.window,
+        _ => None,
+    };
+    if let Family::Arima { p, d, q, drift } = family {
+        return arima_short(*p, *d, *q, *drift, end, window);
+    }
+    if let Family::ArimaSelect {
+        ps, d, qs, drift, ..
+    } = family
+    {
+        let p = ps.iter().copied().max().unwrap_or(0);
+        let q = qs.iter().copied().max().unwrap_or(0);
+        return arima_short(p, *d, q, *drift, end, window);
+    }
+    None
+}
+
+fn arima_short(
+    p: usize,
+    d: usize,
+    q: usize,
+    drift: bool,
+    end: usize,
+    window: Option<usize>,
+) -> Option<String> {
+    let parameters = p + q + usize::from(d == 0 || drift) + 1;
+    let observations = window.map_or(end, |w| w.min(end)).saturating_sub(d);
+    let needed = OBSERVATIONS_PER_PARAMETER * parameters;
+    (observations < needed).then(|| {
+        format!(
+            "its {parameters} parameters need at least {needed} observations ({OBSERVATIONS_PER_PARAMETER} per parameter) in the first estimation window, which has {observations}{}; use a smaller order, start the scheme later or widen the window",
+            if d > 0 { " after differencing" } else { "" }
+        )
+    })
+}
