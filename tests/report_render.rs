@@ -262,3 +262,68 @@ fn both_reports_state_the_verdict_first() {
     assert!(md.contains("| # | candidate |"));
     assert!(!md.contains("seconds") && !html.contains("seconds"));
 }
+
+/// `text` with line `n` (1-based) changed by `edit`.
+fn edit_line(text: &str, n: usize, edit: impl Fn(&str) -> String) -> String {
+    text.split_inclusive('\n')
+        .enumerate()
+        .map(|(i, l)| {
+            if i + 1 == n {
+                edit(l.trim_end_matches('\n')) + "\n"
+            } else {
+                l.to_string()
+            }
+        })
+        .collect()
+}
+
+#[test]
+fn an_edited_table_is_invalid_input_naming_its_file_and_line() {
+    // A table cut short, a row with a field too many, a number that is not
+    // one, a last line end missing: render stops with exit 2, names the
+    // file (and the line where the problem is known to be), and leaves
+    // the reports and the manifest as they were.
+    type Edit = fn(&str) -> String;
+    let cases: [(&str, Edit, &str); 4] = [
+        (
+            "scores.csv",
+            |t| t[..t.len() / 2].to_string(),
+            "scores.csv:",
+        ),
+        (
+            "forecasts.csv",
+            // The demo's table has 15 columns: 10, two interval levels, `order`.
+            |t| edit_line(t, 3, |l| format!("{l},extra")),
+            "forecasts.csv:3: the row has 16 fields where the header has 15",
+        ),
+        (
+            "forecasts.csv",
+            // The forecast (seventh field) of line 5 is not a number.
+            |t| {
+                edit_line(t, 5, |l| {
+                    let mut fields: Vec<&str> = l.split(',').collect();
+                    fields[6] = "about 3";
+                    fields.join(",")
+                })
+            },
+            "forecasts.csv:5: forecast is 'about 3', not a number",
+        ),
+        (
+            "tests.csv",
+            |t| t.trim_end_matches('\n').to_string(),
+            "looks cut short",
+        ),
+    ];
+    for (i, (file, edit, message)) in cases.iter().enumerate() {
+        let dir = copy_of_demo(&format!("edited-{i}"));
+        let text = String::from_utf8(read(&dir, file)).unwrap();
+        std::fs::write(dir.join(file), edit(&text)).unwrap();
+        let o = outturn(&["render".as_ref(), dir.as_os_str()]);
+        let err = String::from_utf8_lossy(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{file}: {err}");
+        assert!(err.contains(message), "{file}: {err}");
+        assert!(err.contains(file), "{err}");
+        assert!(read(&dir, "report.md") == read(demo(), "report.md"));
+        assert!(read(&dir, "manifest.json") == read(demo(), "manifest.json"));
+    }
+}

@@ -7,7 +7,6 @@ use super::{report_data, Folder, TargetPart};
 use crate::error::{Error, Result};
 use crate::spec::ReportFormat;
 use serde_json::Value;
-use std::collections::BTreeMap;
 use std::path::Path;
 
 /// The two report templates: (file name, source).
@@ -115,21 +114,10 @@ fn render_one(
         .map_err(|e| format!("template {name}: {e}"))
 }
 
-/// The report files of a results folder: `files` holds the folder's tables
-/// by name, `manifest` the manifest without `outputs` and `run`. Returns
-/// ("report.md", bytes) and/or ("report.html", bytes), in that order.
-pub fn reports(
-    files: &BTreeMap<String, Vec<u8>>,
-    manifest: &Value,
-    declared: &crate::spec::Declaration,
-    templates: &Templates,
-) -> std::result::Result<Vec<(String, Vec<u8>)>, String> {
-    let folder = Folder::parse(files, manifest, declared)?;
-    reports_of(folder, None, manifest, &declared.formats, templates)
-}
-
-/// The report files of a parsed folder (see [`reports`]), with the targets'
-/// parts of the report when they are built already.
+/// The report files of a folder as the report sees it, from the
+/// manifest's deterministic part (no `outputs` of reports, no `run`):
+/// ("report.md", bytes) and/or ("report.html", bytes), in that order. The
+/// targets' parts of the report are passed when they are built already.
 pub fn reports_of(
     folder: Folder,
     parts: Option<Vec<TargetPart>>,
