@@ -263,6 +263,81 @@ fn both_reports_state_the_verdict_first() {
     assert!(!md.contains("seconds") && !html.contains("seconds"));
 }
 
+/// A small experiment on the demo's data in its own folder, run; returns
+/// the results folder. The extra lines go under the predictor and under
+/// `scoring`; `report` is the value of the `report` key.
+fn run_small(tag: &str, predictor_extra: &str, scoring_extra: &str, report: &str) -> PathBuf {
+    let dir = scratch(tag);
+    std::fs::create_dir_all(dir.join("data")).unwrap();
+    std::fs::copy(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("experiments/data/water_demand.csv"),
+        dir.join("data/water_demand.csv"),
+    )
+    .unwrap();
+    let yaml = format!(
+        "version: 1
+experiment: small
+data: {{file: data/water_demand.csv, time: period, frequency: monthly, start: 2007-01}}
+target: demand_ml
+transform: seasonal_diff
+predictors:
+  - column: school_holiday_days
+    transform: seasonal_diff
+{predictor_extra}
+candidates:
+  - family: naive
+  - family: mean
+  - family: ardl
+    lags: [1]
+    predictors: [school_holiday_days]
+    predictor_lags: [1]
+backtest:
+  schemes:
+    - expanding: {{first_origin: 2018-12}}
+  horizons: [1, 2]
+scoring:
+  metrics: [rmse, mae]
+  benchmark: naive
+{scoring_extra}
+report: {report}
+seed: 7
+"
+    );
+    let experiment = dir.join("small.yaml");
+    std::fs::write(&experiment, yaml).unwrap();
+    let out = dir.join("results");
+    let o = outturn(&[
+        "run".as_ref(),
+        experiment.as_os_str(),
+        "--out".as_ref(),
+        out.as_os_str(),
+        "--quiet".as_ref(),
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    out
+}
+
+#[test]
+fn captions_name_the_ranking_metric_where_it_sets_the_order() {
+    // With rank_by: mae the leaders are the first by MAE; the captions that
+    // describe them say so. Columns that really are RMSE keep the name.
+    let out = run_small(
+        "rank-by",
+        "",
+        "  rank_by: mae",
+        "{formats: [html, markdown]}",
+    );
+    let html = String::from_utf8(read(&out, "report.html")).unwrap();
+    assert!(
+        html.contains("The leaders by MAE at this horizon"),
+        "caption"
+    );
+    assert!(!html.contains("leaders by RMSE"));
+    assert!(html.contains("relative RMSE"));
+    let md = String::from_utf8(read(&out, "report.md")).unwrap();
+    assert!(md.contains(", then mae in brackets"), "{md}");
+}
+
 /// `text` with line `n` (1-based) changed by `edit`.
 fn edit_line(text: &str, n: usize, edit: impl Fn(&str) -> String) -> String {
     text.split_inclusive('\n')

@@ -110,6 +110,18 @@ pub fn transform_words(transform: &str) -> &'static str {
     }
 }
 
+/// A metric column's name in running text: the abbreviation the trade
+/// writes for the error measures, words for the others.
+pub fn metric_words(name: &str) -> String {
+    match name {
+        "rmse" | "mae" | "mape" | "mase" | "crps" => name.to_ascii_uppercase(),
+        "smape" => "sMAPE".into(),
+        "bias" => "absolute bias".into(),
+        "r2_oos" => "out-of-sample R²".into(),
+        other => other.to_string(),
+    }
+}
+
 /// The family part of a candidate id, for grouping in scatters.
 pub fn family_of(id: &str) -> &str {
     id.split('(').next().unwrap_or(id)
@@ -165,5 +177,14 @@ mod tests {
         assert_eq!(units("y", "log"), "ln y");
         assert_eq!(units("y", "none"), "y");
         assert_eq!(transform_words("none"), "used as it is");
+    }
+
+    #[test]
+    fn metrics_in_running_text() {
+        // The usual abbreviations of the error measures (common practice).
+        assert_eq!(metric_words("rmse"), "RMSE");
+        assert_eq!(metric_words("mae"), "MAE");
+        assert_eq!(metric_words("smape"), "sMAPE");
+        assert_eq!(metric_words("r2_oos"), "out-of-sample R²");
     }
 }

@@ -220,7 +220,10 @@ fn forecasts_chart(st: &Setting, unit: &str) -> Value {
     }
     chart_value(
         charts::svg(&ch),
-        format!("Each forecast is drawn at the period it forecasts, made {h} period(s) earlier. The leaders by RMSE at this horizon and the benchmark; every forecast is in forecasts.csv."),
+        format!(
+            "Each forecast is drawn at the period it forecasts, made {h} period(s) earlier. The leaders by {} at this horizon and the benchmark; every forecast is in forecasts.csv.",
+            st.ix.ranked_words()
+        ),
         columns,
         table,
     )

@@ -212,6 +212,12 @@ impl<'a> Index<'a> {
         self.rank_by.and_then(|i| r.metrics[i])
     }
 
+    /// The ranking metric's name in running text ("RMSE").
+    pub fn ranked_words(&self) -> String {
+        let name = self.rank_by.map(|i| self.f.rows.metric_names[i].as_str());
+        super::format::metric_words(name.unwrap_or("rmse"))
+    }
+
     /// RMSE relative to the benchmark's on the same forecasts (same target,
     /// scheme, horizon and period set); None when either is undefined or
     /// the benchmark's is not positive.
@@ -455,5 +461,7 @@ pub(crate) mod tests {
         assert_eq!((ix.rmse, ix.rank_by), (Some(0), Some(1)));
         let ar2 = ix.score(0, 2, 0, Some(1), None).unwrap();
         assert_eq!(ix.ranked_value(ar2), Some(1.75));
+        assert_eq!(ix.ranked_words(), "MAE");
+        assert_eq!(Index::new(&folder("rmse")).ranked_words(), "RMSE");
     }
 }
