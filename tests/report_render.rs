@@ -318,6 +318,48 @@ seed: 7
 }
 
 #[test]
+fn the_report_says_what_the_checked_declaration_says() {
+    // Each setting is written in a form the experiment grammar accepts but
+    // a plain re-reading of the YAML text misreads: a capitalised boolean,
+    // a quoted level with a trailing space, a scalar list of formats. The
+    // expected readings are what the grammar defines them to mean.
+    let out = run_small(
+        "declared",
+        "    known_ahead: True",
+        "  tests:\n    confidence_set: {alpha: \"0.2 \", resamples: 200}",
+        "{formats: markdown}",
+    );
+    // `formats: markdown` is the list [markdown]: that report and no other.
+    assert!(!out.join("report.html").exists());
+    let md = String::from_utf8(read(&out, "report.md")).unwrap();
+    // known_ahead: True is true.
+    assert!(
+        md.contains("| `school_holiday_days` | seasonal_diff | 0 | yes |"),
+        "{md}"
+    );
+    assert!(md.contains("Candidates that use school_holiday_days (known ahead)"));
+    // alpha: "0.2 " is 0.2: a 20% model confidence set.
+    assert!(
+        md.contains("inside the model confidence set at 20%"),
+        "{md}"
+    );
+    assert!(md.contains("Model confidence set at 20%:"), "{md}");
+    assert!(!md.contains("at 10%"));
+    // Render reproduces the report and the manifest (which lists the one
+    // template used), and the folder still verifies afterwards.
+    let (report, manifest) = (read(&out, "report.md"), read(&out, "manifest.json"));
+    let o = outturn(&["render".as_ref(), out.as_os_str()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(read(&out, "report.md") == report);
+    assert!(read(&out, "manifest.json") == manifest);
+    let templates = &serde_json::from_slice::<Value>(&manifest).unwrap()["templates"];
+    assert_eq!(templates[0]["name"], "report.md.j2");
+    assert_eq!(templates.as_array().map(Vec::len), Some(1));
+    let o = outturn(&["verify".as_ref(), out.as_os_str()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+}
+
+#[test]
 fn captions_name_the_ranking_metric_where_it_sets_the_order() {
     // With rank_by: mae the leaders are the first by MAE; the captions that
     // describe them say so. Columns that really are RMSE keep the name.
