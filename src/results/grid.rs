@@ -98,6 +98,13 @@ impl Grid {
                 horizons = seen.horizons;
             }
         }
+        if targets.is_empty() || candidates.is_empty() || schemes.is_empty() {
+            return Err(ReadError::invalid(
+                "scores.csv",
+                None,
+                "no target, candidate or scheme is named here or in manifest.json's grid",
+            ));
+        }
         let benchmark = g
             .and_then(|g| g.get("benchmark"))
             .and_then(Value::as_str)
@@ -172,5 +179,9 @@ mod tests {
         assert_eq!(g.candidates, ["naive", "ar(1)"]);
         assert_eq!(g.horizons, [1, 3]);
         assert_eq!(g.benchmark, 0);
+        // A grid without candidates has nothing to report on.
+        let header = &SCORES[..SCORES.iter().position(|&b| b == b'\n').unwrap() + 1];
+        let targets_only = json!({"grid": {"targets": ["y"]}});
+        assert!(Grid::read(&targets_only, header).is_err());
     }
 }
