@@ -19,6 +19,14 @@ pub(crate) fn sha256_hex(bytes: &[u8]) -> String {
     hex(Sha256::digest(bytes))
 }
 
+/// SHA-256 (hex) and length of a file, read in blocks.
+pub(crate) fn file_sha256(path: &std::path::Path) -> std::io::Result<(String, u64)> {
+    let mut file = std::fs::File::open(path)?;
+    let mut hash = Sha256::new();
+    let bytes = std::io::copy(&mut file, &mut hash)?;
+    Ok((hex(hash.finalize()), bytes))
+}
+
 #[cfg(test)]
 mod tests {
     #[test]

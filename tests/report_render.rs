@@ -262,3 +262,288 @@ fn both_reports_state_the_verdict_first() {
     assert!(md.contains("| # | candidate |"));
     assert!(!md.contains("seconds") && !html.contains("seconds"));
 }
+
+/// A small experiment on the demo's data in its own folder, run; returns
+/// the results folder. The extra lines go under the predictor and under
+/// `scoring`; `report` is the value of the `report` key.
+fn run_small(tag: &str, predictor_extra: &str, scoring_extra: &str, report: &str) -> PathBuf {
+    let dir = scratch(tag);
+    std::fs::create_dir_all(dir.join("data")).unwrap();
+    std::fs::copy(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("experiments/data/water_demand.csv"),
+        dir.join("data/water_demand.csv"),
+    )
+    .unwrap();
+    let yaml = format!(
+        "version: 1
+experiment: small
+data: {{file: data/water_demand.csv, time: period, frequency: monthly, start: 2007-01}}
+target: demand_ml
+transform: seasonal_diff
+predictors:
+  - column: school_holiday_days
+    transform: seasonal_diff
+{predictor_extra}
+candidates:
+  - family: naive
+  - family: mean
+  - family: ardl
+    lags: [1]
+    predictors: [school_holiday_days]
+    predictor_lags: [1]
+backtest:
+  schemes:
+    - expanding: {{first_origin: 2018-12}}
+  horizons: [1, 2]
+scoring:
+  metrics: [rmse, mae]
+  benchmark: naive
+{scoring_extra}
+report: {report}
+seed: 7
+"
+    );
+    let experiment = dir.join("small.yaml");
+    std::fs::write(&experiment, yaml).unwrap();
+    let out = dir.join("results");
+    let o = outturn(&[
+        "run".as_ref(),
+        experiment.as_os_str(),
+        "--out".as_ref(),
+        out.as_os_str(),
+        "--quiet".as_ref(),
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    out
+}
+
+#[test]
+fn the_report_says_what_the_checked_declaration_says() {
+    // Each setting is written in a form the experiment grammar accepts but
+    // a plain re-reading of the YAML text misreads: a capitalised boolean,
+    // a quoted level with a trailing space, a scalar list of formats. The
+    // expected readings are what the grammar defines them to mean.
+    let out = run_small(
+        "declared",
+        "    known_ahead: True",
+        "  tests:\n    confidence_set: {alpha: \"0.2 \", resamples: 200}",
+        "{formats: markdown}",
+    );
+    // `formats: markdown` is the list [markdown]: that report and no other.
+    assert!(!out.join("report.html").exists());
+    let md = String::from_utf8(read(&out, "report.md")).unwrap();
+    // known_ahead: True is true.
+    assert!(
+        md.contains("| `school_holiday_days` | seasonal_diff | 0 | yes |"),
+        "{md}"
+    );
+    assert!(md.contains("Candidates that use school_holiday_days (known ahead)"));
+    // alpha: "0.2 " is 0.2: a 20% model confidence set.
+    assert!(
+        md.contains("inside the model confidence set at 20%"),
+        "{md}"
+    );
+    assert!(md.contains("Model confidence set at 20%:"), "{md}");
+    assert!(!md.contains("at 10%"));
+    // Render reproduces the report and the manifest (which lists the one
+    // template used), and the folder still verifies afterwards.
+    let (report, manifest) = (read(&out, "report.md"), read(&out, "manifest.json"));
+    let o = outturn(&["render".as_ref(), out.as_os_str()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(read(&out, "report.md") == report);
+    assert!(read(&out, "manifest.json") == manifest);
+    let templates = &serde_json::from_slice::<Value>(&manifest).unwrap()["templates"];
+    assert_eq!(templates[0]["name"], "report.md.j2");
+    assert_eq!(templates.as_array().map(Vec::len), Some(1));
+    let o = outturn(&["verify".as_ref(), out.as_os_str()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+}
+
+#[test]
+fn captions_name_the_ranking_metric_where_it_sets_the_order() {
+    // With rank_by: mae the leaders are the first by MAE; the captions that
+    // describe them say so. Columns that really are RMSE keep the name.
+    let out = run_small(
+        "rank-by",
+        "",
+        "  rank_by: mae",
+        "{formats: [html, markdown]}",
+    );
+    let html = String::from_utf8(read(&out, "report.html")).unwrap();
+    assert!(
+        html.contains("The leaders by MAE at this horizon"),
+        "caption"
+    );
+    assert!(!html.contains("leaders by RMSE"));
+    assert!(html.contains("relative RMSE"));
+    let md = String::from_utf8(read(&out, "report.md")).unwrap();
+    assert!(md.contains(", then mae in brackets"), "{md}");
+}
+
+/// `text` with line `n` (1-based) changed by `edit`.
+fn edit_line(text: &str, n: usize, edit: impl Fn(&str) -> String) -> String {
+    text.split_inclusive('\n')
+        .enumerate()
+        .map(|(i, l)| {
+            if i + 1 == n {
+                edit(l.trim_end_matches('\n')) + "\n"
+            } else {
+                l.to_string()
+            }
+        })
+        .collect()
+}
+
+#[test]
+fn an_edited_table_is_invalid_input_naming_its_file_and_line() {
+    // A table cut short, a row with a field too many, a number that is not
+    // one, a last line end missing: render stops with exit 2, names the
+    // file (and the line where the problem is known to be), and leaves
+    // the reports and the manifest as they were.
+    type Edit = fn(&str) -> String;
+    let cases: [(&str, Edit, &str); 4] = [
+        (
+            "scores.csv",
+            |t| t[..t.len() / 2].to_string(),
+            "scores.csv:",
+        ),
+        (
+            "forecasts.csv",
+            // The demo's table has 15 columns: 10, two interval levels, `order`.
+            |t| edit_line(t, 3, |l| format!("{l},extra")),
+            "forecasts.csv:3: the row has 16 fields where the header has 15",
+        ),
+        (
+            "forecasts.csv",
+            // The forecast (seventh field) of line 5 is not a number.
+            |t| {
+                edit_line(t, 5, |l| {
+                    let mut fields: Vec<&str> = l.split(',').collect();
+                    fields[6] = "about 3";
+                    fields.join(",")
+                })
+            },
+            "forecasts.csv:5: forecast is 'about 3', not a number",
+        ),
+        (
+            "tests.csv",
+            |t| t.trim_end_matches('\n').to_string(),
+            "looks cut short",
+        ),
+    ];
+    for (i, (file, edit, message)) in cases.iter().enumerate() {
+        let dir = copy_of_demo(&format!("edited-{i}"));
+        let text = String::from_utf8(read(&dir, file)).unwrap();
+        let edited = edit(&text);
+        std::fs::write(dir.join(file), &edited).unwrap();
+        // As edited, the table no longer matches the manifest's hash: render
+        // checks every table against it first.
+        let o = outturn(&["render".as_ref(), dir.as_os_str()]);
+        let err = String::from_utf8_lossy(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{file}: {err}");
+        assert!(
+            err.contains(file) && err.contains("not as outturn wrote it"),
+            "{err}"
+        );
+        assert!(read(&dir, "report.md") == read(demo(), "report.md"));
+        // With the manifest edited to match, the readers name the line.
+        let m = String::from_utf8(read(&dir, "manifest.json")).unwrap();
+        let old = manifest(&dir)["outputs"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|o| o["file"] == *file)
+            .map(|o| {
+                (
+                    o["sha256"].as_str().unwrap().to_string(),
+                    o["bytes"].as_u64().unwrap(),
+                )
+            })
+            .unwrap();
+        let new_sha: String = {
+            use sha2::Digest;
+            sha2::Sha256::digest(edited.as_bytes())
+                .iter()
+                .map(|b| format!("{b:02x}"))
+                .collect()
+        };
+        let m = m.replace(&old.0, &new_sha).replace(
+            &format!("\"bytes\": {},\n      \"file\": \"{file}\"", old.1),
+            &format!("\"bytes\": {},\n      \"file\": \"{file}\"", edited.len()),
+        );
+        std::fs::write(dir.join("manifest.json"), &m).unwrap();
+        let o = outturn(&["render".as_ref(), dir.as_os_str()]);
+        let err = String::from_utf8_lossy(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{file}: {err}");
+        assert!(err.contains(message), "{file}: {err}");
+        assert!(err.contains(file), "{err}");
+        assert!(read(&dir, "report.md") == read(demo(), "report.md"));
+        assert_eq!(read(&dir, "manifest.json"), m.as_bytes());
+    }
+    // A table deleted from the folder.
+    let dir = copy_of_demo("deleted");
+    std::fs::remove_file(dir.join("forecasts.csv")).unwrap();
+    let o = outturn(&["render".as_ref(), dir.as_os_str()]);
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(2), "{err}");
+    assert!(err.contains("forecasts.csv is missing"), "{err}");
+}
+
+/// Text a user writes (notes, title, column names) cannot carry HTML into
+/// report.md, nor a formula into the tables: `<script>` and `<img
+/// onerror=…>` are written as entities in Markdown (and escaped in HTML),
+/// a target named like a spreadsheet formula is written as text (a leading
+/// `'`), and the folder still renders and verifies to the same bytes.
+#[test]
+fn user_text_carries_no_markup_into_the_reports_nor_formulas_into_the_tables() {
+    let dir = scratch("inject");
+    let csv = std::fs::read_to_string(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("experiments/data/water_demand.csv"),
+    )
+    .unwrap();
+    let csv = csv.replacen("demand_ml", "=SUM(A1)", 1);
+    std::fs::write(dir.join("data.csv"), csv).unwrap();
+    let yaml = "version: 1
+experiment: inject
+notes: \"<script>alert(1)</script> and <img src=x onerror=alert(2)> & more\"
+data: {file: data.csv, time: period, frequency: monthly}
+target: \"=SUM(A1)\"
+transform: seasonal_diff
+candidates:
+  - family: naive
+  - {family: ar, lags: [1]}
+backtest:
+  schemes: [{expanding: {first_origin: 2018-12}}]
+  horizons: [1]
+report: {title: \"<b onmouseover=alert(3)>Title</b>\"}
+";
+    let experiment = dir.join("inject.yaml");
+    std::fs::write(&experiment, yaml).unwrap();
+    let out = dir.join("results");
+    let o = outturn(&[
+        "run".as_ref(),
+        experiment.as_os_str(),
+        "--out".as_ref(),
+        out.as_os_str(),
+        "--quiet".as_ref(),
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let md = String::from_utf8(read(&out, "report.md")).unwrap();
+    let outside_code = md.split("yaml\n").next().unwrap_or("");
+    for raw in ["<script", "<img", "<b onmouseover"] {
+        assert!(!outside_code.contains(raw), "report.md carries {raw}");
+    }
+    assert!(md.contains("&lt;script>alert(1)&lt;/script>"), "{md}");
+    let html = String::from_utf8(read(&out, "report.html")).unwrap();
+    assert!(!html.contains("<script") && !html.contains("<img src=x"));
+    let forecasts = String::from_utf8(read(&out, "forecasts.csv")).unwrap();
+    let row = forecasts.lines().nth(1).unwrap();
+    assert!(row.starts_with("'=SUM(A1),"), "{row}");
+    assert!(!forecasts.lines().skip(1).any(|l| l.starts_with('=')));
+    let before = read(&out, "report.md");
+    let o = outturn(&["render".as_ref(), out.as_os_str()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert_eq!(read(&out, "report.md"), before);
+    let o = outturn(&["verify".as_ref(), out.as_os_str()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stdout));
+}

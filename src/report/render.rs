@@ -7,14 +7,21 @@ use super::{report_data, Folder, TargetPart};
 use crate::error::{Error, Result};
 use crate::spec::ReportFormat;
 use serde_json::Value;
-use std::collections::BTreeMap;
 use std::path::Path;
 
-/// The two report templates: (file name, source).
+/// The two report templates: (file name, source), and the fuel a user's
+/// templates may burn (the built-in ones are bounded by the data alone).
 pub struct Templates {
     pub markdown: (String, String),
     pub html: (String, String),
+    pub fuel: Option<u64>,
 }
+
+/// The work a user's template may do before it is stopped (minijinja's
+/// fuel: one unit per instruction), far beyond what the built-in templates
+/// need for a thousand targets, and reached in about a second by a
+/// template that loops without bound.
+pub const TEMPLATE_FUEL: u64 = 50_000_000;
 
 pub const MARKDOWN_TEMPLATE: &str = "report.md.j2";
 pub const HTML_TEMPLATE: &str = "report.html.j2";
@@ -30,6 +37,7 @@ pub fn default_templates() -> Templates {
             HTML_TEMPLATE.into(),
             include_str!("../../templates/report.html.j2").into(),
         ),
+        fuel: None,
     }
 }
 
@@ -37,6 +45,12 @@ pub fn default_templates() -> Templates {
 pub fn load_templates(dir: &Path) -> Result<Templates> {
     let read = |name: &str| -> Result<(String, String)> {
         let path = dir.join(name);
+        if std::fs::metadata(&path).is_ok_and(|m| !m.is_file()) {
+            return Err(Error::invalid(
+                None,
+                format!("{} is not a regular file", path.display()),
+            ));
+        }
         match std::fs::read(&path) {
             Ok(bytes) => String::from_utf8(bytes)
                 .map(|text| (name.to_string(), text))
@@ -56,6 +70,7 @@ pub fn load_templates(dir: &Path) -> Result<Templates> {
     Ok(Templates {
         markdown: read(MARKDOWN_TEMPLATE)?,
         html: read(HTML_TEMPLATE)?,
+        fuel: Some(TEMPLATE_FUEL),
     })
 }
 
@@ -73,20 +88,76 @@ pub fn used_templates(templates: &Templates, formats: &[ReportFormat]) -> Vec<(S
 }
 
 /// Render one template with the report data.
+/// Text for Markdown that no viewer takes for HTML: a `<` that could open
+/// a tag, a comment or a processing instruction (`<script`, `</a`, `<!--`,
+/// `<?`) and a `&` that could start an entity are written as entities.
+/// A `<` before a space or a digit ("p < 0.05", "<0.001") stays as it is.
+pub fn markdown_text(s: &str) -> std::borrow::Cow<'_, str> {
+    let bytes = s.as_bytes();
+    let risky = |i: usize| match bytes[i] {
+        b'<' => bytes
+            .get(i + 1)
+            .is_some_and(|b| b.is_ascii_alphabetic() || matches!(b, b'/' | b'!' | b'?')),
+        b'&' => bytes
+            .get(i + 1)
+            .is_some_and(|b| b.is_ascii_alphanumeric() || *b == b'#'),
+        _ => false,
+    };
+    if !(0..bytes.len()).any(risky) {
+        return std::borrow::Cow::Borrowed(s);
+    }
+    let mut out = String::with_capacity(s.len() + 8);
+    for (i, c) in s.char_indices() {
+        match c {
+            '<' if risky(i) => out.push_str("&lt;"),
+            '&' if risky(i) => out.push_str("&amp;"),
+            _ => out.push(c),
+        }
+    }
+    std::borrow::Cow::Owned(out)
+}
+
 fn render_one(
     name: &str,
     source: &str,
     html: bool,
     data: &minijinja::Value,
+    fuel: Option<u64>,
 ) -> std::result::Result<String, String> {
     let mut env = minijinja::Environment::new();
     env.set_auto_escape_callback(move |_| {
         if html {
             minijinja::AutoEscape::Html
         } else {
-            minijinja::AutoEscape::None
+            minijinja::AutoEscape::Custom("markdown")
         }
     });
+    // Markdown: every string not marked safe goes through `markdown_text`,
+    // so a user's notes, title or column names cannot carry HTML into it.
+    env.set_formatter(|out, state, value| {
+        if !matches!(
+            state.auto_escape(),
+            minijinja::AutoEscape::Custom("markdown")
+        ) {
+            return minijinja::escape_formatter(out, state, value);
+        }
+        if value.is_undefined() {
+            return Ok(());
+        }
+        let text = value.to_string();
+        let text = if value.is_safe() {
+            std::borrow::Cow::Borrowed(text.as_str())
+        } else {
+            markdown_text(&text)
+        };
+        out.write_str(&text).map_err(|_| {
+            minijinja::Error::new(
+                minijinja::ErrorKind::WriteFailure,
+                "cannot write the report",
+            )
+        })
+    });
+    env.set_fuel(fuel);
     env.set_keep_trailing_newline(true);
     env.set_trim_blocks(true);
     env.set_lstrip_blocks(true);
@@ -99,21 +170,10 @@ fn render_one(
         .map_err(|e| format!("template {name}: {e}"))
 }
 
-/// The report files of a results folder: `files` holds the folder's tables
-/// by name, `manifest` the manifest without `outputs` and `run`. Returns
-/// ("report.md", bytes) and/or ("report.html", bytes), in that order.
-pub fn reports(
-    files: &BTreeMap<String, Vec<u8>>,
-    manifest: &Value,
-    declared: &crate::spec::Declaration,
-    templates: &Templates,
-) -> std::result::Result<Vec<(String, Vec<u8>)>, String> {
-    let folder = Folder::parse(files, manifest, declared)?;
-    reports_of(folder, None, manifest, &declared.formats, templates)
-}
-
-/// The report files of a parsed folder (see [`reports`]), with the targets'
-/// parts of the report when they are built already.
+/// The report files of a folder as the report sees it, from the
+/// manifest's deterministic part (no `outputs` of reports, no `run`):
+/// ("report.md", bytes) and/or ("report.html", bytes), in that order. The
+/// targets' parts of the report are passed when they are built already.
 pub fn reports_of(
     folder: Folder,
     parts: Option<Vec<TargetPart>>,
@@ -138,7 +198,7 @@ pub fn reports_of(
         };
         Ok(Some((
             file.to_string(),
-            render_one(name, source, html, &value)?.into_bytes(),
+            render_one(name, source, html, &value, templates.fuel)?.into_bytes(),
         )))
     };
     let (markdown, html) = if formats.len() > 1 {

@@ -255,6 +255,32 @@ impl Manifest {
         serde_json::to_value(&core).unwrap_or(serde_json::Value::Null)
     }
 
+    /// Every table the manifest lists is in `dir` with the bytes it
+    /// recorded (the reports aside: they are what gets rebuilt). The
+    /// message names the first file missing or changed.
+    pub fn check_tables(&self, dir: &std::path::Path) -> Result<(), String> {
+        for o in &self.outputs {
+            if o.file.starts_with("report.") {
+                continue;
+            }
+            let path = dir.join(&o.file);
+            match crate::digest::file_sha256(&path) {
+                Ok((sha, bytes)) if sha == o.sha256 && bytes as usize == o.bytes => {}
+                Ok(_) => {
+                    return Err(format!(
+                        "{} is not as outturn wrote it (its SHA-256 differs from the manifest's); the reports are rebuilt only from the tables as written — rerun the experiment, or run verify to see what changed",
+                        path.display()
+                    ))
+                }
+                Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
+                    return Err(format!("{} is missing (the manifest lists it)", path.display()))
+                }
+                Err(e) => return Err(format!("cannot read {}: {e}", path.display())),
+            }
+        }
+        Ok(())
+    }
+
     /// Replace or add an output's entry.
     pub fn set_output(&mut self, entry: OutputFile) {
         match self.outputs.iter_mut().find(|o| o.file == entry.file) {

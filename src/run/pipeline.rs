@@ -16,7 +16,8 @@ use crate::error::{Error, Result};
 use crate::plan;
 use crate::report;
 use crate::results::manifest::{self, OutputFile};
-use crate::results::tables;
+use crate::results::{self, diagnostics, forecasts, outlook, scores, series, stability};
+use crate::results::{Grid, Rows, Tables};
 use crate::score;
 use crate::spec::Experiment;
 use sha2::{Digest, Sha256};
@@ -52,7 +53,7 @@ struct Slice {
     /// The rows the report reads of this target, parsed from its slice of
     /// the tables exactly as `outturn render` parses a whole folder, and the
     /// target's part of the report built from them.
-    report_rows: std::result::Result<(report::Rows, report::TargetPart), String>,
+    report_rows: std::result::Result<(Rows, report::TargetPart), String>,
     cells: Vec<manifest::CellFacts>,
     failed: usize,
 }
@@ -80,7 +81,7 @@ fn slice(
     // takes some of them over (rayon runs a join in place when none is idle).
     let charted = t < report_targets(exp);
     let forecasts_part = || {
-        let tables = tables::forecasts_csv(&sub, &cells, &outputs);
+        let tables = forecasts::write(&sub, &cells, &outputs);
         let keep = if charted {
             tables.clone()
         } else if t >= report::DETAIL_TARGETS {
@@ -89,34 +90,34 @@ fn slice(
         } else {
             // Beyond the charted targets the report reads the benchmark's
             // forecasts (spans and counts) and where every other series begins.
-            tables::forecasts_csv(&sub, &cells, &report_firsts(exp, &cells, &outputs))
+            forecasts::write(&sub, &cells, &report_firsts(exp, &cells, &outputs))
         };
         (tables, keep)
     };
     let stability_part = || {
         let (stability, fluctuation) = score::stability::rolling(&sub, &errors);
-        let bytes = tables::stability_csv(&sub, &stability);
+        let bytes = stability::write(&sub, &stability);
         let keep = if charted { bytes.clone() } else { Vec::new() };
         (bytes, keep, fluctuation)
     };
     let scores_part = || {
         let scores = score::scores(&sub, &errors);
         let tests = score::comparison::run(&sub, &errors);
-        (tables::scores_csv(&sub, &scores), tests)
+        (scores::write(&sub, &scores), tests)
     };
     let rest_part = || {
         let diagnostics = score::stability::diagnostics(&sub, &cells, &outputs, t == 0);
-        let series = tables::series_csv(&sub, t == 0);
+        let series = series::write(&sub, t == 0);
         let keep = if t < report::DETAIL_TARGETS {
             series.clone()
         } else {
             header(&series).to_vec()
         };
         (
-            tables::diagnostics_csv(&diagnostics),
+            diagnostics::write(&diagnostics),
             series,
             keep,
-            tables::outlook_csv(&sub, &cells, &outputs),
+            outlook::write(&sub, &cells, &outputs),
         )
     };
     let (
@@ -142,7 +143,7 @@ fn slice(
     let tables = [
         forecasts_bytes,
         scores_bytes,
-        tables::tests_csv(&sub, &tests),
+        results::tests::write(&sub, &tests),
         stability_bytes,
         diagnostics_bytes,
         series,
@@ -154,8 +155,9 @@ fn slice(
         outlook_bytes,
     ];
     // The report reads every small table whole; of the large ones only the
-    // rows it draws.
-    let report_tables: report::Tables = TABLES
+    // rows it draws (none of stability.csv beyond the charted targets: that
+    // table is left out).
+    let report_tables: Tables = TABLES
         .iter()
         .zip(&tables)
         .map(|(&name, table)| {
@@ -167,9 +169,11 @@ fn slice(
             };
             (name, keep)
         })
+        .filter(|(_, keep)| !keep.is_empty())
         .collect();
     let draw = exp.formats.contains(&crate::spec::ReportFormat::Html);
-    let report_rows = report::Rows::parse(&report_tables, parts.grid())
+    let report_rows = Rows::read(&report_tables, parts.grid())
+        .map_err(|e| e.to_string())
         .and_then(|rows| parts.part(t, rows, draw))
         .map(|(part, rows)| (rows, part));
     Slice {
@@ -277,7 +281,7 @@ fn write_file(dir: &Path, name: &str, bytes: &[u8], durable: bool) -> Result<Out
 struct Written {
     streams: Vec<Stream>,
     /// The report's rows of the targets appended so far.
-    report_rows: Option<std::result::Result<report::Rows, String>>,
+    report_rows: Option<std::result::Result<Rows, String>>,
     /// The report's parts of the targets appended so far.
     report_parts: Vec<report::TargetPart>,
     experiment_text: String,
@@ -587,12 +591,12 @@ pub fn produce(
         });
     }
     ctx.step("experiment loaded, tables start");
-    let grid = report::Grid::of(exp);
+    let grid = Grid::of(exp);
     let first = exp.for_target(0);
     let parts = report::PartContext::new(
         grid.clone(),
         &exp.declared,
-        Box::new(move || tables::diagnostics_csv(&score::stability::predictor_diagnostics(&first))),
+        Box::new(move || diagnostics::write(&score::stability::predictor_diagnostics(&first))),
     );
     let mut w = Written {
         streams,
@@ -671,17 +675,10 @@ pub fn produce(
     let core = manifest.core_value();
     let rows = match report_rows {
         Some(rows) => rows.map_err(Error::Report)?,
-        None => report::Rows::parse(&report::Tables::new(), &grid).map_err(Error::Report)?,
+        None => Rows::read(&Tables::new(), &grid).map_err(|e| Error::Report(e.to_string()))?,
     };
     ctx.step("rows ready");
-    let folder = report::Folder::assemble(
-        grid,
-        rows,
-        &exp.declared,
-        experiment_text,
-        &BTreeMap::new(),
-        &core,
-    );
+    let folder = report::Folder::assemble(grid, rows, &exp.declared, experiment_text, &core);
     // On this thread: handing the work to a pool thread that has gone to
     // sleep costs the time it takes to wake (milliseconds on a virtual machine).
     let rendered =

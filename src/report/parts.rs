@@ -1,0 +1,295 @@
+//! The report-data value both templates render, assembled from the
+//! targets' parts and what concerns the whole run. A target's part (its
+//! entry in the list of targets, its detailed sections and its verdict
+//! rows) needs only that target's rows: a run builds it on the worker that
+//! scored the target, `render` builds every part from the whole folder.
+
+use super::data::data_for;
+use super::format::{slug, transform_words};
+use super::outlook::outlook_for;
+use super::over_time::over_time_for;
+use super::overfitting::overfitting_for;
+use super::rankings::rankings_for;
+use super::record::{self, record};
+use super::significance::tests_for;
+use super::verdict::verdict_for;
+use super::view::{Folder, Index, Record, Settings};
+use super::{CAUTION, CHART_TARGETS, DETAIL_TARGETS};
+use crate::results::diagnostics::{self, Row as DiagnosticRow};
+use crate::results::{Grid, Rows};
+use serde_json::{json, Value};
+use std::collections::BTreeMap;
+
+/// One target's part of the report data, already in template values: its
+/// entry in the list of targets, its detailed sections (first
+/// DETAIL_TARGETS targets) and its verdict rows.
+pub struct TargetPart {
+    entry: minijinja::Value,
+    full: Option<minijinja::Value>,
+    rows: Vec<minijinja::Value>,
+    statuses: Vec<String>,
+}
+
+impl Folder {
+    /// The report part of target `t`. The folder must hold every row of
+    /// that target (other targets' rows may be absent), and the predictors'
+    /// unit-root rows.
+    pub fn target_part(&self, t: usize, draw: bool) -> TargetPart {
+        target_part(&Index::new(self), t, draw)
+    }
+}
+
+/// What every target's report part needs besides the target's own rows.
+pub struct PartContext {
+    grid: Grid,
+    settings: Settings,
+    /// The predictors' unit-root rows, which only the first target's slice
+    /// of diagnostics.csv holds: made when a part first needs them (by a
+    /// worker, not before the workers start).
+    predictor_rows: std::sync::OnceLock<Result<Vec<DiagnosticRow>, String>>,
+    predictor_diagnostics: Box<dyn Fn() -> Vec<u8> + Send + Sync>,
+}
+
+impl PartContext {
+    /// `predictor_diagnostics` makes the predictors' part of diagnostics.csv
+    /// (with its header), as the first target's slice holds it.
+    pub fn new(
+        grid: Grid,
+        declared: &crate::spec::Declaration,
+        predictor_diagnostics: Box<dyn Fn() -> Vec<u8> + Send + Sync>,
+    ) -> PartContext {
+        PartContext {
+            grid,
+            settings: Settings::of(declared),
+            predictor_rows: std::sync::OnceLock::new(),
+            predictor_diagnostics,
+        }
+    }
+
+    fn predictor_rows(&self) -> Result<&[DiagnosticRow], String> {
+        self.predictor_rows
+            .get_or_init(|| {
+                diagnostics::read(&(self.predictor_diagnostics)()).map_err(|e| e.to_string())
+            })
+            .as_deref()
+            .map_err(Clone::clone)
+    }
+
+    pub fn grid(&self) -> &Grid {
+        &self.grid
+    }
+
+    /// The report part of target `t` from that target's rows, which are
+    /// handed back for the whole folder.
+    pub fn part(&self, t: usize, mut rows: Rows, draw: bool) -> Result<(TargetPart, Rows), String> {
+        // The folder as the report sees it for target t: its rows, and the
+        // predictors' rows ahead of them as in the whole table.
+        let predictors = if t == 0 {
+            &[][..]
+        } else {
+            self.predictor_rows()?
+        };
+        let borrowed = predictors.len();
+        if borrowed > 0 {
+            let own = std::mem::take(&mut rows.diagnostics);
+            rows.diagnostics = predictors.to_vec();
+            rows.diagnostics.extend(own);
+        }
+        let folder = Folder::new(
+            self.grid.clone(),
+            rows,
+            self.settings.clone(),
+            Record::default(),
+        );
+        let part = folder.target_part(t, draw);
+        let mut rows = folder.rows;
+        rows.diagnostics.drain(..borrowed);
+        Ok((part, rows))
+    }
+}
+
+fn target_part(ix: &Index, t: usize, draw: bool) -> TargetPart {
+    let f = ix.f;
+    let g = &f.grid;
+    let target = &g.targets[t];
+    let many = g.targets.len() > 3;
+    let charts = draw && t < CHART_TARGETS;
+    let verdict = verdict_for(ix, t);
+    let rows: Vec<Value> = verdict["rows"]
+        .as_array()
+        .into_iter()
+        .flatten()
+        .map(|v| {
+            let mut v = v.clone();
+            v["target"] = json!(target);
+            v
+        })
+        .collect();
+    let series = f
+        .rows
+        .series
+        .iter()
+        .find(|s| s.role == "target" && s.name == *target);
+    let panels_open = g.schemes.len() * g.horizons.len() <= 8 && !many;
+    let mut entry = json!({
+        "name": target,
+        "anchor": format!("t-{}", slug(target)),
+        "index": t + 1,
+        "charts": charts,
+        "open": !many || t == 0,
+        "panels_open": panels_open,
+    });
+    entry["verdict"] = verdict;
+    // Every target gets its verdict; the sections after it go into
+    // detail for the first DETAIL_TARGETS only (the tables hold the rest).
+    let full = (t < DETAIL_TARGETS).then(|| {
+        let mut full = entry.clone();
+        full["outlook"] = outlook_for(ix, t, series, charts);
+        full["rankings"] = rankings_for(ix, t);
+        full["overfitting"] = overfitting_for(ix, t, charts);
+        full["tests"] = tests_for(ix, t);
+        full["over_time"] = over_time_for(ix, t, series, charts);
+        full["data"] = data_for(ix, t, series, charts);
+        full
+    });
+    entry["detail"] = json!(t < DETAIL_TARGETS);
+    TargetPart {
+        entry: minijinja::Value::from_serialize(&entry),
+        full: full.as_ref().map(minijinja::Value::from_serialize),
+        statuses: rows
+            .iter()
+            .map(|v| v["status"].as_str().unwrap_or("").to_string())
+            .collect(),
+        rows: rows.iter().map(minijinja::Value::from_serialize).collect(),
+    }
+}
+
+/// The data the report templates read, as template values (see
+/// templates/README.md), from a folder's rows and the manifest's
+/// deterministic part (no `run`). `parts` are the targets' parts when
+/// already built (see [`Folder::target_part`]); else they are built here,
+/// in parallel. `draw`: whether charts are wanted (only the HTML report
+/// shows them).
+pub fn report_data(
+    f: &Folder,
+    manifest: &Value,
+    draw: bool,
+    parts: Option<Vec<TargetPart>>,
+) -> minijinja::Value {
+    let ix = Index::new(f);
+    let g = &f.grid;
+    // Targets are independent: build them in parallel, assemble in order.
+    use rayon::prelude::*;
+    let parts = parts.unwrap_or_else(|| {
+        (0..g.targets.len())
+            .into_par_iter()
+            .map(|t| target_part(&ix, t, draw))
+            .collect()
+    });
+    let mut targets = Vec::with_capacity(parts.len());
+    let mut detailed = Vec::new();
+    let mut verdict_rows = Vec::new();
+    let mut statuses = Vec::new();
+    for part in parts {
+        targets.push(part.entry);
+        detailed.extend(part.full);
+        verdict_rows.extend(part.rows);
+        statuses.extend(part.statuses);
+    }
+    let data = run_data(&ix, manifest, &statuses);
+    // To template values: the targets' parts are converted already.
+    let Value::Object(map) = data else {
+        unreachable!("the report data is an object")
+    };
+    let mut values: BTreeMap<String, minijinja::Value> = map
+        .into_iter()
+        .map(|(k, v)| (k, minijinja::Value::from_serialize(&v)))
+        .collect();
+    values.insert("verdict_rows".into(), minijinja::Value::from(verdict_rows));
+    values.insert("targets".into(), minijinja::Value::from(targets));
+    values.insert("detailed_targets".into(), minijinja::Value::from(detailed));
+    values.into_iter().collect()
+}
+
+/// Across targets: how many settings fall in each reading.
+fn overall(g: &Grid, statuses: &[String]) -> String {
+    let bench_id = g.candidates.get(g.benchmark).cloned().unwrap_or_default();
+    let tally = |key: &str| statuses.iter().filter(|s| *s == key).count();
+    format!(
+        "Over {} targets × {} scheme × horizon settings ({} in all): {} hold after the search, {} are significant alone, {} are ahead but not significant, {} leave {} unbeaten{}.",
+        g.targets.len(),
+        g.schemes.len() * g.horizons.len(),
+        statuses.len(),
+        tally("holds"),
+        tally("alone"),
+        tally("ahead"),
+        tally("unbeaten"),
+        bench_id,
+        match tally("untested") {
+            0 => String::new(),
+            n => format!(", {n} are ahead but untested"),
+        }
+    )
+}
+
+/// Everything in the report data but the targets' parts.
+fn run_data(ix: &Index, manifest: &Value, statuses: &[String]) -> Value {
+    let f = ix.f;
+    let g = &f.grid;
+    let rows = &f.rows;
+    let settings = &f.settings;
+    let rank_by = ix
+        .rank_by
+        .map(|i| rows.metric_names[i].clone())
+        .unwrap_or_else(|| "rmse".into());
+    let experiment_name = manifest
+        .pointer("/experiment/name")
+        .and_then(Value::as_str)
+        .unwrap_or("")
+        .to_string();
+    let cells = record::cells(manifest);
+    let known_ahead: Vec<String> = settings
+        .predictors
+        .iter()
+        .filter(|p| p.known_ahead)
+        .map(|p| p.column.clone())
+        .collect();
+    json!({
+        "title": settings.title,
+        "experiment": experiment_name,
+        "notes": settings.notes,
+        "caution": CAUTION,
+        "level": "5%",
+        "benchmark": g.candidates.get(g.benchmark).cloned().unwrap_or_default(),
+        "rank_by_is_rmse": rank_by == "rmse",
+        "rank_by": rank_by,
+        "metrics": rows.metric_names,
+        "alpha": settings.alpha.map(|a| format!("{}%", a * 100.0)),
+        "facts": {
+            "targets": g.targets.len(),
+            "candidates": g.candidates.len(),
+            "schemes": g.schemes,
+            "horizons": g.horizons,
+            "forecasts": f.forecast_count,
+            "cells": cells.len(),
+            "failed": record::failures(&cells).len(),
+            "frequency": settings.frequency,
+            "transform": settings.transform,
+            "transform_words": transform_words(&settings.transform),
+            "multi_step": settings.multi_step,
+        },
+        "many_targets": g.targets.len() > 3,
+        "overall": overall(g, statuses),
+        "has_pairwise": rows.tests.iter().any(|r| r.test == "diebold_mariano" || r.test == "clark_west"),
+        "has_snooping": rows.tests.iter().any(|r| r.test == "snooping"),
+        "chart_targets": CHART_TARGETS,
+        "known_ahead": known_ahead,
+        "detail_targets": DETAIL_TARGETS.min(g.targets.len()),
+        "omitted_detail": g.targets.len().saturating_sub(DETAIL_TARGETS),
+        "predictors": settings.predictors.iter().map(|p| json!({
+            "column": p.column, "transform": p.transform, "transform_words": transform_words(&p.transform), "release_lag": p.release_lag, "known_ahead": p.known_ahead,
+        })).collect::<Vec<_>>(),
+        "period_sets": settings.periods.iter().map(|(n, a, b)| json!({"name": n, "from": a, "to": b})).collect::<Vec<_>>(),
+        "record": record(f, manifest),
+    })
+}

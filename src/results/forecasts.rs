@@ -1,0 +1,235 @@
+//! forecasts.csv: every backtest forecast (SPEC §5), one row per target ×
+//! candidate × scheme × horizon × origin, with the outturn, the error, the
+//! in-sample MSE, the intervals and, when a candidate selects its order,
+//! the order chosen. The largest table by far: rows are written straight
+//! into one buffer, numbers without allocation.
+
+use super::grid::Lookup;
+use super::text::{push_field, push_num, push_usize, ReadError, Reader};
+use crate::backtest::CellOutput;
+use crate::plan::Cell;
+use crate::spec::Experiment;
+use std::collections::HashMap;
+use std::io::Read;
+
+pub const FILE: &str = "forecasts.csv";
+
+/// The leading columns (SPEC §5), which the report reads; `is_mse`, the
+/// intervals and `order` follow.
+pub const COLUMNS: [&str; 9] = [
+    "target",
+    "candidate",
+    "scheme",
+    "horizon",
+    "origin",
+    "period",
+    "forecast",
+    "actual",
+    "error",
+];
+
+/// `lower_<c>,upper_<c>` per interval level, ascending (SPEC §5).
+pub(super) fn interval_headers(exp: &Experiment) -> Vec<String> {
+    exp.intervals
+        .iter()
+        .flat_map(|l| {
+            [
+                format!("lower_{}", l.percent),
+                format!("upper_{}", l.percent),
+            ]
+        })
+        .collect()
+}
+
+/// The table of `outputs`, the cells' outputs in plan order.
+pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8> {
+    let mut header: Vec<String> = COLUMNS
+        .iter()
+        .chain(&["is_mse"])
+        .map(|c| c.to_string())
+        .collect();
+    header.extend(interval_headers(exp));
+    let with_order = exp.candidates.iter().any(|c| c.family.selects());
+    if with_order {
+        header.push("order".into());
+    }
+    let rows: usize = outputs.iter().map(|o| o.forecasts.len()).sum();
+    let mut out = Vec::with_capacity(64 + rows * (96 + 40 * exp.intervals.len()));
+    for (i, h) in header.iter().enumerate() {
+        if i > 0 {
+            out.push(b',');
+        }
+        push_field(&mut out, h);
+    }
+    out.push(b'\n');
+    let zs: Vec<f64> = exp
+        .intervals
+        .iter()
+        .map(|l| crate::score::normal_quantile((1.0 + l.level) / 2.0))
+        .collect();
+    for (cell, o) in cells.iter().zip(outputs) {
+        let target = &exp.targets[cell.target];
+        // The row's fixed part: target, candidate, scheme.
+        let mut lead = Vec::new();
+        push_field(&mut lead, &target.name);
+        lead.push(b',');
+        push_field(&mut lead, &exp.candidates[cell.candidate].id);
+        lead.push(b',');
+        push_field(&mut lead, &exp.schemes[cell.scheme].id);
+        lead.push(b',');
+        for r in &o.forecasts {
+            let pos = r.origin + r.horizon;
+            let actual = target.y[pos - 1];
+            out.extend_from_slice(&lead);
+            push_usize(&mut out, r.horizon);
+            out.push(b',');
+            push_field(&mut out, &target.labels[r.origin - 1]);
+            out.push(b',');
+            push_field(&mut out, &target.labels[pos - 1]);
+            out.push(b',');
+            push_num(&mut out, r.forecast);
+            out.push(b',');
+            push_num(&mut out, actual);
+            out.push(b',');
+            push_num(&mut out, actual - r.forecast);
+            out.push(b',');
+            if let Some(m) = r.is_mse {
+                push_num(&mut out, m);
+            }
+            for &z in &zs {
+                out.push(b',');
+                match r.variance {
+                    Some(v) if v >= 0.0 => {
+                        let sd = v.sqrt();
+                        push_num(&mut out, r.forecast - z * sd);
+                        out.push(b',');
+                        push_num(&mut out, r.forecast + z * sd);
+                    }
+                    _ => out.push(b','),
+                }
+            }
+            if with_order {
+                out.push(b',');
+                if let Some(order) = r.order {
+                    push_field(&mut out, &order.to_string());
+                }
+            }
+            out.push(b'\n');
+        }
+    }
+    out
+}
+
+/// One forecast as the report reads it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Row {
+    pub origin: String,
+    pub period: String,
+    pub forecast: Option<f64>,
+    pub actual: Option<f64>,
+    pub error: Option<f64>,
+}
+
+/// (target, candidate, scheme, horizon), as positions in the grid.
+pub type Key = (usize, usize, usize, usize);
+
+/// The forecasts of each target × candidate × scheme × horizon, in the
+/// table's (origin) order.
+pub type Forecasts = HashMap<Key, Vec<Row>>;
+
+/// Read the table, keeping the rows of the targets `keep` accepts.
+pub fn read(
+    source: impl Read,
+    grid: &Lookup,
+    keep: &dyn Fn(usize) -> bool,
+) -> Result<Forecasts, ReadError> {
+    let mut reader = Reader::new(FILE, source)?;
+    let [target, candidate, scheme, horizon, origin, period, forecast, actual, error] =
+        reader.columns(COLUMNS)?;
+    let mut out = Forecasts::new();
+    while let Some(row) = reader.next_row()? {
+        let t = row.id(target, &grid.targets)?;
+        if !keep(t) {
+            continue;
+        }
+        let key = (
+            t,
+            row.id(candidate, &grid.candidates)?,
+            row.id(scheme, &grid.schemes)?,
+            row.horizon(horizon, grid.horizons)?,
+        );
+        out.entry(key).or_default().push(Row {
+            origin: row.text(origin).to_string(),
+            period: row.text(period).to_string(),
+            forecast: row.number(forecast)?,
+            actual: row.number(actual)?,
+            error: row.number(error)?,
+        });
+    }
+    Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::results::grid::Grid;
+
+    fn grid() -> Grid {
+        Grid {
+            targets: vec!["y".into(), "z".into()],
+            candidates: vec!["naive".into(), "ar(1)".into()],
+            schemes: vec!["fixed".into()],
+            horizons: vec![1],
+            benchmark: 0,
+        }
+    }
+
+    const HEADER: &str =
+        "target,candidate,scheme,horizon,origin,period,forecast,actual,error,is_mse,lower_80,upper_80\n";
+
+    #[test]
+    fn rows_are_grouped_by_cell_and_horizon_in_table_order() {
+        let text = format!(
+            "{HEADER}y,ar(1),fixed,1,2001,2002,1.5,2,0.5,,,\ny,ar(1),fixed,1,2002,2003,,3,,,,\nz,naive,fixed,1,2001,2002,1,1,0,,,\n"
+        );
+        let g = grid();
+        let all = read(text.as_bytes(), &g.lookup(), &|_| true).unwrap();
+        let rows = &all[&(0, 1, 0, 1)];
+        assert_eq!(rows.len(), 2);
+        assert_eq!(rows[0].period, "2002");
+        assert_eq!(rows[0].error, Some(0.5));
+        assert_eq!(rows[1].forecast, None);
+        // Rows of targets not kept are left out (their ids are still checked).
+        let first = read(text.as_bytes(), &g.lookup(), &|t| t == 0).unwrap();
+        assert!(!first.contains_key(&(1, 0, 0, 1)));
+    }
+
+    #[test]
+    fn an_edited_row_is_an_error_naming_its_line() {
+        let g = grid();
+        for (row, message) in [
+            ("x,naive,fixed,1,a,b,1,1,0,,,", "target 'x' is not a target"),
+            ("y,naive,fixed,2,a,b,1,1,0,,,", "horizon 2 is not a horizon"),
+            (
+                "y,naive,fixed,1,a,b,one,1,0,,,",
+                "forecast is 'one', not a number",
+            ),
+            (
+                "y,naive,fixed,1,a,b,1,1",
+                "the row has 8 fields where the header has 12",
+            ),
+        ] {
+            let text = format!("{HEADER}y,naive,fixed,1,a,b,1,1,0,,,\n{row}\n");
+            let err = read(text.as_bytes(), &g.lookup(), &|_| true)
+                .unwrap_err()
+                .to_string();
+            assert!(err.starts_with("forecasts.csv, line 3: "), "{err}");
+            assert!(err.contains(message), "{err}");
+        }
+        let err = read(&b"target,candidate\n"[..], &g.lookup(), &|_| true).unwrap_err();
+        assert_eq!(
+            err.to_string(),
+            "forecasts.csv, line 1: there is no column 'scheme'"
+        );
+    }
+}

@@ -1,0 +1,162 @@
+//! The typed rows of a results folder's tables, read by one reader per
+//! table: from a folder on disk (`outturn render`, streaming the large
+//! tables and keeping only the targets wanted), or from one target's slice
+//! of every table in memory (a run's worker, so that `run` and `render`
+//! read the same rows). Slices append in target order to the rows of the
+//! whole folder.
+
+use super::grid::Grid;
+use super::text::ReadError;
+use super::{diagnostics, forecasts, outlook, scores, series, stability, tests};
+use std::borrow::Cow;
+use std::collections::BTreeMap;
+use std::io::Read;
+use std::path::Path;
+
+/// Tables by file name.
+pub type Tables<'a> = BTreeMap<&'a str, &'a [u8]>;
+
+/// The rows of a folder's tables (or of one target's slice of them); rows
+/// keep the files' order. A table that is absent has no rows.
+#[derive(Debug, Default)]
+pub struct Rows {
+    /// The metric columns of scores.csv, in order.
+    pub metric_names: Vec<String>,
+    pub scores: Vec<scores::Row>,
+    pub tests: Vec<tests::Row>,
+    pub forecasts: forecasts::Forecasts,
+    pub outlook: Vec<outlook::Row>,
+    pub stability: stability::Stability,
+    pub series: Vec<series::Series>,
+    pub diagnostics: Vec<diagnostics::Row>,
+}
+
+/// Where the tables come from.
+enum Source<'a> {
+    Memory(&'a Tables<'a>),
+    Folder(&'a Path),
+}
+
+impl Source<'_> {
+    /// A small table whole, or None when it is absent.
+    fn bytes(&self, file: &'static str) -> Result<Option<Cow<'_, [u8]>>, ReadError> {
+        match self {
+            Source::Memory(tables) => Ok(tables.get(file).map(|b| Cow::Borrowed(*b))),
+            Source::Folder(dir) => match std::fs::read(dir.join(file)) {
+                Ok(bytes) => Ok(Some(Cow::Owned(bytes))),
+                Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(None),
+                Err(source) => Err(ReadError::Io { file, source }),
+            },
+        }
+    }
+
+    /// A large table to read row by row, or None when it is absent.
+    fn stream(&self, file: &'static str) -> Result<Option<Box<dyn Read + '_>>, ReadError> {
+        match self {
+            Source::Memory(tables) => Ok(tables.get(file).map(|b| Box::new(*b) as Box<dyn Read>)),
+            Source::Folder(dir) => match std::fs::File::open(dir.join(file)) {
+                Ok(f) => Ok(Some(Box::new(std::io::BufReader::with_capacity(
+                    1 << 20,
+                    f,
+                )))),
+                Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(None),
+                Err(source) => Err(ReadError::Io { file, source }),
+            },
+        }
+    }
+}
+
+impl Rows {
+    /// The rows of `tables` (`scores.csv` required) against `grid`.
+    pub fn read(tables: &Tables, grid: &Grid) -> Result<Rows, ReadError> {
+        Rows::read_from(&Source::Memory(tables), None, grid, &|_| true)
+    }
+
+    /// The rows of the folder `dir` against `grid`, given its scores.csv
+    /// (read already, for the grid). Of forecasts.csv, stability.csv and
+    /// series.csv only the targets `keep` accepts are kept (every
+    /// predictor series is).
+    pub fn read_folder(
+        dir: &Path,
+        scores: &[u8],
+        grid: &Grid,
+        keep: &dyn Fn(usize) -> bool,
+    ) -> Result<Rows, ReadError> {
+        Rows::read_from(&Source::Folder(dir), Some(scores), grid, keep)
+    }
+
+    fn read_from(
+        source: &Source,
+        scores: Option<&[u8]>,
+        grid: &Grid,
+        keep: &dyn Fn(usize) -> bool,
+    ) -> Result<Rows, ReadError> {
+        let lookup = grid.lookup();
+        let scores = match scores {
+            Some(bytes) => scores::read(bytes, &lookup)?,
+            None => match source.bytes(scores::FILE)? {
+                Some(bytes) => scores::read(&bytes, &lookup)?,
+                None => {
+                    return Err(ReadError::invalid(
+                        scores::FILE,
+                        None,
+                        "the results folder has no scores.csv",
+                    ))
+                }
+            },
+        };
+        let small = |file: &'static str| source.bytes(file);
+        let mut rows = Rows {
+            metric_names: scores.metric_names,
+            scores: scores.rows,
+            ..Rows::default()
+        };
+        if let Some(bytes) = small(tests::FILE)? {
+            rows.tests = tests::read(&bytes, &lookup)?;
+        }
+        if let Some(input) = source.stream(forecasts::FILE)? {
+            rows.forecasts = forecasts::read(input, &lookup, keep)?;
+        }
+        if let Some(bytes) = small(outlook::FILE)? {
+            rows.outlook = outlook::read(&bytes, &lookup)?;
+        }
+        if let Some(input) = source.stream(stability::FILE)? {
+            rows.stability = stability::read(input, &lookup, keep)?;
+        }
+        if let Some(input) = source.stream(series::FILE)? {
+            rows.series = series::read(input, &lookup, keep)?;
+        }
+        if let Some(bytes) = small(diagnostics::FILE)? {
+            rows.diagnostics = diagnostics::read(&bytes)?;
+        }
+        Ok(rows)
+    }
+
+    /// Add the rows of the next slice (a later target's): the same as
+    /// reading the two slices' tables joined.
+    pub fn append(&mut self, next: Rows) {
+        if self.metric_names.is_empty() {
+            self.metric_names = next.metric_names;
+        }
+        self.scores.extend(next.scores);
+        self.tests.extend(next.tests);
+        for (k, v) in next.forecasts {
+            self.forecasts.entry(k).or_default().extend(v);
+        }
+        self.outlook.extend(next.outlook);
+        for (k, v) in next.stability {
+            self.stability.entry(k).or_default().extend(v);
+        }
+        for x in next.series {
+            match self
+                .series
+                .iter_mut()
+                .find(|s| s.name == x.name && s.role == x.role)
+            {
+                Some(s) => s.extend(x),
+                None => self.series.push(x),
+            }
+        }
+        self.diagnostics.extend(next.diagnostics);
+    }
+}
