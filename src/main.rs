@@ -229,16 +229,16 @@ fn main() -> ExitCode {
             })
         }
         Command::Verify { dir, jobs } => match outturn::verify(&dir, jobs.map(usize::from)) {
-            Ok(v) => match v.difference {
-                None => {
-                    println!("verified: all {} outputs of {} are byte-identical to a rerun", v.files, dir.display());
-                    Ok(())
-                }
-                Some(d) => {
+            Ok(v) if v.differences.is_empty() => {
+                println!("verified: all {} outputs of {} are byte-identical to a rerun", v.files, dir.display());
+                Ok(())
+            }
+            Ok(v) => {
+                for d in &v.differences {
                     println!("DIFFERENT: {d}");
-                    return ExitCode::from(1);
                 }
-            },
+                return ExitCode::from(1);
+            }
             Err(e) => Err(e),
         },
         Command::Merge { dirs, out } => outturn::merge(&dirs, &out).map(|cells| {

@@ -547,3 +547,37 @@ report: {title: \"<b onmouseover=alert(3)>Title</b>\"}
     let o = outturn(&["verify".as_ref(), out.as_os_str()]);
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stdout));
 }
+
+/// A user's template that loops without bound is stopped (its fuel runs
+/// out) within a few seconds: exit 2 naming the template, nothing rewritten.
+#[test]
+fn a_template_that_loops_without_bound_is_stopped() {
+    let dir = copy_of_demo("fuel");
+    let templates = scratch("fuel-templates");
+    let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("templates");
+    std::fs::copy(
+        root.join("report.html.j2"),
+        templates.join("report.html.j2"),
+    )
+    .unwrap();
+    std::fs::write(
+        templates.join("report.md.j2"),
+        "{% for i in range(100000) %}{% for j in range(100000) %}x{% endfor %}{% endfor %}",
+    )
+    .unwrap();
+    let started = std::time::Instant::now();
+    let o = outturn(&[
+        "render".as_ref(),
+        dir.as_os_str(),
+        "--templates".as_ref(),
+        templates.as_os_str(),
+    ]);
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(2), "{err}");
+    assert!(
+        err.contains("report.md.j2") && err.contains("fuel"),
+        "{err}"
+    );
+    assert!(started.elapsed().as_secs_f64() < 5.0);
+    assert!(read(&dir, "report.md") == read(demo(), "report.md"));
+}

@@ -647,3 +647,31 @@ fn edited_shard_files_are_refused_without_abort() {
     refused(&garbled, &["manifest.json", "not a shard manifest"]);
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// verify lists every difference, not only the first: a table changed
+/// (with its first differing line), a table deleted and a file added.
+#[test]
+fn verify_reports_every_added_missing_and_changed_file() {
+    let dir = scratch("verify-all");
+    let folder = dir.join("res");
+    ok(&run_args(&demo(), &folder, &[]));
+    ok(&["verify", folder.to_str().unwrap()]);
+    let path = folder.join("scores.csv");
+    let text = std::fs::read_to_string(&path).unwrap();
+    std::fs::write(&path, text.replacen('\n', "\n7", 2)).unwrap();
+    std::fs::remove_file(folder.join("outlook.csv")).unwrap();
+    std::fs::write(folder.join("notes.txt"), b"mine").unwrap();
+    let o = outturn(&["verify", folder.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(1));
+    let said = String::from_utf8_lossy(&o.stdout);
+    assert!(
+        said.contains("scores.csv differs first at line 2"),
+        "{said}"
+    );
+    assert!(
+        said.contains("outlook.csv is missing from the folder"),
+        "{said}"
+    );
+    assert!(said.contains("notes.txt was added to the folder"), "{said}");
+    let _ = std::fs::remove_dir_all(&dir);
+}

@@ -21,7 +21,7 @@ pub struct Templates {
 /// fuel: one unit per instruction), far beyond what the built-in templates
 /// need for a thousand targets, and reached in about a second by a
 /// template that loops without bound.
-pub const TEMPLATE_FUEL: u64 = 50_000_000;
+pub const TEMPLATE_FUEL: u64 = 10_000_000;
 
 pub const MARKDOWN_TEMPLATE: &str = "report.md.j2";
 pub const HTML_TEMPLATE: &str = "report.html.j2";

@@ -72,6 +72,7 @@ pub fn render_folder(dir: &Path, templates: Option<&Path>) -> Result<()> {
     let grid = Grid::read(&manifest.core_value(), &scores).map_err(|e| e.into_error(dir))?;
     let rows = Rows::read_folder(dir, &scores, &grid, &|t| t < DETAIL_TARGETS)
         .map_err(|e| e.into_error(dir))?;
+    let user_templates = templates.is_some();
     let templates = match templates {
         Some(t) => load_templates(t)?,
         None => default_templates(),
@@ -101,8 +102,21 @@ pub fn render_folder(dir: &Path, templates: Option<&Path>) -> Result<()> {
         .collect();
     let core = manifest.core_value();
     let folder = Folder::assemble(grid, rows, &declared, text, &core);
-    let out =
-        reports_of(folder, None, &core, &declared.formats, &templates).map_err(Error::Report)?;
+    let out = reports_of(folder, None, &core, &declared.formats, &templates).map_err(|e| {
+        // A user's template that fails (a syntax error, a loop without
+        // bound that runs out of fuel) is a problem of the input.
+        if user_templates {
+            Error::invalid(
+                None,
+                format!(
+                    "{e} (a template folder's templates may take at most {} steps)",
+                    crate::report::render::TEMPLATE_FUEL
+                ),
+            )
+        } else {
+            Error::Report(e)
+        }
+    })?;
     for (name, bytes) in &out {
         write_atomic(dir, name, bytes)?;
         manifest.set_output(OutputFile::of(name, bytes));

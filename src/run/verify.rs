@@ -12,8 +12,9 @@ use serde_json::Value;
 use std::path::Path;
 
 pub struct Verdict {
-    /// None when everything matched; else the first difference in words.
-    pub difference: Option<String>,
+    /// Every difference in words: files changed (with their first differing
+    /// line), missing from the folder, or added to it. Empty when all match.
+    pub differences: Vec<String>,
     pub files: usize,
 }
 
@@ -149,33 +150,38 @@ fn difference(name: &str, ours: &[u8], theirs: &[u8]) -> Option<String> {
     .or_else(|| Some("manifest.json differs".into()))
 }
 
-pub fn verify(dir: &Path, jobs: Option<usize>) -> Result<Verdict> {
-    let exp = recorded_experiment(dir)?;
-    let scratch = rerun(&exp, jobs)?;
-    let mut files: Vec<String> = std::fs::read_dir(&scratch.0)
-        .map_err(|e| Error::io("cannot list the rerun", e))?
+/// The names of the files in a folder, sorted.
+fn listing(dir: &Path) -> Result<Vec<String>> {
+    let mut files: Vec<String> = std::fs::read_dir(dir)
+        .map_err(|e| Error::io(format!("cannot list {}", dir.display()), e))?
         .flatten()
         .map(|e| e.file_name().to_string_lossy().to_string())
         .collect();
     files.sort();
+    Ok(files)
+}
+
+pub fn verify(dir: &Path, jobs: Option<usize>) -> Result<Verdict> {
+    let exp = recorded_experiment(dir)?;
+    let scratch = rerun(&exp, jobs)?;
+    let files = listing(&scratch.0)?;
+    let present = listing(dir)?;
+    let mut differences = Vec::new();
     for name in &files {
         let ours = std::fs::read(scratch.0.join(name))
             .map_err(|e| Error::io(format!("cannot read the rerun's {name}"), e))?;
-        let Ok(theirs) = std::fs::read(dir.join(name)) else {
-            return Ok(Verdict {
-                difference: Some(format!("{name} is missing from the folder")),
-                files: files.len(),
-            });
-        };
-        if let Some(d) = difference(name, &ours, &theirs) {
-            return Ok(Verdict {
-                difference: Some(d),
-                files: files.len(),
-            });
+        match std::fs::read(dir.join(name)) {
+            Ok(theirs) => differences.extend(difference(name, &ours, &theirs)),
+            Err(_) => differences.push(format!("{name} is missing from the folder")),
         }
     }
+    for name in present.iter().filter(|n| !files.contains(n)) {
+        differences.push(format!(
+            "{name} was added to the folder (a rerun does not write it)"
+        ));
+    }
     Ok(Verdict {
-        difference: None,
+        differences,
         files: files.len(),
     })
 }
