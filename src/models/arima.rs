@@ -85,6 +85,7 @@
 //! optimiser that does not converge, non-finite intermediate values) are
 //! returned as [`ArimaError`]; nothing here panics on data or returns NaN.
 
+use crate::numerics::acov::lag_product_sum;
 use nalgebra::{DMatrix, DVector};
 use std::fmt;
 
@@ -627,9 +628,8 @@ fn least_squares(x: &[Vec<f64>], y: &[f64]) -> Option<Vec<f64>> {
 /// stationary); returns the coefficients.
 fn yule_walker(x: &[f64], m: usize) -> Vec<f64> {
     let n = x.len() as f64;
-    let gamma: Vec<f64> = (0..=m)
-        .map(|k| x[k..].iter().zip(x).map(|(a, b)| a * b).sum::<f64>() / n)
-        .collect();
+    // About zero: the caller has centred x (or fits no mean).
+    let gamma: Vec<f64> = (0..=m).map(|k| lag_product_sum(x, k) / n).collect();
     if !positive(gamma[0]) {
         return vec![0.0; m];
     }

@@ -33,6 +33,11 @@
 //! values, a variance that is not positive) give `None`, which the results
 //! tables write as empty cells.
 
+use crate::numerics::acov::{
+    autocovariances, bartlett_from, bartlett_variance, centred, lag_product_sum, mean,
+    stationary_bootstrap_variance,
+};
+use crate::numerics::dist::{normal_sf, student_t_two_sided};
 use rand_chacha::ChaCha20Rng;
 use rand_core::{RngCore, SeedableRng};
 
@@ -85,42 +90,6 @@ fn positive_finite(x: f64) -> bool {
     x.is_finite() && x > 0.0
 }
 
-fn mean(x: &[f64]) -> f64 {
-    x.iter().sum::<f64>() / x.len() as f64
-}
-
-/// Sample autocovariance at lag `k` (SPEC §4):
-/// γ̂_k = n⁻¹ Σ_{t=k+1}^{n} (x_t − x̄)(x_{t−k} − x̄).
-///
-/// The divisor is n at every lag. A lag `k ≥ n` is an empty sum and gives 0;
-/// an empty series gives NaN.
-pub fn autocov(x: &[f64], k: usize) -> f64 {
-    let n = x.len();
-    if n == 0 {
-        return f64::NAN;
-    }
-    if k >= n {
-        return 0.0;
-    }
-    let xb = mean(x);
-    let s: f64 = x[k..]
-        .iter()
-        .zip(&x[..n - k])
-        .map(|(a, b)| (a - xb) * (b - xb))
-        .sum();
-    s / n as f64
-}
-
-/// Bartlett (Newey & West 1987) long-run variance with h−1 lags (SPEC §4):
-/// γ̂_0 + 2 Σ_{k=1}^{h−1} (1 − k/h) γ̂_k. `h = 0` is treated as `h = 1`.
-pub fn bartlett_variance(x: &[f64], h: usize) -> f64 {
-    // Summed in the order the formula is written: γ̂_0 + 2·(Σ weighted γ̂_k).
-    let s: f64 = (1..h)
-        .map(|k| (1.0 - k as f64 / h as f64) * autocov(x, k))
-        .sum();
-    autocov(x, 0) + 2.0 * s
-}
-
 /// Harvey, Leybourne & Newbold (1997) small-sample factor
 /// sqrt((n + 1 − 2h + h(h−1)/n)/n). The radicand equals (n−h)(n−h+1)/n², so
 /// it is zero when n = h or n = h − 1; NaN for n = 0.
@@ -134,31 +103,6 @@ pub fn hln_factor(n: usize, h: usize) -> f64 {
     } else {
         r.sqrt()
     }
-}
-
-/// Two-sided p-value 2·P(T > |t|) of Student's t with `df` degrees of
-/// freedom, as the regularized incomplete beta I_{df/(df+t²)}(df/2, 1/2).
-fn student_t_two_sided(t: f64, df: f64) -> Option<f64> {
-    if !t.is_finite() || !positive_finite(df) {
-        return None;
-    }
-    let x = df / (df + t * t);
-    statrs::function::beta::checked_beta_reg(df / 2.0, 0.5, x)
-        .ok()
-        .filter(|p| p.is_finite())
-}
-
-/// Upper tail 1 − Φ(z) of the standard normal, via the regularized upper
-/// incomplete gamma function: 1 − Φ(z) = ½·Q(½, z²/2) for z ≥ 0. (statrs
-/// 0.18's `erfc`, behind `Normal::sf`, is off by up to ~1e-10 relative; its
-/// incomplete gamma agrees with scipy's `norm.sf` to ~1e-15.)
-fn normal_sf(z: f64) -> Option<f64> {
-    if !z.is_finite() {
-        return None;
-    }
-    let q = statrs::function::gamma::checked_gamma_ur(0.5, 0.5 * z * z).ok()?;
-    let tail = 0.5 * q;
-    Some(if z >= 0.0 { tail } else { 1.0 - tail })
 }
 
 /// Diebold & Mariano (1995) test of equal squared-error accuracy with the
@@ -180,10 +124,11 @@ pub fn diebold_mariano(e_candidate: &[f64], e_versus: &[f64], h: usize) -> Optio
         .zip(e_candidate)
         .map(|(v, c)| v * v - c * c)
         .collect();
-    let s: f64 = (1..h).map(|k| autocov(&d, k)).sum();
-    let mut var = autocov(&d, 0) + 2.0 * s;
+    let gamma = autocovariances(&d, h - 1);
+    let s: f64 = (1..h).map(|k| gamma[k]).sum();
+    let mut var = gamma[0] + 2.0 * s;
     if !positive_finite(var) {
-        var = bartlett_variance(&d, h);
+        var = bartlett_from(&gamma, h);
     }
     if !positive_finite(var) {
         return None;
@@ -310,8 +255,7 @@ pub fn optimal_block_length(x: &[f64]) -> f64 {
         return f64::NAN;
     }
     let nf = n as f64;
-    let xb = mean(x);
-    let eps: Vec<f64> = x.iter().map(|v| v - xb).collect();
+    let eps = centred(x);
     let b_max = (3.0 * nf.sqrt()).min(nf / 3.0).ceil();
     let kn = 5usize.max(nf.log10() as usize);
     let m_max = nf.sqrt().ceil() as usize + kn;
@@ -327,11 +271,7 @@ pub fn optimal_block_length(x: &[f64]) -> f64 {
         } else {
             0.0
         };
-        let cross: f64 = if i < n {
-            eps[i..].iter().zip(&eps[..n - i]).map(|(a, b)| a * b).sum()
-        } else {
-            0.0
-        };
+        let cross = lag_product_sum(&eps, i);
         acv[i] = cross / nf;
         // NaN or ∞ when a sum is zero: such a lag never counts as inside the band.
         abs_acorr[i] = cross.abs() / (v1 * v2).sqrt();
@@ -509,13 +449,7 @@ pub fn model_confidence_set(
         .map(|c| c.iter().zip(&cross).map(|(l, m)| l - m).collect())
         .collect();
     let block_length = mean_block_length(&deviations, n);
-    let errors: Vec<Vec<f64>> = losses
-        .iter()
-        .map(|c| {
-            let m = mean(c);
-            c.iter().map(|v| v - m).collect()
-        })
-        .collect();
+    let errors: Vec<Vec<f64>> = losses.iter().map(|c| centred(c)).collect();
     let boot = bootstrap_means(&errors, block_length, resamples, seed);
     let (p_values, included) = mcs_from_bootstrap(losses, alpha, boot)?;
     Some(McsResult {
@@ -718,23 +652,8 @@ fn spa(
 
 /// ω̂_k² of each column with the stationary-bootstrap kernel, q = 1/b.
 fn spa_variances(d: &[Vec<f64>], block_length: f64) -> Vec<f64> {
-    let q = 1.0 / block_length;
     d.iter()
-        .map(|c| {
-            let n = c.len();
-            let nf = n as f64;
-            let m = mean(c);
-            let e: Vec<f64> = c.iter().map(|v| v - m).collect();
-            let mut v = e.iter().map(|x| x * x).sum::<f64>() / nf;
-            for i in 1..n {
-                let fi = i as f64;
-                let kappa = (1.0 - fi / nf) * (1.0 - q).powf(fi)
-                    + (fi / nf) * (1.0 - q).powf((n - i) as f64);
-                let s: f64 = e[..n - i].iter().zip(&e[i..]).map(|(a, b)| a * b).sum();
-                v += 2.0 * kappa * s / nf;
-            }
-            v
-        })
+        .map(|c| stationary_bootstrap_variance(c, block_length))
         .collect()
 }
 
@@ -869,8 +788,10 @@ mod tests {
             let fc = vec_f64(&c["f_candidate"]);
             let fv = vec_f64(&c["f_versus"]);
             let d: Vec<f64> = ev.iter().zip(&ec).map(|(v, c)| v * v - c * c).collect();
-            for (k, want) in vec_f64(&c["loss_diff_autocov"]).iter().enumerate() {
-                assert_rel(autocov(&d, k), *want, 1e-10, &format!("{name} autocov {k}"));
+            let want_gamma = vec_f64(&c["loss_diff_autocov"]);
+            let gamma = autocovariances(&d, want_gamma.len().saturating_sub(1));
+            for (k, want) in want_gamma.iter().enumerate() {
+                assert_rel(gamma[k], *want, 1e-10, &format!("{name} autocov {k}"));
             }
             assert_rel(
                 bartlett_variance(&d, h),
@@ -937,8 +858,8 @@ mod tests {
         assert!(diebold_mariano(&[f64::NAN, 1.0], &[1.0, 2.0], 1).is_none());
         assert!(clark_west(&e, &e, &e, &e, 1).is_none()); // f ≡ 0
         assert!(clark_west(&e[..1], &e[..1], &e[..1], &e[..1], 1).is_none());
-        assert!(autocov(&[], 0).is_nan());
-        assert_eq!(autocov(&e, 4), 0.0);
+        assert!(autocovariances(&[], 0)[0].is_nan());
+        assert_eq!(autocovariances(&e, 4)[4], 0.0);
         assert_eq!(hln_factor(4, 4), 0.0);
         assert_eq!(hln_factor(3, 4), 0.0);
     }

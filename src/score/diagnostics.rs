@@ -29,7 +29,8 @@
 //!   (Bartlett-kernel HAC variance); Newey, W. K. & West, K. D. (1994),
 //!   *Review of Economic Studies* 61(4), 631–653 (bandwidth rule of thumb).
 
-use statrs::distribution::{ChiSquared, ContinuousCDF};
+use crate::numerics::acov::{centred, lag_product_sum, newey_west_lags, newey_west_variance};
+use crate::numerics::dist::{chi2_sf, normal_cdf};
 
 // ---------------------------------------------------------------------------
 // Ljung–Box
@@ -57,71 +58,19 @@ pub fn ljung_box(resid: &[f64], lags: usize, fitted_params: usize) -> Option<(f6
     }
     let df = lags - fitted_params;
     let nf = n as f64;
-    let mean = resid.iter().sum::<f64>() / nf;
-    let xo: Vec<f64> = resid.iter().map(|v| v - mean).collect();
-    let c0: f64 = xo.iter().map(|v| v * v).sum();
+    let xo = centred(resid);
+    let c0 = lag_product_sum(&xo, 0);
     if !c0.is_finite() || c0 <= 0.0 {
         return None;
     }
     let mut q = 0.0;
     for k in 1..=lags {
-        let ck: f64 = xo[k..].iter().zip(&xo[..n - k]).map(|(a, b)| a * b).sum();
-        let rk = ck / c0;
+        let rk = lag_product_sum(&xo, k) / c0;
         q += rk * rk / (nf - k as f64);
     }
     q *= nf * (nf + 2.0);
     let p = chi2_sf(q, df as f64)?;
     Some((q, p, df))
-}
-
-/// Upper tail of the χ² distribution with `df` degrees of freedom.
-fn chi2_sf(x: f64, df: f64) -> Option<f64> {
-    if !x.is_finite() || !df.is_finite() || df <= 0.0 {
-        return None;
-    }
-    if x <= 0.0 {
-        return Some(1.0);
-    }
-    let dist = ChiSquared::new(df).ok()?;
-    let p = dist.sf(x);
-    p.is_finite().then_some(p)
-}
-
-/// Standard normal distribution function Φ(z) through the regularized
-/// incomplete gamma function, Φ(z) = ½·Q(½, z²/2) for z ≤ −1 (and the mirror
-/// for z ≥ 1), ½ ± ½·P(½, z²/2) in between. statrs' own `Normal::cdf` goes
-/// through its `erfc`, whose relative error reaches ~1e-10; its incomplete
-/// gamma is accurate to ~1e-15 (checked against mpmath). `NaN` for NaN.
-fn norm_cdf(z: f64) -> f64 {
-    use statrs::function::gamma::{checked_gamma_lr, checked_gamma_ur};
-    if z.is_nan() {
-        return f64::NAN;
-    }
-    if z == f64::INFINITY {
-        return 1.0;
-    }
-    if z == f64::NEG_INFINITY {
-        return 0.0;
-    }
-    let h = 0.5 * z * z;
-    if h == 0.0 {
-        return 0.5;
-    }
-    if z.abs() < 1.0 {
-        let p = checked_gamma_lr(0.5, h).unwrap_or(f64::NAN);
-        if z < 0.0 {
-            0.5 - 0.5 * p
-        } else {
-            0.5 + 0.5 * p
-        }
-    } else {
-        let q = checked_gamma_ur(0.5, h).unwrap_or(f64::NAN);
-        if z < 0.0 {
-            0.5 * q
-        } else {
-            1.0 - 0.5 * q
-        }
-    }
 }
 
 // ---------------------------------------------------------------------------
@@ -379,7 +328,7 @@ pub fn mackinnon_p(stat: f64, regression: AdfRegression, n_series: usize) -> Opt
         let c = [c[0], c[1] * 1e-1, c[2] * 1e-1, c[3] * 1e-2];
         polyval_desc(&[c[3], c[2], c[1], c[0]], stat)
     };
-    let p = norm_cdf(z);
+    let p = normal_cdf(z);
     p.is_finite().then_some(p)
 }
 
@@ -570,41 +519,6 @@ pub struct FluctuationResult {
     pub lags: usize,
 }
 
-/// Newey & West (1994) rule-of-thumb truncation lag for the Bartlett kernel,
-/// ⌊4·(P/100)^{2/9}⌋, capped at P − 1 (0 for P ≤ 1).
-pub fn newey_west_lags(p: usize) -> usize {
-    if p <= 1 {
-        return 0;
-    }
-    let q = (4.0 * (p as f64 / 100.0).powf(2.0 / 9.0)).floor();
-    (q as usize).min(p - 1)
-}
-
-/// Newey & West (1987) Bartlett-kernel long-run variance of `d`:
-/// σ̂² = γ̂₀ + 2 Σ_{j=1}^{q} (1 − j/(q+1)) γ̂_j, γ̂_j = P⁻¹ Σ_{t=j+1}^{P} u_t u_{t−j},
-/// with u = d − d̄ when `demean` (else u = d, the form that imposes the null
-/// E d_t = 0). `None` for empty or non-finite input or `lags` ≥ P.
-pub fn long_run_variance(d: &[f64], lags: usize, demean: bool) -> Option<f64> {
-    let p = d.len();
-    if p == 0 || lags >= p || d.iter().any(|v| !v.is_finite()) {
-        return None;
-    }
-    let pf = p as f64;
-    let mean = if demean {
-        d.iter().sum::<f64>() / pf
-    } else {
-        0.0
-    };
-    let u: Vec<f64> = d.iter().map(|v| v - mean).collect();
-    let mut s = u.iter().map(|v| v * v).sum::<f64>() / pf;
-    for j in 1..=lags {
-        let w = 1.0 - j as f64 / (lags as f64 + 1.0);
-        let g: f64 = u[j..].iter().zip(&u[..p - j]).map(|(a, b)| a * b).sum();
-        s += 2.0 * w * g / pf;
-    }
-    s.is_finite().then_some(s)
-}
-
 /// Giacomini & Rossi (2010), Table 1: two-sided critical values k_α of the
 /// fluctuation test for μ = 0.1, 0.2, …, 0.9. FROM MEMORY — no installed
 /// package carries the table, so these digits were recalled, not read.
@@ -652,7 +566,7 @@ pub fn fluctuation_test(d: &[f64], window: usize) -> Option<FluctuationResult> {
 /// m. The rolling statistic is
 /// F_t = m^{−1/2} Σ_{j=t−m+1}^{t} d_j / σ̂, t = m … P,
 /// with σ̂² the Bartlett HAC long-run variance of d on the full sample
-/// ([`long_run_variance`] with `lags` and `demean`). Reject equal predictive
+/// ([`newey_west_variance`] with `lags` and `demean`). Reject equal predictive
 /// ability at every point in time when max_t |F_t| > k_α(μ), μ = m/P
 /// ([`fluctuation_critical_values`]).
 ///
@@ -671,7 +585,7 @@ pub fn fluctuation_test_with(
     }
     let mu = window as f64 / p as f64;
     let (critical_5, critical_10) = gr_critical_ratio(window, p)?;
-    let sigma2 = long_run_variance(d, lags, demean)?;
+    let sigma2 = newey_west_variance(d, lags, demean)?;
     if sigma2 <= 0.0 {
         return None;
     }
@@ -1297,7 +1211,7 @@ mod tests {
             }
             let _ = fluctuation_test(&x, a);
             let _ = fluctuation_test_with(&x, a, b, b < 3);
-            let _ = long_run_variance(&x, b, true);
+            let _ = newey_west_variance(&x, b, true);
             let _ = mackinnon_p(
                 x.first().copied().unwrap_or(0.0),
                 AdfRegression::None,
@@ -1329,7 +1243,7 @@ mod tests {
         assert_eq!(newey_west_lags(1), 0);
         assert_eq!(newey_west_lags(2), 1);
         assert_eq!(newey_west_lags(100), 4);
-        assert!(long_run_variance(&[], 0, true).is_none());
-        assert_eq!(long_run_variance(&[1.0, -1.0], 0, true), Some(1.0));
+        assert!(newey_west_variance(&[], 0, true).is_none());
+        assert_eq!(newey_west_variance(&[1.0, -1.0], 0, true), Some(1.0));
     }
 }

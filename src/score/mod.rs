@@ -11,6 +11,7 @@ pub mod stability;
 mod reference_metrics_tests;
 
 use crate::backtest::CellOutput;
+use crate::numerics::dist::normal_quantile;
 use crate::plan::Cell;
 use crate::spec::{Experiment, Metric, MetricColumn, Scheme};
 
@@ -69,12 +70,6 @@ impl Errors {
             .map(|v| v.filter(|v| *v >= 0.0).map(f64::sqrt))
             .collect()
     }
-}
-
-/// Standard normal quantile.
-pub fn normal_quantile(p: f64) -> f64 {
-    use statrs::distribution::{ContinuousCDF, Normal};
-    Normal::standard().inverse_cdf(p)
 }
 
 /// The Gaussian interval at level c: forecast ± z_{(1+c)/2}·σ̂_h (SPEC §4).
