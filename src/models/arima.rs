@@ -1262,10 +1262,7 @@ pub fn forecast(fit: &ArimaFit, y: &[f64], max_h: usize) -> Result<Vec<(f64, f64
 /// (AIC, BIC, HQIC) with k = `n_params` (σ² included) and `nobs` = n − d, as
 /// statsmodels reports them for the model of the differenced series.
 pub fn information_criteria(fit: &ArimaFit) -> (f64, f64, f64) {
-    let k = fit.n_params as f64;
-    let n = fit.nobs as f64;
-    let m2 = -2.0 * fit.loglik;
-    (m2 + 2.0 * k, m2 + k * n.ln(), m2 + 2.0 * k * n.ln().ln())
+    crate::numerics::ic::from_loglik(fit.loglik, fit.n_params, fit.nobs)
 }
 
 #[cfg(test)]

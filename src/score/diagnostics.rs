@@ -31,6 +31,7 @@
 
 use crate::numerics::acov::{centred, lag_product_sum, newey_west_lags, newey_west_variance};
 use crate::numerics::dist::{chi2_sf, normal_cdf};
+use crate::numerics::ic::{gaussian_regression_aic, Smallest};
 
 // ---------------------------------------------------------------------------
 // Ljung–Box
@@ -189,7 +190,7 @@ pub fn adf(x: &[f64], regression: AdfRegression, max_lag: Option<usize>) -> Opti
         cols.push(xdiff[maxlag - j..n - 1 - j].to_vec());
     }
     let startlag = ntrend + 1;
-    let mut best: Option<(f64, usize)> = None;
+    let mut best = Smallest::default();
     // The lags' regressions are nested: one factorisation for all of them.
     if rows <= cols.len() {
         return None;
@@ -198,16 +199,13 @@ pub fn adf(x: &[f64], regression: AdfRegression, max_lag: Option<usize>) -> Opti
     for lag in 0..=maxlag {
         let k = startlag + lag;
         let fit = qr.fit(&cols, &y, k)?;
-        let aic = gaussian_aic(fit.ssr, rows, k);
+        let aic = gaussian_regression_aic(fit.ssr, rows, k);
         if !aic.is_finite() {
             return None;
         }
-        match best {
-            Some((b, _)) if b <= aic => {}
-            _ => best = Some((aic, lag)),
-        }
+        best.offer(aic, lag);
     }
-    let (ic_best, used_lag) = best?;
+    let (ic_best, used_lag) = best.get()?;
 
     // Re-estimate at the chosen lag on its full sample.
     let rows = n - 1 - used_lag;
@@ -246,15 +244,6 @@ pub fn adf(x: &[f64], regression: AdfRegression, max_lag: Option<usize>) -> Opti
         max_lag: maxlag,
         ic_best,
     })
-}
-
-/// AIC of a Gaussian linear regression as statsmodels computes it:
-/// llf = −(n/2)·ln(2π) − (n/2)·ln(SSR/n) − n/2, AIC = −2·llf + 2k.
-fn gaussian_aic(ssr: f64, rows: usize, k: usize) -> f64 {
-    let nobs = rows as f64;
-    let nobs2 = nobs / 2.0;
-    let llf = -nobs2 * (2.0 * std::f64::consts::PI).ln() - nobs2 * (ssr / nobs).ln() - nobs2;
-    -2.0 * llf + 2.0 * k as f64
 }
 
 /// Evaluates a polynomial with coefficients from the highest power down,
