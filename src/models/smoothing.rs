@@ -90,6 +90,7 @@
 //! warm-start from a fixed predecessor (the previous origin of the same
 //! cell), never from whichever fit happened to finish first.
 
+use crate::numerics::lsq::householder::least_squares;
 use crate::spec::{SmoothingSeason, SmoothingTrend};
 use std::fmt;
 
@@ -623,81 +624,6 @@ fn sse_at_z(spec: &EtsSpec, sm: &Smooth, z: &[f64], y: &[f64]) -> Option<f64> {
     run_filter(spec.multiplicative(), sm, &mut st, y, None)
 }
 
-/// Least squares min ‖A x − b‖ by Householder QR. `a` is column-major
-/// rows×cols (overwritten), `b` has `rows` entries (overwritten). Columns that
-/// are (numerically) dependent on earlier ones get x = 0.
-fn lstsq(a: &mut [f64], b: &mut [f64], rows: usize, cols: usize) -> Option<Vec<f64>> {
-    let mut maxnorm: f64 = 0.0;
-    for j in 0..cols {
-        let c = &a[j * rows..(j + 1) * rows];
-        maxnorm = maxnorm.max(c.iter().map(|v| v * v).sum::<f64>().sqrt());
-    }
-    if !maxnorm.is_finite() {
-        return None;
-    }
-    let tol = 1e-12 * maxnorm.max(f64::MIN_POSITIVE);
-    let mut diag = vec![0.0; cols];
-    let mut dead = vec![false; cols];
-    let mut row = 0; // next pivot row
-    let mut pivrow = vec![usize::MAX; cols];
-    for j in 0..cols {
-        if row >= rows {
-            dead[j] = true;
-            continue;
-        }
-        let col = &mut a[j * rows..(j + 1) * rows];
-        let norm = col[row..].iter().map(|v| v * v).sum::<f64>().sqrt();
-        if norm <= tol {
-            dead[j] = true;
-            continue;
-        }
-        let alpha = if col[row] > 0.0 { -norm } else { norm };
-        // v = x − alpha e1, stored in col[row..]
-        col[row] -= alpha;
-        let vnorm2 = col[row..].iter().map(|v| v * v).sum::<f64>();
-        diag[j] = alpha;
-        pivrow[j] = row;
-        if vnorm2 > 0.0 {
-            let v: Vec<f64> = col[row..].to_vec();
-            for jj in j + 1..cols {
-                let c = &mut a[jj * rows + row..(jj + 1) * rows];
-                let dot: f64 = v.iter().zip(c.iter()).map(|(p, q)| p * q).sum();
-                let f = 2.0 * dot / vnorm2;
-                for (ci, vi) in c.iter_mut().zip(v.iter()) {
-                    *ci -= f * vi;
-                }
-            }
-            let bb = &mut b[row..rows];
-            let dot: f64 = v.iter().zip(bb.iter()).map(|(p, q)| p * q).sum();
-            let f = 2.0 * dot / vnorm2;
-            for (bi, vi) in bb.iter_mut().zip(v.iter()) {
-                *bi -= f * vi;
-            }
-        }
-        row += 1;
-    }
-    // back substitution: R x = Qᵀb over live columns
-    let mut x = vec![0.0; cols];
-    for j in (0..cols).rev() {
-        if dead[j] {
-            continue;
-        }
-        let r = pivrow[j];
-        let mut acc = b[r];
-        for jj in j + 1..cols {
-            if !dead[jj] {
-                acc -= a[jj * rows + r] * x[jj];
-            }
-        }
-        x[j] = acc / diag[j];
-    }
-    if x.iter().all(|v| v.is_finite()) {
-        Some(x)
-    } else {
-        None
-    }
-}
-
 /// Best initial states for given smoothing parameters, from `z0`.
 /// Linear models: one exact Gauss–Newton (least squares) step. Multiplicative
 /// season: Levenberg–Marquardt. Returns (SSE, z).
@@ -706,11 +632,11 @@ fn inner_solve(spec: &EtsSpec, sm: &Smooth, y: &[f64], z0: &[f64]) -> Option<(f6
     let k = z0.len();
     let mut z = z0.to_vec();
     if !spec.multiplicative() {
-        let (mut r, mut jac) = residuals_jacobian(spec, sm, &z, y)?;
+        let (mut r, jac) = residuals_jacobian(spec, sm, &z, y)?;
         for v in &mut r {
             *v = -*v;
         }
-        let d = lstsq(&mut jac, &mut r, n, k)?;
+        let d = least_squares(jac, r, n, k)?;
         for (zi, di) in z.iter_mut().zip(d.iter()) {
             *zi += di;
         }
@@ -748,7 +674,7 @@ fn inner_solve(spec: &EtsSpec, sm: &Smooth, y: &[f64], z0: &[f64]) -> Option<(f6
             for t in 0..n {
                 rhs[t] = -r[t];
             }
-            let d = match lstsq(&mut a, &mut rhs, rows, k) {
+            let d = match least_squares(a, rhs, rows, k) {
                 Some(d) => d,
                 None => break 'outer,
             };

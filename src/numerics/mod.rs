@@ -8,8 +8,3 @@ pub(crate) mod acov;
 pub(crate) mod dist;
 pub(crate) mod ic;
 pub(crate) mod lsq;
-
-#[cfg(test)]
-mod incremental_qr_tests;
-#[cfg(test)]
-mod reference_ols_tests;

@@ -32,6 +32,7 @@
 use crate::numerics::acov::{centred, lag_product_sum, newey_west_lags, newey_west_variance};
 use crate::numerics::dist::{chi2_sf, normal_cdf};
 use crate::numerics::ic::{gaussian_regression_aic, Smallest};
+use crate::numerics::lsq::householder::Householder;
 
 // ---------------------------------------------------------------------------
 // Ljung–Box
@@ -195,7 +196,7 @@ pub fn adf(x: &[f64], regression: AdfRegression, max_lag: Option<usize>) -> Opti
     if rows <= cols.len() {
         return None;
     }
-    let qr = Householder::of(&cols, &y)?;
+    let qr = Householder::of_columns(&cols, &y)?;
     for lag in 0..=maxlag {
         let k = startlag + lag;
         let fit = qr.fit(&cols, &y, k)?;
@@ -225,7 +226,7 @@ pub fn adf(x: &[f64], regression: AdfRegression, max_lag: Option<usize>) -> Opti
     if rows <= k {
         return None;
     }
-    let qr = Householder::of(&cols, &y)?;
+    let qr = Householder::of_columns(&cols, &y)?;
     let fit = qr.fit(&cols, &y, k)?;
     let s2 = fit.ssr / (rows - k) as f64;
     let se = (s2 * qr.xtx_inv_diag(k)[0]).sqrt();
@@ -357,128 +358,6 @@ pub fn mackinnon_crit(
             }
             Some(out)
         }
-    }
-}
-
-// ---------------------------------------------------------------------------
-// Least squares (Householder QR), private
-// ---------------------------------------------------------------------------
-
-struct OlsFit {
-    beta: Vec<f64>,
-    ssr: f64,
-}
-
-/// A Householder QR of all the columns with `Q'y`. Reflection j touches
-/// only columns j.. and entries j.. of `Q'y`, so the first k columns' R and
-/// the first k entries of `Q'y` are those a QR of the first k columns alone
-/// computes, bit for bit: one factorisation serves every leading subset
-/// of the columns (the nested regressions of a lag search).
-struct Householder {
-    a: Vec<Vec<f64>>,
-    qty: Vec<f64>,
-    rdiag: Vec<f64>,
-}
-
-impl Householder {
-    fn of(cols: &[Vec<f64>], y: &[f64]) -> Option<Householder> {
-        let n = y.len();
-        let k = cols.len();
-        if k == 0 || n < k || cols.iter().any(|c| c.len() != n) {
-            return None;
-        }
-        let mut a: Vec<Vec<f64>> = cols.to_vec();
-        let mut qty = y.to_vec();
-        let mut rdiag = vec![0.0; k];
-        for j in 0..k {
-            let norm = a[j][j..].iter().map(|v| v * v).sum::<f64>().sqrt();
-            if !norm.is_finite() {
-                return None;
-            }
-            if norm == 0.0 {
-                rdiag[j] = 0.0;
-                continue;
-            }
-            let alpha = if a[j][j] > 0.0 { -norm } else { norm };
-            // v = a_j[j..] − alpha e_1, stored in place
-            a[j][j] -= alpha;
-            let vtv: f64 = a[j][j..].iter().map(|v| v * v).sum();
-            if vtv > 0.0 {
-                let (left, right) = a.split_at_mut(j + 1);
-                let v = &left[j][j..];
-                for col in right.iter_mut() {
-                    let s: f64 = v.iter().zip(&col[j..]).map(|(p, q)| p * q).sum();
-                    let f = 2.0 * s / vtv;
-                    for (c, vi) in col[j..].iter_mut().zip(v) {
-                        *c -= f * vi;
-                    }
-                }
-                let s: f64 = v.iter().zip(&qty[j..]).map(|(p, q)| p * q).sum();
-                let f = 2.0 * s / vtv;
-                for (c, vi) in qty[j..].iter_mut().zip(v) {
-                    *c -= f * vi;
-                }
-            }
-            rdiag[j] = alpha;
-        }
-        Some(Householder { a, qty, rdiag })
-    }
-
-    /// Least squares of `y` on the first `k` columns (Golub & Van Loan,
-    /// *Matrix Computations*, §5.2). `None` when they are rank-deficient
-    /// (|R_jj| ≤ max|R_ii|·max(n, k)·ε, numpy's `matrix_rank` tolerance
-    /// applied to R's diagonal).
-    fn fit(&self, cols: &[Vec<f64>], y: &[f64], k: usize) -> Option<OlsFit> {
-        let n = y.len();
-        let (a, qty, rdiag) = (&self.a, &self.qty, &self.rdiag[..k]);
-        let maxd = rdiag.iter().fold(0.0_f64, |m, v| m.max(v.abs()));
-        let tol = maxd * (n.max(k) as f64) * f64::EPSILON;
-        if maxd <= 0.0 || rdiag.iter().any(|v| v.abs() <= tol) {
-            return None;
-        }
-        // R: strict upper part in a[c][r] (r < c), diagonal in rdiag.
-        let r = |row: usize, col: usize| if row == col { rdiag[row] } else { a[col][row] };
-        let mut beta = vec![0.0; k];
-        for i in (0..k).rev() {
-            let mut s = qty[i];
-            for (jj, b) in beta.iter().enumerate().skip(i + 1) {
-                s -= r(i, jj) * b;
-            }
-            beta[i] = s / rdiag[i];
-        }
-        let mut ssr = 0.0;
-        for (t, yt) in y.iter().enumerate() {
-            let fitted: f64 = cols[..k].iter().zip(&beta).map(|(c, b)| c[t] * b).sum();
-            let e = yt - fitted;
-            ssr += e * e;
-        }
-        if !ssr.is_finite() || beta.iter().any(|b| !b.is_finite()) {
-            return None;
-        }
-        Some(OlsFit { beta, ssr })
-    }
-
-    /// diag((X'X)^{-1}) of the regression on the first `k` columns (after a
-    /// successful [`Householder::fit`]): row sums of squares of R^{-1},
-    /// R^{-1} column by column (R v = e_c by back substitution).
-    fn xtx_inv_diag(&self, k: usize) -> Vec<f64> {
-        let (a, rdiag) = (&self.a, &self.rdiag[..k]);
-        let r = |row: usize, col: usize| if row == col { rdiag[row] } else { a[col][row] };
-        let mut xtx_inv_diag = vec![0.0; k];
-        for c in 0..k {
-            let mut v = vec![0.0; k];
-            for i in (0..=c).rev() {
-                let mut s = if i == c { 1.0 } else { 0.0 };
-                for (jj, vj) in v.iter().enumerate().take(c + 1).skip(i + 1) {
-                    s -= r(i, jj) * vj;
-                }
-                v[i] = s / rdiag[i];
-            }
-            for (dst, vi) in xtx_inv_diag.iter_mut().zip(&v) {
-                *dst += vi * vi;
-            }
-        }
-        xtx_inv_diag
     }
 }
 

@@ -12,7 +12,7 @@
 //! use: LRE = -log10(|estimate - certified| / |certified|).  Required:
 //! coefficients LRE >= 9; standard errors, residual SD and R² LRE >= 8.
 
-use super::lsq::{ols_fit, OlsFit};
+use super::givens::{ols_fit, OlsFit};
 use nalgebra::DMatrix;
 use serde_json::Value;
 use std::path::PathBuf;

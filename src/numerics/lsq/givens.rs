@@ -1,4 +1,4 @@
-//! Least squares, in one place. Rows are folded into an upper-triangular
+//! Least squares grown row by row. Rows are folded into an upper-triangular
 //! factor R by Givens rotations (an orthogonal QR built row by row), so an
 //! expanding estimation window costs O(k²) per new row instead of a fresh
 //! factorisation, and the normal equations are never formed. The residual

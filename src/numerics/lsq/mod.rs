@@ -1,0 +1,21 @@
+//! Least squares, in one place: one QR core in two forms.
+//!
+//! - [`givens`]: rows folded one at a time into R by Givens rotations, for
+//!   the least-squares families whose estimation window grows (or is
+//!   refactorised) origin by origin; rank test and SSR included.
+//! - [`householder`]: a whole design at once by Householder reflections,
+//!   whose leading blocks serve every leading subset of the columns (the
+//!   ADF lag search) and which drops dependent columns (the initial states
+//!   of exponential smoothing).
+//!
+//! Neither forms the normal equations.
+
+pub(crate) mod givens;
+pub(crate) mod householder;
+
+pub(crate) use givens::{LeastSquares, LinalgError, Solution};
+
+#[cfg(test)]
+mod incremental_qr_tests;
+#[cfg(test)]
+mod reference_ols_tests;
