@@ -86,6 +86,7 @@
 //! returned as [`ArimaError`]; nothing here panics on data or returns NaN.
 
 use crate::numerics::acov::lag_product_sum;
+use crate::numerics::optimise::bfgs::{bfgs, BfgsError, Optimum};
 use nalgebra::{DMatrix, DVector};
 use std::fmt;
 
@@ -694,231 +695,39 @@ fn hannan_rissanen(x: &[f64], p: usize, q: usize) -> (Vec<f64>, Vec<f64>) {
 }
 
 // ---------------------------------------------------------------------------
-// BFGS with numerical gradients
+// Optimiser settings (BFGS lives in numerics::optimise)
 // ---------------------------------------------------------------------------
-
-struct Optimum {
-    x: Vec<f64>,
-    fx: f64,
-    iterations: usize,
-    converged: bool,
-}
 
 const MAX_ITER: usize = 400;
 /// Iterations of the screening run from each cold start.
 const SCREEN_ITER: usize = 12;
 /// Screened starts continued to convergence.
 const KEEP_STARTS: usize = 3;
-const GTOL: f64 = 1e-7;
 
-fn num_grad(f: &mut impl FnMut(&[f64]) -> f64, x: &[f64], fx: f64, g: &mut [f64]) {
-    let mut xp = x.to_vec();
-    for i in 0..x.len() {
-        let h = 1e-5 * x[i].abs().max(1.0);
-        xp[i] = x[i] + h;
-        let fp = f(&xp);
-        xp[i] = x[i] - h;
-        let fm = f(&xp);
-        xp[i] = x[i];
-        g[i] = if fp.is_finite() && fm.is_finite() {
-            (fp - fm) / (2.0 * h)
-        } else if fp.is_finite() {
-            (fp - fx) / h
-        } else if fm.is_finite() {
-            (fx - fm) / h
-        } else {
-            0.0
-        };
+impl From<BfgsError> for ArimaError {
+    fn from(e: BfgsError) -> Self {
+        match e {
+            BfgsError::NonFiniteStart => ArimaError::NonFinite {
+                context: "log-likelihood at the start values",
+            },
+            BfgsError::NonConvergence {
+                iterations,
+                gradient,
+            } => ArimaError::NonConvergence {
+                iterations,
+                gradient,
+            },
+        }
     }
 }
 
-/// Minimise `f` (which returns +∞ where undefined) from `x0` for at most
-/// `max_iter` iterations; hitting the limit with a large gradient is an error
-/// only when `strict`.
-fn bfgs(
-    mut f: impl FnMut(&[f64]) -> f64,
+fn run_bfgs(
+    f: impl FnMut(&[f64]) -> f64,
     x0: &[f64],
     max_iter: usize,
     strict: bool,
 ) -> Result<Optimum, ArimaError> {
-    let n = x0.len();
-    let mut x = x0.to_vec();
-    let mut fx = f(&x);
-    if !fx.is_finite() {
-        return Err(ArimaError::NonFinite {
-            context: "log-likelihood at the start values",
-        });
-    }
-    if n == 0 {
-        return Ok(Optimum {
-            x,
-            fx,
-            iterations: 0,
-            converged: true,
-        });
-    }
-    let mut g = vec![0.0; n];
-    num_grad(&mut f, &x, fx, &mut g);
-    let identity = |h: &mut Vec<f64>| {
-        h.iter_mut().for_each(|v| *v = 0.0);
-        for i in 0..n {
-            h[i * n + i] = 1.0;
-        }
-    };
-    let mut hinv = vec![0.0; n * n];
-    identity(&mut hinv);
-    let mut fresh = true; // hinv is the identity
-    let mut gnew = vec![0.0; n];
-    let mut xnew = vec![0.0; n];
-    let mut small_steps = 0;
-    for iter in 1..=max_iter {
-        let gnorm = g.iter().fold(0.0f64, |a, v| a.max(v.abs()));
-        if gnorm < GTOL {
-            return Ok(Optimum {
-                x,
-                fx,
-                iterations: iter - 1,
-                converged: true,
-            });
-        }
-        let mut d: Vec<f64> = (0..n)
-            .map(|i| -(0..n).map(|j| hinv[i * n + j] * g[j]).sum::<f64>())
-            .collect();
-        let mut slope: f64 = d.iter().zip(&g).map(|(a, b)| a * b).sum();
-        if !positive(-slope) {
-            identity(&mut hinv);
-            fresh = true;
-            d = g.iter().map(|v| -v).collect();
-            slope = -g.iter().map(|v| v * v).sum::<f64>();
-        }
-        // cap the step in the unconstrained space
-        let dn = d.iter().map(|v| v * v).sum::<f64>().sqrt();
-        if dn > 2.0 {
-            let s = 2.0 / dn;
-            d.iter_mut().for_each(|v| *v *= s);
-            slope *= s;
-        }
-        let mut t = 1.0;
-        let mut fnew = f64::INFINITY;
-        let mut found = false;
-        for _ in 0..50 {
-            for i in 0..n {
-                xnew[i] = x[i] + t * d[i];
-            }
-            fnew = f(&xnew);
-            if fnew.is_finite() && fnew <= fx + 1e-4 * t * slope {
-                found = true;
-                break;
-            }
-            t *= 0.5;
-        }
-        if found && t == 1.0 {
-            // Expansion: on flat stretches (e.g. near the unit-root boundary,
-            // where tanh flattens the objective) a unit step can be tiny; keep
-            // doubling while f decreases and the step stays within the cap.
-            let mut xtry = vec![0.0; n];
-            let mut tt = 2.0;
-            while tt * dn.min(2.0) <= 2.0 + 1e-12 {
-                for i in 0..n {
-                    xtry[i] = x[i] + tt * d[i];
-                }
-                let ftry = f(&xtry);
-                if !(ftry.is_finite() && ftry < fnew) {
-                    break;
-                }
-                fnew = ftry;
-                xnew.copy_from_slice(&xtry);
-                tt *= 2.0;
-                if tt > 1e6 {
-                    break;
-                }
-            }
-        }
-        if !found {
-            if !fresh {
-                identity(&mut hinv);
-                fresh = true;
-                continue;
-            }
-            // No descent along the gradient: a numerical optimum.
-            return Ok(Optimum {
-                x,
-                fx,
-                iterations: iter,
-                converged: true,
-            });
-        }
-        num_grad(&mut f, &xnew, fnew, &mut gnew);
-        let s: Vec<f64> = (0..n).map(|i| xnew[i] - x[i]).collect();
-        let yv: Vec<f64> = (0..n).map(|i| gnew[i] - g[i]).collect();
-        let sy: f64 = s.iter().zip(&yv).map(|(a, b)| a * b).sum();
-        let fchange = fx - fnew;
-        x.copy_from_slice(&xnew);
-        g.copy_from_slice(&gnew);
-        let fold = fx;
-        fx = fnew;
-        if sy > 1e-16 {
-            if fresh {
-                // Nocedal & Wright (6.20): scale the initial inverse Hessian
-                let yy: f64 = yv.iter().map(|v| v * v).sum();
-                let sc = sy / yy;
-                hinv.iter_mut().for_each(|v| *v *= sc);
-            }
-            let rho = 1.0 / sy;
-            let hy: Vec<f64> = (0..n)
-                .map(|i| (0..n).map(|j| hinv[i * n + j] * yv[j]).sum())
-                .collect();
-            let yhy: f64 = yv.iter().zip(&hy).map(|(a, b)| a * b).sum();
-            for i in 0..n {
-                for j in 0..n {
-                    hinv[i * n + j] += -rho * (hy[i] * s[j] + s[i] * hy[j])
-                        + (rho * rho * yhy + rho) * s[i] * s[j];
-                }
-            }
-            fresh = false;
-        } else {
-            // no positive curvature along the step: restart from the identity
-            identity(&mut hinv);
-            fresh = true;
-        }
-        let smax = s.iter().fold(0.0f64, |a, v| a.max(v.abs()));
-        if fchange.abs() <= 1e-15 * (1.0 + fold.abs()) && smax < 1e-9 {
-            small_steps += 1;
-            if small_steps >= 3 {
-                return Ok(Optimum {
-                    x,
-                    fx,
-                    iterations: iter,
-                    converged: true,
-                });
-            }
-        } else {
-            small_steps = 0;
-        }
-    }
-    let gnorm = g.iter().fold(0.0f64, |a, v| a.max(v.abs()));
-    if !strict {
-        // screening run cut short: to be continued by the caller
-        return Ok(Optimum {
-            x,
-            fx,
-            iterations: max_iter,
-            converged: false,
-        });
-    }
-    if gnorm < 1e-4 {
-        // a full run that ends with a small gradient (flat ridge): accepted
-        return Ok(Optimum {
-            x,
-            fx,
-            iterations: max_iter,
-            converged: true,
-        });
-    }
-    Err(ArimaError::NonConvergence {
-        iterations: max_iter,
-        gradient: gnorm,
-    })
+    Ok(bfgs(f, x0, max_iter, strict)?)
 }
 
 // ---------------------------------------------------------------------------
@@ -991,7 +800,7 @@ pub fn estimate(
 
     if let Some(wp) = warm.filter(|wp| wp.ar.len() == p && wp.ma.len() == q) {
         consider(
-            bfgs(
+            run_bfgs(
                 objective,
                 &unconstrain_start(&wp.ar, &wp.ma),
                 MAX_ITER,
@@ -1062,7 +871,7 @@ pub fn estimate(
         }
         let mut stage1: Vec<Optimum> = Vec::new();
         for u in &starts {
-            match bfgs(objective, u, SCREEN_ITER, false) {
+            match run_bfgs(objective, u, SCREEN_ITER, false) {
                 Ok(o) => stage1.push(o),
                 Err(e) => last_err = Some(e),
             }
@@ -1079,7 +888,7 @@ pub fn estimate(
                 consider(Ok(o), &mut best, &mut last_err);
             } else {
                 consider(
-                    bfgs(objective, &o.x, MAX_ITER, true),
+                    run_bfgs(objective, &o.x, MAX_ITER, true),
                     &mut best,
                     &mut last_err,
                 );

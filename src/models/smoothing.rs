@@ -91,6 +91,8 @@
 //! cell), never from whichever fit happened to finish first.
 
 use crate::numerics::lsq::householder::least_squares;
+use crate::numerics::optimise::levenberg_marquardt::levenberg_marquardt;
+use crate::numerics::optimise::nelder_mead::nelder_mead;
 use crate::spec::{SmoothingSeason, SmoothingTrend};
 use std::fmt;
 
@@ -629,88 +631,21 @@ fn sse_at_z(spec: &EtsSpec, sm: &Smooth, z: &[f64], y: &[f64]) -> Option<f64> {
 /// season: Levenberg–Marquardt. Returns (SSE, z).
 fn inner_solve(spec: &EtsSpec, sm: &Smooth, y: &[f64], z0: &[f64]) -> Option<(f64, Vec<f64>)> {
     let n = y.len();
-    let k = z0.len();
-    let mut z = z0.to_vec();
-    if !spec.multiplicative() {
-        let (mut r, jac) = residuals_jacobian(spec, sm, &z, y)?;
-        for v in &mut r {
-            *v = -*v;
-        }
-        let d = least_squares(jac, r, n, k)?;
-        for (zi, di) in z.iter_mut().zip(d.iter()) {
-            *zi += di;
-        }
-        let sse = sse_at_z(spec, sm, &z, y)?;
-        return Some((sse, z));
+    if spec.multiplicative() {
+        return levenberg_marquardt(
+            |z: &[f64]| residuals_jacobian(spec, sm, z, y),
+            |z: &[f64]| sse_at_z(spec, sm, z, y),
+            z0,
+            n,
+        );
     }
-    // Levenberg–Marquardt with Marquardt scaling.
-    let mut sse = sse_at_z(spec, sm, &z, y)?;
-    let mut lambda: f64 = 1e-8;
-    let mut iter = 0;
-    'outer: while iter < 60 {
-        iter += 1;
-        let (r, jac) = residuals_jacobian(spec, sm, &z, y)?;
-        let scale: Vec<f64> = (0..k)
-            .map(|i| {
-                let c = &jac[i * n..(i + 1) * n];
-                let s = c.iter().map(|v| v * v).sum::<f64>().sqrt();
-                if s > 0.0 {
-                    s
-                } else {
-                    1.0
-                }
-            })
-            .collect();
-        let mut first_trial = true;
-        loop {
-            let rows = n + k;
-            let mut a = vec![0.0; rows * k];
-            let mut rhs = vec![0.0; rows];
-            let sl = lambda.sqrt();
-            for i in 0..k {
-                a[i * rows..i * rows + n].copy_from_slice(&jac[i * n..(i + 1) * n]);
-                a[i * rows + n + i] = sl * scale[i];
-            }
-            for t in 0..n {
-                rhs[t] = -r[t];
-            }
-            let d = match least_squares(a, rhs, rows, k) {
-                Some(d) => d,
-                None => break 'outer,
-            };
-            if first_trial {
-                // predicted reduction ‖J δ‖²: stop when it is negligible
-                first_trial = false;
-                let mut pred = 0.0;
-                for t in 0..n {
-                    let mut jd = 0.0;
-                    for i in 0..k {
-                        jd += jac[i * n + t] * d[i];
-                    }
-                    pred += jd * jd;
-                }
-                if pred <= 1e-14 * sse {
-                    break 'outer;
-                }
-            }
-            let cand: Vec<f64> = z.iter().zip(d.iter()).map(|(a, b)| a + b).collect();
-            let new = sse_at_z(spec, sm, &cand, y).unwrap_or(f64::INFINITY);
-            if new < sse {
-                let gain = sse - new;
-                z = cand;
-                sse = new;
-                lambda = (lambda * 0.1).max(1e-12);
-                if gain <= 1e-13 * sse {
-                    break 'outer;
-                }
-                continue 'outer;
-            }
-            lambda *= 10.0;
-            if lambda > 1e8 {
-                break 'outer;
-            }
-        }
+    let (mut r, jac) = residuals_jacobian(spec, sm, z0, y)?;
+    for v in &mut r {
+        *v = -*v;
     }
+    let d = least_squares(jac, r, n, z0.len())?;
+    let z: Vec<f64> = z0.iter().zip(d.iter()).map(|(zi, di)| zi + di).collect();
+    let sse = sse_at_z(spec, sm, &z, y)?;
     Some((sse, z))
 }
 
@@ -814,128 +749,6 @@ impl Problem<'_> {
         } else {
             f
         }
-    }
-}
-
-struct NmResult {
-    x: Vec<f64>,
-    f: f64,
-    converged: bool,
-}
-
-/// Nelder–Mead on the unit box [0,1]^d (points projected onto the box).
-fn nelder_mead(prob: &mut Problem, x0: &[f64], step: f64, max_evals: usize) -> NmResult {
-    let d = x0.len();
-    let clamp = |v: &mut Vec<f64>| {
-        for x in v.iter_mut() {
-            *x = x.clamp(0.0, 1.0);
-        }
-    };
-    let mut pts: Vec<Vec<f64>> = Vec::with_capacity(d + 1);
-    let mut x = x0.to_vec();
-    clamp(&mut x);
-    pts.push(x.clone());
-    for i in 0..d {
-        let mut p = x.clone();
-        p[i] = if p[i] + step <= 1.0 {
-            p[i] + step
-        } else {
-            p[i] - step
-        };
-        pts.push(p);
-    }
-    let mut fs: Vec<f64> = pts.iter().map(|p| prob.eval(p)).collect();
-    let mut used = d + 1;
-    let mut converged = false;
-    while used < max_evals {
-        // order
-        let mut order: Vec<usize> = (0..=d).collect();
-        order.sort_by(|&a, &b| fs[a].total_cmp(&fs[b]).then(a.cmp(&b)));
-        pts = order.iter().map(|&i| pts[i].clone()).collect();
-        fs = order.iter().map(|&i| fs[i]).collect();
-        let fspread = fs[d] - fs[0];
-        let xspread = pts
-            .iter()
-            .skip(1)
-            .flat_map(|p| p.iter().zip(pts[0].iter()).map(|(a, b)| (a - b).abs()))
-            .fold(0.0, f64::max);
-        if fs[0].is_finite() && ((fspread <= 1e-11 && xspread <= 1e-5) || xspread <= 1e-9) {
-            converged = true;
-            break;
-        }
-        let mut c = vec![0.0; d];
-        for p in &pts[..d] {
-            for (ci, pi) in c.iter_mut().zip(p.iter()) {
-                *ci += pi / d as f64;
-            }
-        }
-        let along = |t: f64| -> Vec<f64> {
-            let mut v: Vec<f64> = c
-                .iter()
-                .zip(pts[d].iter())
-                .map(|(ci, wi)| ci + t * (ci - wi))
-                .collect();
-            for x in v.iter_mut() {
-                *x = x.clamp(0.0, 1.0);
-            }
-            v
-        };
-        let xr = along(1.0);
-        let fr = prob.eval(&xr);
-        used += 1;
-        if fr < fs[0] {
-            let xe = along(2.0);
-            let fe = prob.eval(&xe);
-            used += 1;
-            if fe < fr {
-                pts[d] = xe;
-                fs[d] = fe;
-            } else {
-                pts[d] = xr;
-                fs[d] = fr;
-            }
-        } else if fr < fs[d - 1] {
-            pts[d] = xr;
-            fs[d] = fr;
-        } else {
-            let (xc, fc) = if fr < fs[d] {
-                let xc = along(0.5);
-                let fc = prob.eval(&xc);
-                (xc, fc)
-            } else {
-                let xc = along(-0.5);
-                let fc = prob.eval(&xc);
-                (xc, fc)
-            };
-            used += 1;
-            if fc < fs[d].min(fr) {
-                pts[d] = xc;
-                fs[d] = fc;
-            } else {
-                // shrink towards the best
-                for i in 1..=d {
-                    let p: Vec<f64> = pts[i]
-                        .iter()
-                        .zip(pts[0].iter())
-                        .map(|(a, b)| b + 0.5 * (a - b))
-                        .collect();
-                    fs[i] = prob.eval(&p);
-                    pts[i] = p;
-                    used += 1;
-                }
-            }
-        }
-    }
-    let mut bi = 0;
-    for i in 1..fs.len() {
-        if fs[i] < fs[bi] {
-            bi = i;
-        }
-    }
-    NmResult {
-        x: pts[bi].clone(),
-        f: fs[bi],
-        converged,
     }
 }
 
@@ -1043,7 +856,7 @@ pub(crate) fn estimate(
     }
     let grid = start_grid(spec);
     if let Some(u0) = warm_u {
-        let r = nelder_mead(&mut prob, &u0, 0.05, MAX_NM);
+        let r = nelder_mead(&mut |u: &[f64]| prob.eval(u), &u0, 0.05, MAX_NM);
         any_converged |= r.converged;
         let (warm_f, warm_x) = (r.f, r.x);
         // Insurance against a stale warm start in a multimodal likelihood:
@@ -1063,7 +876,7 @@ pub(crate) fn estimate(
         }
         if let Some((gf, gi)) = best_g {
             if gf < warm_f + WARM_MARGIN {
-                let r = nelder_mead(&mut prob, &grid[gi], 0.1, MAX_NM);
+                let r = nelder_mead(&mut |u: &[f64]| prob.eval(u), &grid[gi], 0.1, MAX_NM);
                 any_converged |= r.converged;
             }
         }
@@ -1075,7 +888,7 @@ pub(crate) fn estimate(
             .collect();
         scored.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
         for &(_, i) in scored.iter().filter(|(f, _)| f.is_finite()).take(3) {
-            let r = nelder_mead(&mut prob, &grid[i], 0.1, MAX_NM);
+            let r = nelder_mead(&mut |u: &[f64]| prob.eval(u), &grid[i], 0.1, MAX_NM);
             any_converged |= r.converged;
         }
     }
@@ -1088,7 +901,7 @@ pub(crate) fn estimate(
     for _ in 0..4 {
         let before = prob.best_f;
         let start = prob.best_u.clone();
-        let r = nelder_mead(&mut prob, &start, 0.05, MAX_NM);
+        let r = nelder_mead(&mut |u: &[f64]| prob.eval(u), &start, 0.05, MAX_NM);
         any_converged |= r.converged;
         if before - prob.best_f <= 1e-10 {
             break;

@@ -8,3 +8,4 @@ pub(crate) mod acov;
 pub(crate) mod dist;
 pub(crate) mod ic;
 pub(crate) mod lsq;
+pub(crate) mod optimise;
