@@ -2,11 +2,14 @@
 //! the metrics, the pooled `all` horizon, ranks, and the in-sample versus
 //! out-of-sample comparison.
 
-pub mod compare;
+pub mod bootstrap;
 pub mod comparison;
 pub mod diagnostics;
+pub mod pairwise;
 pub mod stability;
 
+#[cfg(test)]
+mod refdata;
 #[cfg(test)]
 mod reference_metrics_tests;
 
@@ -185,6 +188,15 @@ pub fn r2_oos(e: &Errors, benchmark: &Errors) -> Option<f64> {
     } else {
         None
     }
+}
+
+fn all_finite(x: &[f64]) -> bool {
+    x.iter().all(|v| v.is_finite())
+}
+
+/// `x > 0` and finite (false for NaN).
+fn positive_finite(x: f64) -> bool {
+    x.is_finite() && x > 0.0
 }
 
 fn mean(values: impl Iterator<Item = f64>, n: usize) -> Option<f64> {
