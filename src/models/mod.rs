@@ -135,11 +135,6 @@ pub(crate) trait Model {
     /// (one-step where the family has them; the shortest horizon's regression
     /// for direct least squares), for residual diagnostics.
     fn residuals(&self, fit: &mut Self::Fit, end: usize) -> Vec<f64>;
-
-    /// The order an estimate chose, for families that select one.
-    fn order(&self, _fit: &Self::Fit) -> Option<Order> {
-        None
-    }
 }
 
 /// What runs a model: the registry hands it the concrete model of a cell.

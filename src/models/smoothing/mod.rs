@@ -222,7 +222,8 @@ impl EtsSpec {
         }
     }
 
-    /// `ETS(A,Ad,M)` style name.
+    /// `ETS(A,Ad,M)` style name, for test messages.
+    #[cfg(test)]
     pub(crate) fn short_name(&self) -> String {
         let t = match self.trend {
             SmoothingTrend::None => "N",
@@ -273,13 +274,6 @@ pub(crate) struct EtsFit {
     pub nobs: usize,
     /// Objective evaluations spent (each solves the inner initial-state problem).
     pub evaluations: usize,
-}
-
-impl EtsFit {
-    /// AIC = −2·loglik + 2·(n_params + 1), σ² counted.
-    pub(crate) fn aic(&self) -> f64 {
-        -2.0 * self.loglik + 2.0 * (self.n_params as f64 + 1.0)
-    }
 }
 
 /// Why a model could not be estimated or forecast.

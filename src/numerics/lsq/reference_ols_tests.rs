@@ -1,4 +1,8 @@
-//! OLS against the NIST StRD linear least-squares certified values.
+//! Both least-squares paths against the NIST StRD linear least-squares
+//! certified values: the Givens row-folding of the least-squares families
+//! (coefficients, residual SD, R²) and the Householder factorisation of the
+//! ADF regressions (coefficients, standard errors from diag (XᵀX)⁻¹,
+//! residual SD).
 //!
 //! Data and certified values: `tests/reference/data/nist_norris.json` and
 //! `nist_longley.json`, written by `tests/reference/generate.py`:
@@ -12,8 +16,8 @@
 //! use: LRE = -log10(|estimate - certified| / |certified|).  Required:
 //! coefficients LRE >= 9; standard errors, residual SD and R² LRE >= 8.
 
-use super::givens::{ols_fit, OlsFit};
-use nalgebra::DMatrix;
+use super::givens::LeastSquares;
+use super::householder::Householder;
 use serde_json::Value;
 use std::path::PathBuf;
 
@@ -25,7 +29,8 @@ fn data_path(name: &str) -> PathBuf {
 
 struct Case {
     name: String,
-    x: DMatrix<f64>,
+    /// Rows of the design (intercept column included).
+    x: Vec<Vec<f64>>,
     y: Vec<f64>,
     coef: Vec<f64>,
     se: Vec<f64>,
@@ -44,14 +49,10 @@ fn floats(v: &Value) -> Vec<f64> {
 fn load(file: &str) -> Case {
     let text = std::fs::read_to_string(data_path(file)).expect("read reference json");
     let v: Value = serde_json::from_str(&text).expect("parse reference json");
-    let rows: Vec<Vec<f64>> = v["x"].as_array().unwrap().iter().map(floats).collect();
-    let n = rows.len();
-    let k = rows[0].len();
-    let x = DMatrix::from_fn(n, k, |i, j| rows[i][j]);
     let c = &v["certified"];
     Case {
         name: v["name"].as_str().unwrap().to_string(),
-        x,
+        x: v["x"].as_array().unwrap().iter().map(floats).collect(),
         y: floats(&v["y"]),
         coef: floats(&c["coef"]),
         se: floats(&c["se"]),
@@ -74,82 +75,75 @@ fn lre(estimate: f64, certified: f64) -> f64 {
     (-rel.log10()).min(15.0)
 }
 
+/// Collects the quantities whose LRE falls below what is required.
+struct Report {
+    case: String,
+    failures: Vec<String>,
+}
+
+impl Report {
+    fn require(&mut self, what: &str, estimate: f64, certified: f64, min_lre: f64) {
+        let l = lre(estimate, certified);
+        eprintln!("{} {what}: LRE {l:.1}", self.case);
+        if l.is_nan() || l < min_lre {
+            self.failures.push(format!(
+                "{what}: {estimate:e} vs certified {certified:e} (LRE {l:.2} < {min_lre})"
+            ));
+        }
+    }
+}
+
 fn check(case: &Case) {
-    let fit: OlsFit = ols_fit(&case.x, &case.y)
-        .unwrap_or_else(|e| panic!("{}: ols_fit failed: {:?}", case.name, e));
-    let mut failures = Vec::new();
-    let min_coef = fit
-        .coef
-        .iter()
-        .zip(&case.coef)
-        .map(|(&b, &c)| lre(b, c))
-        .fold(15.0, f64::min);
-    let min_se = fit
-        .se
-        .iter()
-        .zip(&case.se)
-        .map(|(&s, &c)| lre(s, c))
-        .fold(15.0, f64::min);
-    eprintln!(
-        "{}: min LRE coef {:.1}, se {:.1}, resid_sd {:.1}, r2 {:.1}",
-        case.name,
-        min_coef,
-        min_se,
-        lre(fit.resid_sd, case.resid_sd),
-        lre(fit.r2, case.r2)
-    );
-    assert_eq!(
-        fit.coef.len(),
-        case.coef.len(),
-        "{}: coefficient count",
-        case.name
-    );
-    assert_eq!(fit.se.len(), case.se.len(), "{}: SE count", case.name);
-    assert_eq!(fit.rows, case.y.len(), "{}: rows", case.name);
-    for (j, (&b, &cb)) in fit.coef.iter().zip(&case.coef).enumerate() {
-        let l = lre(b, cb);
-        if l.is_nan() || l < 9.0 {
-            failures.push(format!(
-                "coef B{j}: {b:e} vs certified {cb:e} (LRE {l:.2} < 9)"
-            ));
-        }
+    let n = case.y.len();
+    let k = case.coef.len();
+    let mut report = Report {
+        case: case.name.clone(),
+        failures: Vec::new(),
+    };
+    // The Givens path, as the least-squares families use it.
+    let mut ls = LeastSquares::new(k);
+    for (row, &y) in case.x.iter().zip(&case.y) {
+        ls.add_row(row, y);
     }
-    for (j, (&s, &cs)) in fit.se.iter().zip(&case.se).enumerate() {
-        let l = lre(s, cs);
-        if l.is_nan() || l < 8.0 {
-            failures.push(format!(
-                "se B{j}: {s:e} vs certified {cs:e} (LRE {l:.2} < 8)"
-            ));
-        }
+    let sol = ls
+        .solve()
+        .unwrap_or_else(|e| panic!("{}: Givens least squares failed: {e}", case.name));
+    assert_eq!(sol.rows, n, "{}: rows", case.name);
+    for (j, (&b, &c)) in sol.coef.iter().zip(&case.coef).enumerate() {
+        report.require(&format!("Givens coef B{j}"), b, c, 9.0);
     }
-    let l = lre(fit.resid_sd, case.resid_sd);
-    if l.is_nan() || l < 8.0 {
-        failures.push(format!(
-            "resid_sd: {:e} vs certified {:e} (LRE {l:.2} < 8)",
-            fit.resid_sd, case.resid_sd
-        ));
-    }
-    let l = lre(fit.r2, case.r2);
-    if l.is_nan() || l < 8.0 {
-        failures.push(format!(
-            "r2: {:e} vs certified {:e} (LRE {l:.2} < 8)",
-            fit.r2, case.r2
-        ));
-    }
+    report.require("Givens resid_sd", sol.sigma2().sqrt(), case.resid_sd, 8.0);
+    report.require("Givens r2", 1.0 - sol.ssr / sol.sst, case.r2, 8.0);
     // ssr is not certified directly; it must agree with resid_sd² · (rows − k).
-    let dof = (fit.rows - fit.coef.len()) as f64;
-    let l = lre(fit.ssr, case.resid_sd * case.resid_sd * dof);
-    if l.is_nan() || l < 8.0 {
-        failures.push(format!(
-            "ssr: {:e} inconsistent with certified residual SD (LRE {l:.2})",
-            fit.ssr
-        ));
+    let dof = (n - k) as f64;
+    report.require(
+        "Givens ssr",
+        sol.ssr,
+        case.resid_sd * case.resid_sd * dof,
+        8.0,
+    );
+    // The Householder path, as the ADF regressions use it.
+    let cols: Vec<Vec<f64>> = (0..k)
+        .map(|j| case.x.iter().map(|row| row[j]).collect())
+        .collect();
+    let qr = Householder::of_columns(&cols, &case.y).expect("factorisation");
+    let fit = qr
+        .fit(&cols, &case.y, k)
+        .unwrap_or_else(|| panic!("{}: Householder fit refused", case.name));
+    let s2 = fit.ssr / dof;
+    for (j, (&b, &c)) in fit.beta.iter().zip(&case.coef).enumerate() {
+        report.require(&format!("Householder coef B{j}"), b, c, 9.0);
     }
+    for (j, (d, &c)) in qr.xtx_inv_diag(k).iter().zip(&case.se).enumerate() {
+        report.require(&format!("Householder se B{j}"), (s2 * d).sqrt(), c, 8.0);
+    }
+    report.require("Householder resid_sd", s2.sqrt(), case.resid_sd, 8.0);
+    assert_eq!(case.se.len(), k, "{}: SE count", case.name);
     assert!(
-        failures.is_empty(),
+        report.failures.is_empty(),
         "{} (NIST StRD):\n{}",
         case.name,
-        failures.join("\n")
+        report.failures.join("\n")
     );
 }
 

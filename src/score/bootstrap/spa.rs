@@ -39,7 +39,8 @@ pub(crate) struct SpaResult {
 ///
 /// Difference from arch 7.2.0: arch's `SPA(studentize=True)` computes ω̂_k
 /// but does not divide by it (nor clamp at 0): its statistic is max_k d̄_k.
-/// That variant is [`superior_predictive_ability_unstudentized`]; this
+/// That variant, `superior_predictive_ability_unstudentized`, is compiled
+/// for the tests, which compare it with arch's own p-values; this
 /// function follows the paper.
 ///
 /// Block length: `block_length`, else the mean of the Politis & White
@@ -71,6 +72,8 @@ pub(crate) fn superior_predictive_ability(
 /// flag does not change the statistic): T = max_k d̄_k, T* = max_k (d̄*_k −
 /// μ̂_k), same re-centring rules, variances, block length and draws as
 /// [`superior_predictive_ability`]. `statistic` is max_k d̄_k in loss units.
+/// For the tests only: arch's numbers check the shared machinery.
+#[cfg(test)]
 pub(crate) fn superior_predictive_ability_unstudentized(
     benchmark_losses: &[f64],
     model_losses: &[Vec<f64>],

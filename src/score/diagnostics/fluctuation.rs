@@ -37,28 +37,6 @@ pub(super) const GR_K10: [f64; 9] = [
     3.170, 2.948, 2.766, 2.626, 2.500, 2.356, 2.252, 2.130, 1.950,
 ];
 
-/// Two-sided (5 %, 10 %) critical values of the Giacomini & Rossi (2010)
-/// fluctuation test for μ = m/P, linearly interpolated between the μ of
-/// their Table 1 (0.1, …, 0.9; values from memory, see [`GR_K05`]). μ within
-/// 1e-9 of a tabulated value returns it exactly. `None` outside [0.1, 0.9].
-pub(super) fn fluctuation_critical_values(mu: f64) -> Option<(f64, f64)> {
-    if !mu.is_finite() || !(0.1 - 1e-9..=0.9 + 1e-9).contains(&mu) {
-        return None;
-    }
-    let t = mu * 10.0 - 1.0; // 0 … 8
-    let snapped = t.round();
-    if (t - snapped).abs() < 1e-8 {
-        let i = (snapped as usize).min(8);
-        return Some((GR_K05[i], GR_K10[i]));
-    }
-    let i = (t.floor().max(0.0) as usize).min(7);
-    let f = t - i as f64;
-    Some((
-        GR_K05[i] + (GR_K05[i + 1] - GR_K05[i]) * f,
-        GR_K10[i] + (GR_K10[i + 1] - GR_K10[i]) * f,
-    ))
-}
-
 /// Giacomini & Rossi (2010) fluctuation test of equal (local) predictive
 /// ability with the defaults: HAC variance demeaned, Bartlett kernel,
 /// truncation lag [`newey_west_lags`]`(P)`. See [`fluctuation_test_with`].
@@ -75,7 +53,7 @@ pub(crate) fn fluctuation_test(d: &[f64], window: usize) -> Option<FluctuationRe
 /// with σ̂² the Bartlett HAC long-run variance of d on the full sample
 /// ([`newey_west_variance`] with `lags` and `demean`). Reject equal predictive
 /// ability at every point in time when max_t |F_t| > k_α(μ), μ = m/P
-/// ([`fluctuation_critical_values`]).
+/// ([`gr_critical_ratio`]).
 ///
 /// Cost O(P·m) (each window summed directly, for accuracy).
 /// `None` when μ is outside [0.1, 0.9], `window` = 0, d has non-finite
@@ -124,7 +102,9 @@ pub(super) fn fluctuation_test_with(
     })
 }
 
-/// Critical values for μ = m/P computed on the exact ratio: 10m = i·P + r.
+/// Two-sided (5 %, 10 %) critical values for μ = m/P, linearly interpolated
+/// between the μ = 0.1, …, 0.9 of the table ([`GR_K05`], [`GR_K10`]) on the
+/// exact ratio 10m = i·P + r; `None` outside [0.1, 0.9].
 pub(super) fn gr_critical_ratio(m: usize, p: usize) -> Option<(f64, f64)> {
     let ten_m = m.checked_mul(10)?;
     if p == 0 || ten_m < p || ten_m > 9 * p {

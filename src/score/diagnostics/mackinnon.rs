@@ -4,7 +4,6 @@
 //! (`statsmodels/tsa/adfvalues.py`), literals unchanged (the scaling
 //! factors statsmodels applies at run time are applied here too).
 
-use super::adf::AdfRegression;
 use crate::numerics::dist::normal_cdf;
 
 /// Evaluates a polynomial with coefficients from the highest power down,
@@ -17,9 +16,9 @@ fn polyval_desc(coef_desc: &[f64], x: f64) -> f64 {
     y
 }
 
-/// MacKinnon (1994) approximate p-value of a Dickey–Fuller τ statistic
-/// (left tail), for `n_series` = 1 … 6 integrated series (1 for the ADF test;
-/// more for Engle–Granger cointegration residuals).
+/// MacKinnon (1994) approximate p-value of a Dickey–Fuller τ statistic with
+/// a constant (left tail), for `n_series` = 1 … 6 integrated series (1 for
+/// the ADF test; more for Engle–Granger cointegration residuals).
 ///
 /// p = Φ(γ₀ + γ₁τ + γ₂τ² [+ γ₃τ³]) with the "small p" coefficients for
 /// τ ≤ τ*, the "large p" coefficients above, 0 below τ_min and 1 above τ_max
@@ -27,7 +26,7 @@ fn polyval_desc(coef_desc: &[f64], x: f64) -> f64 {
 /// (`mackinnonp`, which uses these tables for all N).
 ///
 /// `None` for `n_series` outside 1 … 6 or a NaN statistic.
-pub(super) fn mackinnon_p(stat: f64, regression: AdfRegression, n_series: usize) -> Option<f64> {
+pub(super) fn mackinnon_p(stat: f64, n_series: usize) -> Option<f64> {
     if stat.is_nan() || !(1..=6).contains(&n_series) {
         return None;
     }
@@ -38,29 +37,13 @@ pub(super) fn mackinnon_p(stat: f64, regression: AdfRegression, n_series: usize)
         return Some(0.0);
     }
     let i = n_series - 1;
-    let (star, min, max, small, large) = match regression {
-        AdfRegression::None => (
-            &TAU_STAR_NC,
-            &TAU_MIN_NC,
-            &TAU_MAX_NC,
-            &TAU_NC_SMALLP,
-            &TAU_NC_LARGEP,
-        ),
-        AdfRegression::Constant => (
-            &TAU_STAR_C,
-            &TAU_MIN_C,
-            &TAU_MAX_C,
-            &TAU_C_SMALLP,
-            &TAU_C_LARGEP,
-        ),
-        AdfRegression::ConstantTrend => (
-            &TAU_STAR_CT,
-            &TAU_MIN_CT,
-            &TAU_MAX_CT,
-            &TAU_CT_SMALLP,
-            &TAU_CT_LARGEP,
-        ),
-    };
+    let (star, min, max, small, large) = (
+        &TAU_STAR_C,
+        &TAU_MIN_C,
+        &TAU_MAX_C,
+        &TAU_C_SMALLP,
+        &TAU_C_LARGEP,
+    );
     if stat > max[i] {
         return Some(1.0);
     }
@@ -82,29 +65,20 @@ pub(super) fn mackinnon_p(stat: f64, regression: AdfRegression, n_series: usize)
     p.is_finite().then_some(p)
 }
 
-/// MacKinnon (2010) critical values of the Dickey–Fuller τ statistic at
-/// 1 %, 5 % and 10 %, for `n_series` = 1 … 12 integrated series
-/// (`Constant`, `ConstantTrend`) or 1 (`None`, whose values are MacKinnon's
-/// 1996 ones, not updated in 2010), and sample size `nobs`
+/// MacKinnon (2010) critical values of the Dickey–Fuller τ statistic with a
+/// constant at 1 %, 5 % and 10 %, for `n_series` = 1 … 12 integrated
+/// series and sample size `nobs`
 /// (`None` = asymptotic): c = β_∞ + β₁/T + β₂/T² + β₃/T³ — MacKinnon (2010)
 /// tables as transcribed in statsmodels 0.14.4 (`mackinnoncrit`).
 ///
 /// `None` for an unsupported `n_series` or a `nobs` that is not positive
 /// and finite.
-pub(super) fn mackinnon_crit(
-    regression: AdfRegression,
-    n_series: usize,
-    nobs: Option<f64>,
-) -> Option<[f64; 3]> {
+pub(super) fn mackinnon_crit(n_series: usize, nobs: Option<f64>) -> Option<[f64; 3]> {
     if n_series == 0 {
         return None;
     }
     let i = n_series - 1;
-    let table: &[[f64; 4]; 3] = match regression {
-        AdfRegression::None => TAU_NC_2010.get(i)?,
-        AdfRegression::Constant => TAU_C_2010.get(i)?,
-        AdfRegression::ConstantTrend => TAU_CT_2010.get(i)?,
-    };
+    let table: &[[f64; 4]; 3] = TAU_C_2010.get(i)?;
     match nobs {
         None => Some([table[0][0], table[1][0], table[2][0]]),
         Some(t) => {
@@ -121,25 +95,12 @@ pub(super) fn mackinnon_crit(
     }
 }
 
-// Index: N − 1.
+// MacKinnon's tables for the regression with a constant, as transcribed in
+// statsmodels 0.14.4. Index: N − 1.
 
-const TAU_STAR_NC: [f64; 6] = [-1.04, -1.53, -2.68, -3.09, -3.07, -3.77];
-const TAU_MIN_NC: [f64; 6] = [-19.04, -19.62, -21.21, -23.25, -21.63, -25.74];
-const TAU_MAX_NC: [f64; 6] = [f64::INFINITY, 1.51, 0.86, 0.88, 1.05, 1.24];
 const TAU_STAR_C: [f64; 6] = [-1.61, -2.62, -3.13, -3.47, -3.78, -3.93];
 const TAU_MIN_C: [f64; 6] = [-18.83, -18.86, -23.48, -28.07, -25.96, -23.27];
 const TAU_MAX_C: [f64; 6] = [2.74, 0.92, 0.55, 0.61, 0.79, 1.0];
-const TAU_STAR_CT: [f64; 6] = [-2.89, -3.19, -3.50, -3.65, -3.80, -4.36];
-const TAU_MIN_CT: [f64; 6] = [-16.18, -21.15, -25.37, -26.63, -26.53, -26.18];
-const TAU_MAX_CT: [f64; 6] = [0.7, 0.63, 0.71, 0.93, 1.19, 1.42];
-const TAU_NC_SMALLP: [[f64; 3]; 6] = [
-    [0.6344, 1.2378, 3.2496],
-    [1.9129, 1.3857, 3.5322],
-    [2.7648, 1.4502, 3.4186],
-    [3.4336, 1.4835, 3.19],
-    [4.0999, 1.5533, 3.59],
-    [4.5388, 1.5344, 2.9807],
-];
 const TAU_C_SMALLP: [[f64; 3]; 6] = [
     [2.1659, 1.4412, 3.8269],
     [2.92, 1.5012, 3.9796],
@@ -147,22 +108,6 @@ const TAU_C_SMALLP: [[f64; 3]; 6] = [
     [3.9673, 1.4777, 2.6315],
     [4.5509, 1.5338, 2.9545],
     [5.1399, 1.6036, 3.4445],
-];
-const TAU_CT_SMALLP: [[f64; 3]; 6] = [
-    [3.2512, 1.6047, 4.9588],
-    [3.6646, 1.5419, 3.6448],
-    [4.0983, 1.5173, 2.9898],
-    [4.5844, 1.5338, 2.8796],
-    [5.0722, 1.5634, 2.9472],
-    [5.53, 1.5914, 3.0392],
-];
-const TAU_NC_LARGEP: [[f64; 4]; 6] = [
-    [0.4797, 9.3557, -0.6999, 3.3066],
-    [1.5578, 8.558, -2.083, -3.3549],
-    [2.2268, 6.8093, -3.2362, -5.4448],
-    [2.7654, 6.4502, -3.0811, -4.4946],
-    [3.2684, 6.8051, -2.6778, -3.4972],
-    [3.7268, 7.167, -2.3648, -2.8288],
 ];
 const TAU_C_LARGEP: [[f64; 4]; 6] = [
     [1.7339, 9.3202, -1.2745, -1.0368],
@@ -172,19 +117,6 @@ const TAU_C_LARGEP: [[f64; 4]; 6] = [
     [3.5049, 5.2098, -2.9158, -3.3468],
     [3.9489, 5.8933, -2.5359, -2.721],
 ];
-const TAU_CT_LARGEP: [[f64; 4]; 6] = [
-    [2.5261, 6.1654, -3.7956, -6.0285],
-    [2.85, 5.272, -3.6622, -5.1695],
-    [3.221, 5.255, -3.2685, -4.1501],
-    [3.652, 5.9758, -2.7483, -3.2081],
-    [4.0712, 6.6428, -2.3464, -2.546],
-    [4.4735, 7.1757, -2.0681, -2.1196],
-];
-const TAU_NC_2010: [[[f64; 4]; 3]; 1] = [[
-    [-2.56574, -2.2358, -3.627, 0.0],
-    [-1.94100, -0.2686, -3.365, 31.223],
-    [-1.61682, 0.2656, -2.714, 25.364],
-]];
 const TAU_C_2010: [[[f64; 4]; 3]; 12] = [
     [
         [-3.43035, -6.5393, -16.786, -79.433],
@@ -245,67 +177,5 @@ const TAU_C_2010: [[[f64; 4]; 3]; 12] = [
         [-6.63790, -50.2095, -124.156, 579.622],
         [-6.11279, -36.2681, -32.505, 314.802],
         [-5.83724, -29.9864, -2.686, 184.116],
-    ],
-];
-const TAU_CT_2010: [[[f64; 4]; 3]; 12] = [
-    [
-        [-3.95877, -9.0531, -28.428, -134.155],
-        [-3.41049, -4.3904, -9.036, -45.374],
-        [-3.12705, -2.5856, -3.925, -22.380],
-    ],
-    [
-        [-4.32762, -15.4387, -35.679, 0.0],
-        [-3.78057, -9.5106, -12.074, 0.0],
-        [-3.49631, -7.0815, -7.538, 21.892],
-    ],
-    [
-        [-4.66305, -18.7688, -49.793, 104.244],
-        [-4.11890, -11.8922, -19.031, 77.332],
-        [-3.83511, -9.0723, -8.504, 35.403],
-    ],
-    [
-        [-4.96940, -22.4694, -52.599, 51.314],
-        [-4.42871, -14.5876, -18.228, 39.647],
-        [-4.14633, -11.2500, -9.873, 54.109],
-    ],
-    [
-        [-5.25276, -26.2183, -59.631, 50.646],
-        [-4.71537, -17.3569, -22.660, 91.359],
-        [-4.43422, -13.6078, -10.238, 76.781],
-    ],
-    [
-        [-5.51727, -29.9760, -75.222, 202.253],
-        [-4.98228, -20.3050, -25.224, 132.03],
-        [-4.70233, -16.1253, -9.836, 94.272],
-    ],
-    [
-        [-5.76537, -33.9165, -84.312, 245.394],
-        [-5.23299, -23.3328, -28.955, 182.342],
-        [-4.95405, -18.7352, -10.168, 120.575],
-    ],
-    [
-        [-6.00003, -37.8892, -96.428, 335.92],
-        [-5.46971, -26.4771, -31.034, 220.165],
-        [-5.19183, -21.4328, -10.726, 157.955],
-    ],
-    [
-        [-6.22288, -41.9496, -109.881, 466.068],
-        [-5.69447, -29.7152, -33.784, 273.002],
-        [-5.41738, -24.2882, -8.584, 169.891],
-    ],
-    [
-        [-6.43551, -46.1151, -120.814, 566.823],
-        [-5.90887, -33.0251, -37.208, 346.189],
-        [-5.63255, -27.2042, -6.792, 177.666],
-    ],
-    [
-        [-6.63894, -50.4287, -128.997, 642.781],
-        [-6.11404, -36.4610, -36.246, 348.554],
-        [-5.83850, -30.1995, -5.163, 210.338],
-    ],
-    [
-        [-6.83488, -54.7119, -139.800, 736.376],
-        [-6.31127, -39.9676, -37.021, 406.051],
-        [-6.03650, -33.2381, -6.606, 317.776],
     ],
 ];

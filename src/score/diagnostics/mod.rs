@@ -38,6 +38,6 @@ mod mackinnon;
 #[cfg(test)]
 mod tests;
 
-pub(crate) use adf::{adf, AdfRegression};
+pub(crate) use adf::adf;
 pub(crate) use fluctuation::fluctuation_test;
 pub(crate) use ljung_box::ljung_box;

@@ -1,8 +1,7 @@
 //! Ljung–Box, ADF and MacKinnon against statsmodels 0.14.4
 //! (tests/reference/diagnostics/, written by generate_diagnostics.py).
 
-use super::adf::AdfRegression;
-use super::fluctuation::{fluctuation_critical_values, fluctuation_test_with};
+use super::fluctuation::{fluctuation_test_with, gr_critical_ratio};
 use super::mackinnon::{mackinnon_crit, mackinnon_p};
 use super::*;
 use crate::numerics::acov::newey_west_variance;
@@ -15,13 +14,15 @@ fn series(name: &str) -> Vec<f64> {
     floats(&load(DIAGNOSTICS, "series.json")["series"][name])
 }
 
-fn regression(v: &Value) -> AdfRegression {
-    match v.as_str().expect("regression") {
-        "Constant" => AdfRegression::Constant,
-        "ConstantTrend" => AdfRegression::ConstantTrend,
-        "None" => AdfRegression::None,
-        other => panic!("unknown regression {other}"),
-    }
+/// The reference cases with a constant, the form outturn runs (the
+/// generator also writes statsmodels' 'ct' and 'n' forms).
+fn with_constant(cases: &Value) -> Vec<&Value> {
+    cases
+        .as_array()
+        .expect("cases")
+        .iter()
+        .filter(|c| c["regression"] == "Constant")
+        .collect()
 }
 
 #[test]
@@ -70,8 +71,8 @@ fn ljung_box_edge_cases() {
 fn adf_matches_statsmodels() {
     let refs = load(DIAGNOSTICS, "adf.json");
     let all = load(DIAGNOSTICS, "series.json");
-    let cases = refs["cases"].as_array().expect("cases");
-    assert!(cases.len() >= 100);
+    let cases = with_constant(&refs["cases"]);
+    assert!(cases.len() >= 30);
     let (mut worst_stat, mut worst_p, mut degenerate) = (0.0_f64, 0.0_f64, 0);
     for c in cases {
         let mut x = floats(&all["series"][c["series"].as_str().expect("series")]);
@@ -79,7 +80,7 @@ fn adf_matches_statsmodels() {
             x.truncate(n as usize);
         }
         let max_lag = c["max_lag"].as_u64().map(|v| v as usize);
-        let got = adf(&x, regression(&c["regression"]), max_lag);
+        let got = adf(&x, max_lag);
         if c["degenerate"].as_bool().expect("degenerate") {
             // no residual degrees of freedom: statsmodels' numbers are meaningless
             assert!(got.is_none(), "{c}");
@@ -130,14 +131,13 @@ fn adf_matches_statsmodels() {
 #[test]
 fn mackinnon_p_matches_statsmodels() {
     let refs = load(DIAGNOSTICS, "mackinnon.json");
-    let grid = refs["mackinnonp"].as_array().expect("grid");
-    assert!(grid.len() > 1000);
+    let grid = with_constant(&refs["mackinnonp"]);
+    assert!(grid.len() > 400);
     let mut worst = 0.0_f64;
     for c in grid {
         let n = c["n_series"].as_u64().expect("n") as usize;
         let want = f(&c["p"]);
-        let got = mackinnon_p(f(&c["stat"]), regression(&c["regression"]), n)
-            .unwrap_or_else(|| panic!("None for {c}"));
+        let got = mackinnon_p(f(&c["stat"]), n).unwrap_or_else(|| panic!("None for {c}"));
         let e = rel(got, want);
         worst = worst.max(e);
         assert!(e < 1e-12, "p {got} vs {c}");
@@ -149,13 +149,12 @@ fn mackinnon_p_matches_statsmodels() {
 #[test]
 fn mackinnon_crit_matches_statsmodels_exactly() {
     let refs = load(DIAGNOSTICS, "mackinnon.json");
-    let grid = refs["mackinnoncrit"].as_array().expect("grid");
-    assert_eq!(grid.len(), (12 + 12 + 1) * 10);
+    let grid = with_constant(&refs["mackinnoncrit"]);
+    assert_eq!(grid.len(), 12 * 10);
     for c in grid {
         let n = c["n_series"].as_u64().expect("n") as usize;
         let nobs = c["nobs"].as_u64().map(|v| v as f64);
-        let got = mackinnon_crit(regression(&c["regression"]), n, nobs)
-            .unwrap_or_else(|| panic!("None for {c}"));
+        let got = mackinnon_crit(n, nobs).unwrap_or_else(|| panic!("None for {c}"));
         let bits: Vec<u64> = c["critical_values_bits"]
             .as_array()
             .expect("bits")
@@ -165,21 +164,14 @@ fn mackinnon_crit_matches_statsmodels_exactly() {
         let got_bits: Vec<u64> = got.iter().map(|v| v.to_bits()).collect();
         assert_eq!(got_bits, bits, "{got:?} vs {c}");
     }
-    assert!(mackinnon_crit(AdfRegression::None, 2, None).is_none());
-    assert!(mackinnon_crit(AdfRegression::Constant, 13, None).is_none());
-    assert!(mackinnon_crit(AdfRegression::Constant, 0, None).is_none());
-    assert!(mackinnon_crit(AdfRegression::Constant, 1, Some(0.0)).is_none());
-    assert!(mackinnon_crit(AdfRegression::Constant, 1, Some(f64::NAN)).is_none());
-    assert!(mackinnon_p(-2.0, AdfRegression::Constant, 7).is_none());
-    assert!(mackinnon_p(f64::NAN, AdfRegression::Constant, 1).is_none());
-    assert_eq!(
-        mackinnon_p(f64::NEG_INFINITY, AdfRegression::Constant, 1),
-        Some(0.0)
-    );
-    assert_eq!(
-        mackinnon_p(f64::INFINITY, AdfRegression::None, 1),
-        Some(1.0)
-    );
+    assert!(mackinnon_crit(13, None).is_none());
+    assert!(mackinnon_crit(0, None).is_none());
+    assert!(mackinnon_crit(1, Some(0.0)).is_none());
+    assert!(mackinnon_crit(1, Some(f64::NAN)).is_none());
+    assert!(mackinnon_p(-2.0, 7).is_none());
+    assert!(mackinnon_p(f64::NAN, 1).is_none());
+    assert_eq!(mackinnon_p(f64::NEG_INFINITY, 1), Some(0.0));
+    assert_eq!(mackinnon_p(f64::INFINITY, 1), Some(1.0));
 }
 
 /// MacKinnon's published asymptotic ADF critical values with a constant,
@@ -188,51 +180,34 @@ fn mackinnon_crit_matches_statsmodels_exactly() {
 #[test]
 fn adf_constant_large_sample_critical_values_from_memory() {
     for nobs in [None, Some(1e7)] {
-        let cv = mackinnon_crit(AdfRegression::Constant, 1, nobs).expect("cv");
+        let cv = mackinnon_crit(1, nobs).expect("cv");
         for (got, want) in cv.iter().zip([-3.43, -2.86, -2.57]) {
             assert!((got - want).abs() < 0.005, "{cv:?}");
         }
-    }
-    // and with constant and trend: −3.96, −3.41, −3.13 (also from memory)
-    let cv = mackinnon_crit(AdfRegression::ConstantTrend, 1, None).expect("cv");
-    for (got, want) in cv.iter().zip([-3.96, -3.41, -3.13]) {
-        assert!((got - want).abs() < 0.005, "{cv:?}");
     }
 }
 
 #[test]
 fn adf_edge_cases() {
     let x = series("nile");
-    assert!(adf(&[], AdfRegression::Constant, None).is_none());
-    assert!(adf(&[1.0], AdfRegression::Constant, None).is_none());
-    assert!(adf(&[1.0, 2.0], AdfRegression::ConstantTrend, None).is_none());
-    assert!(adf(&[3.0; 50], AdfRegression::Constant, None).is_none());
+    assert!(adf(&[], None).is_none());
+    assert!(adf(&[1.0], None).is_none());
+    assert!(adf(&[1.0, 2.0], None).is_none());
+    assert!(adf(&[3.0; 50], None).is_none());
     let mut y = x.clone();
     y[10] = f64::NAN;
-    assert!(adf(&y, AdfRegression::Constant, None).is_none());
-    // explicit maxlag above statsmodels' cap n/2 − ntrend − 1
-    assert!(adf(&x, AdfRegression::Constant, Some(49)).is_none());
-    assert!(adf(&x, AdfRegression::Constant, Some(48)).is_some());
-    assert!(adf(&x, AdfRegression::None, Some(usize::MAX)).is_none());
+    assert!(adf(&y, None).is_none());
+    // explicit maxlag above statsmodels' cap n/2 − 2
+    assert!(adf(&x, Some(49)).is_none());
+    assert!(adf(&x, Some(48)).is_some());
+    assert!(adf(&x, Some(usize::MAX)).is_none());
     // a linear trend: differences are constant → rank-deficient designs
     let line: Vec<f64> = (0..40).map(|i| i as f64).collect();
-    for reg in [
-        AdfRegression::Constant,
-        AdfRegression::ConstantTrend,
-        AdfRegression::None,
-    ] {
-        let _ = adf(&line, reg, None);
-    }
+    let _ = adf(&line, None);
     // tiny samples never panic
     for n in 0..12 {
-        for reg in [
-            AdfRegression::Constant,
-            AdfRegression::ConstantTrend,
-            AdfRegression::None,
-        ] {
-            let _ = adf(&x[..n], reg, None);
-            let _ = adf(&x[..n], reg, Some(1));
-        }
+        let _ = adf(&x[..n], None);
+        let _ = adf(&x[..n], Some(1));
     }
 }
 
@@ -273,23 +248,13 @@ fn no_panic_on_arbitrary_inputs() {
         let a = (next() % 70) as usize;
         let b = (next() % 5) as usize;
         let _ = ljung_box(&x, a, b);
-        for reg in [
-            AdfRegression::Constant,
-            AdfRegression::ConstantTrend,
-            AdfRegression::None,
-        ] {
-            let _ = adf(&x, reg, None);
-            let _ = adf(&x, reg, Some(a));
-        }
+        let _ = adf(&x, None);
+        let _ = adf(&x, Some(a));
         let _ = fluctuation_test(&x, a);
         let _ = fluctuation_test_with(&x, a, b, b < 3);
         let _ = newey_west_variance(&x, b, true);
-        let _ = mackinnon_p(
-            x.first().copied().unwrap_or(0.0),
-            AdfRegression::None,
-            b + 1,
-        );
-        let _ = mackinnon_crit(AdfRegression::ConstantTrend, a, x.first().copied());
-        let _ = fluctuation_critical_values(x.first().copied().unwrap_or(0.5));
+        let _ = mackinnon_p(x.first().copied().unwrap_or(0.0), b + 1);
+        let _ = mackinnon_crit(a, x.first().copied());
+        let _ = gr_critical_ratio(a, n);
     }
 }
