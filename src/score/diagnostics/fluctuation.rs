@@ -26,13 +26,15 @@ pub(crate) struct FluctuationResult {
     pub lags: usize,
 }
 
-/// Giacomini & Rossi (2010), Table 1: two-sided critical values k_α of the
-/// fluctuation test for μ = 0.1, 0.2, …, 0.9. FROM MEMORY — no installed
-/// package carries the table, so these digits were recalled, not read.
+/// Two-sided critical values k_α of the fluctuation test for μ = 0.1, 0.2,
+/// …, 0.9: Giacomini & Rossi (2010), Table 1, α = 0.05. FROM MEMORY — the
+/// paper is not at hand and no installed package carries the table, so
+/// these digits are recalled, not read. `fluctuation_tests.rs` checks them
+/// against a seeded simulation of the limiting null distribution.
 pub(super) const GR_K05: [f64; 9] = [
     3.393, 3.179, 3.012, 2.890, 2.779, 2.634, 2.560, 2.433, 2.248,
 ];
-/// See [`GR_K05`]; α = 0.10.
+/// Giacomini & Rossi (2010), Table 1, α = 0.10; FROM MEMORY, see [`GR_K05`].
 pub(super) const GR_K10: [f64; 9] = [
     3.170, 2.948, 2.766, 2.626, 2.500, 2.356, 2.252, 2.130, 1.950,
 ];
