@@ -199,6 +199,24 @@ fn forecasts_at_reference_params_match_statsmodels() {
     }
 }
 
+/// AIC, BIC and HQIC equal statsmodels' once the log-likelihood difference
+/// of the two optima is taken out (1e-6 absolute).
+fn assert_criteria(c: &Case, fit: &ArimaFit) {
+    let (aic, bic, hqic) = information_criteria(fit);
+    let dll = 2.0 * (fit.loglik - c.loglik);
+    for (name, ours, theirs) in [
+        ("aic", aic, c.aic),
+        ("bic", bic, c.bic),
+        ("hqic", hqic, c.hqic),
+    ] {
+        assert!(
+            (ours - theirs + dll).abs() < 1e-6,
+            "{}: {name} {ours} vs {theirs}",
+            c.name
+        );
+    }
+}
+
 /// Cold estimation reaches statsmodels' best log-likelihood (best of 15
 /// optimiser runs); parameters agree where the optimum is sharp; forecasts
 /// agree within 1% of the series' standard deviation and variances within 1%.
@@ -250,26 +268,7 @@ fn estimates_match_statsmodels() {
             fit.is_mse,
             c.is_mse
         );
-        let (aic, bic, hqic) = information_criteria(&fit);
-        let dll = 2.0 * (fit.loglik - c.loglik);
-        assert!(
-            (aic - c.aic + dll).abs() < 1e-6,
-            "{}: aic {aic} vs {}",
-            c.name,
-            c.aic
-        );
-        assert!(
-            (bic - c.bic + dll).abs() < 1e-6,
-            "{}: bic {bic} vs {}",
-            c.name,
-            c.bic
-        );
-        assert!(
-            (hqic - c.hqic + dll).abs() < 1e-6,
-            "{}: hqic {hqic} vs {}",
-            c.name,
-            c.hqic
-        );
+        assert_criteria(&c, &fit);
         let scale = sd(&c.y);
         let f = forecast(&fit, &c.y, c.fmean.len()).unwrap();
         for (h, ((m, v), (rm, rv))) in f.iter().zip(c.fmean.iter().zip(&c.fvar)).enumerate() {
@@ -507,72 +506,4 @@ fn failures_are_typed_errors() {
         .map(|t| (t as f64 * 0.7).sin() + 0.1 * (t as f64 * 2.3).cos())
         .collect();
     assert!(estimate(&yy, &o, Some(&warm)).is_ok());
-}
-
-/// Not a timed assertion: prints fits per second for an expanding-window
-/// refit (origins 100..=200 of 200 observations) with and without warm
-/// starts. Run `cargo test --release -- --nocapture throughput`.
-#[test]
-fn throughput() {
-    let r = reference();
-    let y: Vec<f64> = floats(&r["series"]["gdp_growth"]["y"])[..200].to_vec();
-    // A debug build is ~20× slower: keep the check cheap there.
-    let origins = if cfg!(debug_assertions) {
-        190..=200
-    } else {
-        100..=200
-    };
-    for order in [
-        ArimaOrder {
-            p: 1,
-            d: 0,
-            q: 1,
-            drift: false,
-        },
-        ArimaOrder {
-            p: 2,
-            d: 0,
-            q: 1,
-            drift: false,
-        },
-        ArimaOrder {
-            p: 0,
-            d: 1,
-            q: 1,
-            drift: false,
-        },
-        ArimaOrder {
-            p: 2,
-            d: 1,
-            q: 2,
-            drift: false,
-        },
-    ] {
-        let mut line = String::new();
-        for warm in [false, true] {
-            let start = std::time::Instant::now();
-            let mut prev: Option<ArimaParams> = None;
-            let mut fits = 0;
-            let mut sum_ll = 0.0;
-            for end in origins.clone() {
-                let fit =
-                    estimate(&y[..end], &order, if warm { prev.as_ref() } else { None }).unwrap();
-                let _ = forecast(&fit, &y[..end], 4).unwrap();
-                sum_ll += fit.loglik;
-                prev = Some(fit.params);
-                fits += 1;
-            }
-            let secs = start.elapsed().as_secs_f64();
-            line += &format!(
-                "  {}: {:.0} fits/s (sum loglik {:.4})",
-                if warm { "warm" } else { "cold" },
-                fits as f64 / secs,
-                sum_ll
-            );
-        }
-        eprintln!(
-            "throughput arima({},{},{}) origins {:?}:{line}",
-            order.p, order.d, order.q, origins
-        );
-    }
 }

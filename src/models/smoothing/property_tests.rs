@@ -203,6 +203,27 @@ fn typed_errors() {
     assert!(fc.iter().all(|(m, v)| m.is_finite() && *v > 0.0));
 }
 
+/// The parameters the simulated data of every model come from.
+fn generating_parameters(spec: &EtsSpec) -> EtsParams {
+    EtsParams {
+        alpha: 0.3,
+        beta: if spec.has_trend() { 0.05 } else { 0.0 },
+        gamma: if spec.has_season() { 0.1 } else { 0.0 },
+        phi: if spec.trend == SmoothingTrend::Damped {
+            0.9
+        } else {
+            1.0
+        },
+        level0: 100.0,
+        trend0: if spec.has_trend() { 0.5 } else { 0.0 },
+        season0: match spec.season {
+            SmoothingSeason::None => vec![],
+            SmoothingSeason::Additive => vec![-6.0, -3.0, 0.0, 1.0, 2.0, 3.0, 3.0],
+            SmoothingSeason::Multiplicative => vec![0.94, 0.97, 1.0, 1.01, 1.02, 1.03, 1.03],
+        },
+    }
+}
+
 /// Simulated daily data (m = 7) from every model: the estimate fits at
 /// least as well as the generating parameters and forecasts are finite.
 #[test]
@@ -230,25 +251,7 @@ fn every_model_beats_its_generating_parameters() {
         ] {
             let spec = EtsSpec::new(trend, season, 7).unwrap();
             let mult = spec.multiplicative();
-            let truth = EtsParams {
-                alpha: 0.3,
-                beta: if spec.has_trend() { 0.05 } else { 0.0 },
-                gamma: if spec.has_season() { 0.1 } else { 0.0 },
-                phi: if trend == SmoothingTrend::Damped {
-                    0.9
-                } else {
-                    1.0
-                },
-                level0: 100.0,
-                trend0: if spec.has_trend() { 0.5 } else { 0.0 },
-                season0: match season {
-                    SmoothingSeason::None => vec![],
-                    SmoothingSeason::Additive => vec![-6.0, -3.0, 0.0, 1.0, 2.0, 3.0, 3.0],
-                    SmoothingSeason::Multiplicative => {
-                        vec![0.94, 0.97, 1.0, 1.01, 1.02, 1.03, 1.03]
-                    }
-                },
-            };
+            let truth = generating_parameters(&spec);
             let sm = Smooth::of(&truth, &spec);
             let mut st = initial_state(&spec, &truth);
             let mut y = Vec::new();
