@@ -1,6 +1,6 @@
 //! Distribution functions, through `statrs`: the standard normal (quantile,
-//! distribution function, upper tail), Student's t (two-sided p-value) and
-//! the χ² upper tail.
+//! distribution function, density), Student's t (two-sided p-value) and the
+//! χ² upper tail. Upper normal tails are Φ(−z): one distribution function.
 //!
 //! The normal distribution function goes through statrs' regularized
 //! incomplete gamma function rather than its `erfc` (behind `Normal::cdf`
@@ -8,7 +8,7 @@
 //! relative, its incomplete gamma agrees with scipy's `norm.cdf` and
 //! `norm.sf` and with mpmath to ~1e-15.
 
-use statrs::distribution::{ChiSquared, ContinuousCDF, Normal};
+use statrs::distribution::{ChiSquared, Continuous, ContinuousCDF, Normal};
 use statrs::function::gamma::{checked_gamma_lr, checked_gamma_ur};
 
 /// Standard normal quantile Φ⁻¹(p) (statrs' `Normal::inverse_cdf`).
@@ -51,16 +51,9 @@ pub(crate) fn normal_cdf(z: f64) -> f64 {
     }
 }
 
-/// Upper tail 1 − Φ(z) of the standard normal as ½·Q(½, z²/2) for z ≥ 0
-/// (its complement below 0). `None` for a non-finite z and for z = 0, where
-/// statrs' Q(½, 0) is outside its domain.
-pub(crate) fn normal_sf(z: f64) -> Option<f64> {
-    if !z.is_finite() {
-        return None;
-    }
-    let q = checked_gamma_ur(0.5, 0.5 * z * z).ok()?;
-    let tail = 0.5 * q;
-    Some(if z >= 0.0 { tail } else { 1.0 - tail })
+/// Standard normal density φ(z) (statrs' `Normal::pdf`).
+pub(crate) fn normal_pdf(z: f64) -> f64 {
+    Normal::standard().pdf(z)
 }
 
 /// Two-sided p-value 2·P(T > |t|) of Student's t with `df` degrees of

@@ -14,7 +14,7 @@ mod refdata;
 mod reference_metrics_tests;
 
 use crate::backtest::CellOutput;
-use crate::numerics::dist::normal_quantile;
+use crate::numerics::dist::{normal_cdf, normal_pdf, normal_quantile};
 use crate::plan::Cell;
 use crate::spec::{Experiment, Metric, MetricColumn, Scheme};
 
@@ -111,13 +111,11 @@ pub fn interval_score(e: &Errors, level: f64) -> Option<f64> {
 /// CRPS of a Gaussian forecast N(μ, σ²) at outturn y, in closed form
 /// (Gneiting & Raftery 2007, eq. 21): σ[z(2Φ(z) − 1) + 2φ(z) − 1/√π], z = (y − μ)/σ.
 pub fn crps_gaussian(mu: f64, sd: f64, y: f64) -> f64 {
-    use statrs::distribution::{Continuous, ContinuousCDF, Normal};
     if sd <= 0.0 {
         return (y - mu).abs();
     }
-    let n = Normal::standard();
     let z = (y - mu) / sd;
-    sd * (z * (2.0 * n.cdf(z) - 1.0) + 2.0 * n.pdf(z) - 1.0 / std::f64::consts::PI.sqrt())
+    sd * (z * (2.0 * normal_cdf(z) - 1.0) + 2.0 * normal_pdf(z) - 1.0 / std::f64::consts::PI.sqrt())
 }
 
 /// Mean Gaussian CRPS.

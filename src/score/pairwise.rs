@@ -8,7 +8,7 @@
 
 use super::{all_finite, positive_finite};
 use crate::numerics::acov::{autocovariances, bartlett_from, bartlett_variance, mean};
-use crate::numerics::dist::{normal_sf, student_t_two_sided};
+use crate::numerics::dist::{normal_cdf, student_t_two_sided};
 
 /// Statistic and p-value of a pairwise test.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -71,7 +71,8 @@ pub fn diebold_mariano(e_candidate: &[f64], e_versus: &[f64], h: usize) -> Optio
 /// ensures `versus` is nested in the candidate):
 /// f_t = e_versus,t² − (e_candidate,t² − (ŷ_versus,t − ŷ_candidate,t)²);
 /// statistic = f̄ / sqrt(Bartlett variance of f with h−1 lags / n);
-/// p-value 1 − Φ(statistic). Positive favours the candidate.
+/// p-value 1 − Φ(statistic), computed as Φ(−statistic). Positive favours
+/// the candidate.
 ///
 /// `None` when the lengths differ, n < 2, h = 0, an input is not finite, or
 /// the variance is not positive.
@@ -106,7 +107,7 @@ pub fn clark_west(
         return None;
     }
     let statistic = mean(&f) / (var / n as f64).sqrt();
-    let p_value = normal_sf(statistic)?;
+    let p_value = Some(normal_cdf(-statistic)).filter(|p| p.is_finite())?;
     Some(TestResult { statistic, p_value })
 }
 
