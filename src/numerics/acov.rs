@@ -1,8 +1,9 @@
 //! Autocovariances and the long-run variances built from them, written
 //! once: the sample autocovariance and Bartlett variance that SPEC §4 fixes
-//! (Diebold–Mariano, Clark–West), the Newey–West HAC variance with its
-//! rule-of-thumb lag (the fluctuation test), and the stationary-bootstrap
-//! kernel variance (the test of superior predictive ability).
+//! (Diebold–Mariano, Clark–West), which is also the Newey–West HAC variance
+//! of the fluctuation test (with its rule-of-thumb lag), and the
+//! stationary-bootstrap kernel variance (the test of superior predictive
+//! ability).
 //!
 //! Every sum runs in time order over the centred series, so a caller that
 //! needs the raw lag products (block length, Ljung–Box, Yule–Walker) gets
@@ -67,7 +68,8 @@ pub(crate) fn newey_west_lags(p: usize) -> usize {
     (q as usize).min(p - 1)
 }
 
-/// Newey & West (1987) Bartlett-kernel long-run variance of `d`:
+/// Newey & West (1987) Bartlett-kernel long-run variance of `d` with `lags`
+/// lags: [`bartlett_from`] with h = lags + 1, i.e.
 /// σ̂² = γ̂₀ + 2 Σ_{j=1}^{q} (1 − j/(q+1)) γ̂_j, γ̂_j = P⁻¹ Σ_{t=j+1}^{P} u_t u_{t−j},
 /// with u = d − d̄ when `demean` (else u = d, the form that imposes the null
 /// E d_t = 0). `None` for empty or non-finite input or `lags` ≥ P.
@@ -76,13 +78,11 @@ pub(crate) fn newey_west_variance(d: &[f64], lags: usize, demean: bool) -> Optio
     if p == 0 || lags >= p || d.iter().any(|v| !v.is_finite()) {
         return None;
     }
-    let pf = p as f64;
     let u: Vec<f64> = if demean { centred(d) } else { d.to_vec() };
-    let mut s = lag_product_sum(&u, 0) / pf;
-    for j in 1..=lags {
-        let w = 1.0 - j as f64 / (lags as f64 + 1.0);
-        s += 2.0 * w * lag_product_sum(&u, j) / pf;
-    }
+    let gamma: Vec<f64> = (0..=lags)
+        .map(|j| lag_product_sum(&u, j) / p as f64)
+        .collect();
+    let s = bartlett_from(&gamma, lags + 1);
     s.is_finite().then_some(s)
 }
 
