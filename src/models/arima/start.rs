@@ -5,29 +5,7 @@
 use super::positive;
 use super::reparam::pacf_to_coef;
 use crate::numerics::acov::lag_product_sum;
-use nalgebra::{DMatrix, DVector};
-
-/// Solve the normal equations of a least-squares problem (rows of `x`).
-fn least_squares(x: &[Vec<f64>], y: &[f64]) -> Option<Vec<f64>> {
-    let k = x.first()?.len();
-    if k == 0 {
-        return Some(Vec::new());
-    }
-    let mut xtx = DMatrix::<f64>::zeros(k, k);
-    let mut xty = DVector::<f64>::zeros(k);
-    for (row, &yt) in x.iter().zip(y) {
-        for i in 0..k {
-            xty[i] += row[i] * yt;
-            for j in 0..k {
-                xtx[(i, j)] += row[i] * row[j];
-            }
-        }
-    }
-    let b = xtx.cholesky()?.solve(&xty);
-    b.iter()
-        .all(|v| v.is_finite())
-        .then(|| b.iter().copied().collect())
-}
+use crate::numerics::lsq::normal_equations::least_squares;
 
 /// Yule–Walker AR(m) by Durbin–Levinson on the sample autocovariances (always
 /// stationary); returns the coefficients.

@@ -7,11 +7,12 @@
 //!   whose leading blocks serve every leading subset of the columns (the
 //!   ADF lag search) and which drops dependent columns (the initial states
 //!   of exponential smoothing).
-//!
-//! Neither forms the normal equations.
+//! - [`normal_equations`]: XᵀX b = Xᵀy by Cholesky, kept for the arima
+//!   start values alone (its module says why).
 
 pub(crate) mod givens;
 pub(crate) mod householder;
+pub(crate) mod normal_equations;
 
 pub(crate) use givens::{LeastSquares, LinalgError, Solution};
 
