@@ -185,12 +185,7 @@ impl Likelihood for ArimaSelect {
             let start = warm.and_then(|w| w.fits[i].as_ref()).map(|f| &f.params);
             match super::arima::estimate(y, order, start) {
                 Ok(fit) => {
-                    let (aic, bic, hqic) = super::arima::information_criteria(&fit);
-                    let ic = match self.criterion {
-                        crate::spec::Criterion::Aic => aic,
-                        crate::spec::Criterion::Bic => bic,
-                        crate::spec::Criterion::Hqic => hqic,
-                    };
+                    let ic = super::arima::information_criterion(&fit, self.criterion);
                     if ic.is_finite() {
                         best.offer(ic, i);
                     }

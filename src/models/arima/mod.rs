@@ -79,7 +79,7 @@
 //!
 //! `n_params` counts p + q + (1 if μ is estimated) + 1 for σ², as statsmodels'
 //! `df_model` does; `nobs` = n − d. AIC = −2ℓ + 2k, BIC = −2ℓ + k ln nobs,
-//! HQIC = −2ℓ + 2k ln ln nobs.
+//! HQIC = −2ℓ + 2 ln ln nobs · k (the penalties of `spec::Criterion`).
 //!
 //! Failures (too few observations, non-finite data, a constant series, an
 //! optimiser that does not converge, non-finite intermediate values) are
@@ -93,6 +93,7 @@ mod start;
 #[cfg(test)]
 mod tests;
 
+use crate::spec::Criterion;
 pub(crate) use estimate::estimate;
 pub(crate) use forecast::forecast;
 use reparam::coef_to_pacf;
@@ -253,8 +254,9 @@ fn check_order(order: &ArimaOrder) -> Result<(), ArimaError> {
     Ok(())
 }
 
-/// (AIC, BIC, HQIC) with k = `n_params` (σ² included) and `nobs` = n − d, as
-/// statsmodels reports them for the model of the differenced series.
-pub(crate) fn information_criteria(fit: &ArimaFit) -> (f64, f64, f64) {
-    crate::numerics::ic::from_loglik(fit.loglik, fit.n_params, fit.nobs)
+/// The information criterion −2ℓ + penalty·k with k = `n_params` (σ²
+/// included) and the penalty for `nobs` = n − d observations, as statsmodels
+/// reports AIC, BIC and HQIC for the model of the differenced series.
+pub(crate) fn information_criterion(fit: &ArimaFit, criterion: Criterion) -> f64 {
+    crate::numerics::ic::from_loglik(fit.loglik, fit.n_params, criterion.penalty(fit.nobs))
 }
