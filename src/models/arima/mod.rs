@@ -56,11 +56,11 @@
 //!   approached to within a negligible log-likelihood (< 1e-8 in the
 //!   references) instead of creeping to infinity.
 //! * Optimiser: BFGS with central-difference gradients, Armijo backtracking
-//!   and step expansion on flat stretches, hand-written. Justification: the profile objective is smooth
-//!   in the unconstrained parameters and has only p + q dimensions, so BFGS
-//!   reaches the tight log-likelihood tolerance (1e-6) in far fewer likelihood
-//!   evaluations than Nelder–Mead, and writing it by hand avoids a dependency
-//!   (argmin & co.) for ~80 lines.
+//!   and step expansion on flat stretches (`numerics::optimise::bfgs`).
+//!   Justification: the profile objective is smooth in the unconstrained
+//!   parameters and has only p + q dimensions, so BFGS reaches the tight
+//!   log-likelihood tolerance (1e-6) in far fewer likelihood evaluations than
+//!   Nelder–Mead (see `numerics::optimise` for why it is not replaced).
 //!
 //! # Forecasts, in-sample MSE, information criteria
 //!
