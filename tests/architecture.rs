@@ -53,8 +53,8 @@ fn crate_paths(line: &str) -> Vec<String> {
             out.push(name);
         }
         // `use crate::{a, b}`: the names inside the braces.
-        if after.starts_with('{') {
-            let inner = after[1..].split('}').next().unwrap_or("");
+        if let Some(braced) = after.strip_prefix('{') {
+            let inner = braced.split('}').next().unwrap_or("");
             for part in inner.split(',') {
                 let name: String = part
                     .trim()

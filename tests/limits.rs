@@ -41,6 +41,8 @@ fn experiment(candidates: &str, scheme: &str) -> String {
 }
 
 /// Run outturn with `args` in `dir`: (exit code, stderr, seconds, peak resident bytes).
+// The child is reaped by wait4 below (to read its resource usage), not by `wait`.
+#[allow(clippy::zombie_processes)]
 fn measured(dir: &Path, args: &[&str]) -> (Option<i32>, String, f64, u64) {
     use std::os::unix::process::ExitStatusExt;
     let started = Instant::now();

@@ -9,6 +9,7 @@
 //!   estimation sample under a fixed scheme) and forecasts beyond it.
 
 use super::{Model, Order, Problem, Step};
+use crate::numerics::ic::Smallest;
 
 /// A model estimated by maximum likelihood on a sample of observations.
 pub(crate) trait Likelihood {
@@ -178,20 +179,15 @@ impl Likelihood for ArimaSelect {
     type Fit = SelectedFit;
     fn estimate(&self, y: &[f64], warm: Option<&Self::Fit>) -> Result<Self::Fit, String> {
         let mut fits = Vec::with_capacity(self.orders.len());
-        let mut best: Option<(f64, usize)> = None;
+        let mut best = Smallest::default();
         let mut last_error = String::from("no order could be estimated");
         for (i, order) in self.orders.iter().enumerate() {
             let start = warm.and_then(|w| w.fits[i].as_ref()).map(|f| &f.params);
             match super::arima::estimate(y, order, start) {
                 Ok(fit) => {
-                    let (aic, bic, hqic) = super::arima::information_criteria(&fit);
-                    let ic = match self.criterion {
-                        crate::spec::Criterion::Aic => aic,
-                        crate::spec::Criterion::Bic => bic,
-                        crate::spec::Criterion::Hqic => hqic,
-                    };
-                    if ic.is_finite() && best.is_none_or(|(b, _)| ic < b) {
-                        best = Some((ic, i));
+                    let ic = super::arima::information_criterion(&fit, self.criterion);
+                    if ic.is_finite() {
+                        best.offer(ic, i);
                     }
                     fits.push(Some(fit));
                 }
@@ -201,7 +197,7 @@ impl Likelihood for ArimaSelect {
                 }
             }
         }
-        let (_, chosen) = best.ok_or(last_error)?;
+        let (_, chosen) = best.get().ok_or(last_error)?;
         Ok(SelectedFit { fits, chosen })
     }
     fn forecast(

@@ -13,6 +13,7 @@
 //! ever looked at.
 
 use super::{CellModel, Model, Order, Problem, Step};
+use crate::numerics::ic::{concentrated_gaussian, Smallest};
 use crate::numerics::lsq::{LeastSquares, LinalgError, Solution};
 use crate::spec::{Criterion, Experiment, Family, TargetData, Trend};
 
@@ -313,19 +314,18 @@ impl Estimator {
         };
         // The largest order must be estimable: it fixes the common sample.
         self.ls[self.ls.len() - 1].check()?;
-        let mut best: Option<(f64, usize)> = None;
+        let mut best = Smallest::default();
         for (i, ls) in self.ls.iter().enumerate() {
             if ls.check().is_err() {
                 continue;
             }
-            let n = ls.rows() as f64;
-            let ic =
-                n * (ls.ssr() / n).ln() + criterion.penalty(ls.rows()) * ls.coefficients() as f64;
-            if best.is_none_or(|(b, _)| ic < b) {
-                best = Some((ic, i));
-            }
+            let penalty = criterion.penalty(ls.rows());
+            best.offer(
+                concentrated_gaussian(ls.ssr(), ls.rows(), ls.coefficients(), penalty),
+                i,
+            );
         }
-        let (_, index) = best.ok_or(LinalgError::RankDeficient { column: 0 })?;
+        let (_, index) = best.get().ok_or(LinalgError::RankDeficient { column: 0 })?;
         Ok(Chosen {
             index,
             solution: self.ls[index].solve()?,

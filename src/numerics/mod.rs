@@ -2,11 +2,10 @@
 //! (a QR factor grown row by row, with its Householder counterpart for a
 //! whole design), autocovariances and long-run variances, distribution
 //! functions, information criteria and the optimisers. Nothing here knows
-//! about experiments.
+//! about experiments; nothing here imports from the rest of the crate.
 
+pub(crate) mod acov;
+pub(crate) mod dist;
+pub(crate) mod ic;
 pub(crate) mod lsq;
-
-#[cfg(test)]
-mod incremental_qr_tests;
-#[cfg(test)]
-mod reference_ols_tests;
+pub(crate) mod optimise;

@@ -65,7 +65,7 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
     let zs: Vec<f64> = exp
         .intervals
         .iter()
-        .map(|l| crate::score::normal_quantile((1.0 + l.level) / 2.0))
+        .map(|l| crate::numerics::dist::normal_quantile((1.0 + l.level) / 2.0))
         .collect();
     for (cell, o) in cells.iter().zip(outputs) {
         let target = &exp.targets[cell.target];

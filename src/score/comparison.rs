@@ -5,7 +5,8 @@
 //! Tests are never run on the pooled `all` horizon. Bootstrap draws are
 //! seeded from `seed` and the group's name, never from thread scheduling.
 
-use super::compare;
+use super::bootstrap::{model_confidence_set, superior_predictive_ability};
+use super::pairwise::{clark_west, diebold_mariano, spearman, TestResult};
 use super::{group_errors, in_sample_rmse, rmse, Errors};
 use crate::digest::sha256_hex;
 use crate::spec::{Candidate, Experiment, Family, Trend};
@@ -83,138 +84,179 @@ fn errors_of(e: &Errors) -> Vec<f64> {
     (0..e.len()).map(|i| e.error(i)).collect()
 }
 
+/// One target × scheme × horizon: the candidates' errors there.
+struct Group<'a> {
+    exp: &'a Experiment,
+    target: usize,
+    scheme: usize,
+    horizon: usize,
+    /// "target/scheme/horizon", which seeds the group's bootstraps.
+    name: String,
+    errs: Vec<Errors>,
+}
+
+impl Group<'_> {
+    fn row(
+        &self,
+        test: &'static str,
+        candidate: Option<usize>,
+        versus: Option<usize>,
+        r: Option<TestResult>,
+    ) -> TestRow {
+        TestRow {
+            target: self.target,
+            scheme: self.scheme,
+            horizon: self.horizon,
+            test,
+            candidate,
+            versus,
+            statistic: r.map(|r| r.statistic),
+            p_value: r.map(|r| r.p_value),
+            in_set: None,
+            critical_value: None,
+        }
+    }
+
+    /// Diebold-Mariano of every candidate against the benchmark.
+    fn diebold_mariano(&self, rows: &mut Vec<TestRow>) {
+        let bench = self.exp.benchmark;
+        let ev = errors_of(&self.errs[bench]);
+        for c in (0..self.errs.len()).filter(|&c| c != bench) {
+            let r = diebold_mariano(&errors_of(&self.errs[c]), &ev, self.horizon);
+            rows.push(self.row("diebold_mariano", Some(c), Some(bench), r));
+        }
+    }
+
+    /// Clark-West of every nested pair with the benchmark as the small
+    /// model (or of every nested pair under `all_pairs`).
+    fn clark_west(&self, rows: &mut Vec<TestRow>) {
+        let exp = self.exp;
+        let n_c = self.errs.len();
+        for big in 0..n_c {
+            for small in 0..n_c {
+                let with_bench = small == exp.benchmark;
+                if !(with_bench || exp.tests.clark_west_all_pairs) {
+                    continue;
+                }
+                if !nested(&exp.candidates[small], &exp.candidates[big]) {
+                    continue;
+                }
+                let r = clark_west(
+                    &errors_of(&self.errs[big]),
+                    &errors_of(&self.errs[small]),
+                    &self.errs[big].forecast,
+                    &self.errs[small].forecast,
+                    self.horizon,
+                );
+                rows.push(self.row("clark_west", Some(big), Some(small), r));
+            }
+        }
+    }
+
+    /// The candidates with a full set of forecasts, which the bootstrap
+    /// tests use (a failed likelihood cell has none).
+    fn complete(&self) -> Vec<usize> {
+        let full = self.errs.iter().map(Errors::len).max().unwrap_or(0);
+        (0..self.errs.len())
+            .filter(|&c| self.errs[c].len() == full && full > 0)
+            .collect()
+    }
+
+    fn confidence_set(&self, alpha: f64, resamples: usize, rows: &mut Vec<TestRow>) {
+        let complete = self.complete();
+        let losses: Vec<Vec<f64>> = complete.iter().map(|&c| squared(&self.errs[c])).collect();
+        let seed = group_seed(self.exp, &format!("{}/confidence_set", self.name));
+        let result = model_confidence_set(&losses, alpha, resamples, seed);
+        for c in 0..self.errs.len() {
+            let k = complete.iter().position(|&x| x == c);
+            rows.push(TestRow {
+                p_value: result.as_ref().zip(k).map(|(r, k)| r.p_values[k]),
+                in_set: result.as_ref().zip(k).map(|(r, k)| r.included[k]),
+                ..self.row("confidence_set", Some(c), None, None)
+            });
+        }
+    }
+
+    /// Hansen (2005): does the best of the searched grid beat the benchmark?
+    fn snooping(&self, resamples: usize) -> TestRow {
+        let exp = self.exp;
+        let bench = exp.benchmark;
+        let others: Vec<usize> = self
+            .complete()
+            .into_iter()
+            .filter(|&c| c != bench)
+            .collect();
+        let losses: Vec<Vec<f64>> = others.iter().map(|&c| squared(&self.errs[c])).collect();
+        let best = others.iter().copied().min_by(|&a, &b| {
+            let ra = rmse(&self.errs[a]).unwrap_or(f64::INFINITY);
+            let rb = rmse(&self.errs[b]).unwrap_or(f64::INFINITY);
+            ra.total_cmp(&rb)
+                .then_with(|| exp.candidates[a].id.cmp(&exp.candidates[b].id))
+        });
+        let seed = group_seed(exp, &format!("{}/snooping", self.name));
+        let result = superior_predictive_ability(
+            &squared(&self.errs[bench]),
+            &losses,
+            resamples,
+            seed,
+            None,
+        );
+        TestRow {
+            statistic: result.as_ref().map(|r| r.statistic),
+            p_value: result.as_ref().map(|r| r.p_consistent),
+            ..self.row("snooping", best, Some(bench), None)
+        }
+    }
+
+    /// Overfitting: Spearman correlation of in-sample and out-of-sample
+    /// rankings, when at least three candidates have both.
+    fn rank_correlation(&self) -> Option<TestRow> {
+        let pairs: Vec<(f64, f64)> = self
+            .errs
+            .iter()
+            .filter_map(|e| Some((in_sample_rmse(e)?, rmse(e)?)))
+            .collect();
+        if pairs.len() < 3 {
+            return None;
+        }
+        let a: Vec<f64> = pairs.iter().map(|p| p.0).collect();
+        let b: Vec<f64> = pairs.iter().map(|p| p.1).collect();
+        Some(TestRow {
+            statistic: spearman(&a, &b),
+            ..self.row("rank_correlation", None, None, None)
+        })
+    }
+}
+
 pub fn run(exp: &Experiment, errors: &[Vec<Errors>]) -> Vec<TestRow> {
     let mut rows = Vec::new();
     let n_c = exp.candidates.len();
-    let bench = exp.benchmark;
     for (t, target) in exp.targets.iter().enumerate() {
         for (s, scheme) in exp.schemes.iter().enumerate() {
             for (hi, &h) in exp.horizons.iter().enumerate() {
-                let errs: Vec<Errors> = (0..n_c)
-                    .map(|c| group_errors(exp, errors, t, c, s, Some(hi), None))
-                    .collect();
-                let row = |test, candidate, versus, r: Option<compare::TestResult>| TestRow {
+                let group = Group {
+                    exp,
                     target: t,
                     scheme: s,
                     horizon: h,
-                    test,
-                    candidate,
-                    versus,
-                    statistic: r.map(|r| r.statistic),
-                    p_value: r.map(|r| r.p_value),
-                    in_set: None,
-                    critical_value: None,
+                    name: format!("{}/{}/{}", target.name, scheme.id, h),
+                    errs: (0..n_c)
+                        .map(|c| group_errors(exp, errors, t, c, s, Some(hi), None))
+                        .collect(),
                 };
                 if exp.tests.diebold_mariano {
-                    let ev = errors_of(&errs[bench]);
-                    for c in (0..n_c).filter(|&c| c != bench) {
-                        let r = compare::diebold_mariano(&errors_of(&errs[c]), &ev, h);
-                        rows.push(row("diebold_mariano", Some(c), Some(bench), r));
-                    }
+                    group.diebold_mariano(&mut rows);
                 }
                 if exp.tests.clark_west {
-                    for big in 0..n_c {
-                        for small in 0..n_c {
-                            let with_bench = small == bench;
-                            if !(with_bench || exp.tests.clark_west_all_pairs) {
-                                continue;
-                            }
-                            if !nested(&exp.candidates[small], &exp.candidates[big]) {
-                                continue;
-                            }
-                            let r = compare::clark_west(
-                                &errors_of(&errs[big]),
-                                &errors_of(&errs[small]),
-                                &errs[big].forecast,
-                                &errs[small].forecast,
-                                h,
-                            );
-                            rows.push(row("clark_west", Some(big), Some(small), r));
-                        }
-                    }
+                    group.clark_west(&mut rows);
                 }
-                let group = format!("{}/{}/{}", target.name, scheme.id, h);
-                // Bootstrap tests use the candidates with a full set of forecasts
-                // (a failed likelihood cell has none).
-                let full = errs.iter().map(Errors::len).max().unwrap_or(0);
-                let complete: Vec<usize> = (0..n_c)
-                    .filter(|&c| errs[c].len() == full && full > 0)
-                    .collect();
                 if let Some(cs) = &exp.tests.confidence_set {
-                    let losses: Vec<Vec<f64>> =
-                        complete.iter().map(|&c| squared(&errs[c])).collect();
-                    let seed = group_seed(exp, &format!("{group}/confidence_set"));
-                    let result =
-                        compare::model_confidence_set(&losses, cs.alpha, cs.resamples, seed);
-                    for c in 0..n_c {
-                        let k = complete.iter().position(|&x| x == c);
-                        rows.push(TestRow {
-                            target: t,
-                            scheme: s,
-                            horizon: h,
-                            test: "confidence_set",
-                            candidate: Some(c),
-                            versus: None,
-                            statistic: None,
-                            p_value: result.as_ref().zip(k).map(|(r, k)| r.p_values[k]),
-                            in_set: result.as_ref().zip(k).map(|(r, k)| r.included[k]),
-                            critical_value: None,
-                        });
-                    }
+                    group.confidence_set(cs.alpha, cs.resamples, &mut rows);
                 }
                 if let Some(sn) = &exp.tests.snooping {
-                    // Hansen (2005): does the best of the searched grid beat the benchmark?
-                    let others: Vec<usize> =
-                        complete.iter().copied().filter(|&c| c != bench).collect();
-                    let losses: Vec<Vec<f64>> = others.iter().map(|&c| squared(&errs[c])).collect();
-                    let best = others.iter().copied().min_by(|&a, &b| {
-                        let ra = rmse(&errs[a]).unwrap_or(f64::INFINITY);
-                        let rb = rmse(&errs[b]).unwrap_or(f64::INFINITY);
-                        ra.total_cmp(&rb)
-                            .then_with(|| exp.candidates[a].id.cmp(&exp.candidates[b].id))
-                    });
-                    let seed = group_seed(exp, &format!("{group}/snooping"));
-                    let result = compare::superior_predictive_ability(
-                        &squared(&errs[bench]),
-                        &losses,
-                        sn.resamples,
-                        seed,
-                        None,
-                    );
-                    rows.push(TestRow {
-                        target: t,
-                        scheme: s,
-                        horizon: h,
-                        test: "snooping",
-                        candidate: best,
-                        versus: Some(bench),
-                        statistic: result.as_ref().map(|r| r.statistic),
-                        p_value: result.as_ref().map(|r| r.p_consistent),
-                        in_set: None,
-                        critical_value: None,
-                    });
+                    rows.push(group.snooping(sn.resamples));
                 }
-                // Overfitting: Spearman correlation of in-sample and out-of-sample rankings.
-                let pairs: Vec<(f64, f64)> = errs
-                    .iter()
-                    .filter_map(|e| Some((in_sample_rmse(e)?, rmse(e)?)))
-                    .collect();
-                if pairs.len() >= 3 {
-                    let a: Vec<f64> = pairs.iter().map(|p| p.0).collect();
-                    let b: Vec<f64> = pairs.iter().map(|p| p.1).collect();
-                    rows.push(TestRow {
-                        target: t,
-                        scheme: s,
-                        horizon: h,
-                        test: "rank_correlation",
-                        candidate: None,
-                        versus: None,
-                        statistic: compare::spearman(&a, &b),
-                        p_value: None,
-                        in_set: None,
-                        critical_value: None,
-                    });
-                }
+                rows.extend(group.rank_correlation());
             }
         }
     }

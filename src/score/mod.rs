@@ -2,15 +2,19 @@
 //! the metrics, the pooled `all` horizon, ranks, and the in-sample versus
 //! out-of-sample comparison.
 
-pub mod compare;
+pub mod bootstrap;
 pub mod comparison;
 pub mod diagnostics;
+pub mod pairwise;
 pub mod stability;
 
+#[cfg(test)]
+mod refdata;
 #[cfg(test)]
 mod reference_metrics_tests;
 
 use crate::backtest::CellOutput;
+use crate::numerics::dist::{normal_cdf, normal_pdf, normal_quantile};
 use crate::plan::Cell;
 use crate::spec::{Experiment, Metric, MetricColumn, Scheme};
 
@@ -71,12 +75,6 @@ impl Errors {
     }
 }
 
-/// Standard normal quantile.
-pub fn normal_quantile(p: f64) -> f64 {
-    use statrs::distribution::{ContinuousCDF, Normal};
-    Normal::standard().inverse_cdf(p)
-}
-
 /// The Gaussian interval at level c: forecast ± z_{(1+c)/2}·σ̂_h (SPEC §4).
 pub fn interval(forecast: f64, sd: f64, level: f64) -> (f64, f64) {
     let z = normal_quantile((1.0 + level) / 2.0);
@@ -113,13 +111,11 @@ pub fn interval_score(e: &Errors, level: f64) -> Option<f64> {
 /// CRPS of a Gaussian forecast N(μ, σ²) at outturn y, in closed form
 /// (Gneiting & Raftery 2007, eq. 21): σ[z(2Φ(z) − 1) + 2φ(z) − 1/√π], z = (y − μ)/σ.
 pub fn crps_gaussian(mu: f64, sd: f64, y: f64) -> f64 {
-    use statrs::distribution::{Continuous, ContinuousCDF, Normal};
     if sd <= 0.0 {
         return (y - mu).abs();
     }
-    let n = Normal::standard();
     let z = (y - mu) / sd;
-    sd * (z * (2.0 * n.cdf(z) - 1.0) + 2.0 * n.pdf(z) - 1.0 / std::f64::consts::PI.sqrt())
+    sd * (z * (2.0 * normal_cdf(z) - 1.0) + 2.0 * normal_pdf(z) - 1.0 / std::f64::consts::PI.sqrt())
 }
 
 /// Mean Gaussian CRPS.
@@ -190,6 +186,15 @@ pub fn r2_oos(e: &Errors, benchmark: &Errors) -> Option<f64> {
     } else {
         None
     }
+}
+
+fn all_finite(x: &[f64]) -> bool {
+    x.iter().all(|v| v.is_finite())
+}
+
+/// `x > 0` and finite (false for NaN).
+fn positive_finite(x: f64) -> bool {
+    x.is_finite() && x > 0.0
 }
 
 fn mean(values: impl Iterator<Item = f64>, n: usize) -> Option<f64> {

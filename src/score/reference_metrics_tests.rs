@@ -15,9 +15,8 @@
 //!   recorded by the same generator in `psi_weights.json`.
 
 use crate::models::linear::psi_weights;
-use crate::score::{
-    coverage, crps, crps_gaussian, interval, interval_score, normal_quantile, Errors,
-};
+use crate::numerics::dist::normal_quantile;
+use crate::score::{coverage, crps, crps_gaussian, interval, interval_score, Errors};
 use std::path::PathBuf;
 
 fn reference_file(name: &str) -> serde_json::Value {

@@ -8,7 +8,7 @@
 //!   on every target and predictor after transformation.
 
 use super::comparison::TestRow;
-use super::diagnostics::{adf, fluctuation_test, ljung_box, AdfRegression};
+use super::diagnostics::{adf, fluctuation_test, ljung_box};
 use super::{group_errors, Errors};
 use crate::backtest::CellOutput;
 use crate::plan::Cell;
@@ -138,7 +138,7 @@ fn dynamic_parameters(family: &Family) -> usize {
 /// tests are included when `with_predictors` (once per results folder).
 /// ADF with a constant on a series after its transformation.
 fn adf_row(subject: &str, kind: &'static str, values: &[f64]) -> DiagnosticRow {
-    let r = adf(values, AdfRegression::Constant, None);
+    let r = adf(values, None);
     DiagnosticRow {
         subject: subject.to_string(),
         kind,

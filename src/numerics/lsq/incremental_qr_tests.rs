@@ -7,7 +7,7 @@
 //! generated here; no expected number comes from it. Tolerance as required:
 //! 1e-10 × max(1, |coefficient|).
 
-use super::lsq::LeastSquares;
+use super::givens::LeastSquares;
 use nalgebra::{DMatrix, DVector};
 
 fn series(n: usize) -> (Vec<f64>, Vec<f64>) {

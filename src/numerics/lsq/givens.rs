@@ -1,4 +1,4 @@
-//! Least squares, in one place. Rows are folded into an upper-triangular
+//! Least squares grown row by row. Rows are folded into an upper-triangular
 //! factor R by Givens rotations (an orthogonal QR built row by row), so an
 //! expanding estimation window costs O(k²) per new row instead of a fresh
 //! factorisation, and the normal equations are never formed. The residual
@@ -84,9 +84,6 @@ impl Solution {
     /// SSR / (rows − k): the residual variance used for intervals.
     pub fn sigma2(&self) -> f64 {
         self.ssr / (self.rows - self.coef.len()) as f64
-    }
-    pub fn predict(&self, x: &[f64]) -> f64 {
-        self.coef.iter().zip(x).map(|(b, v)| b * v).sum()
     }
 }
 
@@ -223,82 +220,6 @@ impl LeastSquares {
     pub fn ssr(&self) -> f64 {
         self.ssr
     }
-
-    /// Σ (y − ȳ)² of the rows folded in so far.
-    pub fn total_sum_of_squares(&self) -> f64 {
-        self.y_m2
-    }
-
-    /// Diagonal of (XᵀX)⁻¹ = R⁻¹R⁻ᵀ, from the rows of R⁻¹.
-    pub fn inverse_gram_diagonal(&self) -> Result<Vec<f64>, LinalgError> {
-        self.check()?;
-        let k = self.k;
-        // Columns of R⁻¹ by back substitution on unit vectors.
-        let mut inv = vec![0.0; k * k];
-        for col in 0..k {
-            for i in (0..=col).rev() {
-                let mut acc = if i == col { 1.0 } else { 0.0 };
-                for j in (i + 1)..=col {
-                    acc -= self.r[i * k + j] * inv[j * k + col];
-                }
-                inv[i * k + col] = acc / self.r[i * k + i];
-            }
-        }
-        Ok((0..k)
-            .map(|i| (i..k).map(|j| inv[i * k + j] * inv[i * k + j]).sum())
-            .collect())
-    }
-}
-
-/// A whole least-squares fit with the classical regression statistics.
-#[derive(Debug, Clone, PartialEq)]
-pub struct OlsFit {
-    pub coef: Vec<f64>,
-    /// Standard errors sqrt(σ̂² · diag (XᵀX)⁻¹), σ̂² = SSR/(rows − k).
-    pub se: Vec<f64>,
-    /// sqrt(SSR/(rows − k)).
-    pub resid_sd: f64,
-    /// Centred R² = 1 − SSR/Σ(y − ȳ)².
-    pub r2: f64,
-    pub ssr: f64,
-    pub rows: usize,
-}
-
-/// Least squares of `y` on the columns of `x` (include an intercept column
-/// explicitly if one is wanted).
-pub fn ols_fit(x: &nalgebra::DMatrix<f64>, y: &[f64]) -> Result<OlsFit, LinalgError> {
-    let k = x.ncols();
-    if x.nrows() != y.len() {
-        return Err(LinalgError::TooFewRows {
-            rows: y.len().min(x.nrows()),
-            coefficients: k,
-        });
-    }
-    let mut ls = LeastSquares::new(k);
-    let mut row = vec![0.0; k];
-    for (i, &yi) in y.iter().enumerate() {
-        for (j, v) in row.iter_mut().enumerate() {
-            *v = x[(i, j)];
-        }
-        ls.add_row(&row, yi);
-    }
-    let sol = ls.solve()?;
-    let sigma2 = sol.sigma2();
-    let se = ls
-        .inverse_gram_diagonal()?
-        .into_iter()
-        .map(|d| (sigma2 * d).sqrt())
-        .collect();
-    let mean = y.iter().sum::<f64>() / y.len() as f64;
-    let sst: f64 = y.iter().map(|v| (v - mean) * (v - mean)).sum();
-    Ok(OlsFit {
-        coef: sol.coef,
-        se,
-        resid_sd: sigma2.sqrt(),
-        r2: 1.0 - sol.ssr / sst,
-        ssr: sol.ssr,
-        rows: sol.rows,
-    })
 }
 
 #[cfg(test)]

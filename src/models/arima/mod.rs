@@ -1,0 +1,262 @@
+//! ARIMA(p, d, q) by exact Gaussian maximum likelihood (SPEC §4 `arima`).
+//!
+//! # Model and likelihood convention
+//!
+//! The series `y` is differenced `d` times, `w = Δ^d y` (n − d values), and a
+//! stationary, invertible ARMA(p, q) is fitted to `w`:
+//!
+//! ```text
+//! φ(L) (w_t − μ) = θ(L) ε_t,   ε_t ~ N(0, σ²),
+//! φ(L) = 1 − φ_1 L − … − φ_p L^p,   θ(L) = 1 + θ_1 L + … + θ_q L^q
+//! ```
+//!
+//! μ is the mean when d = 0, the drift (the constant of the differenced series)
+//! when d ≥ 1 and `drift` is set, and 0 otherwise. The likelihood is the exact
+//! Gaussian likelihood of `w` computed by the Kalman filter on Harvey's (1989)
+//! state-space form with the stationary initial state covariance (Durbin &
+//! Koopman 2001, §3.4 and §5.6).
+//!
+//! This is exactly the likelihood of statsmodels 0.14
+//! `ARIMA(w, order=(p, 0, q), trend='c' | 'n')`, and it equals — up to the
+//! additive constant −d/2·ln 2π that statsmodels assigns to the d diffuse
+//! periods — the likelihood of `ARIMA(y, order=(p, d, q), trend='n' | 't')`
+//! with an *exact* diffuse initialisation, so the maximisers coincide (the
+//! drift of `trend='t'` on the level is the constant of the differenced
+//! series). statsmodels' default level model uses an approximate diffuse prior
+//! (variance 1e6, first d periods burnt); its likelihood differs slightly, so it
+//! is not the reference. The reference values live in
+//! `tests/reference/arima/` (generator `generate_arima.py`).
+//!
+//! # Estimation
+//!
+//! * μ is concentrated out by generalised least squares (the filter runs on the
+//!   data and on a column of ones in lockstep) and σ² is concentrated out in
+//!   closed form, so the numerical search is over the p + q ARMA coefficients
+//!   only; the result is the joint MLE of (φ, θ, μ, σ²).
+//! * Stationarity and invertibility are enforced by reparametrisation
+//!   (Jones 1980; Monahan 1984): unconstrained u ↦ partial autocorrelations
+//!   tanh(u) ∈ (−1, 1) ↦ coefficients by the Durbin–Levinson recursion. For the
+//!   MA part θ = −(coefficients), which makes θ(z) invertible.
+//! * Starting values: Hannan–Rissanen (long Yule–Walker AR, then least squares
+//!   on lagged values and lagged residuals), the origin (white noise), starts
+//!   near an AR / MA unit root at z = 1, and 4–8 fixed space-filling starts
+//!   (ARMA likelihoods are often multimodal: an MA(1) on an over-differenced
+//!   series, Nile ARIMA(2,1,2)). Each gets 12 BFGS iterations, the best 3 are
+//!   run to convergence and the best optimum is kept; all deterministic.
+//! * Warm start: with `warm` (the previous window's estimate) that start is
+//!   run to convergence first; the structured cold starts (Hannan–Rissanen,
+//!   zero, near a unit root) are still screened with short runs, and any that
+//!   is already better than the warm optimum is continued.
+//!   A warm start alone could stay on the mode the previous window chose where
+//!   the likelihood has two close modes (seen on ARMA(2,1) and ARIMA(0,1,1)
+//!   expanding windows); the screen catches the cases where another mode is
+//!   clearly higher, at a fraction of a cold fit's cost.
+//! * The unconstrained parameters are bounded at |u| ≤ 10 (|partial
+//!   autocorrelation| ≤ 1 − 4e-9), so MLEs on the unit-root boundary are
+//!   approached to within a negligible log-likelihood (< 1e-8 in the
+//!   references) instead of creeping to infinity.
+//! * Optimiser: BFGS with central-difference gradients, Armijo backtracking
+//!   and step expansion on flat stretches (`numerics::optimise::bfgs`).
+//!   Justification: the profile objective is smooth in the unconstrained
+//!   parameters and has only p + q dimensions, so BFGS reaches the tight
+//!   log-likelihood tolerance (1e-6) in far fewer likelihood evaluations than
+//!   Nelder–Mead (see `numerics::optimise` for why it is not replaced).
+//!
+//! # Forecasts, in-sample MSE, information criteria
+//!
+//! [`forecast`] filters any `y` (it may extend past the estimation sample: a
+//! fixed scheme estimates once and only filters later) and returns, for the
+//! *level* of y, the conditional mean and the h-step forecast error variance
+//! for h = 1..=max_h, integrating the differenced forecasts and the full
+//! covariance of their errors.
+//!
+//! `is_mse` is the mean squared one-step prediction error over the estimation
+//! sample of the modelled (differenced) series, n − d terms, no
+//! degrees-of-freedom correction. For d ≥ 1 the one-step errors of w equal the
+//! one-step errors of the level, since y_t − ŷ_t = w_t − ŵ_t when the past
+//! levels are known. The first d levels have no one-step prediction (they are
+//! the diffuse part) and are not counted.
+//!
+//! `n_params` counts p + q + (1 if μ is estimated) + 1 for σ², as statsmodels'
+//! `df_model` does; `nobs` = n − d. AIC = −2ℓ + 2k, BIC = −2ℓ + k ln nobs,
+//! HQIC = −2ℓ + 2 ln ln nobs · k (the penalties of `spec::Criterion`).
+//!
+//! Failures (too few observations, non-finite data, a constant series, an
+//! optimiser that does not converge, non-finite intermediate values) are
+//! returned as [`ArimaError`]; nothing here panics on data or returns NaN.
+
+mod estimate;
+mod forecast;
+mod kalman;
+mod reparam;
+mod start;
+#[cfg(test)]
+mod tests;
+
+use crate::spec::Criterion;
+pub(crate) use estimate::estimate;
+pub(crate) use forecast::forecast;
+use reparam::coef_to_pacf;
+use std::fmt;
+
+/// Orders of an ARIMA(p, d, q) model; `drift` (d ≥ 1 only) adds a constant to
+/// the differenced series.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub struct ArimaOrder {
+    pub p: usize,
+    pub d: usize,
+    pub q: usize,
+    pub drift: bool,
+}
+
+impl ArimaOrder {
+    /// Whether μ (mean for d = 0, drift for d ≥ 1) is estimated.
+    pub fn has_mean(&self) -> bool {
+        self.d == 0 || self.drift
+    }
+}
+
+/// Parameters in the sign convention of the module docs:
+/// φ(L)(w_t − μ) = θ(L)ε_t with φ(L) = 1 − Σφ_i L^i, θ(L) = 1 + Σθ_j L^j.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ArimaParams {
+    pub ar: Vec<f64>,
+    pub ma: Vec<f64>,
+    /// Mean of the series (d = 0) or drift (constant of the d-times differenced
+    /// series, d ≥ 1 with `drift`); 0 when not estimated.
+    pub mean_or_drift: f64,
+    /// Innovation variance σ².
+    pub sigma2: f64,
+}
+
+/// A fitted model.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ArimaFit {
+    pub order: ArimaOrder,
+    pub params: ArimaParams,
+    /// Exact Gaussian log-likelihood of the differenced series at the estimate.
+    pub loglik: f64,
+    /// = `params.sigma2`.
+    pub sigma2: f64,
+    /// Mean squared one-step prediction error over the n − d modelled values.
+    pub is_mse: f64,
+    /// p + q + (1 if mean/drift) + 1 (σ²), as statsmodels' `df_model`.
+    pub n_params: usize,
+    /// Number of observations in the likelihood: n − d.
+    pub nobs: usize,
+    /// BFGS iterations used by the optimum kept (0 when nothing to optimise).
+    pub iterations: usize,
+}
+
+/// Typed failures of estimation and forecasting.
+#[derive(Debug, Clone, PartialEq)]
+pub enum ArimaError {
+    /// Fewer observations than the model needs.
+    TooShort { needed: usize, got: usize },
+    /// The optimiser stopped at its iteration limit with a large gradient.
+    NonConvergence { iterations: usize, gradient: f64 },
+    /// Non-finite input or intermediate value.
+    NonFinite { context: &'static str },
+    /// Zero-variance (flat) data: the likelihood is unbounded.
+    Degenerate { reason: &'static str },
+    /// Order not allowed (e.g. drift with d = 0).
+    InvalidOrder { reason: &'static str },
+    /// Parameters outside the stationary/invertible region or of wrong length.
+    InvalidParams { reason: &'static str },
+}
+
+impl fmt::Display for ArimaError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            ArimaError::TooShort { needed, got } => write!(
+                f,
+                "arima: too few observations ({got} after differencing, need at least {needed})"
+            ),
+            ArimaError::NonConvergence {
+                iterations,
+                gradient,
+            } => write!(
+                f,
+                "arima: likelihood maximisation did not converge after {iterations} iterations \
+                 (gradient norm {gradient:e})"
+            ),
+            ArimaError::NonFinite { context } => {
+                write!(f, "arima: non-finite value in {context}")
+            }
+            ArimaError::Degenerate { reason } => write!(f, "arima: degenerate data: {reason}"),
+            ArimaError::InvalidOrder { reason } => write!(f, "arima: invalid order: {reason}"),
+            ArimaError::InvalidParams { reason } => {
+                write!(f, "arima: invalid parameters: {reason}")
+            }
+        }
+    }
+}
+
+impl std::error::Error for ArimaError {}
+
+/// `x > 0`, false for NaN (written as a function for readability of `!`).
+fn positive(x: f64) -> bool {
+    x > 0.0
+}
+
+fn difference(y: &[f64], d: usize) -> Vec<f64> {
+    let mut w = y.to_vec();
+    for _ in 0..d {
+        if w.len() < 2 {
+            return Vec::new();
+        }
+        w = w.windows(2).map(|s| s[1] - s[0]).collect();
+    }
+    w
+}
+
+fn check_params(params: &ArimaParams, order: &ArimaOrder) -> Result<(), ArimaError> {
+    if params.ar.len() != order.p || params.ma.len() != order.q {
+        return Err(ArimaError::InvalidParams {
+            reason: "coefficient counts do not match the order",
+        });
+    }
+    let all = params
+        .ar
+        .iter()
+        .chain(&params.ma)
+        .chain([&params.mean_or_drift, &params.sigma2]);
+    if !all.into_iter().all(|x| x.is_finite()) {
+        return Err(ArimaError::NonFinite {
+            context: "parameters",
+        });
+    }
+    if !positive(params.sigma2) {
+        return Err(ArimaError::InvalidParams {
+            reason: "sigma2 must be positive",
+        });
+    }
+    if coef_to_pacf(&params.ar).is_none() {
+        return Err(ArimaError::InvalidParams {
+            reason: "AR part is not stationary",
+        });
+    }
+    let neg: Vec<f64> = params.ma.iter().map(|x| -x).collect();
+    if coef_to_pacf(&neg).is_none() {
+        return Err(ArimaError::InvalidParams {
+            reason: "MA part is not invertible",
+        });
+    }
+    Ok(())
+}
+
+fn check_order(order: &ArimaOrder) -> Result<(), ArimaError> {
+    if order.drift && order.d == 0 {
+        return Err(ArimaError::InvalidOrder {
+            reason: "drift needs d >= 1 (d = 0 estimates a mean)",
+        });
+    }
+    Ok(())
+}
+
+/// The information criterion −2ℓ + penalty·k with k = `n_params` (σ²
+/// included) and the penalty for `nobs` = n − d observations, as statsmodels
+/// reports AIC, BIC and HQIC for the model of the differenced series.
+pub(crate) fn information_criterion(fit: &ArimaFit, criterion: Criterion) -> f64 {
+    crate::numerics::ic::from_loglik(fit.loglik, fit.n_params, criterion.penalty(fit.nobs))
+}

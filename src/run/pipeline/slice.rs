@@ -1,0 +1,248 @@
+//! One target's slice of every table: its cells combined, scored, tested
+//! and formatted, and the rows its part of the report reads, parsed from
+//! that slice exactly as `outturn render` parses a whole folder.
+
+use super::TABLES;
+use crate::backtest::{self, CellOutput};
+use crate::plan;
+use crate::report;
+use crate::results::manifest;
+use crate::results::{self, diagnostics, forecasts, outlook, scores, series, stability};
+use crate::results::{Rows, Tables};
+use crate::score;
+use crate::spec::Experiment;
+
+/// Targets whose rows the report draws in full: the charted ones, when
+/// there is an HTML report to chart them in.
+fn report_targets(exp: &Experiment) -> usize {
+    if exp.formats.contains(&crate::spec::ReportFormat::Html) {
+        report::CHART_TARGETS
+    } else {
+        0
+    }
+}
+
+/// One target's slice of every table.
+pub(super) struct Slice {
+    pub tables: [Vec<u8>; 8],
+    /// The rows the report reads of this target, parsed from its slice of
+    /// the tables exactly as `outturn render` parses a whole folder, and the
+    /// target's part of the report built from them.
+    pub report_rows: std::result::Result<(Rows, report::TargetPart), String>,
+    pub cells: Vec<manifest::CellFacts>,
+    pub failed: usize,
+}
+
+pub(super) fn header(bytes: &[u8]) -> &[u8] {
+    match bytes.iter().position(|b| *b == b'\n') {
+        Some(i) => &bytes[..=i],
+        None => bytes,
+    }
+}
+
+/// Score, test and format one target. `outputs` are its cells in plan order
+/// (candidates × schemes), combinations not yet formed.
+pub(super) fn slice(
+    exp: &Experiment,
+    parts: &report::PartContext,
+    t: usize,
+    mut outputs: Vec<CellOutput>,
+) -> Slice {
+    let sub = exp.for_target(t);
+    let cells = plan::cells(&sub);
+    backtest::combine(&sub, &cells, &mut outputs);
+    let errors = score::cell_errors(&sub, &cells, &outputs);
+    let Formatted {
+        forecasts_bytes,
+        report_forecasts,
+        stability_bytes,
+        report_stability,
+        fluctuation,
+        scores_bytes,
+        mut tests,
+        diagnostics_bytes,
+        series,
+        report_series,
+        outlook_bytes,
+    } = formatted(exp, &sub, t, &cells, &outputs, &errors);
+    tests.extend(fluctuation);
+    tests.sort_by_key(|r| (r.target, r.scheme, r.horizon));
+    let cells_facts = cells
+        .iter()
+        .zip(&outputs)
+        .map(|(c, o)| manifest::CellFacts {
+            id: c.id.clone(),
+            failure: o.failure.clone(),
+            fallbacks: o.fallbacks,
+            seconds: o.seconds,
+            cached: o.cached,
+        })
+        .collect();
+    let tables = [
+        forecasts_bytes,
+        scores_bytes,
+        results::tests::write(&sub, &tests),
+        stability_bytes,
+        diagnostics_bytes,
+        series,
+        if t == 0 {
+            exp.source_text.clone().into_bytes()
+        } else {
+            Vec::new()
+        },
+        outlook_bytes,
+    ];
+    // The report reads every small table whole; of the large ones only the
+    // rows it draws (none of stability.csv beyond the charted targets: that
+    // table is left out).
+    let report_tables: Tables = TABLES
+        .iter()
+        .zip(&tables)
+        .map(|(&name, table)| {
+            let keep: &[u8] = match name {
+                "forecasts.csv" => &report_forecasts,
+                "stability.csv" => &report_stability,
+                "series.csv" => &report_series,
+                _ => table,
+            };
+            (name, keep)
+        })
+        .filter(|(_, keep)| !keep.is_empty())
+        .collect();
+    let draw = exp.formats.contains(&crate::spec::ReportFormat::Html);
+    let report_rows = Rows::read(&report_tables, parts.grid())
+        .map_err(|e| e.to_string())
+        .and_then(|rows| parts.part(t, rows, draw))
+        .map(|(part, rows)| (rows, part));
+    Slice {
+        tables,
+        report_rows,
+        cells: cells_facts,
+        failed: outputs.iter().filter(|o| o.failure.is_some()).count(),
+    }
+}
+
+/// A target's tables formatted, and what of the large ones the report keeps.
+struct Formatted {
+    forecasts_bytes: Vec<u8>,
+    report_forecasts: Vec<u8>,
+    stability_bytes: Vec<u8>,
+    report_stability: Vec<u8>,
+    fluctuation: Vec<score::comparison::TestRow>,
+    scores_bytes: Vec<u8>,
+    tests: Vec<score::comparison::TestRow>,
+    diagnostics_bytes: Vec<u8>,
+    series: Vec<u8>,
+    report_series: Vec<u8>,
+    outlook_bytes: Vec<u8>,
+}
+
+/// Score, test and format target `t` (its experiment `sub`, its cells
+/// combined): the four independent parts side by side.
+fn formatted(
+    exp: &Experiment,
+    sub: &Experiment,
+    t: usize,
+    cells: &[plan::Cell],
+    outputs: &[CellOutput],
+    errors: &[Vec<score::Errors>],
+) -> Formatted {
+    // The parts below are independent: a worker that has run out of targets
+    // takes some of them over (rayon runs a join in place when none is idle).
+    let charted = t < report_targets(exp);
+    let forecasts_part = || {
+        let tables = forecasts::write(sub, cells, outputs);
+        let keep = if charted {
+            tables.clone()
+        } else if t >= report::DETAIL_TARGETS {
+            // Beyond the detailed targets the report shows only the verdict.
+            header(&tables).to_vec()
+        } else {
+            // Beyond the charted targets the report reads the benchmark's
+            // forecasts (spans and counts) and where every other series begins.
+            forecasts::write(sub, cells, &report_firsts(exp, cells, outputs))
+        };
+        (tables, keep)
+    };
+    let stability_part = || {
+        let (stability, fluctuation) = score::stability::rolling(sub, errors);
+        let bytes = stability::write(sub, &stability);
+        let keep = if charted { bytes.clone() } else { Vec::new() };
+        (bytes, keep, fluctuation)
+    };
+    let scores_part = || {
+        let scores = score::scores(sub, errors);
+        let tests = score::comparison::run(sub, errors);
+        (scores::write(sub, &scores), tests)
+    };
+    let rest_part = || {
+        let diagnostics = score::stability::diagnostics(sub, cells, outputs, t == 0);
+        let series = series::write(sub, t == 0);
+        let keep = if t < report::DETAIL_TARGETS {
+            series.clone()
+        } else {
+            header(&series).to_vec()
+        };
+        (
+            diagnostics::write(&diagnostics),
+            series,
+            keep,
+            outlook::write(sub, cells, outputs),
+        )
+    };
+    let (
+        ((forecasts_bytes, report_forecasts), (stability_bytes, report_stability, fluctuation)),
+        ((scores_bytes, tests), (diagnostics_bytes, series, report_series, outlook_bytes)),
+    ) = rayon::join(
+        || rayon::join(forecasts_part, stability_part),
+        || rayon::join(scores_part, rest_part),
+    );
+    Formatted {
+        forecasts_bytes,
+        report_forecasts,
+        stability_bytes,
+        report_stability,
+        fluctuation,
+        scores_bytes,
+        tests,
+        diagnostics_bytes,
+        series,
+        report_series,
+        outlook_bytes,
+    }
+}
+
+/// Of each cell, the first forecast per horizon; of the benchmark, all.
+fn report_firsts(
+    exp: &Experiment,
+    cells: &[plan::Cell],
+    outputs: &[CellOutput],
+) -> Vec<CellOutput> {
+    outputs
+        .iter()
+        .zip(cells)
+        .map(|(o, cell)| {
+            if cell.candidate == exp.benchmark {
+                return CellOutput {
+                    forecasts: o.forecasts.clone(),
+                    ..Default::default()
+                };
+            }
+            let mut seen = Vec::new();
+            let forecasts = o
+                .forecasts
+                .iter()
+                .filter(|r| {
+                    let new = !seen.contains(&r.horizon);
+                    seen.push(r.horizon);
+                    new
+                })
+                .copied()
+                .collect();
+            CellOutput {
+                forecasts,
+                ..Default::default()
+            }
+        })
+        .collect()
+}
