@@ -57,10 +57,11 @@ fn open_streams(dir: &Path, durable: bool) -> Result<Vec<Stream>> {
         .collect()
 }
 
-/// The streams flushed: each table's manifest entry, and its open file (to sync).
-fn close_streams(
-    streams: Vec<Stream>,
-) -> Result<(Vec<OutputFile>, Vec<(&'static str, std::fs::File)>)> {
+/// A table's name and its open file, to sync.
+type OpenFile = (&'static str, std::fs::File);
+
+/// The streams flushed: each table's manifest entry, and its open file.
+fn close_streams(streams: Vec<Stream>) -> Result<(Vec<OutputFile>, Vec<OpenFile>)> {
     let mut outputs = Vec::new();
     let mut files = Vec::new();
     for s in streams {
