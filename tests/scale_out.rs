@@ -675,3 +675,21 @@ fn verify_reports_every_added_missing_and_changed_file() {
     assert!(said.contains("notes.txt was added to the folder"), "{said}");
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// verify and render of a shard folder say to merge first (exit 2).
+#[test]
+fn a_shard_folder_is_merged_before_it_is_verified_or_rendered() {
+    let dir = scratch("shard-first");
+    let shard = dir.join("k1");
+    ok(&run_args(&demo(), &shard, &["--shard", "1/2"]));
+    for command in ["verify", "render"] {
+        let o = outturn(&[command, shard.to_str().unwrap()]);
+        let said = String::from_utf8_lossy(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{command}: {said}");
+        assert!(
+            said.contains("shard folder") && said.contains("merge"),
+            "{command}: {said}"
+        );
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+}
