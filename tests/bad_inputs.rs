@@ -1071,3 +1071,32 @@ fn a_byte_order_mark_is_accepted() {
     );
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// `multi_step: iterated` changes ar candidates only: `check` says so when
+/// ardl candidates (which forecast each horizon directly) share the grid,
+/// and estimates the run time; the experiment stays valid.
+#[test]
+fn check_warns_of_iterated_ardl_and_estimates_the_time() {
+    let dir = scratch("iterated");
+    std::fs::write(
+        dir.join("exp.yaml"),
+        BASE.replace(
+            "  horizons: [1, 4]\n",
+            "  horizons: [1, 4]\n  multi_step: iterated\n",
+        ),
+    )
+    .unwrap();
+    std::fs::write(dir.join("data.csv"), base_csv()).unwrap();
+    let out = outturn(&["check", "exp.yaml"], &dir);
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    let stdout = String::from_utf8_lossy(&out.stdout);
+    assert_eq!(out.status.code(), Some(0), "{stderr}");
+    assert!(
+        stderr.contains(
+            "exp.yaml:22: backtest.multi_step: iterated applies to ar candidates only; ardl(1,1)"
+        ),
+        "{stderr}"
+    );
+    assert!(stdout.contains("estimated run time: about"), "{stdout}");
+    let _ = std::fs::remove_dir_all(&dir);
+}

@@ -58,6 +58,8 @@ pub(super) struct Decoded {
     schemes: Vec<PendingScheme>,
     horizons: Vec<usize>,
     multi_step: MultiStep,
+    /// The line of `backtest.multi_step`, when it is given.
+    multi_step_line: Option<usize>,
     candidates: Vec<Candidate>,
     scoring: Scoring,
     benchmark: usize,
@@ -124,6 +126,13 @@ pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
         Some(b) => decode_backtest(ctx, b),
         None => (Vec::new(), Vec::new(), MultiStep::Direct),
     };
+    let multi_step_line = top.get("backtest").and_then(|b| match &b.kind {
+        Kind::Map(entries) => entries
+            .iter()
+            .find(|(k, _)| matches!(&k.kind, Kind::Scalar(s, _) if s == "multi_step"))
+            .map(|(k, _)| k.line),
+        _ => None,
+    });
     let candidates = match need(ctx, "candidates") {
         Some(c) => decode_candidates(ctx, c, &predictors),
         None => Vec::new(),
@@ -149,6 +158,7 @@ pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
         schemes,
         horizons,
         multi_step,
+        multi_step_line,
         candidates,
         scoring,
         benchmark,
@@ -386,6 +396,40 @@ fn line_node(line: usize) -> Node {
     }
 }
 
+/// `multi_step: iterated` changes ar candidates only (SPEC §4): say so when
+/// the grid holds others that forecast each horizon directly.
+fn iterated_warning(
+    path: &Path,
+    multi_step: MultiStep,
+    line: Option<usize>,
+    candidates: &[Candidate],
+) -> Option<String> {
+    if multi_step != MultiStep::Iterated {
+        return None;
+    }
+    let direct: Vec<&str> = candidates
+        .iter()
+        .filter(|c| matches!(c.family, Family::Ardl { .. } | Family::ArdlSelect { .. }))
+        .map(|c| c.id.as_str())
+        .collect();
+    if direct.is_empty() {
+        return None;
+    }
+    let shown = direct
+        .iter()
+        .take(5)
+        .copied()
+        .collect::<Vec<_>>()
+        .join(", ");
+    Some(format!(
+        "{}:{}: backtest.multi_step: iterated applies to ar candidates only; {}{} forecast each horizon directly (their predictors' future values are not forecast) — docs/experiment-file.md",
+        path.display(),
+        line.unwrap_or(1),
+        shown,
+        if direct.len() > 5 { ", …" } else { "" }
+    ))
+}
+
 /// SPEC §4: the id named, else naive when it is a candidate, else the first candidate.
 fn resolve_benchmark(ctx: &mut Ctx, scoring: &Scoring, candidates: &[Candidate]) -> usize {
     match &scoring.benchmark {
@@ -466,6 +510,14 @@ impl Decoded {
         ) else {
             return None;
         };
+        let warnings = iterated_warning(
+            path,
+            self.multi_step,
+            self.multi_step_line,
+            &self.candidates,
+        )
+        .into_iter()
+        .collect();
         let Scoring {
             metrics,
             rank_by,
@@ -495,6 +547,7 @@ impl Decoded {
             rolling_window,
             rank_by,
             benchmark: self.benchmark,
+            warnings,
             formats: self.formats,
             seed: self.seed,
         })

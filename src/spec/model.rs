@@ -477,6 +477,9 @@ pub struct Declaration {
     pub benchmark: usize,
     pub formats: Vec<ReportFormat>,
     pub seed: u64,
+    /// What the file asks that outturn does differently than it may seem
+    /// (said by `check` and `run`, never an error), with the file and line.
+    pub warnings: Vec<String>,
 }
 
 /// The checked experiment: its declaration and its data, resolved to positions.

@@ -153,7 +153,8 @@ fn write_reports_and_manifest(
 
 /// What `produce` wrote.
 pub struct Produced {
-    pub failed_cells: usize,
+    /// The cells that could not be estimated: (id, why).
+    pub failed_cells: Vec<(String, String)>,
 }
 
 /// Write every file of a results folder into `dir`, each synced to disk when
@@ -188,13 +189,13 @@ pub fn produce(
         // One thread of work means one: compute and write in turn.
         w = pool.install(|| -> Result<Written> {
             for t in 0..exp.targets.len() {
-                let s = slice::slice(exp, &parts, t, source(t)?);
+                let s = slice::slice(ctx.progress, exp, &parts, t, source(t)?);
                 w.append(t == 0, s)?;
             }
             Ok(w)
         })?;
     } else {
-        w = stream::stream_in_order(exp, &parts, source, w, pool, window.max(1))?;
+        w = stream::stream_in_order(ctx.progress, exp, &parts, source, w, pool, window.max(1))?;
     }
     let Written {
         streams,
@@ -205,6 +206,14 @@ pub fn produce(
         failed,
     } = w;
     ctx.step("tables streamed");
+    debug_assert_eq!(
+        failed,
+        cell_facts.iter().filter(|c| c.failure.is_some()).count()
+    );
+    let failed_cells: Vec<(String, String)> = cell_facts
+        .iter()
+        .filter_map(|c| Some((c.id.clone(), c.failure.clone()?)))
+        .collect();
     let (outputs, files) = close_streams(streams)?;
     // The large tables reach the disk while the reports are rendered.
     let durable = ctx.durable;
@@ -232,7 +241,5 @@ pub fn produce(
         .join()
         .map_err(|_| Error::Internal("syncing the tables stopped unexpectedly".into()))??;
     ctx.step("reports and manifest");
-    Ok(Produced {
-        failed_cells: failed,
-    })
+    Ok(Produced { failed_cells })
 }
