@@ -55,6 +55,15 @@ enum Command {
         /// Worker threads (default: all cores).
         #[arg(long, value_parser = clap::value_parser!(u16).range(1..=MAX_JOBS))]
         jobs: Option<u16>,
+        /// A folder holding the data file, for a results folder copied to
+        /// another machine (else it is looked for beside the recorded
+        /// experiment file and the results folder).
+        #[arg(long)]
+        data: Option<PathBuf>,
+        /// The templates the reports were rendered with, if not the built-in
+        /// ones (after `render --templates`).
+        #[arg(long)]
+        templates: Option<PathBuf>,
     },
     /// Join the shard folders of one experiment into one results folder.
     Merge {
@@ -288,7 +297,11 @@ fn main() -> ExitCode {
                 Err(e) => Err(e),
             }
         }
-        Command::Verify { dir, jobs } => match outturn::verify(&dir, jobs.map(usize::from)) {
+        Command::Verify { dir, jobs, data, templates } => match outturn::verify(
+            &dir,
+            jobs.map(usize::from),
+            &outturn::VerifyInputs { data: data.as_deref(), templates: templates.as_deref() },
+        ) {
             Ok(v) if v.differences.is_empty() => {
                 println!("verified: all {} outputs of {} are byte-identical to a rerun", v.files, dir.display());
                 Ok(())

@@ -197,6 +197,7 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<(usize, Vec<(String, String
         shard: format!("merged {count}"),
         durable: true,
         progress: &super::Silent,
+        templates: &crate::report::render::default_templates(),
     };
     let per = exp.candidates.len() * exp.schemes.len();
     let source = |t: usize| -> Result<Vec<CellOutput>> {

@@ -146,6 +146,8 @@ pub(crate) struct RunContext<'a> {
     /// be swapped in); `verify`'s scratch copy, compared and removed, needs not.
     pub durable: bool,
     pub progress: &'a dyn Progress,
+    /// The report templates (the built-in ones but for `verify --templates`).
+    pub templates: &'a crate::report::render::Templates,
 }
 
 impl RunContext<'_> {
@@ -165,6 +167,7 @@ pub fn interrupted() -> bool {
 
 pub fn run(path: &Path, opts: &RunOptions, progress: &dyn Progress) -> Result<RunSummary> {
     let started = Instant::now();
+    let templates = crate::report::render::default_templates();
     let started_unix = now_unix();
     let exp = spec::load(path)?;
     let ctx = RunContext {
@@ -177,6 +180,7 @@ pub fn run(path: &Path, opts: &RunOptions, progress: &dyn Progress) -> Result<Ru
             .unwrap_or_else(|| "1/1".into()),
         durable: true,
         progress,
+        templates: &templates,
     };
     ctx.step("experiment and data read");
     plan::check_size(&exp)?;

@@ -91,7 +91,7 @@ pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
             return None;
         }
         if s.len() > limits::MAX_NAME {
-            ctx.error(n, format!("the experiment name has {} characters; at most {} (it names the results folder)", s.len(), limits::MAX_NAME));
+            ctx.refuse(n, format!("the experiment name has {} characters; at most {} (it names the results folder)", s.len(), limits::MAX_NAME));
             return None;
         }
         Some(s)
@@ -284,7 +284,7 @@ fn decode_backtest(ctx: &mut Ctx, b: &Node) -> (Vec<PendingScheme>, Vec<usize>, 
                     if horizons.contains(&(v as usize)) {
                         ctx.error(item, format!("horizon {v} is listed twice"));
                     } else if v as usize > limits::MAX_HORIZON {
-                        ctx.error(
+                        ctx.refuse(
                             item,
                             format!("horizon {v} is larger than any data set could support"),
                         );
@@ -501,7 +501,7 @@ impl Decoded {
         {
             return None;
         }
-        let (Some(name), Some(_), Some(_), Some(frequency), Some(transform)) = (
+        let (Some(name), Some((data_file, _)), Some(_), Some(frequency), Some(transform)) = (
             self.name,
             self.data.file,
             self.data.time,
@@ -533,6 +533,7 @@ impl Decoded {
             notes: self.notes,
             source_path: path.to_path_buf(),
             source_text: text.to_string(),
+            data_file,
             frequency,
             transform,
             predictors: self.predictors.list,
@@ -557,7 +558,13 @@ impl Decoded {
 /// Read the data and resolve the decoded experiment against it. The data
 /// are checked even when the experiment file has problems of its own, so
 /// that `check` lists both.
-pub(super) fn with_data(ctx: &mut Ctx, d: Decoded, path: &Path, text: &str) -> Option<Experiment> {
+pub(super) fn with_data(
+    ctx: &mut Ctx,
+    d: Decoded,
+    path: &Path,
+    text: &str,
+    data_at: Option<&Path>,
+) -> Option<Experiment> {
     let (
         Some((data_file, data_file_node)),
         Some((time_col, time_node)),
@@ -567,8 +574,14 @@ pub(super) fn with_data(ctx: &mut Ctx, d: Decoded, path: &Path, text: &str) -> O
     else {
         return None;
     };
-    let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
-    let data_path: PathBuf = base.join(data_file);
+    let data_path: PathBuf = match data_at {
+        Some(file) => file.to_path_buf(),
+        None => path
+            .parent()
+            .map(Path::to_path_buf)
+            .unwrap_or_default()
+            .join(data_file),
+    };
     if let Err(m) = super::regular_file(&data_path) {
         ctx.error(data_file_node, format!("the data file: {m}"));
         return None;

@@ -52,7 +52,7 @@ pub(super) fn check_grid(
 ) {
     let cells = targets.saturating_mul(candidates).saturating_mul(schemes);
     if cells > MAX_CELLS {
-        ctx.error(
+        ctx.refuse(
             node,
             format!("the grid has {targets} target(s) × {candidates} candidate(s) × {schemes} scheme(s) = {cells} cells; one run takes at most {MAX_CELLS} — split the targets over several experiments or run shards of a smaller grid"),
         );
@@ -76,7 +76,7 @@ pub(super) fn check_data_sizes(
                 // At the first origin T0 every scheme estimates with E = T0 (SPEC §4).
                 let end = t.first_origins[s];
                 if let Some(problem) = too_little_data(&c.family, scheme, end) {
-                    ctx.error(
+                    ctx.refuse(
                         &node,
                         format!(
                             "candidate {} on target '{}' under scheme {}: {problem}",

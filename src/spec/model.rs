@@ -457,6 +457,8 @@ pub struct Declaration {
     pub title: String,
     pub source_path: PathBuf,
     pub source_text: String,
+    /// The data file as written (relative to the experiment file).
+    pub data_file: String,
     pub frequency: Frequency,
     pub transform: Transform,
     pub predictors: Vec<Predictor>,

@@ -122,8 +122,8 @@ fn write_reports_and_manifest(
     };
     // Reports: rendered from the tables and the manifest's deterministic
     // part, exactly as `outturn render` does from the folder.
-    let templates = report::render::default_templates();
-    let templates_used = report::render::used_templates(&templates, &exp.formats);
+    let templates = ctx.templates;
+    let templates_used = report::render::used_templates(templates, &exp.formats);
     // The manifest is built once: without its run section it is what the
     // report reads (outputs so far hold only the tables); the run section
     // and the reports' entries are added before it is written.
@@ -138,7 +138,7 @@ fn write_reports_and_manifest(
     // On this thread: handing the work to a pool thread that has gone to
     // sleep costs the time it takes to wake (milliseconds on a virtual machine).
     let rendered =
-        report::render::reports_of(folder, Some(report_parts), &core, &exp.formats, &templates)
+        report::render::reports_of(folder, Some(report_parts), &core, &exp.formats, templates)
             .map_err(Error::Report)?;
     for (name, bytes) in &rendered {
         manifest
