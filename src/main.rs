@@ -239,6 +239,8 @@ fn partial(failed: &[(String, String)], cells: usize, folder: &std::path::Path) 
     }
 }
 
+/// One match over the commands, each arm a few lines that parse the flags and
+/// call the library: the length is the number of commands, not logic.
 fn main() -> ExitCode {
     let _ = ctrlc::set_handler(|| {
         if outturn::interrupted() {

@@ -131,8 +131,11 @@ fn check_shards(manifests: &[(PathBuf, PathBuf, ShardManifest)]) -> Result<()> {
     Ok(())
 }
 
-/// `outturn merge DIR... --out DIR`.
-/// `outturn merge`: the cell count, and the cells that could not be estimated (id, why).
+/// `outturn merge DIR... --out DIR`: the cell count, and the cells that could not be estimated (id, why).
+///
+/// One function because its refusals (same experiment, same build, shards
+/// complete and disjoint, every table as written) run in this order before a
+/// byte is written, and each names the folder it concerns.
 pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<(usize, Vec<(String, String)>)> {
     let started = std::time::Instant::now();
     if dirs.is_empty() {

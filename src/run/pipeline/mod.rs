@@ -160,6 +160,9 @@ pub struct Produced {
 /// Write every file of a results folder into `dir`, each synced to disk when
 /// this returns if `ctx.durable`. `source(t)` gives target t's cell outputs in plan order
 /// (candidates × schemes; combinations empty).
+///
+/// Its length is the list of output files, written in a fixed order; each
+/// table's own code lives in `results/`.
 pub fn produce(
     exp: &Experiment,
     source: &(dyn Fn(usize) -> Result<Vec<CellOutput>> + Sync),

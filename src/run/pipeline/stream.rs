@@ -111,6 +111,9 @@ impl Drop for StopOnPanic<'_> {
 /// work, and a worker loop started there would wait for the files to move
 /// on while the target beneath it, which they need, could not finish. Once
 /// every loop runs, only a target's own small jobs are left to pick up.
+/// It stays one function because the worker loop, the hand-over of finished
+/// targets and the in-order writer share one lock and one condition: split,
+/// the waits and wake-ups could no longer be read together.
 pub(super) fn stream_in_order(
     progress_to: &dyn crate::progress::Progress,
     exp: &Experiment,
