@@ -265,7 +265,7 @@ fn main() -> ExitCode {
                 s.experiment, s.targets, s.candidates, s.schemes, s.cells, s.horizons, s.forecasts
             );
             println!(
-                "estimated run time: about {} on {} thread(s) (an estimate: least-squares and benchmark cells timed here, arima and smoothing cells from one timed estimation each)",
+                "estimated run time: about {} on {} thread(s) (an estimate: least-squares and benchmark cells timed here, arima, smoothing and theta cells from one timed estimation each)",
                 duration_words(s.estimated_seconds),
                 s.threads
             );

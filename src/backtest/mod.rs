@@ -264,11 +264,11 @@ struct TimeOneFit {
 }
 
 impl models::Visitor for TimeOneFit {
-    type Out = Option<f64>;
-    fn visit<M: Model>(self, model: &M) -> Option<f64> {
+    type Out = std::result::Result<f64, String>;
+    fn visit<M: Model>(self, model: &M) -> std::result::Result<f64, String> {
         let started = std::time::Instant::now();
-        model.fit(self.end, self.window).ok()?;
-        Some(started.elapsed().as_secs_f64())
+        model.fit(self.end, self.window)?;
+        Ok(started.elapsed().as_secs_f64())
     }
 }
 
@@ -293,9 +293,14 @@ pub(crate) fn estimations(exp: &Experiment, cell: &Cell) -> usize {
     ends.len()
 }
 
-/// The seconds one estimation of the cell's model takes at its first origin
-/// (None when it cannot be estimated there).
-pub(crate) fn time_one_estimation(exp: &Experiment, cell: &Cell) -> Option<f64> {
+/// The seconds one estimation of the cell's model takes at its first
+/// origin, or why that estimation fails; `Err` when the model cannot be
+/// built on these data at all (the run refuses such a cell), as a
+/// diagnostic at the candidate's line.
+pub(crate) fn time_one_estimation(
+    exp: &Experiment,
+    cell: &Cell,
+) -> std::result::Result<std::result::Result<f64, String>, Diagnostic> {
     let schedule = schedule_of(exp, cell);
     let model = CellModel {
         exp,
@@ -308,7 +313,14 @@ pub(crate) fn time_one_estimation(exp: &Experiment, cell: &Cell) -> Option<f64> 
         end: schedule.first_origin,
         window: schedule.window(),
     };
-    models::visit(&model, timer).ok()?
+    models::visit(&model, timer).map_err(|message| {
+        let p = EstimationProblem {
+            horizon: 0,
+            origin: 0,
+            message,
+        };
+        problem_diagnostic(exp, cell, &p)
+    })
 }
 
 /// Whether a cell's output read back from a file (a shard folder, the

@@ -137,6 +137,29 @@ impl Likelihood for Smoothing {
     }
 }
 
+/// The theta method through [`super::theta`]: estimated in closed form
+/// and by a one-dimensional search, so a warm start has nothing to add.
+impl Likelihood for super::theta::Theta {
+    type Fit = super::theta::ThetaFit;
+    fn estimate(&self, y: &[f64], _warm: Option<&Self::Fit>) -> Result<Self::Fit, String> {
+        super::theta::Theta::estimate(self, y)
+    }
+    fn forecast(
+        &self,
+        fit: &Self::Fit,
+        y: &[f64],
+        max_h: usize,
+    ) -> Result<Vec<(f64, f64)>, String> {
+        Ok(super::theta::Theta::forecast(self, fit, y, max_h))
+    }
+    fn is_mse(&self, fit: &Self::Fit) -> f64 {
+        fit.is_mse
+    }
+    fn residuals(&self, fit: &Self::Fit, y: &[f64]) -> Vec<f64> {
+        self.one_step_errors(fit, y).1
+    }
+}
+
 /// arima(p,d,q) through [`super::arima`].
 pub(crate) struct Arima {
     pub order: super::arima::ArimaOrder,

@@ -18,6 +18,7 @@ pub(crate) mod combination;
 pub(crate) mod likelihood;
 pub(crate) mod linear;
 pub(crate) mod smoothing;
+pub(crate) mod theta;
 
 use crate::plan::Schedule;
 use crate::spec::{Experiment, Family, MultiStep, TargetData};
@@ -216,6 +217,21 @@ pub(crate) fn visit<V: Visitor>(cell: &CellModel, visitor: V) -> Result<V::Out, 
                 )?,
             },
         }),
+        Family::Theta { multiplicative } => visitor.visit(&likelihood::OnSeries {
+            y: &cell.target.y,
+            model: theta::Theta {
+                season: match (*multiplicative, exp.season_length()) {
+                    (false, _) => None,
+                    (true, Some(m)) if m >= 2 => Some(m),
+                    (true, _) => {
+                        return Err(format!(
+                            "theta with deseasonalise: multiplicative needs seasonal data; {} data have no season length",
+                            exp.frequency.name()
+                        ))
+                    }
+                },
+            },
+        }),
         Family::Combination { .. } => return Err("a combination is formed from its members".into()),
     })
 }
@@ -225,6 +241,9 @@ pub(crate) fn visit<V: Visitor>(cell: &CellModel, visitor: V) -> Result<V::Out, 
 pub(crate) fn is_likelihood(family: &Family) -> bool {
     matches!(
         family,
-        Family::Arima { .. } | Family::ArimaSelect { .. } | Family::Smoothing { .. }
+        Family::Arima { .. }
+            | Family::ArimaSelect { .. }
+            | Family::Smoothing { .. }
+            | Family::Theta { .. }
     )
 }

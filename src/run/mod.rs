@@ -57,6 +57,9 @@ pub fn check(path: &Path) -> Result<CheckSummary> {
     backtest::run_selected(&exp, &cells, &quick, None, &Silent)?;
     let quick_seconds = started.elapsed().as_secs_f64();
     let threads = std::thread::available_parallelism().map_or(1, |n| n.get());
+    let (likelihood, failing) = likelihood_seconds(&exp, &cells)?;
+    let mut warnings = exp.warnings.clone();
+    warnings.extend(failing);
     Ok(CheckSummary {
         experiment: exp.name.clone(),
         targets: exp.targets.len(),
@@ -64,9 +67,9 @@ pub fn check(path: &Path) -> Result<CheckSummary> {
         schemes: exp.schemes.len(),
         horizons: exp.horizons.len(),
         cells: cells.len(),
-        estimated_seconds: (quick_seconds + likelihood_seconds(&exp, &cells)) / threads as f64,
+        estimated_seconds: (quick_seconds + likelihood) / threads as f64,
         threads,
-        warnings: exp.warnings.clone(),
+        warnings,
         forecasts: plan::forecast_count(&exp),
     })
 }
@@ -262,21 +265,46 @@ pub fn run(path: &Path, opts: &RunOptions, progress: &dyn Progress) -> Result<Ru
 /// The likelihood cells' time, estimated from one timed estimation per
 /// candidate (on the first target and scheme) times the estimations each
 /// of its cells makes; warm starts make later estimations cheaper, so this
-/// leans high. The cells' work is spread over the run's threads.
-fn likelihood_seconds(exp: &Experiment, cells: &[plan::Cell]) -> f64 {
+/// leans high. The cells' work is spread over the run's threads. A first
+/// estimation that fails is returned as a warning: the run would record
+/// that cell as failed (exit 3) unless a later window succeeds. A model
+/// that cannot be built on the data (a seasonal form on data without a
+/// season) is refused, as the run would refuse it.
+fn likelihood_seconds(exp: &Experiment, cells: &[plan::Cell]) -> Result<(f64, Vec<String>)> {
     let mut per_candidate: Vec<Option<Option<f64>>> = vec![None; exp.candidates.len()];
     let mut total = 0.0;
+    let mut warnings = Vec::new();
+    let mut refused = Vec::new();
     for cell in cells {
         if !crate::models::is_likelihood(&exp.candidates[cell.candidate].family) {
             continue;
         }
-        let one = *per_candidate[cell.candidate]
-            .get_or_insert_with(|| backtest::time_one_estimation(exp, cell));
+        let one = *per_candidate[cell.candidate].get_or_insert_with(|| {
+            match backtest::time_one_estimation(exp, cell) {
+                Ok(Ok(seconds)) => Some(seconds),
+                Err(diagnostic) => {
+                    refused.push(diagnostic);
+                    None
+                }
+                Ok(Err(why)) => {
+                    warnings.push(format!(
+                        "candidate {} on target '{}' under scheme {}: its first estimation fails ({why}); `run` records every estimation that fails and exits 3 if a cell has none",
+                        exp.candidates[cell.candidate].id,
+                        exp.targets[cell.target].name,
+                        exp.schemes[cell.scheme].id
+                    ));
+                    None
+                }
+            }
+        });
         if let Some(seconds) = one {
             total += seconds * backtest::estimations(exp, cell) as f64;
         }
     }
-    total
+    if !refused.is_empty() {
+        return Err(crate::Error::Invalid(refused));
+    }
+    Ok((total, warnings))
 }
 
 /// How many forecasts the selected cells make (a shard's share).

@@ -16,6 +16,7 @@ pub(super) const FAMILIES: &[&str] = &[
     "ardl",
     "arima",
     "smoothing",
+    "theta",
     "combination",
 ];
 
@@ -66,6 +67,7 @@ pub(super) fn decode_candidate(
     match family.as_str() {
         "arima" => super::families::decode_arima(ctx, item, &path, out),
         "smoothing" => super::families::decode_smoothing(ctx, item, &path, out),
+        "theta" => super::theta::decode_theta(ctx, item, &path, out),
         "combination" => super::families::decode_combination(ctx, item, &path, out, pending),
         _ => decode_lag_family(ctx, item, &path, &family, predictors, out),
     }

@@ -20,6 +20,7 @@ mod predictors;
 pub mod resolve;
 mod schemes;
 mod scoring;
+mod theta;
 pub mod yaml;
 
 pub use model::*;

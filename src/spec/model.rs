@@ -297,6 +297,12 @@ pub enum Family {
         trend: SmoothingTrend,
         season: SmoothingSeason,
     },
+    /// The theta method (simple exponential smoothing with half the trend
+    /// line's slope as drift), on multiplicatively seasonally adjusted data
+    /// if `multiplicative`.
+    Theta {
+        multiplicative: bool,
+    },
     /// A combination of other candidates' forecasts; `members` index into the candidates.
     Combination {
         members: Vec<usize>,
@@ -366,6 +372,9 @@ impl Family {
                 };
                 2 + t + usize::from(*season != SmoothingSeason::None)
             }
+            // α and b0 (ℓ0 is the first value), and m − 1 free seasonal
+            // indices are not counted: like smoothing's season, one.
+            Family::Theta { multiplicative } => 2 + usize::from(*multiplicative),
             _ => self.coefficients().unwrap_or(0),
         }
     }
