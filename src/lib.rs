@@ -37,6 +37,7 @@ mod score;
 mod spec;
 
 pub use error::{Error, Result};
+pub use results::shard::MAX_SHARDS;
 pub use run::draft::draft;
 pub use run::kinds::text as kinds;
 pub use run::merge::merge;

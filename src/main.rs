@@ -133,6 +133,12 @@ fn parse_shard(text: &str) -> Result<(usize, usize), String> {
             .map_err(|_| format!("--shard {text}: N is not a whole number"))?;
         (k, n)
     };
+    if n > outturn::MAX_SHARDS {
+        return Err(format!(
+            "--shard {text}: at most {} shards (docs/refusals.md)",
+            outturn::MAX_SHARDS
+        ));
+    }
     if n == 0 || k == 0 || k > n {
         return Err(format!(
             "--shard {text}: shard {k} of {n} does not exist (K runs from 1 to N)"

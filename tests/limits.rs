@@ -219,6 +219,17 @@ fn the_worst_sizes_are_refused_within_a_second_and_200_mib() {
             .collect();
         assert!(left.is_empty(), "{what} left {left:?}");
     }
+    // More shards than a merge accepts: refused before anything is written.
+    std::fs::write(dir.join("exp.yaml"), experiment("", "{expanding: {}}")).unwrap();
+    let (code, stderr, _, _) = measured(
+        &dir,
+        &[
+            "run", "exp.yaml", "--out", "res", "--quiet", "--shard", "1/200000",
+        ],
+    );
+    assert_eq!(code, Some(2), "{stderr}");
+    assert!(stderr.contains("at most 100000 shards"), "{stderr}");
+    assert!(!dir.join("res").exists());
     // A pipe named as the data file is refused, not read (reading it would block).
     let fifo = dir.join("pipe.csv");
     let c = std::ffi::CString::new(fifo.to_string_lossy().as_bytes()).unwrap();

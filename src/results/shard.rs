@@ -12,7 +12,7 @@ use serde::{Deserialize, Serialize};
 
 /// The most shards a run may be split into (far more than cells any
 /// experiment has; a manifest claiming more was edited).
-pub(crate) const MAX_SHARDS: usize = 100_000;
+pub const MAX_SHARDS: usize = 100_000;
 
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
