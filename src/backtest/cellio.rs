@@ -45,6 +45,7 @@ fn order_text(o: Option<Order>) -> String {
         Some(Order::Ar(p)) => format!("ar:{p}"),
         Some(Order::Ardl(p, q)) => format!("ardl:{p}:{q}"),
         Some(Order::Arima(p, d, q)) => format!("arima:{p}:{d}:{q}"),
+        Some(Order::Smoothing(t, s)) => format!("smoothing:{}:{}", t.name(), s.name()),
     }
 }
 
@@ -63,6 +64,30 @@ fn parse_order(s: &str) -> Result<Option<Order>, String> {
         "ar" => Ok(Some(Order::Ar(n(1)?))),
         "ardl" => Ok(Some(Order::Ardl(n(1)?, n(2)?))),
         "arima" => Ok(Some(Order::Arima(n(1)?, n(2)?, n(3)?))),
+        "smoothing" => {
+            use crate::spec::{SmoothingSeason, SmoothingTrend};
+            let bad = || format!("bad order '{s}'");
+            let pick = |i: usize, names: &[&str]| {
+                parts
+                    .get(i)
+                    .and_then(|v| names.iter().position(|n| n == v))
+                    .ok_or_else(bad)
+            };
+            const TRENDS: [SmoothingTrend; 3] = [
+                SmoothingTrend::None,
+                SmoothingTrend::Additive,
+                SmoothingTrend::Damped,
+            ];
+            const SEASONS: [SmoothingSeason; 3] = [
+                SmoothingSeason::None,
+                SmoothingSeason::Additive,
+                SmoothingSeason::Multiplicative,
+            ];
+            Ok(Some(Order::Smoothing(
+                TRENDS[pick(1, &SmoothingTrend::NAMES)?],
+                SEASONS[pick(2, &SmoothingSeason::NAMES)?],
+            )))
+        }
         _ => Err(format!("bad order '{s}'")),
     }
 }

@@ -48,6 +48,8 @@ pub(crate) enum Order {
     Ar(usize),
     Ardl(usize, usize),
     Arima(usize, usize, usize),
+    /// The form `smoothing(aicc)` chose, written like a smoothing id's brackets.
+    Smoothing(crate::spec::SmoothingTrend, crate::spec::SmoothingSeason),
 }
 
 impl std::fmt::Display for Order {
@@ -56,6 +58,7 @@ impl std::fmt::Display for Order {
             Order::Ar(p) => write!(f, "{p}"),
             Order::Ardl(p, q) => write!(f, "{p},{q}"),
             Order::Arima(p, d, q) => write!(f, "{p},{d},{q}"),
+            Order::Smoothing(t, s) => write!(f, "{},{}", t.name(), s.name()),
         }
     }
 }
@@ -217,6 +220,17 @@ pub(crate) fn visit<V: Visitor>(cell: &CellModel, visitor: V) -> Result<V::Out, 
                 )?,
             },
         }),
+        Family::SmoothingSelect { forms } => visitor.visit(&likelihood::OnSeries {
+            y: &cell.target.y,
+            model: smoothing::select::SmoothingSelect {
+                specs: forms
+                    .iter()
+                    .map(|&(trend, season)| {
+                        smoothing::spec_of(trend, season, exp.season_length(), exp.frequency.name())
+                    })
+                    .collect::<Result<_, _>>()?,
+            },
+        }),
         Family::Theta { multiplicative } => visitor.visit(&likelihood::OnSeries {
             y: &cell.target.y,
             model: theta::Theta {
@@ -244,6 +258,7 @@ pub(crate) fn is_likelihood(family: &Family) -> bool {
         Family::Arima { .. }
             | Family::ArimaSelect { .. }
             | Family::Smoothing { .. }
+            | Family::SmoothingSelect { .. }
             | Family::Theta { .. }
     )
 }

@@ -17,6 +17,16 @@ pub(crate) fn from_loglik(loglik: f64, k: usize, penalty: f64) -> f64 {
     -2.0 * loglik + penalty * k as f64
 }
 
+/// AICc (Hurvich & Tsai 1989) of a log-likelihood ℓ with k parameters on n
+/// observations: −2ℓ + 2k + 2k(k + 1)/(n − k − 1); infinite when n ≤ k + 1.
+pub(crate) fn aicc(loglik: f64, k: usize, n: usize) -> f64 {
+    if n <= k + 1 {
+        return f64::INFINITY;
+    }
+    let k = k as f64;
+    -2.0 * loglik + 2.0 * k + 2.0 * k * (k + 1.0) / (n as f64 - k - 1.0)
+}
+
 /// AIC of a Gaussian linear regression as statsmodels computes it (its
 /// `OLS(...).fit().aic`): llf = −(n/2)·ln(2π) − (n/2)·ln(SSR/n) − n/2,
 /// AIC = −2·llf + 2k.

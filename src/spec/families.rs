@@ -98,13 +98,25 @@ pub(super) fn decode_arima(ctx: &mut Ctx, item: &Node, path: &str, out: &mut Vec
 /// `family: smoothing`: trend × season grids.
 pub(super) fn decode_smoothing(ctx: &mut Ctx, item: &Node, path: &str, out: &mut Vec<Candidate>) {
     let line = item.line;
-    let Some(view) = ctx.map(item, path, &["family", "label", "trend", "season"], &[]) else {
+    let Some(view) = ctx.map(
+        item,
+        path,
+        &["family", "label", "trend", "season", "select"],
+        &[],
+    ) else {
         return;
     };
     let Ok(label) = candidate_label(ctx, &view, path) else {
         return;
     };
     let base = label.unwrap_or_else(|| "smoothing".into());
+    let select = match view.get("select") {
+        Some(n) => match ctx.choice(n, &format!("{path}.select"), &["aicc"]) {
+            Some(_) => true,
+            None => return,
+        },
+        None => false,
+    };
     let trends = match view.get("trend") {
         Some(n) => names(ctx, n, &format!("{path}.trend"), &SmoothingTrend::NAMES),
         None => Some(vec![0]),
@@ -126,6 +138,18 @@ pub(super) fn decode_smoothing(ctx: &mut Ctx, item: &Node, path: &str, out: &mut
         SmoothingSeason::Additive,
         SmoothingSeason::Multiplicative,
     ];
+    if select {
+        let forms = trends
+            .iter()
+            .flat_map(|&t| seasons.iter().map(move |&s| (TRENDS[t], SEASONS[s])))
+            .collect();
+        out.push(Candidate {
+            id: format!("{base}(aicc)"),
+            family: Family::SmoothingSelect { forms },
+            line,
+        });
+        return;
+    }
     for &t in &trends {
         for &s in &seasons {
             let (trend, season) = (TRENDS[t], SEASONS[s]);

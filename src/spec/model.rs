@@ -297,6 +297,11 @@ pub enum Family {
         trend: SmoothingTrend,
         season: SmoothingSeason,
     },
+    /// smoothing with the form chosen by AICc inside every training window
+    /// from a trend × season grid.
+    SmoothingSelect {
+        forms: Vec<(SmoothingTrend, SmoothingSeason)>,
+    },
     /// The theta method (simple exponential smoothing with half the trend
     /// line's slope as drift), on multiplicatively seasonally adjusted data
     /// if `multiplicative`.
@@ -345,7 +350,10 @@ impl Family {
     pub fn selects(&self) -> bool {
         matches!(
             self,
-            Family::ArSelect { .. } | Family::ArdlSelect { .. } | Family::ArimaSelect { .. }
+            Family::ArSelect { .. }
+                | Family::ArdlSelect { .. }
+                | Family::ArimaSelect { .. }
+                | Family::SmoothingSelect { .. }
         )
     }
 
@@ -372,6 +380,12 @@ impl Family {
                 };
                 2 + t + usize::from(*season != SmoothingSeason::None)
             }
+            // the largest form of the grid
+            Family::SmoothingSelect { forms } => forms
+                .iter()
+                .map(|&(trend, season)| Family::Smoothing { trend, season }.parameters())
+                .max()
+                .unwrap_or(0),
             // α and b0 (ℓ0 is the first value), and m − 1 free seasonal
             // indices are not counted: like smoothing's season, one.
             Family::Theta { multiplicative } => 2 + usize::from(*multiplicative),

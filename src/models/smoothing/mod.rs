@@ -95,6 +95,7 @@ mod filter;
 mod forecast;
 #[cfg(test)]
 mod property_tests;
+pub(crate) mod select;
 mod states;
 #[cfg(test)]
 mod tests;
