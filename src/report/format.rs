@@ -122,6 +122,28 @@ pub fn metric_words(name: &str) -> String {
     }
 }
 
+/// Which way a ranking metric is better, for running text: "lower" for
+/// the losses, "higher" for out-of-sample R², "smaller" for bias (ranked
+/// by its absolute value, "absolute bias" in [`metric_words`]).
+pub fn better_way(name: &str) -> &'static str {
+    match name {
+        "r2_oos" => "higher",
+        "bias" => "smaller",
+        _ => "lower",
+    }
+}
+
+/// "the lowest RMSE", "the highest out-of-sample R²", "the smallest
+/// absolute bias": what ranks first.
+pub fn best_words(name: &str) -> String {
+    let best = match better_way(name) {
+        "higher" => "highest",
+        "smaller" => "smallest",
+        _ => "lowest",
+    };
+    format!("the {best} {}", metric_words(name))
+}
+
 /// The family part of a candidate id, for grouping in scatters.
 pub fn family_of(id: &str) -> &str {
     id.split('(').next().unwrap_or(id)
@@ -186,5 +208,10 @@ mod tests {
         assert_eq!(metric_words("mae"), "MAE");
         assert_eq!(metric_words("smape"), "sMAPE");
         assert_eq!(metric_words("r2_oos"), "out-of-sample R²");
+        // Rank 1 is the lowest loss, the highest R², the smallest |bias|.
+        assert_eq!(best_words("rmse"), "the lowest RMSE");
+        assert_eq!(best_words("r2_oos"), "the highest out-of-sample R²");
+        assert_eq!(best_words("bias"), "the smallest absolute bias");
+        assert_eq!(better_way("mae"), "lower");
     }
 }

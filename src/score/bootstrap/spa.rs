@@ -122,11 +122,7 @@ fn spa_kept_differentials(
         .iter()
         .enumerate()
         .map(|(k, m)| {
-            let d: Vec<f64> = benchmark_losses
-                .iter()
-                .zip(m)
-                .map(|(b, l)| b - l)
-                .collect();
+            let d: Vec<f64> = benchmark_losses.iter().zip(m).map(|(b, l)| b - l).collect();
             (d, k)
         })
         .filter(|(c, _)| c.iter().any(|v| *v != 0.0))
