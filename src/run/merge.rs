@@ -132,7 +132,8 @@ fn check_shards(manifests: &[(PathBuf, PathBuf, ShardManifest)]) -> Result<()> {
 }
 
 /// `outturn merge DIR... --out DIR`.
-pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<usize> {
+/// `outturn merge`: the cell count, and the cells that could not be estimated (id, why).
+pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<(usize, Vec<(String, String)>)> {
     let started = std::time::Instant::now();
     if dirs.is_empty() {
         return Err(Error::invalid(
@@ -196,6 +197,7 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<usize> {
         shard: format!("merged {count}"),
         durable: true,
         progress: &super::Silent,
+        templates: &crate::report::render::default_templates(),
     };
     let per = exp.candidates.len() * exp.schemes.len();
     let source = |t: usize| -> Result<Vec<CellOutput>> {
@@ -210,12 +212,12 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<usize> {
             .collect()
     };
     let staging = output::stage(out)?;
-    pipeline::produce(&exp, &source, staging.dir(), &ctx, &pool, threads * 8)?;
+    let produced = pipeline::produce(&exp, &source, staging.dir(), &ctx, &pool, threads * 8)?;
     rows.into_inner()
         .unwrap_or_else(|e| e.into_inner())
         .finish(&cells)?;
     staging.commit_synced()?;
-    Ok(cells.len())
+    Ok((cells.len(), produced.failed_cells))
 }
 
 /// One shard's rows, read as they are needed.

@@ -106,13 +106,16 @@ pub fn render_folder(dir: &Path, templates: Option<&Path>) -> Result<()> {
         // A user's template that fails (a syntax error, a loop without
         // bound that runs out of fuel) is a problem of the input.
         if user_templates {
-            Error::invalid(
-                None,
+            let text = e.to_string();
+            let message = if text.contains("fuel") {
                 format!(
-                    "{e} (a template folder's templates may take at most {} steps)",
+                    "{text} (a template folder's templates may take at most {} steps)",
                     crate::report::render::TEMPLATE_FUEL
-                ),
-            )
+                )
+            } else {
+                text
+            };
+            Error::invalid(None, message)
         } else {
             Error::Report(e)
         }

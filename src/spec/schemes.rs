@@ -95,7 +95,7 @@ fn decode_scheme(ctx: &mut Ctx, item: &Node, path: &str) -> Option<Scheme> {
             .integer(n, &format!("{path}.rolling.window"), 1)
             .and_then(|v| {
                 if v as usize > super::limits::MAX_WINDOW {
-                    ctx.error(n, format!("{path}.rolling.window {v} is larger than any data set could hold (at most {})", super::limits::MAX_WINDOW));
+                    ctx.refuse(n, format!("{path}.rolling.window {v} is larger than any data set could hold (at most {})", super::limits::MAX_WINDOW));
                     return None;
                 }
                 Some(v as usize)

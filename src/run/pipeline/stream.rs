@@ -112,6 +112,7 @@ impl Drop for StopOnPanic<'_> {
 /// on while the target beneath it, which they need, could not finish. Once
 /// every loop runs, only a target's own small jobs are left to pick up.
 pub(super) fn stream_in_order(
+    progress_to: &dyn crate::progress::Progress,
     exp: &Experiment,
     parts: &report::PartContext,
     source: &(dyn Fn(usize) -> Result<Vec<CellOutput>> + Sync),
@@ -210,7 +211,7 @@ pub(super) fn stream_in_order(
                     p = moved.wait(p).unwrap_or_else(|e| e.into_inner());
                 }
             }
-            match source(t).map(|o| slice(exp, parts, t, o)) {
+            match source(t).map(|o| slice(progress_to, exp, parts, t, o)) {
                 Ok(s) => {
                     let mut p = lock();
                     if p.stop {
