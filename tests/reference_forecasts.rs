@@ -114,6 +114,69 @@ fn close(ours: f64, reference: f64) -> bool {
     (ours - reference).abs() <= 1e-7 * reference.abs().max(1.0)
 }
 
+/// Ljung–Box on the residuals the docs name: every ar and ardl row of
+/// diagnostics.csv against `residuals_ljung_box.json` (written by
+/// tests/reference/diagnostics/generate_residuals.py): statsmodels 0.14.4
+/// `acorr_ljungbox(resid, lags=[L], model_df=p)` on the `sm.OLS` residuals
+/// of the cell's last one-step estimation (its last origin's estimation end
+/// and window; the fixed scheme's only one), L = min(2m, n/5). Same lags;
+/// Q and p within 1e-9 relative (least squares by different algorithms
+/// agree to ~1e-13 here).
+fn ljung_box_against_statsmodels(
+    name: &str,
+    results: &Path,
+    problems: &mut Vec<String>,
+    n_problems: &mut usize,
+) {
+    let path = reference_dir().join("../diagnostics/residuals_ljung_box.json");
+    let text = std::fs::read_to_string(&path).expect("residuals_ljung_box.json");
+    let r: serde_json::Value = serde_json::from_str(&text).expect("json");
+    let ours = Table::read(&results.join("diagnostics.csv"));
+    let (subject, test, lags, stat, p) = (
+        ours.need("subject", "diagnostics"),
+        ours.need("test", "diagnostics"),
+        ours.need("lags", "diagnostics"),
+        ours.need("statistic", "diagnostics"),
+        ours.need("p_value", "diagnostics"),
+    );
+    let mut seen = 0;
+    for c in r["cases"].as_array().expect("cases") {
+        if c["experiment"] != name {
+            continue;
+        }
+        seen += 1;
+        let want = c["subject"].as_str().expect("subject");
+        let Some(row) = ours
+            .rows
+            .iter()
+            .find(|row| row[subject] == want && row[test] == "ljung_box")
+        else {
+            *n_problems += 1;
+            problems.push(format!("no ljung_box row for {want}"));
+            continue;
+        };
+        let rel = |a: Option<f64>, b: Option<f64>| match (a, b) {
+            (Some(a), Some(b)) => (a - b).abs() <= 1e-9 * b.abs().max(1e-300),
+            (None, None) => true,
+            _ => false,
+        };
+        let lag_ok = row[lags] == c["lags"].as_u64().expect("lags").to_string();
+        if !lag_ok
+            || !rel(parse(&row[stat]), c["q"].as_f64())
+            || !rel(parse(&row[p]), c["p"].as_f64())
+        {
+            *n_problems += 1;
+            problems.push(format!(
+                "ljung_box {want}: lags {} Q {} p {} vs statsmodels lags {} Q {} p {}",
+                row[lags], row[stat], row[p], c["lags"], c["q"], c["p"]
+            ));
+        }
+    }
+    if name != "beer_holdout" {
+        assert!(seen > 0, "{name}: no Ljung–Box reference cases");
+    }
+}
+
 type Key = (String, String, String, String, String); // target, candidate, scheme, horizon, origin
 type Group = (String, String, String, String); // target, candidate, scheme, horizon
 
@@ -253,6 +316,8 @@ fn compare(name: &str) {
             report(format!("{g:?}: {m} forecasts not in the reference"));
         }
     }
+
+    ljung_box_against_statsmodels(name, &results, &mut problems, &mut n_problems);
 
     if n_problems == 0 {
         let _ = std::fs::remove_dir_all(results.parent().unwrap());

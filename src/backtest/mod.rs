@@ -301,8 +301,6 @@ pub(crate) fn time_one_estimation(exp: &Experiment, cell: &Cell) -> Option<f64> 
         exp,
         family: &exp.candidates[cell.candidate].family,
         target: &exp.targets[cell.target],
-        schedule,
-        with_outlook: false,
     };
     let timer = TimeOneFit {
         end: schedule.first_origin,
