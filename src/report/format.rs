@@ -34,6 +34,9 @@ pub fn ratio(v: Option<f64>) -> String {
 pub fn pval(p: Option<f64>) -> String {
     match p {
         Some(p) if p.is_finite() && p < 0.001 => "<0.001".into(),
+        // Near the 5% level three decimals would round across it (0.0498
+        // as "0.050" beside "rejects"): four there.
+        Some(p) if p.is_finite() && (0.0495..=0.0505).contains(&p) => format!("{p:.4}"),
         Some(p) if p.is_finite() => format!("{p:.3}"),
         _ => "–".into(),
     }
@@ -180,6 +183,10 @@ mod tests {
         assert_eq!(p_is(Some(0.0009765625)), "p < 0.001");
         assert_eq!(p_is(Some(0.5)), "p = 0.500");
         assert_eq!(p_is(None), "p = –");
+        // Four decimals where three would round across the 5% level.
+        assert_eq!(p_is(Some(0.0498)), "p = 0.0498");
+        assert_eq!(p_is(Some(0.0504)), "p = 0.0504");
+        assert_eq!(p_is(Some(0.0506)), "p = 0.051");
         assert_eq!(ratio(Some(0.96875)), "0.969");
         assert_eq!(ratio(Some(f64::NAN)), "–");
         assert_eq!(stat(Some(-1.5)), "−1.50");

@@ -234,13 +234,13 @@ fn headline(ix: &Index, t: usize, tally: &Tally, mut leaders: Vec<(usize, usize)
         let mut parts = Vec::new();
         if tested {
             parts.push(format!(
-                "the leader beats {bench_id} significantly on its own (Diebold–Mariano, or Clark–West) in {}",
+                "a pairwise test rejects in the leader's favour on its own (Diebold–Mariano: equal mean squared error; Clark–West: equal population MSPE) in {}",
                 tally.alone
             ));
         }
         if snooped {
             parts.push(format!(
-                "the snooping test finds that some candidate beats {bench_id} after the search in {}, driven by the leader in {}",
+                "the snooping test rejects that no candidate beats {bench_id} after the search in {}, driven by the leader in {}",
                 tally.search_rejects,
                 tally.count("holds")
             ));
@@ -295,8 +295,9 @@ mod sentences {
         );
         assert_eq!(
             v["headline"],
-            "Across the 2 scheme × horizon settings, at 5%: the leader beats naive significantly on its own \
-             (Diebold–Mariano, or Clark–West) in 1; naive is unbeaten in 1. Most often first: naive (1 of 2)."
+            "Across the 2 scheme × horizon settings, at 5%: a pairwise test rejects in the leader's favour on its own \
+             (Diebold–Mariano: equal mean squared error; Clark–West: equal population MSPE) in 1; naive is unbeaten in 1. \
+             Most often first: naive (1 of 2)."
         );
     }
 }
