@@ -310,6 +310,20 @@ fn the_demo_report_claims_nothing_its_tests_do_not_show() {
     assert!(n > 100, "only {n} claims checked");
     let md = std::fs::read_to_string(out.join("report.md")).expect("md");
     assert!(!md.contains("0 of the 0"), "no empty counts");
+    // The outlook's leaders come from the verdict's first row, and say so.
+    assert!(
+        md.contains(
+            "for the three leaders of the fixed scheme at horizon 1 (the verdict's first row)"
+        ),
+        "outlook leaders"
+    );
+    // The rankings show the ranked metric's value and the benchmark's.
+    assert!(md.contains("`naive`'s RMSE: h = 1 "), "benchmark values");
+    // Sub-period headers give the span actually scored.
+    assert!(md.contains("before_programme (scored 2015-"), "scored span");
+    // Horizons 1 and 3: the outlook chart does not draw horizon 2.
+    let html = std::fs::read_to_string(out.join("report.html")).expect("html");
+    assert!(html.contains("Only the listed horizons were forecast"));
     let _ = std::fs::remove_dir_all(dir);
 }
 
