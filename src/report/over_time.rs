@@ -509,14 +509,14 @@ fn scored_span(
         .map(|(i, p)| (p.as_str(), i))
         .collect();
     let (a, b) = (*at.get(from)?, *at.get(to)?);
-    let mut inside = rows
+    let inside: Vec<&ForecastRow> = rows
         .iter()
-        .filter(|r| at.get(r.period.as_str()).is_some_and(|&i| a <= i && i <= b));
-    let first = inside.next()?.period.clone();
-    let last = inside
-        .last()
-        .map_or_else(|| first.clone(), |r| r.period.clone());
-    Some((first, last))
+        .filter(|r| at.get(r.period.as_str()).is_some_and(|&i| a <= i && i <= b))
+        .collect();
+    Some((
+        inside.first()?.period.clone(),
+        inside.last()?.period.clone(),
+    ))
 }
 
 /// The forecast path of a holdout (few origins): every horizon's forecast
