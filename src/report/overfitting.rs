@@ -416,3 +416,39 @@ fn complexity_lines(ch: &mut Chart, by_params: &BySize) {
         key: LegendKey::Dot(EACH_CANDIDATE, true),
     });
 }
+
+#[cfg(test)]
+mod tests {
+    use super::overfitting_for;
+    use crate::report::view::tests::folder;
+    use crate::report::view::Index;
+
+    #[test]
+    fn the_parameter_chart_counts_what_it_draws() {
+        // By construction of the fixture: at horizon 1 two candidates have
+        // an in-sample fit (ar(1) with 2 parameters, ar(2) with 3); the
+        // caption, the marks and the table's counts all say two.
+        let f = folder("rmse");
+        let ix = Index::new(&f);
+        let panels = overfitting_for(&ix, 0, true);
+        let p = &panels.as_array().expect("panels")[0];
+        let chart = &p["complexity"];
+        let caption = chart["caption"].as_str().expect("caption");
+        assert!(caption.contains("one of the 2 candidates"), "{caption}");
+        let rows = chart["rows"].as_array().expect("rows");
+        let counts: usize = rows
+            .iter()
+            .map(|r| r[1].as_str().expect("count").parse::<usize>().expect("n"))
+            .sum();
+        assert_eq!(counts, 2);
+        assert_eq!(rows[0][0], "2");
+        assert_eq!(rows[1][0], "3");
+        let svg = chart["svg"].as_str().expect("svg");
+        assert_eq!(
+            svg.matches("out-of-sample RMSE 1.500, in-sample RMSE")
+                .count(),
+            2,
+            "{svg}"
+        );
+    }
+}
