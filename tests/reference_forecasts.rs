@@ -361,3 +361,33 @@ fn macro_gdp_iterated_matches_statsmodels_reference() {
 fn beer_holdout_forecasts_match_reference() {
     compare("beer_holdout");
 }
+
+/// gdp_direct with horizons [2, 4] only: no h = 1 forecast, yet Ljung–Box
+/// reads the residuals of each direct model's h = 1 regression at the
+/// cell's last estimation end (the last origin of h = 2); against
+/// statsmodels as above (`gdp_direct_h24` in residuals_ljung_box.json).
+#[test]
+fn ljung_box_of_a_direct_model_without_horizon_one_matches_statsmodels() {
+    let text = std::fs::read_to_string(reference_dir().join("gdp_direct.yaml")).expect("yaml");
+    assert!(text.contains("  horizons: [1, 2, 4]\n"));
+    let text = text.replace("  horizons: [1, 2, 4]\n", "  horizons: [2, 4]\n");
+    let dir = std::env::temp_dir().join(format!("outturn-reference-h24-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).expect("dir");
+    std::fs::copy(reference_dir().join("macro.csv"), dir.join("macro.csv")).expect("copy");
+    std::fs::write(dir.join("gdp_direct_h24.yaml"), text).expect("write");
+    let out = dir.join("results");
+    let o = Command::new(env!("CARGO_BIN_EXE_outturn"))
+        .arg("run")
+        .arg(dir.join("gdp_direct_h24.yaml"))
+        .arg("--out")
+        .arg(&out)
+        .arg("--quiet")
+        .output()
+        .expect("spawn outturn");
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let (mut problems, mut n) = (Vec::new(), 0);
+    ljung_box_against_statsmodels("gdp_direct_h24", &out, &mut problems, &mut n);
+    assert!(n == 0, "{}", problems.join("\n"));
+    let _ = std::fs::remove_dir_all(&dir);
+}
