@@ -114,6 +114,69 @@ fn close(ours: f64, reference: f64) -> bool {
     (ours - reference).abs() <= 1e-7 * reference.abs().max(1.0)
 }
 
+/// Ljung–Box on the residuals the docs name: every ar and ardl row of
+/// diagnostics.csv against `residuals_ljung_box.json` (written by
+/// tests/reference/diagnostics/generate_residuals.py): statsmodels 0.14.4
+/// `acorr_ljungbox(resid, lags=[L], model_df=p)` on the `sm.OLS` residuals
+/// of the cell's last one-step estimation (its last origin's estimation end
+/// and window; the fixed scheme's only one), L = min(2m, n/5). Same lags;
+/// Q and p within 1e-9 relative (least squares by different algorithms
+/// agree to ~1e-13 here).
+fn ljung_box_against_statsmodels(
+    name: &str,
+    results: &Path,
+    problems: &mut Vec<String>,
+    n_problems: &mut usize,
+) {
+    let path = reference_dir().join("../diagnostics/residuals_ljung_box.json");
+    let text = std::fs::read_to_string(&path).expect("residuals_ljung_box.json");
+    let r: serde_json::Value = serde_json::from_str(&text).expect("json");
+    let ours = Table::read(&results.join("diagnostics.csv"));
+    let (subject, test, lags, stat, p) = (
+        ours.need("subject", "diagnostics"),
+        ours.need("test", "diagnostics"),
+        ours.need("lags", "diagnostics"),
+        ours.need("statistic", "diagnostics"),
+        ours.need("p_value", "diagnostics"),
+    );
+    let mut seen = 0;
+    for c in r["cases"].as_array().expect("cases") {
+        if c["experiment"] != name {
+            continue;
+        }
+        seen += 1;
+        let want = c["subject"].as_str().expect("subject");
+        let Some(row) = ours
+            .rows
+            .iter()
+            .find(|row| row[subject] == want && row[test] == "ljung_box")
+        else {
+            *n_problems += 1;
+            problems.push(format!("no ljung_box row for {want}"));
+            continue;
+        };
+        let rel = |a: Option<f64>, b: Option<f64>| match (a, b) {
+            (Some(a), Some(b)) => (a - b).abs() <= 1e-9 * b.abs().max(1e-300),
+            (None, None) => true,
+            _ => false,
+        };
+        let lag_ok = row[lags] == c["lags"].as_u64().expect("lags").to_string();
+        if !lag_ok
+            || !rel(parse(&row[stat]), c["q"].as_f64())
+            || !rel(parse(&row[p]), c["p"].as_f64())
+        {
+            *n_problems += 1;
+            problems.push(format!(
+                "ljung_box {want}: lags {} Q {} p {} vs statsmodels lags {} Q {} p {}",
+                row[lags], row[stat], row[p], c["lags"], c["q"], c["p"]
+            ));
+        }
+    }
+    if name != "beer_holdout" {
+        assert!(seen > 0, "{name}: no Ljung–Box reference cases");
+    }
+}
+
 type Key = (String, String, String, String, String); // target, candidate, scheme, horizon, origin
 type Group = (String, String, String, String); // target, candidate, scheme, horizon
 
@@ -254,6 +317,8 @@ fn compare(name: &str) {
         }
     }
 
+    ljung_box_against_statsmodels(name, &results, &mut problems, &mut n_problems);
+
     if n_problems == 0 {
         let _ = std::fs::remove_dir_all(results.parent().unwrap());
     }
@@ -295,4 +360,34 @@ fn macro_gdp_iterated_matches_statsmodels_reference() {
 #[test]
 fn beer_holdout_forecasts_match_reference() {
     compare("beer_holdout");
+}
+
+/// gdp_direct with horizons [2, 4] only: no h = 1 forecast, yet Ljung–Box
+/// reads the residuals of each direct model's h = 1 regression at the
+/// cell's last estimation end (the last origin of h = 2); against
+/// statsmodels as above (`gdp_direct_h24` in residuals_ljung_box.json).
+#[test]
+fn ljung_box_of_a_direct_model_without_horizon_one_matches_statsmodels() {
+    let text = std::fs::read_to_string(reference_dir().join("gdp_direct.yaml")).expect("yaml");
+    assert!(text.contains("  horizons: [1, 2, 4]\n"));
+    let text = text.replace("  horizons: [1, 2, 4]\n", "  horizons: [2, 4]\n");
+    let dir = std::env::temp_dir().join(format!("outturn-reference-h24-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).expect("dir");
+    std::fs::copy(reference_dir().join("macro.csv"), dir.join("macro.csv")).expect("copy");
+    std::fs::write(dir.join("gdp_direct_h24.yaml"), text).expect("write");
+    let out = dir.join("results");
+    let o = Command::new(env!("CARGO_BIN_EXE_outturn"))
+        .arg("run")
+        .arg(dir.join("gdp_direct_h24.yaml"))
+        .arg("--out")
+        .arg(&out)
+        .arg("--quiet")
+        .output()
+        .expect("spawn outturn");
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let (mut problems, mut n) = (Vec::new(), 0);
+    ljung_box_against_statsmodels("gdp_direct_h24", &out, &mut problems, &mut n);
+    assert!(n == 0, "{}", problems.join("\n"));
+    let _ = std::fs::remove_dir_all(&dir);
 }

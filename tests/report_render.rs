@@ -379,7 +379,10 @@ fn captions_name_the_ranking_metric_where_it_sets_the_order() {
     assert!(!html.contains("leaders by RMSE"));
     assert!(html.contains("relative RMSE"));
     let md = String::from_utf8(read(&out, "report.md")).unwrap();
-    assert!(md.contains(", then mae in brackets"), "{md}");
+    assert!(
+        md.contains(", then MAE itself in brackets (the ranking metric)"),
+        "{md}"
+    );
 }
 
 /// `text` with line `n` (1-based) changed by `edit`.

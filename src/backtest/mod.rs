@@ -26,8 +26,10 @@ pub(crate) struct CellOutput {
     pub fallbacks: usize,
     /// Why the cell failed as a whole (likelihood families, combinations of failed members).
     pub failure: Option<String>,
-    /// In-sample residuals of the cell's last estimation (one-step where the
-    /// family has them; the shortest horizon's regression for direct models).
+    /// In-sample residuals of the cell's last estimation (its last
+    /// estimation end and window, taken before the outlook moves the
+    /// estimate to N): one-step errors, for direct models those of their
+    /// h = 1 regression (see `Model::residuals`).
     pub residuals: Vec<f64>,
     /// Wall-clock seconds the cell took (recorded only in the manifest's `run` section).
     pub seconds: f64,
@@ -240,8 +242,6 @@ pub(crate) fn run_cell(
         exp,
         family: &candidate.family,
         target,
-        schedule,
-        with_outlook,
     };
     let origin_loop = OriginLoop {
         progress,
@@ -306,8 +306,6 @@ pub(crate) fn time_one_estimation(
         exp,
         family: &exp.candidates[cell.candidate].family,
         target: &exp.targets[cell.target],
-        schedule,
-        with_outlook: false,
     };
     let timer = TimeOneFit {
         end: schedule.first_origin,

@@ -391,10 +391,9 @@ pub(crate) struct Linear<'a> {
     /// The experiment's horizons; direct models hold one set of rows per horizon.
     horizons: &'a [usize],
     rows: Vec<Rows>,
-    /// Kept as the estimator behaved before the model trait: a direct cell
-    /// that also gives the outlook from the same estimator (no rolling
-    /// window) took its residuals after that estimator reached E = N.
-    residuals_at_outlook: bool,
+    /// The one-step regression's rows of a direct model whose horizons do
+    /// not include 1: its residuals are the ones Ljung–Box reads.
+    one_step: Option<Rows>,
 }
 
 /// The estimators of a linear model and the estimation end they stand at
@@ -415,8 +414,7 @@ impl<'a> Linear<'a> {
         } else {
             horizons.iter().map(|&h| Rows::build(&design, h)).collect()
         };
-        let carried =
-            cell.with_outlook && crate::plan::outlook_window(cell.exp) == cell.schedule.window();
+        let one_step = (!iterated && !horizons.contains(&1)).then(|| Rows::build(&design, 1));
         Ok(Linear {
             design,
             subs,
@@ -424,7 +422,7 @@ impl<'a> Linear<'a> {
             iterated,
             horizons,
             rows,
-            residuals_at_outlook: carried && !iterated && cell.schedule.window().is_none(),
+            one_step,
         })
     }
 
@@ -534,20 +532,39 @@ impl Model for Linear<'_> {
             .collect()
     }
 
+    /// The one-step regression's residuals at `end` (the cell's last
+    /// estimation end, with the scheme's window): the iterated model's own
+    /// regression; for a direct model its h = 1 regression, estimated here
+    /// when 1 is not among the horizons.
     fn residuals(&self, fit: &mut LinearFit, end: usize) -> Vec<f64> {
-        let inputs = self.inputs(0);
-        let est = &mut fit.estimators[0];
-        if self.residuals_at_outlook {
-            let _ = est.at(&inputs, self.design.n);
+        let one_step = |est: &mut Estimator, inputs: &Inputs| {
+            let Ok(c) = est.at(inputs, end) else {
+                return Vec::new();
+            };
+            let c = Chosen {
+                index: c.index,
+                solution: c.solution.clone(),
+            };
+            est.residuals(inputs, end, &c)
+        };
+        if let Some(rows) = &self.one_step {
+            let inputs = Inputs {
+                rows,
+                y: self.design.y,
+                subs: &self.subs,
+                criterion: self.criterion,
+            };
+            let window = fit.estimators.first().and_then(|e| e.window);
+            let mut est = Estimator::new(self.design.coefficients(), 1, window, &self.subs);
+            return one_step(&mut est, &inputs);
         }
-        let Ok(c) = est.at(&inputs, end) else {
-            return Vec::new();
+        let i = if self.iterated {
+            0
+        } else {
+            self.horizons.iter().position(|&h| h == 1).unwrap_or(0)
         };
-        let c = Chosen {
-            index: c.index,
-            solution: c.solution.clone(),
-        };
-        est.residuals(&inputs, end, &c)
+        let inputs = self.inputs(i);
+        one_step(&mut fit.estimators[i], &inputs)
     }
 }
 

@@ -20,7 +20,6 @@ pub(crate) mod linear;
 pub(crate) mod smoothing;
 pub(crate) mod theta;
 
-use crate::plan::Schedule;
 use crate::spec::{Experiment, Family, MultiStep, TargetData};
 
 /// One forecast of a backtest.
@@ -135,9 +134,12 @@ pub(crate) trait Model {
         horizons: &[usize],
     ) -> Vec<Result<Step, Problem>>;
 
-    /// In-sample residuals of the estimate at estimation end `end`, in time order
-    /// (one-step where the family has them; the shortest horizon's regression
-    /// for direct least squares), for residual diagnostics.
+    /// In-sample residuals of the estimate at estimation end `end` (the
+    /// cell's last estimation, with the scheme's window), in time order, for
+    /// residual diagnostics: one-step prediction errors of the likelihood
+    /// families, the one-step regression of least squares (a direct model's
+    /// h = 1 regression, estimated for this when 1 is not a horizon), the
+    /// benchmarks' in-sample one-step errors.
     fn residuals(&self, fit: &mut Self::Fit, end: usize) -> Vec<f64>;
 }
 
@@ -152,9 +154,6 @@ pub(crate) struct CellModel<'a> {
     pub exp: &'a Experiment,
     pub family: &'a Family,
     pub target: &'a TargetData,
-    pub schedule: Schedule<'a>,
-    /// Whether this cell also gives the outlook.
-    pub with_outlook: bool,
 }
 
 /// The registry: build the model of a cell and hand it to `visitor`.

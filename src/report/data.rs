@@ -215,6 +215,34 @@ fn raw_chart(t: usize, s: &Series, labels: &[String]) -> Value {
     )
 }
 
+/// How many distinct values a series takes, up to 3.
+fn few_values(values: &[Option<f64>]) -> usize {
+    let mut seen: Vec<f64> = Vec::new();
+    for v in values.iter().flatten().filter(|v| v.is_finite()) {
+        if !seen.contains(v) {
+            seen.push(*v);
+            if seen.len() > 2 {
+                break;
+            }
+        }
+    }
+    seen.len()
+}
+
+/// The reading of an ADF p-value. A series of two values (a 0/1
+/// indicator, a dummy) is bounded and cannot have a unit root, whatever
+/// the test says on a short or persistent sample: differencing is not
+/// suggested for it (common practice).
+fn adf_reading(p: Option<f64>, values: Option<&[Option<f64>]>) -> &'static str {
+    let indicator = values.is_some_and(|v| few_values(v) <= 2);
+    match p {
+        Some(p) if p < LEVEL => "a unit root is rejected at 5%: looks stationary",
+        Some(_) if indicator => "a unit root cannot be rejected at 5%, but the series takes only two values (an indicator): it is bounded, and differencing is not the remedy",
+        Some(_) => "a unit root cannot be rejected at 5%: consider differencing",
+        None => "not computable",
+    }
+}
+
 /// Unit-root tests of this target and of the predictors.
 fn adf_rows(ix: &Index, t: usize) -> Vec<Value> {
     let target = &ix.f.grid.targets[t];
@@ -223,11 +251,13 @@ fn adf_rows(ix: &Index, t: usize) -> Vec<Value> {
         .iter()
         .filter(|d| d.test == "adf" && (d.subject == *target || d.kind == "predictor"))
         .map(|d| {
-            let reading = match d.p_value {
-                Some(p) if p < LEVEL => "a unit root is rejected at 5%: looks stationary",
-                Some(_) => "a unit root cannot be rejected at 5%: consider differencing",
-                None => "not computable",
-            };
+            let values =
+                ix.f.rows
+                    .series
+                    .iter()
+                    .find(|s| s.name == d.subject && s.role == d.kind)
+                    .map(|s| s.values.as_slice());
+            let reading = adf_reading(d.p_value, values);
             json!({
                 "series": d.subject,
                 "role": d.kind,
@@ -282,4 +312,20 @@ fn ljung_box(ix: &Index, t: usize) -> Value {
         "schemes": g.schemes,
         "rows": rows,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::adf_reading;
+
+    #[test]
+    fn an_indicator_is_not_told_to_difference() {
+        // By definition of the readings: a two-valued series is bounded.
+        let dummy: Vec<Option<f64>> = [0.0, 0.0, 1.0, 1.0, 0.0].map(Some).to_vec();
+        let level: Vec<Option<f64>> = vec![Some(0.0), Some(0.5), Some(1.0), Some(1.5), None];
+        assert!(!adf_reading(Some(0.4), Some(&dummy)).contains("consider differencing"));
+        assert!(adf_reading(Some(0.4), Some(&level)).contains("consider differencing"));
+        assert!(adf_reading(Some(0.4), None).contains("consider differencing"));
+        assert!(adf_reading(Some(0.01), Some(&dummy)).contains("rejected at 5%: looks"));
+    }
 }

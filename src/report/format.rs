@@ -34,6 +34,9 @@ pub fn ratio(v: Option<f64>) -> String {
 pub fn pval(p: Option<f64>) -> String {
     match p {
         Some(p) if p.is_finite() && p < 0.001 => "<0.001".into(),
+        // Near the 5% level three decimals would round across it (0.0498
+        // as "0.050" beside "rejects"): four there.
+        Some(p) if p.is_finite() && (0.0495..=0.0505).contains(&p) => format!("{p:.4}"),
         Some(p) if p.is_finite() => format!("{p:.3}"),
         _ => "–".into(),
     }
@@ -122,6 +125,28 @@ pub fn metric_words(name: &str) -> String {
     }
 }
 
+/// Which way a ranking metric is better, for running text: "lower" for
+/// the losses, "higher" for out-of-sample R², "smaller" for bias (ranked
+/// by its absolute value, "absolute bias" in [`metric_words`]).
+pub fn better_way(name: &str) -> &'static str {
+    match name {
+        "r2_oos" => "higher",
+        "bias" => "smaller",
+        _ => "lower",
+    }
+}
+
+/// "the lowest RMSE", "the highest out-of-sample R²", "the smallest
+/// absolute bias": what ranks first.
+pub fn best_words(name: &str) -> String {
+    let best = match better_way(name) {
+        "higher" => "highest",
+        "smaller" => "smallest",
+        _ => "lowest",
+    };
+    format!("the {best} {}", metric_words(name))
+}
+
 /// The family part of a candidate id, for grouping in scatters.
 pub fn family_of(id: &str) -> &str {
     id.split('(').next().unwrap_or(id)
@@ -158,6 +183,10 @@ mod tests {
         assert_eq!(p_is(Some(0.0009765625)), "p < 0.001");
         assert_eq!(p_is(Some(0.5)), "p = 0.500");
         assert_eq!(p_is(None), "p = –");
+        // Four decimals where three would round across the 5% level.
+        assert_eq!(p_is(Some(0.0498)), "p = 0.0498");
+        assert_eq!(p_is(Some(0.0504)), "p = 0.0504");
+        assert_eq!(p_is(Some(0.0506)), "p = 0.051");
         assert_eq!(ratio(Some(0.96875)), "0.969");
         assert_eq!(ratio(Some(f64::NAN)), "–");
         assert_eq!(stat(Some(-1.5)), "−1.50");
@@ -186,5 +215,10 @@ mod tests {
         assert_eq!(metric_words("mae"), "MAE");
         assert_eq!(metric_words("smape"), "sMAPE");
         assert_eq!(metric_words("r2_oos"), "out-of-sample R²");
+        // Rank 1 is the lowest loss, the highest R², the smallest |bias|.
+        assert_eq!(best_words("rmse"), "the lowest RMSE");
+        assert_eq!(best_words("r2_oos"), "the highest out-of-sample R²");
+        assert_eq!(best_words("bias"), "the smallest absolute bias");
+        assert_eq!(better_way("mae"), "lower");
     }
 }

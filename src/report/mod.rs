@@ -11,6 +11,7 @@
 //! numbers for people are formatted in [`format`].
 
 pub(crate) mod charts;
+mod claims;
 mod data;
 mod format;
 mod outlook;

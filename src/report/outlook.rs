@@ -1,7 +1,9 @@
 //! The outlook of one target: the forecasts beyond the data of the three
-//! leaders of the first scheme's ranking (pooled over the horizons when
-//! there are several) and of the benchmark, with their intervals; charted
-//! after the last observed periods.
+//! leaders of the setting the verdict leads with (its first row: the first
+//! scheme at the shortest horizon) and of the benchmark, with their
+//! intervals; charted after the last observed periods, one mark per listed
+//! horizon (a line joins consecutive horizons only: no path is drawn
+//! between horizons that were not forecast).
 
 use super::chart_value;
 use super::charts::{self, Chart, Line, Span, Whisker, XAxis, BENCHMARK, LEADERS, OUTTURN};
@@ -27,21 +29,14 @@ pub fn outlook_for(ix: &Index, t: usize, series: Option<&Series>, charts: bool) 
     if rows.is_empty() {
         return json!(null);
     }
-    let pooled = if g.horizons.len() > 1 {
-        None
-    } else {
-        g.horizons.first().copied()
-    };
-    let mut leaders = ix.leaders(t, 0, pooled, 3);
+    // The verdict's first row: the first scheme at the shortest horizon.
+    let first_h = g.horizons.first().copied();
+    let mut leaders = ix.leaders(t, 0, first_h, 3);
     leaders.push(bench);
     let ranked_by = format!(
-        "{} scheme, {}",
+        "{} scheme at horizon {} (the verdict's first row)",
         g.schemes.first().cloned().unwrap_or_default(),
-        if pooled.is_none() {
-            "all horizons pooled".to_string()
-        } else {
-            format!("horizon {}", horizon_text(pooled))
-        }
+        horizon_text(first_h)
     );
     let mut table = Vec::new();
     for &c in &leaders {
@@ -137,6 +132,10 @@ fn outlook_chart(ix: &Index, o: &Outlook, s: &Series, table: &[Value], origin_no
     let last_y = s.values.last().copied().flatten();
     paths(ix, &mut ch, o, (last_x, last_y.unwrap_or(f64::NAN)));
     let (columns, table_rows) = number_table(table, o.levels);
+    let mut listed: Vec<usize> = o.rows.iter().map(|r| r.horizon).collect();
+    listed.sort_unstable();
+    listed.dedup();
+    let gapped = listed.first() != Some(&1) || listed.windows(2).any(|w| w[1] != w[0] + 1);
     let widest = o.levels.len().saturating_sub(1);
     let interval_words = match o.levels.len() {
         0 => String::new(),
@@ -148,7 +147,7 @@ fn outlook_chart(ix: &Index, o: &Outlook, s: &Series, table: &[Value], origin_no
     };
     chart_value(
         charts::svg(&ch),
-        format!("The last {} observed periods and the forecasts made at {origin_note}, estimated on all the data.{interval_words} Marks at the same horizon are set slightly apart so the bars do not overlap.", n - start),
+        format!("The last {} observed periods and the forecasts made at {origin_note}, estimated on all the data.{interval_words} Marks at the same horizon are set slightly apart so the bars do not overlap.{}", n - start, if gapped { " Only the listed horizons were forecast: a line joins consecutive horizons, never two further apart." } else { "" }),
         columns,
         table_rows,
     )
@@ -198,9 +197,16 @@ fn paths(ix: &Index, ch: &mut Chart, o: &Outlook, (last_x, last_y): (f64, f64)) 
             LEADERS[j.min(2)]
         };
         let dodge = (j as f64 - (k - 1.0) / 2.0) * 0.16;
+        // From the last observation (horizon 0) the line joins consecutive
+        // horizons only; a gap in the horizons lifts the pen.
         let mut pts = vec![(last_x, last_y)];
+        let mut previous = 0;
         for r in o.rows.iter().filter(|r| r.candidate == c) {
             let x = last_x + r.horizon as f64 + dodge;
+            if r.horizon != previous + 1 {
+                pts.push((x, f64::NAN));
+            }
+            previous = r.horizon;
             pts.push((x, r.forecast.unwrap_or(f64::NAN)));
             let narrowest = if widest > 0 {
                 r.intervals.first()

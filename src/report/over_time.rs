@@ -42,7 +42,9 @@ pub fn over_time_for(ix: &Index, t: usize, series: Option<&Series>, charts: bool
             let Some(bench_rows) = f.rows.forecasts.get(&(t, bench, s, h)) else {
                 continue;
             };
-            out.push(panel(Setting::new(ix, t, s, h, bench_rows), &unit, charts));
+            let mut setting = Setting::new(ix, t, s, h, bench_rows);
+            setting.periods = series.map(|s| s.periods.as_slice());
+            out.push(panel(setting, &unit, charts));
         }
     }
     json!(out)
@@ -64,6 +66,9 @@ struct Setting<'a> {
     shown: Vec<(usize, Look)>,
     /// Draw a marker every so many periods.
     every: usize,
+    /// The target's periods in order (series.csv), to place the declared
+    /// sub-period spans among the forecasts' target periods.
+    periods: Option<&'a [String]>,
 }
 
 impl<'a> Setting<'a> {
@@ -99,6 +104,7 @@ impl<'a> Setting<'a> {
             pos,
             leaders,
             shown,
+            periods: None,
         }
     }
 
@@ -464,14 +470,53 @@ fn sub_periods(st: &Setting) -> Option<Value> {
         .iter()
         .map(|p| {
             let range = ix.f.settings.periods.iter().find(|x| x.0 == *p);
+            let declared = range.map(|r| (r.1.clone(), r.2.clone()));
+            let scored = declared
+                .as_ref()
+                .and_then(|(a, b)| scored_span(st.bench_rows, st.periods?, a, b));
+            let (from, to) = match (&scored, &declared) {
+                (Some((a, b)), _) | (None, Some((a, b))) => (Some(a.clone()), Some(b.clone())),
+                _ => (None, None),
+            };
             json!({
                 "name": p,
-                "from": range.map(|r| r.1.clone()),
-                "to": range.map(|r| r.2.clone()),
+                "from": from,
+                "to": to,
+                // The declared span, when the forecasts scored cover less.
+                "declared": match (&scored, &declared) {
+                    (Some(s), Some(d)) if s != d => Some(format!("{} to {}", d.0, d.1)),
+                    _ => None,
+                },
             })
         })
         .collect();
     Some(json!({"sets": spans, "rows": rows}))
+}
+
+/// The first and last target period of `rows` that lie in the declared
+/// span `from`..=`to`, placed by their order in `periods` (the series'
+/// periods): the span actually scored. None when a label is not found or
+/// no forecast falls inside.
+fn scored_span(
+    rows: &[ForecastRow],
+    periods: &[String],
+    from: &str,
+    to: &str,
+) -> Option<(String, String)> {
+    let at: HashMap<&str, usize> = periods
+        .iter()
+        .enumerate()
+        .map(|(i, p)| (p.as_str(), i))
+        .collect();
+    let (a, b) = (*at.get(from)?, *at.get(to)?);
+    let inside: Vec<&ForecastRow> = rows
+        .iter()
+        .filter(|r| at.get(r.period.as_str()).is_some_and(|&i| a <= i && i <= b))
+        .collect();
+    Some((
+        inside.first()?.period.clone(),
+        inside.last()?.period.clone(),
+    ))
 }
 
 /// The forecast path of a holdout (few origins): every horizon's forecast
@@ -586,4 +631,39 @@ fn holdout_chart(
         columns,
         table,
     )
+}
+
+#[cfg(test)]
+mod span_tests {
+    use super::{scored_span, ForecastRow};
+
+    #[test]
+    fn the_scored_span_is_the_forecasts_inside_the_declared_one() {
+        // By construction: periods 2019Q1..2021Q4, forecasts for 2020Q3 on;
+        // a declared 2020Q1..2020Q4 is scored from 2020Q3 to 2020Q4.
+        let periods: Vec<String> = (2019..=2021)
+            .flat_map(|y| (1..=4).map(move |q| format!("{y}Q{q}")))
+            .collect();
+        let rows: Vec<ForecastRow> = periods[6..]
+            .iter()
+            .map(|p| ForecastRow {
+                origin: String::new(),
+                period: p.clone(),
+                forecast: None,
+                actual: None,
+                error: None,
+            })
+            .collect();
+        let span = |a: &str, b: &str| scored_span(&rows, &periods, a, b);
+        assert_eq!(
+            span("2020Q1", "2020Q4"),
+            Some(("2020Q3".into(), "2020Q4".into()))
+        );
+        assert_eq!(
+            span("2021Q2", "2021Q2"),
+            Some(("2021Q2".into(), "2021Q2".into()))
+        );
+        assert_eq!(span("2019Q1", "2019Q4"), None, "no forecast inside");
+        assert_eq!(span("1999Q1", "2020Q4"), None, "a label not in the data");
+    }
 }

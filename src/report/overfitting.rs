@@ -52,11 +52,19 @@ fn panel(
         return None;
     }
     let leaders = ix.leaders(t, s, Some(h), 3);
-    // Candidates with both errors, ordered by each.
+    // Candidates with both errors of this horizon (a gap: like with like;
+    // one-step in-sample errors are not compared with h-step forecasts),
+    // ordered by each.
     let both: Vec<&ScoreRow> = group
         .iter()
         .copied()
-        .filter(|r| r.is_rmse.is_some() && ix.rmse_of(r).is_some())
+        .filter(|r| r.is_rmse.is_some() && r.gap.is_some() && ix.rmse_of(r).is_some())
+        .collect();
+    // In-sample errors of another horizon (one-step) than the forecasts'.
+    let one_step: Vec<&ScoreRow> = group
+        .iter()
+        .copied()
+        .filter(|r| r.is_rmse.is_some() && r.gap.is_none() && ix.rmse_of(r).is_some())
         .collect();
     let by_error = |error: &dyn Fn(&ScoreRow) -> Option<f64>| {
         let mut list = both.clone();
@@ -89,12 +97,25 @@ fn panel(
         .filter(|r| r.is_rmse.is_none())
         .map(|r| g.candidates[r.candidate].clone())
         .collect();
-    let table = gap_table(ix, &by_in, &by_out, &flagged);
+    let mut table = gap_table(ix, &by_in, &by_out, &flagged);
+    table.extend(one_step.iter().map(|r| {
+        json!({
+            "candidate": g.candidates[r.candidate],
+            "parameters": r.parameters,
+            "is_rmse": format!("{} (one-step)", show(r.is_rmse)),
+            "oos_rmse": show(ix.rmse_of(r)),
+            "gap": "–",
+            "is_r2": show(r.is_r2),
+            "rank_in": null,
+            "rank_out": null,
+            "flag": false,
+        })
+    }));
     let id = format!("t{t}-s{s}-h{h}");
     let (scatter, complexity) = if charts && !both.is_empty() {
         (
             Some(scatter_chart(ix, &id, &both, &leaders, &labelled, families)),
-            Some(complexity_chart(ix, &id, &group)),
+            Some(complexity_chart(ix, &id, &both)),
         )
     } else {
         (None, None)
@@ -109,6 +130,7 @@ fn panel(
         "flags_intro": flags_intro,
         "rank_correlation": rho.map(rank_correlation_text),
         "without_in_sample": no_in_sample,
+        "one_step_only": one_step.iter().map(|r| g.candidates[r.candidate].clone()).collect::<Vec<_>>(),
     }))
 }
 
@@ -281,10 +303,14 @@ const EACH_CANDIDATE: Look = Look {
 };
 
 /// At each parameter count: (lowest out-of-sample RMSE, lowest in-sample
-/// RMSE, the candidates that have them).
-type BySize = BTreeMap<usize, (Option<f64>, Option<f64>, String, String)>;
+/// RMSE, the candidates that have them, how many candidates have that count).
+type BySize = BTreeMap<usize, (Option<f64>, Option<f64>, String, String, usize)>;
 
-fn complexity_chart(ix: &Index, id: &str, group: &[&ScoreRow]) -> Value {
+/// Error against the number of parameters, over the candidates `both`
+/// (those with an in-sample fit of this horizon, the same set as the
+/// scatter and the gap table): a faint mark per candidate and the lowest
+/// out-of-sample and in-sample RMSE at each size.
+fn complexity_chart(ix: &Index, id: &str, both: &[&ScoreRow]) -> Value {
     let g = &ix.f.grid;
     let mut by_params = BySize::new();
     let mut ch = Chart::new(
@@ -296,35 +322,37 @@ fn complexity_chart(ix: &Index, id: &str, group: &[&ScoreRow]) -> Value {
     ch.plot_height = 250.0;
     ch.x_title = "parameters estimated".into();
     ch.y_title = "RMSE".into();
-    for r in group {
-        let Some(p) = r.parameters else { continue };
+    let mut drawn = 0;
+    for r in both {
+        let (Some(p), Some(o), Some(i)) = (r.parameters, ix.rmse_of(r), r.is_rmse) else {
+            continue;
+        };
+        drawn += 1;
         let entry = by_params
             .entry(p)
-            .or_insert((None, None, String::new(), String::new()));
-        if let Some(o) = ix.rmse_of(r) {
-            ch.dots.push(Dot {
-                x: p as f64,
-                y: o,
-                look: EACH_CANDIDATE,
-                hollow: true,
-                label: None,
-                tip: format!(
-                    "{}: {} parameters, out-of-sample RMSE {}",
-                    g.candidates[r.candidate],
-                    p,
-                    show(Some(o))
-                ),
-            });
-            if entry.0.is_none_or(|b| o < b) {
-                entry.0 = Some(o);
-                entry.2 = g.candidates[r.candidate].clone();
-            }
+            .or_insert((None, None, String::new(), String::new(), 0));
+        entry.4 += 1;
+        ch.dots.push(Dot {
+            x: p as f64,
+            y: o,
+            look: EACH_CANDIDATE,
+            hollow: true,
+            label: None,
+            tip: format!(
+                "{}: {} parameters, out-of-sample RMSE {}, in-sample RMSE {}",
+                g.candidates[r.candidate],
+                p,
+                show(Some(o)),
+                show(Some(i))
+            ),
+        });
+        if entry.0.is_none_or(|b| o < b) {
+            entry.0 = Some(o);
+            entry.2 = g.candidates[r.candidate].clone();
         }
-        if let Some(i) = r.is_rmse {
-            if entry.1.is_none_or(|b| i < b) {
-                entry.1 = Some(i);
-                entry.3 = g.candidates[r.candidate].clone();
-            }
+        if entry.1.is_none_or(|b| i < b) {
+            entry.1 = Some(i);
+            entry.3 = g.candidates[r.candidate].clone();
         }
     }
     complexity_lines(&mut ch, &by_params);
@@ -333,6 +361,7 @@ fn complexity_chart(ix: &Index, id: &str, group: &[&ScoreRow]) -> Value {
         .map(|(p, e)| {
             vec![
                 p.to_string(),
+                e.4.to_string(),
                 show(e.0),
                 e.2.clone(),
                 show(e.1),
@@ -342,9 +371,13 @@ fn complexity_chart(ix: &Index, id: &str, group: &[&ScoreRow]) -> Value {
         .collect();
     chart_value(
         charts::svg(&ch),
-        "In-sample error can only fall as models grow; out-of-sample error turns up once extra parameters fit noise. The distance between the curves is the price of estimation.".into(),
+        format!(
+            "Each faint mark is one of the {} with an in-sample fit at this horizon, at the number of parameters it estimates (its out-of-sample RMSE); the lines join the lowest out-of-sample and the lowest in-sample RMSE at each size, which may belong to different candidates. Within one family of nested models in-sample error cannot rise as the model grows; across families it can. Where the out-of-sample line turns up while the in-sample one falls, extra parameters fit noise.",
+            super::claims::candidates(drawn)
+        ),
         vec![
             "parameters".into(),
+            "candidates".into(),
             "lowest out-of-sample RMSE".into(),
             "candidate".into(),
             "lowest in-sample RMSE".into(),
@@ -382,4 +415,40 @@ fn complexity_lines(ch: &mut Chart, by_params: &BySize) {
         name: "each candidate, out of sample".into(),
         key: LegendKey::Dot(EACH_CANDIDATE, true),
     });
+}
+
+#[cfg(test)]
+mod tests {
+    use super::overfitting_for;
+    use crate::report::view::tests::folder;
+    use crate::report::view::Index;
+
+    #[test]
+    fn the_parameter_chart_counts_what_it_draws() {
+        // By construction of the fixture: at horizon 1 two candidates have
+        // an in-sample fit (ar(1) with 2 parameters, ar(2) with 3); the
+        // caption, the marks and the table's counts all say two.
+        let f = folder("rmse");
+        let ix = Index::new(&f);
+        let panels = overfitting_for(&ix, 0, true);
+        let p = &panels.as_array().expect("panels")[0];
+        let chart = &p["complexity"];
+        let caption = chart["caption"].as_str().expect("caption");
+        assert!(caption.contains("one of the 2 candidates"), "{caption}");
+        let rows = chart["rows"].as_array().expect("rows");
+        let counts: usize = rows
+            .iter()
+            .map(|r| r[1].as_str().expect("count").parse::<usize>().expect("n"))
+            .sum();
+        assert_eq!(counts, 2);
+        assert_eq!(rows[0][0], "2");
+        assert_eq!(rows[1][0], "3");
+        let svg = chart["svg"].as_str().expect("svg");
+        assert_eq!(
+            svg.matches("out-of-sample RMSE 1.500, in-sample RMSE")
+                .count(),
+            2,
+            "{svg}"
+        );
+    }
 }

@@ -5,7 +5,7 @@
 //! scored the target, `render` builds every part from the whole folder.
 
 use super::data::data_for;
-use super::format::{slug, transform_words};
+use super::format::{best_words, metric_words, slug, transform_words};
 use super::outlook::outlook_for;
 use super::over_time::over_time_for;
 use super::overfitting::overfitting_for;
@@ -215,8 +215,12 @@ pub fn report_data(
 fn overall(g: &Grid, statuses: &[String]) -> String {
     let bench_id = g.candidates.get(g.benchmark).cloned().unwrap_or_default();
     let tally = |key: &str| statuses.iter().filter(|s| *s == key).count();
+    let extra = |key: &str, words: &str| match tally(key) {
+        0 => String::new(),
+        n => format!(", {n} {words}"),
+    };
     format!(
-        "Over {} targets × {} scheme × horizon settings ({} in all): {} hold after the search, {} are significant alone, {} are ahead but not significant, {} leave {} unbeaten{}.",
+        "Over {} targets × {} scheme × horizon settings ({} in all): in {} the snooping test rejects and the leader drives it (holds after the search), {} are significant alone, {} are ahead but not significant, {} leave {} unbeaten{}{}.",
         g.targets.len(),
         g.schemes.len() * g.horizons.len(),
         statuses.len(),
@@ -225,10 +229,8 @@ fn overall(g: &Grid, statuses: &[String]) -> String {
         tally("ahead"),
         tally("unbeaten"),
         bench_id,
-        match tally("untested") {
-            0 => String::new(),
-            n => format!(", {n} are ahead but untested"),
-        }
+        extra("untested", "are ahead but untested"),
+        extra("one_origin", "are not testable with one origin"),
     )
 }
 
@@ -262,6 +264,9 @@ fn run_data(ix: &Index, manifest: &Value, statuses: &[String]) -> Value {
         "level": "5%",
         "benchmark": g.candidates.get(g.benchmark).cloned().unwrap_or_default(),
         "rank_by_is_rmse": rank_by == "rmse",
+        "rank_by_words": metric_words(&rank_by),
+        "best_by": best_words(&rank_by),
+        "legend": super::claims::LEGEND.iter().map(|s| json!({"key": s.key, "symbol": s.symbol, "label": s.label})).collect::<Vec<_>>(),
         "rank_by": rank_by,
         "metrics": rows.metric_names,
         "alpha": settings.alpha.map(|a| format!("{}%", a * 100.0)),

@@ -3,6 +3,7 @@
 //! with the markers of the pairwise tests and the model confidence set;
 //! and behind it the full metric table of each horizon.
 
+use super::claims::{self, Outcome};
 use super::format::{horizon_text, ratio, show, slug};
 use super::view::Index;
 use crate::results::scores::Row as ScoreRow;
@@ -11,24 +12,21 @@ use serde_json::{json, Value};
 /// Ranking rows shown before the rest go behind a disclosure.
 const RANKING_ROWS: usize = 40;
 
-/// Markers of one ranking cell: ▲/▼ Diebold–Mariano significantly
-/// better/worse than the benchmark, † Clark–West significantly better.
-fn marks(ix: &Index, t: usize, s: usize, h: usize, c: usize) -> String {
+/// Markers of one ranking cell (see [`claims::marks`]): ▲/▼
+/// Diebold–Mariano significantly better/worse than the benchmark, †
+/// Clark–West rejects equal population MSPE, ◆ in the model confidence
+/// set; none with one origin.
+fn marks(ix: &Index, t: usize, s: usize, h: usize, c: usize, n: usize) -> (String, bool) {
     let bench = ix.f.grid.benchmark;
-    let mut m = String::new();
+    let in_set = ix
+        .test(t, s, h, "confidence_set", Some(c), None)
+        .and_then(|r| r.in_set);
     if c == bench {
-        return m;
+        return (String::new(), in_set == Some(true) && n >= 2);
     }
-    let dm = ix.test(t, s, h, "diebold_mariano", Some(c), Some(bench));
-    if ix.significant_better(dm) {
-        m.push('▲');
-    } else if ix.significant_worse(dm) {
-        m.push('▼');
-    }
-    if ix.significant_better(ix.test(t, s, h, "clark_west", Some(c), Some(bench))) {
-        m.push('†');
-    }
-    m
+    let dm = Outcome::of(ix.test(t, s, h, "diebold_mariano", Some(c), Some(bench)), n);
+    let cw = Outcome::of(ix.test(t, s, h, "clark_west", Some(c), Some(bench)), n);
+    claims::marks(dm, cw, in_set, n)
 }
 
 /// The rankings of target `t`, one entry per scheme with score rows.
@@ -56,8 +54,18 @@ pub fn rankings_for(ix: &Index, t: usize) -> Value {
             .iter()
             .map(|&h| json!(ix.group(t, s, h).first().map(|r| r.n).unwrap_or(0)))
             .collect();
+        let bench_values: Vec<String> = columns
+            .iter()
+            .map(|&h| {
+                show(
+                    ix.score(t, g.benchmark, s, h, None)
+                        .and_then(|r| ix.ranked_value(r)),
+                )
+            })
+            .collect();
         out.push(json!({
             "scheme": scheme,
+            "benchmark_values": bench_values,
             "anchor": format!("rank-{}-{}", slug(&g.targets[t]), slug(scheme)),
             "columns": columns.iter().map(|h| horizon_text(*h)).collect::<Vec<_>>(),
             "counts": counts,
@@ -81,16 +89,15 @@ fn ranking_row(ix: &Index, t: usize, s: usize, columns: &[Option<usize>], r: &Sc
             let Some(row) = ix.score(t, c, s, h, None) else {
                 return json!({"rel": "–", "metric": "–", "marks": "", "best": false, "mcs": false, "rank": ""});
             };
-            let mcs = h
-                .and_then(|h| ix.test(t, s, h, "confidence_set", Some(c), None))
-                .and_then(|r| r.in_set)
-                .unwrap_or(false);
+            let (marks, mcs) = h
+                .map(|h| marks(ix, t, s, h, c, row.n))
+                .unwrap_or_default();
             let rel = ix.relative(row);
             json!({
                 "rel": ratio(rel),
                 "gain": rel.is_some_and(|r| r < 1.0),
                 "metric": show(ix.ranked_value(row)),
-                "marks": h.map(|h| marks(ix, t, s, h, c)).unwrap_or_default(),
+                "marks": marks,
                 "mcs": mcs,
                 "best": row.rank == 1,
                 "rank": row.rank,

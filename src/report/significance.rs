@@ -3,9 +3,9 @@
 //! its model confidence set p-value and membership, its fluctuation test;
 //! the snooping test of the whole grid; and a summary in sentences.
 
-use super::format::{p_is, pval, stat};
+use super::claims::{self, Outcome, Search};
+use super::format::{pval, stat};
 use super::view::Index;
-use super::LEVEL;
 use crate::results::scores::Row as ScoreRow;
 use crate::results::tests::Row as TestRow;
 use serde_json::{json, Value};
@@ -30,6 +30,10 @@ pub fn tests_for(ix: &Index, t: usize) -> Value {
 struct Tally {
     better: usize,
     worse: usize,
+    /// Clark–West rejects equal population MSPE against the benchmark,
+    /// and of those, Diebold–Mariano finds significantly worse.
+    cw_reject: usize,
+    cw_reject_worse: usize,
     in_set: usize,
     unstable: usize,
 }
@@ -42,14 +46,15 @@ fn panel(ix: &Index, t: usize, s: usize, h: usize, here: &[&TestRow]) -> Value {
         .iter()
         .map(|r| candidate_row(ix, t, s, h, r, &mut tally))
         .collect();
+    let n = group.first().map_or(0, |r| r.n);
     let snooping = here
         .iter()
         .find(|r| r.test == "snooping")
-        .map(|r| snooping_text(ix, r));
+        .map(|r| snooping_text(ix, r, &group, n));
     json!({
         "scheme": ix.f.grid.schemes[s],
         "horizon": h,
-        "summary": summary(ix, t, s, h, here, &group, &tally),
+        "summary": summary(ix, here, &group, &tally),
         "snooping": snooping,
         "has_dm": has("diebold_mariano"),
         "has_cw": has("clark_west"),
@@ -75,11 +80,19 @@ fn candidate_row(
     let cw = ix.test(t, s, h, "clark_west", Some(c), Some(bench));
     let mcs = ix.test(t, s, h, "confidence_set", Some(c), None);
     let fl = ix.test(t, s, h, "fluctuation", Some(c), Some(bench));
-    if ix.significant_better(dm) {
+    let dm_o = Outcome::of(dm, r.n);
+    let cw_o = Outcome::of(cw, r.n);
+    if dm_o.is_better() {
         tally.better += 1;
     }
-    if ix.significant_worse(dm) {
+    if dm_o.is_worse() {
         tally.worse += 1;
+    }
+    if cw_o.is_better() {
+        tally.cw_reject += 1;
+        if dm_o.is_worse() {
+            tally.cw_reject_worse += 1;
+        }
     }
     if mcs.and_then(|m| m.in_set) == Some(true) {
         tally.in_set += 1;
@@ -96,10 +109,10 @@ fn candidate_row(
         "is_benchmark": c == bench,
         "dm_stat": stat(dm.and_then(|r| r.statistic)),
         "dm_p": pval(dm.and_then(|r| r.p_value)),
-        "dm_mark": if ix.significant_better(dm) { "▲" } else if ix.significant_worse(dm) { "▼" } else { "" },
+        "dm_mark": if dm_o.is_better() { "▲" } else if dm_o.is_worse() { "▼" } else { "" },
         "cw_stat": stat(cw.and_then(|r| r.statistic)),
         "cw_p": pval(cw.and_then(|r| r.p_value)),
-        "cw_mark": if ix.significant_better(cw) { "†" } else { "" },
+        "cw_mark": if cw_o.is_better() { "†" } else { "" },
         "mcs_p": pval(mcs.and_then(|r| r.p_value)),
         "in_set": mcs.and_then(|r| r.in_set),
         "fl_stat": stat(fl.and_then(|r| r.statistic)),
@@ -108,86 +121,109 @@ fn candidate_row(
     })
 }
 
-/// The snooping test's reading.
-fn snooping_text(ix: &Index, r: &TestRow) -> String {
+/// The snooping test's reading (see [`claims::snooping`]).
+fn snooping_text(ix: &Index, r: &TestRow, group: &[&ScoreRow], n: usize) -> String {
     let g = &ix.f.grid;
-    let bench_id = &g.candidates[g.benchmark];
-    let best = r
-        .candidate
-        .map(|c| g.candidates[c].clone())
-        .unwrap_or_else(|| "–".into());
-    match r.p_value {
-        Some(p) if p < LEVEL => format!(
-            "Snooping test (best of the grid: {best}): statistic {}, {} — some candidate beats {bench_id} even after the search.",
-            stat(r.statistic), p_is(Some(p))
-        ),
-        Some(p) => format!(
-            "Snooping test (best of the grid: {best}): statistic {}, {} — after the search, no candidate is shown to beat {bench_id}.",
-            stat(r.statistic), p_is(Some(p))
-        ),
-        None => format!("Snooping test (best of the grid: {best}): not computable."),
-    }
+    let bench = g.benchmark;
+    let leader = group.first().map(|r| r.candidate).filter(|&c| c != bench);
+    let bench_n = group
+        .iter()
+        .find(|r| r.candidate == bench)
+        .map_or(n, |r| r.n);
+    let others = group
+        .iter()
+        .filter(|r| r.candidate != bench && r.n == bench_n)
+        .count();
+    let search = Search::of(Some(r), n, leader.unwrap_or(usize::MAX));
+    claims::snooping(
+        r,
+        search,
+        &g.candidates,
+        &g.candidates[bench],
+        leader,
+        others,
+    )
 }
 
 /// One sentence per test that was run.
-fn summary(
-    ix: &Index,
-    t: usize,
-    s: usize,
-    h: usize,
-    here: &[&TestRow],
-    group: &[&ScoreRow],
-    tally: &Tally,
-) -> Vec<String> {
+fn summary(ix: &Index, here: &[&TestRow], group: &[&ScoreRow], tally: &Tally) -> Vec<String> {
     let g = &ix.f.grid;
     let bench = g.benchmark;
     let bench_id = &g.candidates[bench];
     let has = |name: &str| here.iter().any(|r| r.test == name);
+    let n = group.first().map_or(0, |r| r.n);
     let mut summary = Vec::new();
+    if n < 2 {
+        if [
+            "diebold_mariano",
+            "clark_west",
+            "confidence_set",
+            "snooping",
+            "fluctuation",
+        ]
+        .iter()
+        .any(|name| has(name))
+        {
+            summary.push(
+                "Not testable with one origin: every test needs at least two forecasts per candidate."
+                    .to_string(),
+            );
+        }
+        return summary;
+    }
     if has("diebold_mariano") {
         let others = group.iter().filter(|r| r.candidate != bench).count();
         summary.push(format!(
-            "Diebold–Mariano at 5%: {} of {others} candidates significantly better than {bench_id}, {} significantly worse.",
+            "Diebold–Mariano at 5% (H0: equal mean squared error): {} of {others} candidates significantly better than {bench_id}, {} significantly worse.",
             tally.better, tally.worse
         ));
     }
     if has("clark_west") {
-        let cw_better = group
-            .iter()
-            .filter(|r| {
-                ix.significant_better(ix.test(
-                    t,
-                    s,
-                    h,
-                    "clark_west",
-                    Some(r.candidate),
-                    Some(bench),
-                ))
-            })
-            .count();
         let cw_n = here
             .iter()
             .filter(|r| r.test == "clark_west" && r.versus == Some(bench))
             .count();
-        summary.push(format!(
-            "Clark–West at 5%: {cw_better} of the {cw_n} candidates that nest {bench_id} improve on it."
-        ));
+        if cw_n == 0 {
+            summary.push(format!(
+                "Clark–West: no candidate nests {bench_id}; the nested pairs tested are in tests.csv."
+            ));
+        } else {
+            let worse = match tally.cw_reject_worse {
+                0 => String::new(),
+                k => format!(
+                    " ({k} of them forecast significantly worse than {bench_id} in this sample by Diebold–Mariano: extra terms that are not zero in population, yet cost more to estimate than they gave here)"
+                ),
+            };
+            summary.push(format!(
+                "Clark–West at 5% (H0: equal population MSPE, {bench_id} nested): rejected for {} of the {} that nest {bench_id}{worse}.",
+                tally.cw_reject,
+                claims::candidates(cw_n)
+            ));
+        }
     }
     if has("confidence_set") {
-        summary.push(format!(
-            "Model confidence set{}: {} of {} candidates cannot be told apart from the best.",
+        let computed = here
+            .iter()
+            .any(|r| r.test == "confidence_set" && r.p_value.is_some());
+        let level =
             ix.f.settings
                 .alpha
                 .map(|a| format!(" at {}%", a * 100.0))
-                .unwrap_or_default(),
-            tally.in_set,
-            group.len()
-        ));
+                .unwrap_or_default();
+        summary.push(if computed {
+            format!(
+                "Model confidence set{level}: {} of {} cannot be told apart from the best (MCS p-value above the level).",
+                tally.in_set,
+                claims::candidates(group.len())
+            )
+        } else {
+            format!("Model confidence set{level}: not computable (the losses do not vary enough).")
+        });
     }
     if has("fluctuation") {
         summary.push(format!(
-            "Fluctuation test at 5%: the local accuracy difference against {bench_id} leaves its band for {} candidates.",
-            tally.unstable
+            "Fluctuation test at 5%: the local accuracy difference against {bench_id} leaves its band for {}.",
+            claims::candidates(tally.unstable)
         ));
     }
     summary

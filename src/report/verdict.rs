@@ -1,39 +1,15 @@
 //! The verdict of one target: for each scheme × horizon the candidate that
-//! ranks first, its RMSE against the benchmark's, and how the tests read
-//! the gain (alone, and after the search over the grid), in a status, a
-//! symbol and a sentence; then a headline over all the settings.
+//! ranks first, its ranked metric and RMSE against the benchmark's, and
+//! what the tests say (alone, and after the search over the grid), in a
+//! status, a symbol and sentences that each name the test and p-value they
+//! rest on ([`super::claims`]); then a headline over all the settings.
 
-use super::format::{p_is, pval, ratio};
+use super::claims::{self, Outcome, Search, Setting};
+use super::format::{better_way, metric_words, ratio, show};
 use super::view::Index;
-use super::LEVEL;
 use crate::results::scores::Row as ScoreRow;
-use crate::results::tests::Row as TestRow;
 use serde_json::{json, Value};
 use std::collections::BTreeMap;
-
-/// Status of one scheme × horizon: (key, symbol, label).
-pub fn status(
-    best_is_bench: bool,
-    relative: Option<f64>,
-    significant: bool,
-    tested: bool,
-    snooping: Option<Option<f64>>,
-) -> (&'static str, &'static str, &'static str) {
-    let survives = matches!(snooping, Some(Some(p)) if p < LEVEL);
-    if best_is_bench || relative.is_some_and(|r| r >= 1.0) {
-        ("unbeaten", "✗", "benchmark unbeaten")
-    } else if survives {
-        ("holds", "✓✓", "holds after the search")
-    } else if significant && snooping.is_some() {
-        ("alone", "✓", "significant alone, not after the search")
-    } else if significant {
-        ("alone", "✓", "significant (search not tested)")
-    } else if tested || snooping.is_some() {
-        ("ahead", "~", "ahead, not significant")
-    } else {
-        ("untested", "·", "ahead, not tested")
-    }
-}
 
 /// The verdict of target `t`: `headline`, `horizons`, `schemes[].cells[]`,
 /// `rows` (the cells in order) and `sentences`.
@@ -41,7 +17,7 @@ pub fn verdict_for(ix: &Index, t: usize) -> Value {
     let g = &ix.f.grid;
     let mut rows = Vec::new();
     let mut sentences = Vec::new();
-    let mut counts: BTreeMap<&str, usize> = BTreeMap::new();
+    let mut tally = Tally::default();
     // (candidate, settings it comes first in), in order of first appearance.
     let mut leaders: Vec<(usize, usize)> = Vec::new();
     let mut schemes = Vec::new();
@@ -53,8 +29,8 @@ pub fn verdict_for(ix: &Index, t: usize) -> Value {
                 cells.push(json!(null));
                 continue;
             };
-            let (key, cell) = setting(ix, t, s, h, best);
-            *counts.entry(key).or_default() += 1;
+            let (setting, cell) = setting(ix, t, s, h, &group);
+            tally.add(&setting);
             match leaders.iter_mut().find(|(c, _)| *c == best.candidate) {
                 Some((_, n)) => *n += 1,
                 None => leaders.push((best.candidate, 1)),
@@ -66,7 +42,7 @@ pub fn verdict_for(ix: &Index, t: usize) -> Value {
         schemes.push(json!({"scheme": scheme, "cells": cells}));
     }
     json!({
-        "headline": headline(ix, t, &counts, leaders),
+        "headline": headline(ix, t, &tally, leaders),
         "horizons": g.horizons,
         "schemes": schemes,
         "rows": rows,
@@ -74,27 +50,97 @@ pub fn verdict_for(ix: &Index, t: usize) -> Value {
     })
 }
 
-/// One scheme × horizon whose first-ranked row is `best`: its status key
-/// and its cell of the verdict table.
-fn setting(ix: &Index, t: usize, s: usize, h: usize, best: &ScoreRow) -> (&'static str, Value) {
+/// How many settings of a target fall in each reading.
+#[derive(Default)]
+struct Tally {
+    statuses: BTreeMap<&'static str, usize>,
+    /// The leader is significantly better by a pairwise test.
+    alone: usize,
+    /// The snooping test rejects (whoever drives it).
+    search_rejects: usize,
+    total: usize,
+}
+
+impl Tally {
+    fn add(&mut self, s: &Setting) {
+        let status = s.status();
+        *self.statuses.entry(status.key).or_default() += 1;
+        self.total += 1;
+        let beaten = status.key != "unbeaten";
+        if beaten && s.n >= 2 && s.significant_alone() {
+            self.alone += 1;
+        }
+        if matches!(s.search, Search::Rejects { .. }) {
+            self.search_rejects += 1;
+        }
+    }
+
+    fn count(&self, key: &str) -> usize {
+        self.statuses.get(key).copied().unwrap_or(0)
+    }
+}
+
+/// One scheme × horizon whose rows by rank are `group`: what the verdict
+/// weighs there and its cell of the verdict table.
+fn setting(ix: &Index, t: usize, s: usize, h: usize, group: &[&ScoreRow]) -> (Setting, Value) {
     let g = &ix.f.grid;
     let bench = g.benchmark;
+    let best = group[0];
     let b = best.candidate;
+    let n = best.n;
     let rel = ix.relative(best);
-    let dm = ix.test(t, s, h, "diebold_mariano", Some(b), Some(bench));
-    let cw = ix.test(t, s, h, "clark_west", Some(b), Some(bench));
+    let dm_row = ix.test(t, s, h, "diebold_mariano", Some(b), Some(bench));
+    let cw_row = ix.test(t, s, h, "clark_west", Some(b), Some(bench));
     let snoop = ix
         .tests_of(t, s, h)
         .into_iter()
         .find(|r| r.test == "snooping");
-    let significant = ix.significant_better(dm) || ix.significant_better(cw);
-    let (key, symbol, label) = status(
-        b == bench,
-        rel,
-        significant,
-        dm.is_some() || cw.is_some(),
-        snoop.map(|r| r.p_value),
-    );
+    let setting = Setting {
+        leader_is_benchmark: b == bench,
+        relative: rel,
+        dm: Outcome::of(dm_row, n),
+        cw: Outcome::of(cw_row, n),
+        search: Search::of(snoop, n, b),
+        n,
+    };
+    let status = setting.status();
+    let bench_n = group
+        .iter()
+        .find(|r| r.candidate == bench)
+        .map_or(n, |r| r.n);
+    let others = group
+        .iter()
+        .filter(|r| r.candidate != bench && r.n == bench_n)
+        .count();
+    let mut readings = vec![leader_sentence(ix, best, group)];
+    if b != bench {
+        if n < 2 && (dm_row.is_some() || cw_row.is_some() || snoop.is_some()) {
+            readings.push("Not testable with one origin: Diebold–Mariano, Clark–West and the snooping test need at least two forecasts per candidate.".to_string());
+        } else {
+            let (id, bench_id) = (&g.candidates[b], &g.candidates[bench]);
+            readings.extend(claims::diebold_mariano(setting.dm, id, bench_id));
+            readings.extend(claims::clark_west(setting.cw, setting.dm, id, bench_id));
+        }
+    }
+    if let Some(sn) = snoop.filter(|_| n >= 2) {
+        let leader = (b != bench).then_some(b);
+        readings.push(claims::snooping(
+            sn,
+            setting.search,
+            &g.candidates,
+            &g.candidates[bench],
+            leader,
+            others,
+        ));
+    }
+    let tested = n >= 2;
+    let p = |r: Option<&crate::results::tests::Row>| {
+        if tested {
+            super::format::pval(r.and_then(|r| r.p_value))
+        } else {
+            "–".into()
+        }
+    };
     let cell = json!({
         "scheme": g.schemes[s],
         "horizon": h,
@@ -102,119 +148,75 @@ fn setting(ix: &Index, t: usize, s: usize, h: usize, best: &ScoreRow) -> (&'stat
         "best_is_benchmark": b == bench,
         "relative": ratio(rel),
         "change": rel.map(|r| format!("{:+.1}%", (r - 1.0) * 100.0).replace('-', "−")).unwrap_or_else(|| "–".into()),
-        "status": key,
-        "symbol": symbol,
-        "label": label,
-        "dm_p": pval(dm.and_then(|r| r.p_value)),
-        "cw_p": pval(cw.and_then(|r| r.p_value)),
-        "snooping_p": pval(snoop.and_then(|r| r.p_value)),
-        "sentence": sentence(ix, b, rel, [dm, cw], snoop),
+        "status": status.key,
+        "symbol": status.symbol,
+        "label": status.label,
+        "dm_p": p(dm_row),
+        "cw_p": p(cw_row),
+        "snooping_p": p(snoop),
+        "snooping_driver": snoop.filter(|_| tested).and_then(|r| r.candidate).map(|c| g.candidates[c].clone()),
+        "readings": readings,
+        "sentence": readings.join(" "),
     });
-    (key, cell)
+    (setting, cell)
 }
 
-/// The verdict sentence of a setting whose first candidate is `b`, with
-/// its relative RMSE and its Diebold–Mariano, Clark–West and snooping rows.
-fn sentence(
-    ix: &Index,
-    b: usize,
-    rel: Option<f64>,
-    [dm, cw]: [Option<&TestRow>; 2],
-    snoop: Option<&TestRow>,
-) -> String {
-    let f = ix.f;
-    let g = &f.grid;
-    let bench_id = &g.candidates[g.benchmark];
-    let id = &g.candidates[b];
-    let n_cand = g.candidates.len();
-    let metric = |fallback: &'static str| {
-        f.rows
-            .metric_names
-            .get(ix.rank_by.unwrap_or(0))
-            .map(String::as_str)
-            .unwrap_or(fallback)
-            .to_string()
-    };
-    if b == g.benchmark {
+/// The sentence on who comes first: the ranked metric's value against the
+/// benchmark's, and the RMSE the tests compare.
+fn leader_sentence(ix: &Index, best: &ScoreRow, group: &[&ScoreRow]) -> String {
+    let g = &ix.f.grid;
+    let bench = g.benchmark;
+    let bench_id = &g.candidates[bench];
+    let metric = ix.ranked_name();
+    let words = metric_words(metric);
+    if best.candidate == bench {
         return format!(
-            "The benchmark {bench_id} itself comes first: none of the other {} candidates has a lower {}.",
-            n_cand.saturating_sub(1),
-            metric("error")
+            "The benchmark {bench_id} itself comes first: none of the other {} has {} {words} ({bench_id}: {}).",
+            claims::candidates(g.candidates.len().saturating_sub(1)),
+            match better_way(metric) {
+                "higher" => "a higher",
+                "smaller" => "a smaller",
+                _ => "a lower",
+            },
+            show(ix.ranked_value(best))
         );
     }
-    let mut text = match rel {
-        Some(r) if r < 1.0 => format!(
-            "{id} comes first, with an RMSE {:.1}% below {bench_id}'s (relative RMSE {r:.3}).",
-            (1.0 - r) * 100.0
-        ),
-        Some(r) => format!(
-            "{id} comes first by {}, but its RMSE is {:.1}% above {bench_id}'s (relative RMSE {r:.3}).",
-            metric("the ranking metric"),
-            (r - 1.0) * 100.0
-        ),
-        None => format!("{id} comes first."),
+    let id = &g.candidates[best.candidate];
+    let bench_row = group.iter().find(|r| r.candidate == bench);
+    let values = format!(
+        "{} against {bench_id}'s {}",
+        show(ix.ranked_value(best)),
+        show(bench_row.and_then(|r| ix.ranked_value(r)))
+    );
+    let rel = ix.relative(best);
+    let rmse_words = |r: f64| {
+        if r < 1.0 {
+            format!("{:.1}% below", (1.0 - r) * 100.0)
+        } else {
+            format!("{:.1}% above", (r - 1.0) * 100.0)
+        }
     };
-    let parts: Vec<String> = [
-        reading("Diebold–Mariano", dm, bench_id),
-        reading("Clark–West (which allows for the nesting)", cw, bench_id),
-    ]
-    .into_iter()
-    .flatten()
-    .collect();
-    if !parts.is_empty() {
-        text.push(' ');
-        text.push_str(&parts.join("; "));
-        text.push('.');
-    }
-    if let Some(sn) = snoop {
-        match sn.p_value {
-            Some(p) if p < LEVEL => text.push_str(&format!(
-                " The edge holds after the search over {n_cand} candidates: the snooping test rejects that none beats {bench_id} ({}).",
-                p_is(Some(p))
-            )),
-            Some(p) => text.push_str(&format!(
-                " Once the search over {n_cand} candidates is allowed for, the snooping test cannot rule out luck ({}).",
-                p_is(Some(p))
-            )),
-            None => text.push_str(" The snooping test could not be computed."),
-        }
-    }
-    text
-}
-
-/// How a pairwise test reads the first candidate against the benchmark.
-fn reading(name: &str, r: Option<&TestRow>, bench_id: &str) -> Option<String> {
-    let r = r?;
-    Some(match (r.statistic, r.p_value) {
-        (Some(st), Some(p)) if st > 0.0 && p < LEVEL => {
-            format!("{name} finds the gain significant ({})", p_is(Some(p)))
-        }
-        (Some(st), Some(p)) if st < 0.0 && p < LEVEL => {
-            format!("{name} finds it significantly worse ({})", p_is(Some(p)))
-        }
-        (Some(_), Some(p)) => format!(
-            "{name} cannot tell it apart from {bench_id} ({})",
-            p_is(Some(p))
+    match (metric, rel) {
+        ("rmse", Some(r)) => format!(
+            "{id} comes first: RMSE {values}, {} (relative RMSE {r:.3}).",
+            rmse_words(r)
         ),
-        _ => format!("{name} could not be computed (no variation in the loss differences)"),
-    })
+        (_, Some(r)) => format!(
+            "{id} comes first by {words} ({values}); its RMSE is {} {bench_id}'s (relative RMSE {r:.3}).",
+            rmse_words(r)
+        ),
+        (_, None) => format!("{id} comes first by {words} ({values})."),
+    }
 }
 
-/// The sentence over all of a target's settings, from the count of each
-/// status and how often each candidate comes first.
-fn headline(
-    ix: &Index,
-    t: usize,
-    counts: &BTreeMap<&str, usize>,
-    mut leaders: Vec<(usize, usize)>,
-) -> String {
+/// The sentence over all of a target's settings, from the tally of the
+/// readings and how often each candidate comes first.
+fn headline(ix: &Index, t: usize, tally: &Tally, mut leaders: Vec<(usize, usize)>) -> String {
     let g = &ix.f.grid;
     let bench_id = &g.candidates[g.benchmark];
-    let count = |key: &str| counts.get(key).copied().unwrap_or(0);
-    let total: usize = counts.values().sum();
-    let sig = count("holds") + count("alone");
-    let holds = count("holds");
-    let unbeaten = count("unbeaten");
+    let total = tally.total;
+    let unbeaten = tally.count("unbeaten");
+    let one_origin = tally.count("one_origin");
     let tested = ix.target_has(t, &["diebold_mariano", "clark_west"]);
     let snooped = ix.target_has(t, &["snooping"]);
     let settings = if total == 1 {
@@ -224,18 +226,33 @@ fn headline(
     };
     let mut headline = if unbeaten == total {
         format!("{bench_id} is not beaten in any of the {settings}.")
-    } else if tested {
+    } else if one_origin + unbeaten == total && (tested || snooped) {
         format!(
-            "Across the {settings}, a candidate beats {bench_id} significantly in {sig}{}; {bench_id} is unbeaten in {unbeaten}.",
-            if snooped {
-                format!(", and the edge holds after allowing for the search in {holds}")
-            } else {
-                String::new()
-            }
+            "Across the {settings}, a candidate has a lower error than {bench_id} in {one_origin}; with one origin none of it is testable."
         )
+    } else if tested || snooped {
+        let mut parts = Vec::new();
+        if tested {
+            parts.push(format!(
+                "a pairwise test rejects in the leader's favour on its own (Diebold–Mariano: equal mean squared error; Clark–West: equal population MSPE) in {}",
+                tally.alone
+            ));
+        }
+        if snooped {
+            parts.push(format!(
+                "the snooping test rejects that no candidate beats {bench_id} after the search in {}, driven by the leader in {}",
+                tally.search_rejects,
+                tally.count("holds")
+            ));
+        }
+        parts.push(format!("{bench_id} is unbeaten in {unbeaten}"));
+        if one_origin > 0 {
+            parts.push(format!("{one_origin} are not testable with one origin"));
+        }
+        format!("Across the {settings}, at 5%: {}.", parts.join("; "))
     } else {
         format!(
-            "Across the {settings}, a candidate has a lower error than {bench_id} in {}; no pairwise tests were run.",
+            "Across the {settings}, a candidate has a lower error than {bench_id} in {}; no tests were run.",
             total - unbeaten
         )
     };
@@ -249,37 +266,6 @@ fn headline(
         }
     }
     headline
-}
-
-#[cfg(test)]
-mod tests {
-    use super::status;
-
-    #[test]
-    fn statuses_follow_their_definitions() {
-        // The reading of a setting, by the definitions in the report's key:
-        // unbeaten when the benchmark ranks first or the leader's relative
-        // RMSE is at least 1; "holds" when the snooping test rejects at 5%;
-        // "alone" when a pairwise test does but the search is not (or
-        // cannot be) allowed for; "ahead" when tested and not significant.
-        assert_eq!(status(true, Some(0.5), true, true, None).0, "unbeaten");
-        assert_eq!(status(false, Some(1.0), true, true, None).0, "unbeaten");
-        assert_eq!(
-            status(false, Some(0.9), true, true, Some(Some(0.01))).0,
-            "holds"
-        );
-        assert_eq!(status(false, Some(0.9), true, true, Some(Some(0.2))).1, "✓");
-        assert_eq!(
-            status(false, Some(0.9), true, true, None).2,
-            "significant (search not tested)"
-        );
-        assert_eq!(status(false, Some(0.9), false, true, None).0, "ahead");
-        assert_eq!(
-            status(false, Some(0.9), false, false, Some(None)).0,
-            "ahead"
-        );
-        assert_eq!(status(false, None, false, false, None).0, "untested");
-    }
 }
 
 #[cfg(test)]
@@ -297,20 +283,21 @@ mod sentences {
         let cells = v["rows"].as_array().unwrap();
         assert_eq!(
             cells[0]["sentence"],
-            "ar(1) comes first, with an RMSE 25.0% below naive's (relative RMSE 0.750). \
-             Diebold–Mariano finds the gain significant (p = 0.010); Clark–West (which allows \
-             for the nesting) cannot tell it apart from naive (p = 0.200)."
+            "ar(1) comes first: RMSE 1.500 against naive's 2.000, 25.0% below (relative RMSE 0.750). \
+             Diebold–Mariano, ar(1) against naive: rejects equal mean squared error, in ar(1)'s favour (p = 0.010). \
+             Clark–West, ar(1) against naive (nested in it): cannot reject equal population MSPE (p = 0.200)."
         );
         assert_eq!(cells[0]["change"], "−25.0%");
         assert_eq!(cells[0]["status"], "alone");
         assert_eq!(
             cells[1]["sentence"],
-            "The benchmark naive itself comes first: none of the other 2 candidates has a lower rmse."
+            "The benchmark naive itself comes first: none of the other 2 candidates has a lower RMSE (naive: 0)."
         );
         assert_eq!(
             v["headline"],
-            "Across the 2 scheme × horizon settings, a candidate beats naive significantly in 1; \
-             naive is unbeaten in 1. Most often first: naive (1 of 2)."
+            "Across the 2 scheme × horizon settings, at 5%: a pairwise test rejects in the leader's favour on its own \
+             (Diebold–Mariano: equal mean squared error; Clark–West: equal population MSPE) in 1; naive is unbeaten in 1. \
+             Most often first: naive (1 of 2)."
         );
     }
 }

@@ -3,7 +3,6 @@
 //! settings, and [`Index`], the lookups every section shares (a score row,
 //! a test row, a ranking group, the leaders, the relative RMSE).
 
-use super::LEVEL;
 use crate::results::scores::Row as ScoreRow;
 use crate::results::tests::Row as TestRow;
 use crate::results::{Grid, Rows};
@@ -214,8 +213,15 @@ impl<'a> Index<'a> {
 
     /// The ranking metric's name in running text ("RMSE").
     pub fn ranked_words(&self) -> String {
-        let name = self.rank_by.map(|i| self.f.rows.metric_names[i].as_str());
-        super::format::metric_words(name.unwrap_or("rmse"))
+        super::format::metric_words(self.ranked_name())
+    }
+
+    /// The ranking metric's column name ("rmse" when it is not among the
+    /// metrics).
+    pub fn ranked_name(&self) -> &str {
+        self.rank_by
+            .map(|i| self.f.rows.metric_names[i].as_str())
+            .unwrap_or("rmse")
     }
 
     /// RMSE relative to the benchmark's on the same forecasts (same target,
@@ -284,17 +290,6 @@ impl<'a> Index<'a> {
             .filter(|&c| c != self.f.grid.benchmark)
             .take(k)
             .collect()
-    }
-
-    /// A test that finds the candidate significantly better at [`LEVEL`]
-    /// (positive statistic: the candidate's loss is lower).
-    pub fn significant_better(&self, r: Option<&TestRow>) -> bool {
-        matches!(r, Some(TestRow { statistic: Some(s), p_value: Some(p), .. }) if *s > 0.0 && *p < LEVEL)
-    }
-
-    /// A test that finds the candidate significantly worse at [`LEVEL`].
-    pub fn significant_worse(&self, r: Option<&TestRow>) -> bool {
-        matches!(r, Some(TestRow { statistic: Some(s), p_value: Some(p), .. }) if *s < 0.0 && *p < LEVEL)
     }
 }
 
@@ -437,21 +432,6 @@ pub(crate) mod tests {
         assert_eq!(ix.leaders(0, 0, Some(3), 3), [1, 2]);
         assert_eq!(ix.leaders(0, 0, Some(1), 1), [1]);
         assert!(ix.group(0, 0, None).is_empty());
-    }
-
-    #[test]
-    fn significance_reads_the_sign_and_the_level() {
-        // By definition: better when the statistic is positive and p < 5%,
-        // worse when it is negative and p < 5%.
-        let f = folder("rmse");
-        let ix = Index::new(&f);
-        let dm = |c| ix.test(0, 0, 1, "diebold_mariano", Some(c), Some(0));
-        assert!(ix.significant_better(dm(1)) && !ix.significant_worse(dm(1)));
-        assert!(ix.significant_worse(dm(2)) && !ix.significant_better(dm(2)));
-        let cw = ix.test(0, 0, 1, "clark_west", Some(1), Some(0));
-        assert!(!ix.significant_better(cw), "p = 0.2 is above 5%");
-        assert!(ix.target_has(0, &["clark_west"]));
-        assert!(!ix.target_has(0, &["snooping"]));
     }
 
     #[test]

@@ -1,7 +1,10 @@
 //! tests.csv: one row per test result (SPEC §5), plus `in_set` (model
-//! confidence set membership) and `critical_value` (the fluctuation test's
-//! 5 % value; that test has no p-value). Rank-correlation rows name no
-//! candidate; the snooping row names the best of the grid.
+//! confidence set membership), `critical_value` (the fluctuation test's
+//! 5 % value; that test has no p-value) and `p_lower`, `p_upper` (the
+//! snooping test's lower and upper p-values of Hansen 2005; its `p_value`
+//! is the consistent one). Rank-correlation rows name no candidate; the
+//! snooping row names the candidate that attains its statistic (the
+//! largest studentised gain over the benchmark), not the leader.
 
 use super::grid::Lookup;
 use super::text::{finish, opt, write_row, writer, ReadError, Reader};
@@ -10,7 +13,7 @@ use crate::spec::Experiment;
 pub const FILE: &str = "tests.csv";
 
 /// The columns, in order.
-pub const COLUMNS: [&str; 10] = [
+pub const COLUMNS: [&str; 12] = [
     "target",
     "scheme",
     "horizon",
@@ -21,6 +24,8 @@ pub const COLUMNS: [&str; 10] = [
     "p_value",
     "in_set",
     "critical_value",
+    "p_lower",
+    "p_upper",
 ];
 
 /// The table of `rows`, in their order.
@@ -42,6 +47,8 @@ pub fn write(exp: &Experiment, rows: &[crate::score::comparison::TestRow]) -> Ve
                 opt(r.p_value),
                 r.in_set.map(|b| b.to_string()).unwrap_or_default(),
                 opt(r.critical_value),
+                opt(r.p_lower),
+                opt(r.p_upper),
             ],
         );
     }
@@ -61,9 +68,13 @@ pub struct Row {
     pub p_value: Option<f64>,
     pub in_set: Option<bool>,
     pub critical_value: Option<f64>,
+    /// The snooping test's lower and upper p-values.
+    pub p_lower: Option<f64>,
+    pub p_upper: Option<f64>,
 }
 
-/// Read the table. `in_set` and `critical_value` may be absent.
+/// Read the table. `in_set`, `critical_value`, `p_lower` and `p_upper`
+/// may be absent (folders written before they existed).
 pub fn read(bytes: &[u8], grid: &Lookup) -> Result<Vec<Row>, ReadError> {
     let mut reader = Reader::new(FILE, bytes)?;
     let [target, scheme, horizon, test, candidate, versus, statistic, p_value] =
@@ -78,6 +89,7 @@ pub fn read(bytes: &[u8], grid: &Lookup) -> Result<Vec<Row>, ReadError> {
             "p_value",
         ])?;
     let (in_set, critical_value) = (reader.optional("in_set"), reader.optional("critical_value"));
+    let (p_lower, p_upper) = (reader.optional("p_lower"), reader.optional("p_upper"));
     let mut rows = Vec::new();
     while let Some(row) = reader.next_row()? {
         rows.push(Row {
@@ -100,6 +112,8 @@ pub fn read(bytes: &[u8], grid: &Lookup) -> Result<Vec<Row>, ReadError> {
                 }
             },
             critical_value: critical_value.map_or(Ok(None), |c| row.number(c))?,
+            p_lower: p_lower.map_or(Ok(None), |c| row.number(c))?,
+            p_upper: p_upper.map_or(Ok(None), |c| row.number(c))?,
         });
     }
     Ok(rows)
@@ -121,15 +135,16 @@ mod unit {
         };
         let header = COLUMNS.join(",");
         let text = format!(
-            "{header}\ny,fixed,1,diebold_mariano,ar(1),naive,2.5,0.01,,\ny,fixed,1,rank_correlation,,,0.5,,,\ny,fixed,1,confidence_set,ar(1),,,0.4,true,\n"
+            "{header}\ny,fixed,1,diebold_mariano,ar(1),naive,2.5,0.01,,,,\ny,fixed,1,rank_correlation,,,0.5,,,,,\ny,fixed,1,confidence_set,ar(1),,,0.4,true,,,\ny,fixed,1,snooping,ar(1),naive,1.5,0.04,,,0.03,0.06\n"
         );
         let rows = read(text.as_bytes(), &g.lookup()).unwrap();
-        assert_eq!(rows.len(), 3);
+        assert_eq!(rows.len(), 4);
+        assert_eq!((rows[3].p_lower, rows[3].p_upper), (Some(0.03), Some(0.06)));
         assert_eq!((rows[0].candidate, rows[0].versus), (Some(1), Some(0)));
         assert_eq!(rows[0].p_value, Some(0.01));
         assert_eq!((rows[1].candidate, rows[1].statistic), (None, Some(0.5)));
         assert_eq!(rows[2].in_set, Some(true));
-        let edited = format!("{header}\ny,fixed,1,confidence_set,ar(1),,,0.4,yes,\n");
+        let edited = format!("{header}\ny,fixed,1,confidence_set,ar(1),,,0.4,yes,,,\n");
         let err = read(edited.as_bytes(), &g.lookup())
             .unwrap_err()
             .to_string();

@@ -7,7 +7,7 @@
 
 use super::bootstrap::{model_confidence_set, superior_predictive_ability};
 use super::pairwise::{clark_west, diebold_mariano, spearman, TestResult};
-use super::{group_errors, in_sample_rmse, rmse, Errors};
+use super::{group_errors, in_sample_comparable, in_sample_rmse, rmse, Errors};
 use crate::digest::sha256_hex;
 use crate::spec::{Candidate, Experiment, Family, Trend};
 
@@ -25,6 +25,10 @@ pub struct TestRow {
     pub in_set: Option<bool>,
     /// 5 % critical value where the test has one instead of a p-value (fluctuation).
     pub critical_value: Option<f64>,
+    /// The snooping test's lower and upper p-values (Hansen 2005); its
+    /// consistent p-value is `p_value`.
+    pub p_lower: Option<f64>,
+    pub p_upper: Option<f64>,
 }
 
 /// Whether `small` is nested in `big` (SPEC §4's rule for clark_west):
@@ -114,6 +118,8 @@ impl Group<'_> {
             p_value: r.map(|r| r.p_value),
             in_set: None,
             critical_value: None,
+            p_lower: None,
+            p_upper: None,
         }
     }
 
@@ -177,7 +183,11 @@ impl Group<'_> {
         }
     }
 
-    /// Hansen (2005): does the best of the searched grid beat the benchmark?
+    /// Hansen (2005): does some candidate of the searched grid beat the
+    /// benchmark? The row names the candidate with the largest studentised
+    /// gain (the one the statistic is), never the leader by the ranking
+    /// metric; its p-value is the consistent one, with the lower and upper
+    /// ones beside it.
     fn snooping(&self, resamples: usize) -> TestRow {
         let exp = self.exp;
         let bench = exp.benchmark;
@@ -187,12 +197,6 @@ impl Group<'_> {
             .filter(|&c| c != bench)
             .collect();
         let losses: Vec<Vec<f64>> = others.iter().map(|&c| squared(&self.errs[c])).collect();
-        let best = others.iter().copied().min_by(|&a, &b| {
-            let ra = rmse(&self.errs[a]).unwrap_or(f64::INFINITY);
-            let rb = rmse(&self.errs[b]).unwrap_or(f64::INFINITY);
-            ra.total_cmp(&rb)
-                .then_with(|| exp.candidates[a].id.cmp(&exp.candidates[b].id))
-        });
         let seed = group_seed(exp, &format!("{}/snooping", self.name));
         let result = superior_predictive_ability(
             &squared(&self.errs[bench]),
@@ -204,17 +208,27 @@ impl Group<'_> {
         TestRow {
             statistic: result.as_ref().map(|r| r.statistic),
             p_value: result.as_ref().map(|r| r.p_consistent),
-            ..self.row("snooping", best, Some(bench), None)
+            p_lower: result.as_ref().map(|r| r.p_lower),
+            p_upper: result.as_ref().map(|r| r.p_upper),
+            ..self.row(
+                "snooping",
+                result.as_ref().map(|r| others[r.driver]),
+                Some(bench),
+                None,
+            )
         }
     }
 
     /// Overfitting: Spearman correlation of in-sample and out-of-sample
-    /// rankings, when at least three candidates have both.
+    /// rankings, when at least three candidates have both and their
+    /// in-sample errors are of this horizon (like with like).
     fn rank_correlation(&self) -> Option<TestRow> {
         let pairs: Vec<(f64, f64)> = self
             .errs
             .iter()
-            .filter_map(|e| Some((in_sample_rmse(e)?, rmse(e)?)))
+            .enumerate()
+            .filter(|(c, _)| in_sample_comparable(self.exp, *c, Some(self.horizon)))
+            .filter_map(|(_, e)| Some((in_sample_rmse(e)?, rmse(e)?)))
             .collect();
         if pairs.len() < 3 {
             return None;

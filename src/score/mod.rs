@@ -16,7 +16,7 @@ mod reference_metrics_tests;
 use crate::backtest::CellOutput;
 use crate::numerics::dist::{normal_cdf, normal_pdf, normal_quantile};
 use crate::plan::Cell;
-use crate::spec::{Experiment, Metric, MetricColumn, Scheme};
+use crate::spec::{Experiment, Family, Metric, MetricColumn, MultiStep, Scheme};
 
 /// Forecast errors of one candidate on one target × scheme × horizon.
 #[derive(Debug, Clone, Default)]
@@ -241,6 +241,23 @@ pub fn in_sample_rmse(e: &Errors) -> Option<f64> {
     Some((vals.iter().sum::<f64>() / vals.len() as f64).sqrt())
 }
 
+/// Whether a candidate's in-sample errors measure the same thing as its
+/// forecast errors at `horizon` (None: the pooled horizons), so that the
+/// overfitting gap and the in-sample/out-of-sample rank correlation
+/// compare like with like. `is_mse` (SPEC §4) is a one-step measure for
+/// arima, smoothing, drift and iterated ar: for them only h = 1 compares.
+/// Direct least squares measure the h-step regression itself, and the
+/// mean's deviations do not depend on the horizon.
+pub fn in_sample_comparable(exp: &Experiment, candidate: usize, horizon: Option<usize>) -> bool {
+    let one_step_only = match &exp.candidates[candidate].family {
+        Family::Drift | Family::Arima { .. } | Family::ArimaSelect { .. } => true,
+        Family::Smoothing { .. } => true,
+        Family::Ar { .. } | Family::ArSelect { .. } => exp.multi_step == MultiStep::Iterated,
+        _ => false,
+    };
+    !one_step_only || horizon == Some(1)
+}
+
 #[derive(Debug, Clone, PartialEq)]
 pub struct ScoreRow {
     pub target: usize,
@@ -388,8 +405,10 @@ pub fn scores(exp: &Experiment, errors: &[Vec<Errors>]) -> Vec<ScoreRow> {
                                 .map(|col| metric_value(exp, col, &e, &bench, scale))
                                 .collect();
                             let is_rmse = in_sample_rmse(&e);
+                            let comparable =
+                                in_sample_comparable(exp, c, hi.map(|i| exp.horizons[i]));
                             let gap = match (rmse(&e), is_rmse) {
-                                (Some(o), Some(i)) if i > 0.0 => Some(o / i),
+                                (Some(o), Some(i)) if i > 0.0 && comparable => Some(o / i),
                                 _ => None,
                             };
                             ScoreRow {

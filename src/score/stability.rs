@@ -106,6 +106,8 @@ pub fn rolling(exp: &Experiment, errors: &[Vec<Errors>]) -> (Vec<StabilityRow>, 
                             p_value: None,
                             in_set: None,
                             critical_value: fl.as_ref().map(|f| f.critical_5),
+                            p_lower: None,
+                            p_upper: None,
                         });
                     }
                 }

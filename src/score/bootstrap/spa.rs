@@ -22,6 +22,10 @@ pub(crate) struct SpaResult {
     pub p_upper: f64,
     /// Expected block length of the stationary bootstrap that was used.
     pub block_length: f64,
+    /// The model (index into the `model_losses` given) with the largest
+    /// studentised mean gain √n·d̄_k/ω̂_k: the one that attains the
+    /// statistic when it is positive. Ties go to the first.
+    pub driver: usize,
 }
 
 /// Test of superior predictive ability of Hansen (2005): H0 is that no
@@ -47,8 +51,12 @@ pub(crate) struct SpaResult {
 /// stationary block lengths ([`optimal_block_length`]) of the d_k series
 /// (constant ones skipped), clamped to [1, n]. arch defaults to ⌊√n⌋.
 ///
+/// The model that attains the maximum is [`SpaResult::driver`]: the test
+/// says that *some* model beats the benchmark; this is the one whose
+/// studentised gain the statistic is.
+///
 /// Models whose losses equal the benchmark's at every origin carry no
-/// information and are left out; `None` when no model is left, n < 3,
+/// information and are left out (they never drive the statistic); `None` when no model is left, n < 3,
 /// lengths differ, a loss is not finite, `resamples` is 0, the block length
 /// given is not ≥ 1, or some other ω̂_k² is not positive.
 pub(crate) fn superior_predictive_ability(
@@ -92,29 +100,37 @@ pub(crate) fn superior_predictive_ability_unstudentized(
 }
 
 /// Loss differentials d_k (benchmark − model) with all-zero columns removed.
+#[cfg(test)]
 pub(super) fn spa_differentials(
     benchmark_losses: &[f64],
     model_losses: &[Vec<f64>],
 ) -> Option<Vec<Vec<f64>>> {
+    spa_kept_differentials(benchmark_losses, model_losses).map(|(d, _)| d)
+}
+
+/// Loss differentials d_k with all-zero columns removed, and the index in
+/// `model_losses` of each column kept.
+fn spa_kept_differentials(
+    benchmark_losses: &[f64],
+    model_losses: &[Vec<f64>],
+) -> Option<(Vec<Vec<f64>>, Vec<usize>)> {
     let n = benchmark_losses.len();
     if n < 3 || !all_finite(benchmark_losses) || !valid_columns(model_losses, n, 3) {
         return None;
     }
-    let d: Vec<Vec<f64>> = model_losses
+    let (d, kept): (Vec<Vec<f64>>, Vec<usize>) = model_losses
         .iter()
-        .map(|m| {
-            benchmark_losses
-                .iter()
-                .zip(m)
-                .map(|(b, l)| b - l)
-                .collect::<Vec<f64>>()
+        .enumerate()
+        .map(|(k, m)| {
+            let d: Vec<f64> = benchmark_losses.iter().zip(m).map(|(b, l)| b - l).collect();
+            (d, k)
         })
-        .filter(|c: &Vec<f64>| c.iter().any(|v| *v != 0.0))
-        .collect();
+        .filter(|(c, _)| c.iter().any(|v| *v != 0.0))
+        .unzip();
     if d.is_empty() {
         None
     } else {
-        Some(d)
+        Some((d, kept))
     }
 }
 
@@ -129,7 +145,7 @@ fn spa(
     if resamples == 0 {
         return None;
     }
-    let d = spa_differentials(benchmark_losses, model_losses)?;
+    let (d, kept) = spa_kept_differentials(benchmark_losses, model_losses)?;
     let n = benchmark_losses.len();
     let block_length = match block_length {
         Some(b) if b.is_finite() && b >= 1.0 => b,
@@ -137,7 +153,10 @@ fn spa(
         None => mean_block_length(&d, n),
     };
     let boot = bootstrap_means(&d, block_length, resamples, seed);
-    spa_from_bootstrap(&d, block_length, &boot, studentize)
+    spa_from_bootstrap(&d, block_length, &boot, studentize).map(|r| SpaResult {
+        driver: kept[r.driver],
+        ..r
+    })
 }
 
 /// ω̂_k² of each column with the stationary-bootstrap kernel, q = 1/b.
@@ -148,7 +167,7 @@ pub(super) fn spa_variances(d: &[Vec<f64>], block_length: f64) -> Vec<f64> {
 }
 
 /// SPA statistic and p-values given the resampled means of d (one row per
-/// resample, one column per model).
+/// resample, one column per model); `driver` indexes the columns of `d`.
 pub(super) fn spa_from_bootstrap(
     d: &[Vec<f64>],
     block_length: f64,
@@ -179,11 +198,15 @@ pub(super) fn spa_from_bootstrap(
         })
         .collect();
     let floor = if studentize { 0.0 } else { f64::NEG_INFINITY };
-    let statistic = dbar
-        .iter()
-        .zip(&scale)
-        .map(|(m, s)| m * s)
-        .fold(floor, f64::max);
+    let mut driver = 0;
+    let mut top = f64::NEG_INFINITY;
+    for (k, (m, s)) in dbar.iter().zip(&scale).enumerate() {
+        if m * s > top {
+            top = m * s;
+            driver = k;
+        }
+    }
+    let statistic = top.max(floor);
     let mu_lower: Vec<f64> = dbar.iter().map(|m| m.max(0.0)).collect();
     let mu_consistent: Vec<f64> = dbar
         .iter()
@@ -219,5 +242,6 @@ pub(super) fn spa_from_bootstrap(
         p_consistent: exceed[1] as f64 / r,
         p_upper: exceed[2] as f64 / r,
         block_length,
+        driver,
     })
 }

@@ -11,7 +11,10 @@ Input data (all public domain, shipped inside the statsmodels package):
   * statsmodels.datasets.macrodata -- US quarterly macro data 1959Q1-2009Q3
     (columns `infl`, `realgdp`, `unemp`, `tbilrate`);
   * statsmodels.datasets.nile -- annual Nile flow at Aswan 1871-1970
-    (Cobb 1978).
+    (Cobb 1978);
+  * statsmodels.datasets.co2 -- Mauna Loa weekly CO2 1958-2001 as monthly
+    means (the few empty months filled by linear interpolation), 12-month
+    differences.
 Loss series are forecast errors of simple models (naive, mean, drift and
 direct least-squares AR(p) with an intercept, expanding window) computed
 here from those data; nothing below is invented.
@@ -30,7 +33,9 @@ Expected values:
     7.2.0 does NOT divide by the standard deviations when forming the
     statistic (the `studentize` flag only changes the printed info); and a
     from-formula numpy implementation of Hansen (2005) studentized
-    T^SPA driven by arch's own StationaryBootstrap indices.
+    T^SPA driven by arch's own StationaryBootstrap indices, with the model
+    attaining the studentized maximum (`driver`, argmax_k sqrt(n) dbar_k /
+    omega_k; Hansen 2005, eq. for T^SPA).
 """
 
 import json
@@ -71,6 +76,12 @@ def macro():
 
 def nile():
     return sm.datasets.nile.load_pandas().data["volume"].to_numpy(dtype=float)
+
+
+def co2_annual_change():
+    co2 = sm.datasets.co2.load_pandas().data["co2"]
+    monthly = co2.resample("MS").mean().interpolate(method="linear").to_numpy(dtype=float)
+    return monthly[12:] - monthly[:-12]
 
 
 def ar_direct(y, T, p, h):
@@ -354,10 +365,11 @@ def spa_from_formula(bench, models, block, indices, studentize):
     mu = {"lower": np.maximum(dbar, 0.0),
           "consistent": np.where(dbar >= thr, dbar, 0.0),
           "upper": dbar}
+    driver = int(np.argmax(scale * dbar / om))  # first on ties
     stat = np.max(scale * dbar / om)
     if studentize:
         stat = max(stat, 0.0)
-    out = {"statistic": float(stat), "omega2": lst(om2)}
+    out = {"statistic": float(stat), "omega2": lst(om2), "driver": driver}
     for key, m in mu.items():
         cnt = 0
         for idx in indices:
@@ -388,6 +400,12 @@ def loss_sets(series):
     bt = backtest(y, models, 1, t0)
     sets.append(("nile.volume h=1 squared errors", models,
                  np.column_stack([bt[m]["error"] ** 2 for m in models])))
+    y = co2_annual_change()
+    for h in (1, 3):
+        models = ["naive", "mean", "ar1", "ar2", "ar4"]
+        bt = backtest(y, models, h, 400)
+        sets.append((f"co2.monthly_12_month_change h={h} squared errors", models,
+                     np.column_stack([bt[m]["error"] ** 2 for m in models])))
     return sets
 
 
@@ -469,6 +487,9 @@ def spa_cases(series):
             "mc_resamples": MC_REPS,
             "omega2": hansen["omega2"],
             "studentized": {k_: hansen[k_] for k_ in ("statistic", "lower", "consistent", "upper")},
+            "driver": hansen["driver"],
+            "driver_model": models[1:][hansen["driver"]],
+            "lowest_mean_loss": models[1:][int(np.argmin(others.mean(0)))],
             "arch": {"statistic": float(np.max(bench.mean() - others.mean(0))), **arch_p},
             "replay": {
                 "indices": [[int(i) for i in idx] for idx in idx_short],

@@ -11,8 +11,9 @@ output is deterministic.  CI never runs this script; its outputs are committed.
 Where every expected value comes from
 -------------------------------------
 * Data: open data sets that statsmodels carries -- ``macrodata`` (realgdp as
-  log level and log difference, infl, unemp), ``nile`` (volume) and
-  ``sunspots`` (SUNACTIVITY) -- plus the residuals of a statsmodels
+  log level and log difference, infl, unemp), ``nile`` (volume) and ``co2``
+  (Mauna Loa weekly CO2, as monthly means 1958-03 to 2001-12, the few empty
+  months filled by linear interpolation) -- plus the residuals of a statsmodels
   ``AutoReg`` fit on GDP growth.  No invented data.
 * Ljung-Box: ``statsmodels.stats.diagnostic.acorr_ljungbox`` (Q, p-value) at
   several lags and ``model_df`` values.
@@ -61,6 +62,12 @@ def bits(x: float) -> int:
     return struct.unpack("<Q", struct.pack("<d", float(x)))[0]
 
 
+def co2_monthly() -> list[float]:
+    co2 = sm.datasets.co2.load_pandas().data["co2"]
+    monthly = co2.resample("MS").mean().interpolate(method="linear")
+    return monthly.to_numpy(dtype=float).tolist()
+
+
 def series() -> dict[str, list[float]]:
     macro = sm.datasets.macrodata.load_pandas().data
     gdp = np.log(macro["realgdp"].to_numpy(dtype=float))
@@ -72,7 +79,7 @@ def series() -> dict[str, list[float]]:
         "infl": macro["infl"].to_numpy(dtype=float).tolist(),
         "unemp": macro["unemp"].to_numpy(dtype=float).tolist(),
         "nile": sm.datasets.nile.load_pandas().data["volume"].to_numpy(dtype=float).tolist(),
-        "sunspots": sm.datasets.sunspots.load_pandas().data["SUNACTIVITY"].to_numpy(dtype=float).tolist(),
+        "co2_monthly": co2_monthly(),
         "ar2_resid_dlog_realgdp": np.asarray(ar.resid, dtype=float).tolist(),
     }
 
@@ -114,7 +121,7 @@ def degenerate(reg: str, usedlag: int, nobs: int) -> bool:
 
 def adf(data: dict[str, list[float]]) -> list[dict]:
     cases = []
-    names = ["log_realgdp", "dlog_realgdp", "infl", "unemp", "nile", "sunspots"]
+    names = ["log_realgdp", "dlog_realgdp", "infl", "unemp", "nile", "co2_monthly"]
     for name in names:
         x = np.asarray(data[name])
         for reg in ("c", "ct", "n"):
