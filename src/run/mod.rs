@@ -302,7 +302,7 @@ fn likelihood_seconds(exp: &Experiment, cells: &[plan::Cell]) -> Result<(f64, Ve
         }
     }
     if !refused.is_empty() {
-        return Err(crate::Error::Invalid(refused));
+        return Err(crate::error::Error::Invalid(refused));
     }
     Ok((total, warnings))
 }

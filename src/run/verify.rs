@@ -192,7 +192,7 @@ fn recorded_templates(manifest: &Manifest, dir: Option<&Path>) -> Result<Templat
         }
         return Err(invalid(match dir {
             None => format!(
-                "the reports were rendered with a {} other than the built-in one (SHA-256 {} recorded): give the templates with --templates DIR",
+                "the reports were rendered with a {} that is not this build's built-in one (SHA-256 {} recorded): a template of your own (give its folder with --templates DIR) or the built-in template of another outturn build (verify with that build)",
                 recorded.name,
                 &recorded.sha256[..12]
             ),
