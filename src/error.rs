@@ -21,6 +21,19 @@ pub struct Location {
 pub struct Diagnostic {
     pub location: Option<Location>,
     pub message: String,
+    /// The page of docs/ that explains it; by default chosen from the file
+    /// the problem is in ([`Diagnostic::page`]).
+    pub page: Option<&'static str>,
+}
+
+/// The reference pages messages point at (tests/docs.rs checks they exist).
+pub mod pages {
+    pub const EXPERIMENT: &str = "docs/experiment-file.md";
+    pub const RESULTS: &str = "docs/results-folder.md";
+    pub const COMMANDS: &str = "docs/commands.md";
+    pub const REFUSALS: &str = "docs/refusals.md";
+    pub const BATCH: &str = "docs/batch.md";
+    pub const ALL: [&str; 5] = [EXPERIMENT, RESULTS, COMMANDS, REFUSALS, BATCH];
 }
 
 impl Diagnostic {
@@ -28,6 +41,35 @@ impl Diagnostic {
         Diagnostic {
             location,
             message: message.into(),
+            page: None,
+        }
+    }
+
+    /// The same problem, explained on `page`.
+    pub fn see(mut self, page: &'static str) -> Self {
+        self.page = Some(page);
+        self
+    }
+
+    /// The page that explains this problem: its own, else by the kind of
+    /// file it is in — the experiment file or its data, a file of a results
+    /// or shard folder, or none (a command's arguments).
+    pub fn page(&self) -> &'static str {
+        if let Some(p) = self.page {
+            return p;
+        }
+        let Some(loc) = &self.location else {
+            return pages::COMMANDS;
+        };
+        let name = loc
+            .file
+            .file_name()
+            .map(|n| n.to_string_lossy().to_string())
+            .unwrap_or_default();
+        match name.as_str() {
+            "manifest.json" | "cells.txt" => pages::RESULTS,
+            _ if name.ends_with(".j2") => pages::COMMANDS,
+            _ => pages::EXPERIMENT,
         }
     }
 }
@@ -46,7 +88,11 @@ impl fmt::Display for Diagnostic {
                 write!(f, ": {}", self.message)
             }
             None => write!(f, "{}", self.message),
+        }?;
+        if !self.message.contains("docs/") {
+            write!(f, " ({})", self.page())?;
         }
+        Ok(())
     }
 }
 
@@ -56,22 +102,22 @@ pub enum Error {
     #[error("{}", render_diagnostics(.0))]
     Invalid(Vec<Diagnostic>),
     /// A folder to be replaced that outturn did not write; it is left untouched.
-    #[error("error: {} exists and is not a results folder outturn wrote: {why}; it is left as it is — choose another --out, or empty or remove it first", path.display())]
+    #[error("error: {} exists and is not a results folder outturn wrote: {why}; it is left as it is — choose another --out, or empty or remove it first (docs/refusals.md)", path.display())]
     NotOurs { path: PathBuf, why: String },
     /// Reading or writing a file failed.
-    #[error("error: {context}: {source}")]
+    #[error("error: {context}: {source} (docs/commands.md)")]
     Io {
         context: String,
         source: std::io::Error,
     },
     /// The report could not be built from tables the run itself wrote.
-    #[error("error: the report could not be built: {0}")]
+    #[error("error: the report could not be built: {0} (docs/commands.md)")]
     Report(String),
     /// The worker threads could not be started.
-    #[error("error: cannot start {threads} worker threads: {message}")]
+    #[error("error: cannot start {threads} worker threads: {message} (docs/commands.md)")]
     Threads { threads: usize, message: String },
     /// Something outturn relies on did not hold (a bug: please report it).
-    #[error("error: internal: {0}")]
+    #[error("error: internal: {0} — please report it (docs/commands.md)")]
     Internal(String),
     /// An interrupt stopped the run; earlier results are left as they were.
     #[error("interrupted: earlier results are left as they were")]

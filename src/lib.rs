@@ -41,5 +41,5 @@ pub use run::draft::draft;
 pub use run::kinds::text as kinds;
 pub use run::merge::merge;
 pub use run::render::render_folder as render;
-pub use run::verify::{verify, Verdict};
+pub use run::verify::{verify, Inputs as VerifyInputs, Verdict};
 pub use run::{check, interrupted, run, CheckSummary, Progress, RunOptions, RunSummary, Silent};

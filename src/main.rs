@@ -55,6 +55,15 @@ enum Command {
         /// Worker threads (default: all cores).
         #[arg(long, value_parser = clap::value_parser!(u16).range(1..=MAX_JOBS))]
         jobs: Option<u16>,
+        /// A folder holding the data file, for a results folder copied to
+        /// another machine (else it is looked for beside the recorded
+        /// experiment file and the results folder).
+        #[arg(long)]
+        data: Option<PathBuf>,
+        /// The templates the reports were rendered with, if not the built-in
+        /// ones (after `render --templates`).
+        #[arg(long)]
+        templates: Option<PathBuf>,
     },
     /// Join the shard folders of one experiment into one results folder.
     Merge {
@@ -138,6 +147,8 @@ struct Bar {
     show: bool,
     timing: bool,
     bar: std::sync::OnceLock<indicatif::ProgressBar>,
+    cells: std::sync::atomic::AtomicUsize,
+    total_cells: std::sync::atomic::AtomicUsize,
 }
 
 impl Bar {
@@ -147,28 +158,46 @@ impl Bar {
             show: !quiet && std::io::stderr().is_terminal(),
             timing: std::env::var_os("OUTTURN_DEBUG_TIMING").is_some(),
             bar: std::sync::OnceLock::new(),
+            cells: std::sync::atomic::AtomicUsize::new(0),
+            total_cells: std::sync::atomic::AtomicUsize::new(0),
         }
     }
 }
 
 impl outturn::Progress for Bar {
-    fn begin(&self, cells: usize) {
+    fn begin(&self, cells: usize, forecasts: usize) {
         if !self.show {
             return;
         }
-        let pb = indicatif::ProgressBar::new(cells as u64);
+        self.total_cells
+            .store(cells, std::sync::atomic::Ordering::Relaxed);
+        // Counted in forecasts, so a long cell moves as its origins go by;
+        // the clock and the estimate of the time left tick every second.
+        let pb = indicatif::ProgressBar::new(forecasts as u64);
         pb.set_style(
             indicatif::ProgressStyle::with_template(
-                "{spinner} backtesting [{bar:30}] {pos}/{len} cells {elapsed}",
+                "{spinner} backtesting [{bar:30}] {pos}/{len} forecasts, {msg} · {elapsed} elapsed, about {eta} left",
             )
             .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar())
             .progress_chars("=> "),
         );
+        pb.set_message(format!("0/{cells} cells"));
+        pb.enable_steady_tick(std::time::Duration::from_millis(500));
         let _ = self.bar.set(pb);
+    }
+    fn forecasts_done(&self, forecasts: usize) {
+        if let Some(b) = self.bar.get() {
+            b.inc(forecasts as u64);
+        }
     }
     fn cell_done(&self) {
         if let Some(b) = self.bar.get() {
-            b.inc(1);
+            use std::sync::atomic::Ordering;
+            let done = self.cells.fetch_add(1, Ordering::Relaxed) + 1;
+            b.set_message(format!(
+                "{done}/{} cells",
+                self.total_cells.load(Ordering::Relaxed)
+            ));
         }
     }
     fn end(&self) {
@@ -183,6 +212,35 @@ impl outturn::Progress for Bar {
     }
 }
 
+/// "0.4 s", "3 min", "2.5 h".
+fn duration_words(seconds: f64) -> String {
+    if seconds < 90.0 {
+        format!("{:.1} s", seconds.max(0.1))
+    } else if seconds < 5400.0 {
+        format!("{:.0} min", seconds / 60.0)
+    } else {
+        format!("{:.1} h", seconds / 3600.0)
+    }
+}
+
+/// Results were written but some cells failed (exit 3): said on stderr even
+/// under `--quiet`, so a scheduled job's log shows it.
+fn partial(failed: &[(String, String)], cells: usize, folder: &std::path::Path) {
+    eprintln!(
+        "error: {} of {cells} cells could not be estimated; {} holds the results of the others, and its report and manifest list these (docs/commands.md, exit code 3):",
+        failed.len(),
+        folder.display()
+    );
+    for (id, why) in failed.iter().take(20) {
+        eprintln!("  {id}: {why}");
+    }
+    if failed.len() > 20 {
+        eprintln!("  … and {} more (see manifest.json)", failed.len() - 20);
+    }
+}
+
+/// One match over the commands, each arm a few lines that parse the flags and
+/// call the library: the length is the number of commands, not logic.
 fn main() -> ExitCode {
     let _ = ctrlc::set_handler(|| {
         if outturn::interrupted() {
@@ -206,6 +264,14 @@ fn main() -> ExitCode {
                 "{}: valid. {} target(s) × {} candidate(s) × {} scheme(s) = {} cells; {} horizon(s); {} forecasts to compute.",
                 s.experiment, s.targets, s.candidates, s.schemes, s.cells, s.horizons, s.forecasts
             );
+            println!(
+                "estimated run time: about {} on {} thread(s) (an estimate: least-squares and benchmark cells timed here, arima and smoothing cells from one timed estimation each)",
+                duration_words(s.estimated_seconds),
+                s.threads
+            );
+            for w in &s.warnings {
+                eprintln!("warning: {w}");
+            }
         }),
         Command::Run { file, out, jobs, quiet, shard, no_cache } => {
             let shard = match shard.as_deref().map(parse_shard).transpose() {
@@ -216,19 +282,28 @@ fn main() -> ExitCode {
                 }
             };
             let opts = outturn::RunOptions { out, jobs: jobs.map(usize::from), shard, no_cache };
-            outturn::run(&file, &opts, &Bar::new(quiet)).map(|s| {
-                if s.failed_cells > 0 && !quiet {
-                    eprintln!(
-                        "warning: {} cell(s) could not be estimated; they are recorded in the manifest and the report",
-                        s.failed_cells
-                    );
+            match outturn::run(&file, &opts, &Bar::new(quiet)) {
+                Ok(s) => {
+                    if !quiet {
+                        for w in &s.warnings {
+                            eprintln!("warning: {w}");
+                        }
+                        eprintln!("{} cells, {} forecasts in {:.2} s → {}", s.cells, s.forecasts, s.seconds, s.folder.display());
+                    }
+                    if !s.failed_cells.is_empty() {
+                        partial(&s.failed_cells, s.cells, &s.folder);
+                        return ExitCode::from(3);
+                    }
+                    Ok(())
                 }
-                if !quiet {
-                    eprintln!("{} cells, {} forecasts in {:.2} s → {}", s.cells, s.forecasts, s.seconds, s.folder.display());
-                }
-            })
+                Err(e) => Err(e),
+            }
         }
-        Command::Verify { dir, jobs } => match outturn::verify(&dir, jobs.map(usize::from)) {
+        Command::Verify { dir, jobs, data, templates } => match outturn::verify(
+            &dir,
+            jobs.map(usize::from),
+            &outturn::VerifyInputs { data: data.as_deref(), templates: templates.as_deref() },
+        ) {
             Ok(v) if v.differences.is_empty() => {
                 println!("verified: all {} outputs of {} are byte-identical to a rerun", v.files, dir.display());
                 Ok(())
@@ -241,9 +316,17 @@ fn main() -> ExitCode {
             }
             Err(e) => Err(e),
         },
-        Command::Merge { dirs, out } => outturn::merge(&dirs, &out).map(|cells| {
-            eprintln!("merged {} shard folder(s), {cells} cells → {}", dirs.len(), out.display());
-        }),
+        Command::Merge { dirs, out } => match outturn::merge(&dirs, &out) {
+            Ok((cells, failed)) => {
+                eprintln!("merged {} shard folder(s), {cells} cells → {}", dirs.len(), out.display());
+                if !failed.is_empty() {
+                    partial(&failed, cells, &out);
+                    return ExitCode::from(3);
+                }
+                Ok(())
+            }
+            Err(e) => Err(e),
+        },
         Command::Render { dir, templates } => outturn::render(&dir, templates.as_deref()),
         Command::Draft { data } => outturn::draft(&data).map(|text| print!("{text}")),
         Command::Kinds => {

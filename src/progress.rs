@@ -6,9 +6,14 @@
 /// command line implements this (a progress bar on a terminal, nothing
 /// under `--quiet`); everything has a default that does nothing.
 pub trait Progress: Sync {
-    /// The run is about to compute `cells` cells.
-    fn begin(&self, _cells: usize) {}
-    /// One more cell finished (computed or taken from the cache).
+    /// The run is about to make `forecasts` forecasts in `cells` cells (every
+    /// cell kind, combinations included).
+    fn begin(&self, _cells: usize, _forecasts: usize) {}
+    /// `forecasts` more forecasts are made (the origin loop reports each
+    /// origin, so a long cell moves; a cell from the cache reports all of its).
+    fn forecasts_done(&self, _forecasts: usize) {}
+    /// One more cell finished (computed, formed from its members or taken
+    /// from the cache).
     fn cell_done(&self) {}
     /// The computation is over (the bar can go).
     fn end(&self) {}

@@ -482,6 +482,25 @@ fn catalogue() -> Vec<Case> {
         },
         // ── Backtest ──────────────────────────────────────────────────────
         case(
+            "horizons written as one quoted text",
+            sub("horizons: [1, 4]", "horizons: \"1, 4\""),
+            &["exp.yaml:21:13", "must be a list of whole numbers, e.g. [1, 3]"],
+        ),
+        Case {
+            name: "an index label too large",
+            yaml: sub("frequency: quarterly", "frequency: index")
+                .replace("first_origin: 2000Q1", "first_origin: 40"),
+            csv: Some({
+                let mut s = String::from("period,y,x\n");
+                for i in 0..60 {
+                    s.push_str(&format!("{},{},{}\n", i + 1, 50 + (i * 7) % 11, i % 3));
+                }
+                s.push_str("12345678901234,1,1\n");
+                s
+            }),
+            expect: vec!["data.csv:62:1", "too large for an index label"],
+        },
+        case(
             "empty horizons",
             sub("horizons: [1, 4]", "horizons: []"),
             &["exp.yaml:21:13", "backtest.horizons is empty"],
@@ -1033,5 +1052,51 @@ fn the_base_experiment_is_valid() {
         "{}",
         String::from_utf8_lossy(&out.stderr)
     );
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+/// A UTF-8 byte-order mark, which some editors write at the start of a
+/// file, is not part of the YAML nor of the CSV: both still read.
+#[test]
+fn a_byte_order_mark_is_accepted() {
+    let dir = scratch("bom");
+    std::fs::write(dir.join("exp.yaml"), format!("\u{feff}{BASE}")).unwrap();
+    std::fs::write(dir.join("data.csv"), format!("\u{feff}{}", base_csv())).unwrap();
+    let out = outturn(&["check", "exp.yaml"], &dir);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+/// `multi_step: iterated` changes ar candidates only: `check` says so when
+/// ardl candidates (which forecast each horizon directly) share the grid,
+/// and estimates the run time; the experiment stays valid.
+#[test]
+fn check_warns_of_iterated_ardl_and_estimates_the_time() {
+    let dir = scratch("iterated");
+    std::fs::write(
+        dir.join("exp.yaml"),
+        BASE.replace(
+            "  horizons: [1, 4]\n",
+            "  horizons: [1, 4]\n  multi_step: iterated\n",
+        ),
+    )
+    .unwrap();
+    std::fs::write(dir.join("data.csv"), base_csv()).unwrap();
+    let out = outturn(&["check", "exp.yaml"], &dir);
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    let stdout = String::from_utf8_lossy(&out.stdout);
+    assert_eq!(out.status.code(), Some(0), "{stderr}");
+    assert!(
+        stderr.contains(
+            "exp.yaml:22: backtest.multi_step: iterated applies to ar candidates only; ardl(1,1)"
+        ),
+        "{stderr}"
+    );
+    assert!(stdout.contains("estimated run time: about"), "{stdout}");
     let _ = std::fs::remove_dir_all(&dir);
 }

@@ -129,3 +129,42 @@ fn the_readme_tour_is_a_valid_experiment() {
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// A period column with a gap is named with the two rows around the gap.
+#[test]
+fn draft_names_the_rows_around_a_gap() {
+    let dir = std::env::temp_dir().join(format!("outturn-draft-gap-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    std::fs::write(
+        dir.join("gap.csv"),
+        "period,y\n2004-01,1\n2004-02,2\n2004-04,3\n2004-05,4\n",
+    )
+    .unwrap();
+    let o = Command::new(BIN)
+        .current_dir(&dir)
+        .args(["draft", "gap.csv"])
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(2), "{err}");
+    assert!(
+        err.contains("gap.csv:4:1")
+            && err.contains("'2004-04' (line 4) comes after '2004-02' (line 3)"),
+        "{err}"
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+/// kinds says which tests are keys of scoring.tests and which always run.
+#[test]
+fn kinds_says_where_the_diagnostics_appear() {
+    let o = Command::new(BIN).arg("kinds").output().unwrap();
+    let text = String::from_utf8(o.stdout).unwrap();
+    let always = text
+        .split("always run (not keys of scoring.tests)")
+        .nth(1)
+        .expect("a section of tests that always run");
+    for t in ["fluctuation", "ljung_box", "adf", "diagnostics.csv"] {
+        assert!(always.contains(t), "{t} not in: {always}");
+    }
+}

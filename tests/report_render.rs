@@ -184,7 +184,7 @@ fn render_refuses_what_it_cannot_use() {
     let o = outturn(&["render".as_ref(), empty.as_os_str()]);
     assert_eq!(o.status.code(), Some(2));
 
-    // A template that does not compile: the run fails (exit 1), nothing changes.
+    // A template that does not compile is bad input: exit 2, located, nothing changes.
     let broken = scratch("broken");
     std::fs::write(broken.join("report.md.j2"), "{% for %}").unwrap();
     std::fs::write(broken.join("report.html.j2"), "ok").unwrap();
@@ -194,7 +194,9 @@ fn render_refuses_what_it_cannot_use() {
         "--templates".as_ref(),
         broken.as_os_str(),
     ]);
-    assert_eq!(o.status.code(), Some(1));
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(err.contains("report.md.j2:1"), "{err}");
     assert!(read(&dir, "manifest.json") == read(demo(), "manifest.json"));
 }
 

@@ -675,3 +675,108 @@ fn verify_reports_every_added_missing_and_changed_file() {
     assert!(said.contains("notes.txt was added to the folder"), "{said}");
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// verify and render of a shard folder say to merge first (exit 2).
+#[test]
+fn a_shard_folder_is_merged_before_it_is_verified_or_rendered() {
+    let dir = scratch("shard-first");
+    let shard = dir.join("k1");
+    ok(&run_args(&demo(), &shard, &["--shard", "1/2"]));
+    for command in ["verify", "render"] {
+        let o = outturn(&[command, shard.to_str().unwrap()]);
+        let said = String::from_utf8_lossy(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{command}: {said}");
+        assert!(
+            said.contains("shard folder") && said.contains("merge"),
+            "{command}: {said}"
+        );
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+/// verify works on a results folder moved to another machine: the
+/// experiment file is the folder's own copy, the data file is found beside
+/// it or given with --data, and what is missing is said precisely; after
+/// render --templates, verify asks for the templates and then passes.
+#[test]
+fn verify_works_on_a_copied_folder() {
+    let dir = scratch("copied");
+    let origin = dir.join("origin");
+    std::fs::create_dir_all(origin.join("data")).unwrap();
+    let root = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("experiments");
+    std::fs::copy(
+        root.join("water_demand.yaml"),
+        origin.join("water_demand.yaml"),
+    )
+    .unwrap();
+    std::fs::copy(
+        root.join("data/water_demand.csv"),
+        origin.join("data/water_demand.csv"),
+    )
+    .unwrap();
+    let folder = origin.join("res");
+    ok(&run_args(&origin.join("water_demand.yaml"), &folder, &[]));
+    // "Another machine": the folder alone, the inputs gone from where they were.
+    let elsewhere = dir.join("elsewhere");
+    std::fs::create_dir_all(&elsewhere).unwrap();
+    let copied = elsewhere.join("res");
+    std::fs::rename(&folder, &copied).unwrap();
+    let data_copy = dir.join("inputs");
+    std::fs::create_dir_all(&data_copy).unwrap();
+    std::fs::rename(
+        origin.join("data/water_demand.csv"),
+        data_copy.join("water_demand.csv"),
+    )
+    .unwrap();
+    std::fs::remove_dir_all(&origin).unwrap();
+    let o = outturn(&["verify", copied.to_str().unwrap()]);
+    let said = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(2), "{said}");
+    assert!(
+        said.contains("data/water_demand.csv") && said.contains("--data DIR"),
+        "{said}"
+    );
+    ok(&[
+        "verify",
+        copied.to_str().unwrap(),
+        "--data",
+        data_copy.to_str().unwrap(),
+    ]);
+    // Rendered with templates of one's own: verify needs them.
+    let templates = dir.join("templates");
+    std::fs::create_dir_all(&templates).unwrap();
+    let built_in = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("templates");
+    std::fs::copy(
+        built_in.join("report.html.j2"),
+        templates.join("report.html.j2"),
+    )
+    .unwrap();
+    std::fs::write(templates.join("report.md.j2"), "# {{ title }}\n").unwrap();
+    ok(&[
+        "render",
+        copied.to_str().unwrap(),
+        "--templates",
+        templates.to_str().unwrap(),
+    ]);
+    let o = outturn(&[
+        "verify",
+        copied.to_str().unwrap(),
+        "--data",
+        data_copy.to_str().unwrap(),
+    ]);
+    let said = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(2), "{said}");
+    assert!(
+        said.contains("report.md.j2") && said.contains("--templates"),
+        "{said}"
+    );
+    ok(&[
+        "verify",
+        copied.to_str().unwrap(),
+        "--data",
+        data_copy.to_str().unwrap(),
+        "--templates",
+        templates.to_str().unwrap(),
+    ]);
+    let _ = std::fs::remove_dir_all(&dir);
+}

@@ -78,6 +78,7 @@ fn record_left_out(out: &mut Vec<LeftOut>, names: Vec<String>, end: usize) {
 /// previous estimate (counted as a fallback); one whose first estimation or
 /// any forecast fails fails the cell.
 struct OriginLoop<'a> {
+    progress: &'a dyn Progress,
     schedule: Schedule<'a>,
     horizons: &'a [usize],
     /// Some(window of the outlook estimation) when this cell gives the outlook.
@@ -213,6 +214,7 @@ impl models::Visitor for OriginLoop<'_> {
             };
             asked.clear();
             asked.extend(wanted.iter().map(|&i| horizons[i]));
+            self.progress.forecasts_done(asked.len());
             for (&i, step) in wanted.iter().zip(model.forecast(fit, origin, &asked)) {
                 match step {
                     Ok(step) => per_h[i].push(ForecastRow {
@@ -261,6 +263,7 @@ impl models::Visitor for OriginLoop<'_> {
 pub(crate) fn run_cell(
     exp: &Experiment,
     cell: &Cell,
+    progress: &dyn Progress,
 ) -> std::result::Result<CellOutput, EstimationProblem> {
     let target = &exp.targets[cell.target];
     let candidate = &exp.candidates[cell.candidate];
@@ -281,6 +284,7 @@ pub(crate) fn run_cell(
         with_outlook,
     };
     let origin_loop = OriginLoop {
+        progress,
         schedule,
         horizons: &exp.horizons,
         outlook: with_outlook.then(|| plan::outlook_window(exp)),
@@ -291,6 +295,60 @@ pub(crate) fn run_cell(
         origin: 0,
         message,
     })?
+}
+
+/// Times one estimation of a cell's model at its first estimation end.
+struct TimeOneFit {
+    end: usize,
+    window: Option<usize>,
+}
+
+impl models::Visitor for TimeOneFit {
+    type Out = Option<f64>;
+    fn visit<M: Model>(self, model: &M) -> Option<f64> {
+        let started = std::time::Instant::now();
+        model.fit(self.end, self.window).ok()?;
+        Some(started.elapsed().as_secs_f64())
+    }
+}
+
+/// The schedule of a cell.
+fn schedule_of<'a>(exp: &'a Experiment, cell: &Cell) -> Schedule<'a> {
+    let target = &exp.targets[cell.target];
+    Schedule {
+        scheme: &exp.schemes[cell.scheme],
+        first_origin: target.first_origins[cell.scheme],
+        n: target.n,
+    }
+}
+
+/// How many estimations a cell makes: one per estimation end its origins meet.
+pub(crate) fn estimations(exp: &Experiment, cell: &Cell) -> usize {
+    let schedule = schedule_of(exp, cell);
+    let mut ends: Vec<usize> = schedule
+        .origins(exp.horizons[0])
+        .map(|o| schedule.estimation_end(o))
+        .collect();
+    ends.dedup();
+    ends.len()
+}
+
+/// The seconds one estimation of the cell's model takes at its first origin
+/// (None when it cannot be estimated there).
+pub(crate) fn time_one_estimation(exp: &Experiment, cell: &Cell) -> Option<f64> {
+    let schedule = schedule_of(exp, cell);
+    let model = CellModel {
+        exp,
+        family: &exp.candidates[cell.candidate].family,
+        target: &exp.targets[cell.target],
+        schedule,
+        with_outlook: false,
+    };
+    let timer = TimeOneFit {
+        end: schedule.first_origin,
+        window: schedule.window(),
+    };
+    models::visit(&model, timer).ok()?
 }
 
 /// Whether a cell's output read back from a file (a shard folder, the
@@ -385,13 +443,19 @@ pub(crate) fn problem_diagnostic(
 }
 
 /// Fill the combination cells from their members' rows.
-pub(crate) fn combine(exp: &Experiment, cells: &[Cell], outputs: &mut [CellOutput]) {
+pub(crate) fn combine(
+    exp: &Experiment,
+    cells: &[Cell],
+    outputs: &mut [CellOutput],
+    progress: &dyn Progress,
+) {
     for i in 0..cells.len() {
         let cell = &cells[i];
         let Family::Combination { members, weights } = &exp.candidates[cell.candidate].family
         else {
             continue;
         };
+        progress.cell_done();
         let member_cells: Vec<usize> = members
             .iter()
             .map(|&m| plan::cell_index(exp, cell.target, m, cell.scheme))
@@ -420,6 +484,7 @@ pub(crate) fn combine(exp: &Experiment, cells: &[Cell], outputs: &mut [CellOutpu
         };
         match result {
             Ok(forecasts) => {
+                progress.forecasts_done(forecasts.len());
                 outputs[i].forecasts = forecasts;
                 outputs[i].outlook = outlook;
             }
@@ -455,12 +520,13 @@ pub(crate) fn run_selected(
             if let (Some(c), Some(k)) = (cache, &key) {
                 if let Some(mut hit) = c.get(k).filter(|o| check_output(exp, cell, o).is_ok()) {
                     hit.cached = true;
+                    progress.forecasts_done(hit.forecasts.len());
                     progress.cell_done();
                     return Ok(hit);
                 }
             }
             let started = std::time::Instant::now();
-            let r = run_cell(exp, cell).map(|mut o| {
+            let r = run_cell(exp, cell, progress).map(|mut o| {
                 o.seconds = started.elapsed().as_secs_f64();
                 o
             });

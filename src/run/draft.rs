@@ -8,6 +8,39 @@ use crate::spec::data::{parse_number, read_table, RawTable};
 use crate::spec::period::{parse_label, Frequency};
 use std::path::Path;
 
+/// Where a column's labels of one frequency break their regular step: the
+/// frequency and the indices of the two rows around the first break.
+fn first_break(labels: &[&str]) -> Option<(Frequency, usize, usize)> {
+    for f in [
+        Frequency::Quarterly,
+        Frequency::Monthly,
+        Frequency::Daily,
+        Frequency::Annual,
+    ] {
+        let ords: Option<Vec<i64>> = labels
+            .iter()
+            .map(|l| parse_label(f, l).ok().map(|(o, _)| o))
+            .collect();
+        let Some(ords) = ords.filter(|o| o.len() > 2) else {
+            continue;
+        };
+        let step = if f == Frequency::Daily && ords[1] - ords[0] == 7 {
+            7
+        } else {
+            1
+        };
+        if let Some(i) = (1..ords.len()).find(|&i| ords[i] - ords[i - 1] != step) {
+            let f = if f == Frequency::Daily && step == 7 {
+                Frequency::Weekly
+            } else {
+                f
+            };
+            return Some((f, i - 1, i));
+        }
+    }
+    None
+}
+
 fn detect_frequency(labels: &[&str]) -> Option<Frequency> {
     let candidates = [
         Frequency::Quarterly,
@@ -53,18 +86,38 @@ struct Col {
     complete_to_last: bool,
 }
 
-/// The time column: the first whose labels fit a frequency.
-fn time_column(table: &RawTable) -> Option<(usize, Frequency)> {
+/// The time column: the first whose labels fit a calendar frequency, else
+/// the first of whole numbers counting up (index). A column of calendar
+/// labels with a break (a missing, repeated or misplaced period) comes
+/// before an index column: it is reported as `Err` (column, frequency, the
+/// two rows around the break).
+/// A column's frequency and the two rows around the first break of its labels.
+type Break = (usize, Frequency, usize, usize);
+
+fn time_column(table: &RawTable) -> std::result::Result<Option<(usize, Frequency)>, Break> {
+    let mut index = None;
+    let mut broken = None;
     for (i, _) in table.headers.iter().enumerate() {
         let labels: Vec<&str> = table.rows.iter().map(|r| &r.cells[i]).collect();
         if labels.iter().any(|l| l.is_empty()) {
             continue;
         }
-        if let Some(f) = detect_frequency(&labels) {
-            return Some((i, f));
+        match detect_frequency(&labels) {
+            Some(Frequency::Index) => {
+                index.get_or_insert((i, Frequency::Index));
+            }
+            Some(f) => return Ok(Some((i, f))),
+            None => {
+                if let Some((f, a, b)) = first_break(&labels) {
+                    broken.get_or_insert((i, f, a, b));
+                }
+            }
         }
     }
-    None
+    match broken {
+        Some(b) => Err(b),
+        None => Ok(index),
+    }
 }
 
 /// Every column but the time column whose cells are all numbers or empty.
@@ -127,8 +180,28 @@ pub fn draft(path: &Path) -> Result<String> {
     let bytes = std::fs::read(path)
         .map_err(|e| Error::invalid(loc(), format!("cannot read the data file: {e}")))?;
     let table = read_table(path, &bytes).map_err(|d| Error::Invalid(vec![d]))?;
-    let Some((time_idx, freq)) = time_column(&table) else {
-        return Err(Error::invalid(loc(), "no column holds period labels of one frequency without gaps (e.g. 2004Q1, 2004-01, 2004-01-05, 2004 or 1, 2, 3 …)"));
+    let (time_idx, freq) = match time_column(&table) {
+        Ok(Some(found)) => found,
+        Ok(None) => return Err(Error::invalid(loc(), "no column holds period labels of one frequency without gaps (e.g. 2004Q1, 2004-01, 2004-01-05, 2004 or 1, 2, 3 …)")),
+        Err((i, f, a, b)) => {
+            let (ra, rb) = (&table.rows[a], &table.rows[b]);
+            return Err(Error::invalid(
+                Some(Location {
+                    file: path.to_path_buf(),
+                    line: Some(rb.line),
+                    column: Some(i + 1),
+                }),
+                format!(
+                    "column '{}' holds {} labels but they do not follow each other: '{}' (line {}) comes after '{}' (line {}) — a period is missing, repeated or out of order there; periods must run without gaps",
+                    table.headers[i],
+                    f.name(),
+                    &rb.cells[i],
+                    rb.line,
+                    &ra.cells[i],
+                    ra.line
+                ),
+            ));
+        }
     };
     let cols = numeric_columns(&table, time_idx);
     let usable: Vec<&Col> = cols.iter().filter(|c| c.complete_to_last).collect();

@@ -30,21 +30,28 @@ pub fn text() -> String {
         ("clark_west", "equal accuracy of nested models, adjusted for estimation noise (Clark & West 2007)"),
         ("confidence_set", "the set of candidates not significantly worse than the best (Hansen, Lunde & Nason 2011)"),
         ("snooping", "does the best of the whole grid beat the benchmark once the search is counted (Hansen 2005, SPA)"),
-        ("fluctuation", "equal accuracy at every point in time, rolling window (Giacomini & Rossi 2010)"),
-        ("rank_correlation", "Spearman correlation of in-sample and out-of-sample rankings (overfitting diagnostic)"),
-        ("ljung_box", "autocorrelation left in a model's in-sample residuals (Ljung & Box 1978)"),
-        ("adf", "augmented Dickey-Fuller unit-root test, AIC lag length, MacKinnon p-values (Said & Dickey 1984; MacKinnon 1994, 2010)"),
+    ];
+    // Run on every experiment: they are not keys of scoring.tests.
+    let always: &[(&str, &str)] = &[
+        ("fluctuation", "equal accuracy at every point in time, rolling window (Giacomini & Rossi 2010); tests.csv and stability.csv"),
+        ("rank_correlation", "Spearman correlation of in-sample and out-of-sample rankings (overfitting diagnostic); tests.csv"),
+        ("ljung_box", "autocorrelation left in a model's in-sample residuals (Ljung & Box 1978); diagnostics.csv"),
+        ("adf", "augmented Dickey-Fuller unit-root test, AIC lag length, MacKinnon p-values (Said & Dickey 1984; MacKinnon 1994, 2010); diagnostics.csv"),
     ];
     let mut out = String::new();
     for (title, rows) in [
         ("model families", families),
         ("metrics", metrics),
-        ("tests", tests),
+        ("tests (keys of scoring.tests)", tests),
+        ("always run (not keys of scoring.tests)", always),
     ] {
         out.push_str(title);
         out.push('\n');
         for (name, what) in rows {
             out.push_str(&format!("  {name:<17} {what}\n"));
+        }
+        if title == "tests (keys of scoring.tests)" {
+            out.push_str("  (docs/experiment-file.md lists their settings)\n");
         }
         out.push('\n');
     }

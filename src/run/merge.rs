@@ -131,8 +131,12 @@ fn check_shards(manifests: &[(PathBuf, PathBuf, ShardManifest)]) -> Result<()> {
     Ok(())
 }
 
-/// `outturn merge DIR... --out DIR`.
-pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<usize> {
+/// `outturn merge DIR... --out DIR`: the cell count, and the cells that could not be estimated (id, why).
+///
+/// One function because its refusals (same experiment, same build, shards
+/// complete and disjoint, every table as written) run in this order before a
+/// byte is written, and each names the folder it concerns.
+pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<(usize, Vec<(String, String)>)> {
     let started = std::time::Instant::now();
     if dirs.is_empty() {
         return Err(Error::invalid(
@@ -196,6 +200,7 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<usize> {
         shard: format!("merged {count}"),
         durable: true,
         progress: &super::Silent,
+        templates: &crate::report::render::default_templates(),
     };
     let per = exp.candidates.len() * exp.schemes.len();
     let source = |t: usize| -> Result<Vec<CellOutput>> {
@@ -210,12 +215,12 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<usize> {
             .collect()
     };
     let staging = output::stage(out)?;
-    pipeline::produce(&exp, &source, staging.dir(), &ctx, &pool, threads * 8)?;
+    let produced = pipeline::produce(&exp, &source, staging.dir(), &ctx, &pool, threads * 8)?;
     rows.into_inner()
         .unwrap_or_else(|e| e.into_inner())
         .finish(&cells)?;
     staging.commit_synced()?;
-    Ok(cells.len())
+    Ok((cells.len(), produced.failed_cells))
 }
 
 /// One shard's rows, read as they are needed.

@@ -32,6 +32,11 @@ pub struct CheckSummary {
     pub horizons: usize,
     pub cells: usize,
     pub forecasts: usize,
+    /// An estimate of the run's wall time in seconds on `threads` threads.
+    pub estimated_seconds: f64,
+    pub threads: usize,
+    /// What the experiment asks that outturn does differently than it may seem.
+    pub warnings: Vec<String>,
 }
 
 /// Validate an experiment and its data; estimation problems (too few rows,
@@ -48,7 +53,10 @@ pub fn check(path: &Path) -> Result<CheckSummary> {
                 && !crate::models::is_likelihood(&exp.candidates[cells[i].candidate].family)
         })
         .collect();
+    let started = Instant::now();
     backtest::run_selected(&exp, &cells, &quick, None, &Silent)?;
+    let quick_seconds = started.elapsed().as_secs_f64();
+    let threads = std::thread::available_parallelism().map_or(1, |n| n.get());
     Ok(CheckSummary {
         experiment: exp.name.clone(),
         targets: exp.targets.len(),
@@ -56,6 +64,9 @@ pub fn check(path: &Path) -> Result<CheckSummary> {
         schemes: exp.schemes.len(),
         horizons: exp.horizons.len(),
         cells: cells.len(),
+        estimated_seconds: (quick_seconds + likelihood_seconds(&exp, &cells)) / threads as f64,
+        threads,
+        warnings: exp.warnings.clone(),
         forecasts: plan::forecast_count(&exp),
     })
 }
@@ -73,8 +84,11 @@ pub struct RunSummary {
     pub folder: PathBuf,
     pub cells: usize,
     pub forecasts: usize,
-    /// Cells that could not be estimated (recorded in the manifest and the report).
-    pub failed_cells: usize,
+    /// What the experiment asks that outturn does differently than it may seem.
+    pub warnings: Vec<String>,
+    /// Cells that could not be estimated, (id, why): recorded in the
+    /// manifest and the report; the command line exits 3 when there are any.
+    pub failed_cells: Vec<(String, String)>,
     pub seconds: f64,
 }
 
@@ -132,6 +146,8 @@ pub(crate) struct RunContext<'a> {
     /// be swapped in); `verify`'s scratch copy, compared and removed, needs not.
     pub durable: bool,
     pub progress: &'a dyn Progress,
+    /// The report templates (the built-in ones but for `verify --templates`).
+    pub templates: &'a crate::report::render::Templates,
 }
 
 impl RunContext<'_> {
@@ -151,6 +167,7 @@ pub fn interrupted() -> bool {
 
 pub fn run(path: &Path, opts: &RunOptions, progress: &dyn Progress) -> Result<RunSummary> {
     let started = Instant::now();
+    let templates = crate::report::render::default_templates();
     let started_unix = now_unix();
     let exp = spec::load(path)?;
     let ctx = RunContext {
@@ -163,6 +180,7 @@ pub fn run(path: &Path, opts: &RunOptions, progress: &dyn Progress) -> Result<Ru
             .unwrap_or_else(|| "1/1".into()),
         durable: true,
         progress,
+        templates: &templates,
     };
     ctx.step("experiment and data read");
     plan::check_size(&exp)?;
@@ -179,7 +197,18 @@ pub fn run(path: &Path, opts: &RunOptions, progress: &dyn Progress) -> Result<Ru
         })
         .collect();
     let cache = (!opts.no_cache).then(|| cache::Cache::beside(&folder));
-    progress.begin(selected.len());
+    progress.begin(
+        if opts.shard.is_some() {
+            selected.len()
+        } else {
+            cells.len()
+        },
+        if opts.shard.is_some() {
+            selected_forecasts(&exp, &cells, &selected)
+        } else {
+            plan::forecast_count(&exp)
+        },
+    );
     // An invalid experiment writes nothing (SPEC §1): not even cache entries.
     let take_back = |e: Error| {
         if let (Error::Invalid(_), Some(c)) = (&e, &cache) {
@@ -202,10 +231,15 @@ pub fn run(path: &Path, opts: &RunOptions, progress: &dyn Progress) -> Result<Ru
         let files = shard::shard_files(&exp, &cells, &selected, &computed, (k, n), run);
         folder::write_folder(&folder, &files)?;
         return Ok(RunSummary {
+            warnings: exp.warnings.clone(),
             folder,
             cells: selected.len(),
             forecasts: computed.iter().map(|o| o.forecasts.len()).sum(),
-            failed_cells: computed.iter().filter(|o| o.failure.is_some()).count(),
+            failed_cells: selected
+                .iter()
+                .zip(&computed)
+                .filter_map(|(&i, o)| Some((cells[i].id.clone(), o.failure.clone()?)))
+                .collect(),
             seconds: started.elapsed().as_secs_f64(),
         });
     }
@@ -216,12 +250,50 @@ pub fn run(path: &Path, opts: &RunOptions, progress: &dyn Progress) -> Result<Ru
     staging.commit_synced()?;
     ctx.step("results folder swapped in");
     Ok(RunSummary {
+        warnings: exp.warnings.clone(),
         folder,
         cells: cells.len(),
         forecasts: plan::forecast_count(&exp),
         failed_cells: produced.failed_cells,
         seconds: started.elapsed().as_secs_f64(),
     })
+}
+
+/// The likelihood cells' time, estimated from one timed estimation per
+/// candidate (on the first target and scheme) times the estimations each
+/// of its cells makes; warm starts make later estimations cheaper, so this
+/// leans high. The cells' work is spread over the run's threads.
+fn likelihood_seconds(exp: &Experiment, cells: &[plan::Cell]) -> f64 {
+    let mut per_candidate: Vec<Option<Option<f64>>> = vec![None; exp.candidates.len()];
+    let mut total = 0.0;
+    for cell in cells {
+        if !crate::models::is_likelihood(&exp.candidates[cell.candidate].family) {
+            continue;
+        }
+        let one = *per_candidate[cell.candidate]
+            .get_or_insert_with(|| backtest::time_one_estimation(exp, cell));
+        if let Some(seconds) = one {
+            total += seconds * backtest::estimations(exp, cell) as f64;
+        }
+    }
+    total
+}
+
+/// How many forecasts the selected cells make (a shard's share).
+fn selected_forecasts(exp: &Experiment, cells: &[plan::Cell], selected: &[usize]) -> usize {
+    selected
+        .iter()
+        .map(|&i| {
+            let c = &cells[i];
+            let t = &exp.targets[c.target];
+            exp.horizons
+                .iter()
+                .map(|&h| {
+                    plan::origins(&exp.schemes[c.scheme], t.first_origins[c.scheme], t.n, h).count()
+                })
+                .sum::<usize>()
+        })
+        .sum()
 }
 
 /// How many targets the workers may run ahead of the files: enough to keep

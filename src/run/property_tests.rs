@@ -522,3 +522,52 @@ proptest! {
         }
     }
 }
+
+/// The progress a run reports adds up (by construction of the counts): one
+/// `forecasts_done` per forecast and one `cell_done` per cell, combinations
+/// and every thread count included, so the bar ends full.
+#[test]
+fn progress_counts_every_forecast_and_every_cell() {
+    use std::sync::atomic::AtomicUsize;
+    #[derive(Default)]
+    struct Count {
+        cells: AtomicUsize,
+        forecasts: AtomicUsize,
+        planned: AtomicUsize,
+        planned_cells: AtomicUsize,
+    }
+    impl crate::progress::Progress for Count {
+        fn begin(&self, cells: usize, forecasts: usize) {
+            self.planned.store(forecasts, Ordering::SeqCst);
+            self.planned_cells.store(cells, Ordering::SeqCst);
+        }
+        fn forecasts_done(&self, n: usize) {
+            self.forecasts.fetch_add(n, Ordering::SeqCst);
+        }
+        fn cell_done(&self) {
+            self.cells.fetch_add(1, Ordering::SeqCst);
+        }
+    }
+    let yaml = BASE.replace(
+        "    predictor_lags: [1]\n",
+        "    predictor_lags: [1]\n  - family: combination\n    members: [\"ar(1)\", \"ar(2)\"]\n",
+    );
+    for jobs in [1, 2] {
+        let dir = scratch("progress");
+        std::fs::write(dir.join("exp.yaml"), &yaml).expect("write");
+        std::fs::write(dir.join("data.csv"), base_csv()).expect("write");
+        let count = Count::default();
+        let opts = crate::run::RunOptions {
+            out: Some(dir.join("res")),
+            jobs: Some(jobs),
+            shard: None,
+            no_cache: true,
+        };
+        let summary = crate::run::run(&dir.join("exp.yaml"), &opts, &count).expect("runs");
+        assert_eq!(count.planned.load(Ordering::SeqCst), summary.forecasts);
+        assert_eq!(count.forecasts.load(Ordering::SeqCst), summary.forecasts);
+        assert_eq!(count.planned_cells.load(Ordering::SeqCst), summary.cells);
+        assert_eq!(count.cells.load(Ordering::SeqCst), summary.cells);
+        let _ = std::fs::remove_dir_all(&dir);
+    }
+}

@@ -38,6 +38,10 @@ fn read_stored(path: &Path, missing: impl FnOnce() -> String) -> Result<Vec<u8>>
 /// manifest's `templates` and the report entries of its `outputs`;
 /// everything else stays byte for byte. A table that is not as outturn
 /// wrote it is invalid input (exit 2), named with its line.
+///
+/// One function because its steps (read the manifest, check every table
+/// against it, rebuild the view, render, write, update the manifest) must run
+/// in this order and share the manifest as it is checked.
 pub fn render_folder(dir: &Path, templates: Option<&Path>) -> Result<()> {
     let manifest_path = dir.join("manifest.json");
     let manifest_bytes = read_stored(&manifest_path, || {
@@ -106,13 +110,16 @@ pub fn render_folder(dir: &Path, templates: Option<&Path>) -> Result<()> {
         // A user's template that fails (a syntax error, a loop without
         // bound that runs out of fuel) is a problem of the input.
         if user_templates {
-            Error::invalid(
-                None,
+            let text = e.to_string();
+            let message = if text.contains("fuel") {
                 format!(
-                    "{e} (a template folder's templates may take at most {} steps)",
+                    "{text} (a template folder's templates may take at most {} steps)",
                     crate::report::render::TEMPLATE_FUEL
-                ),
-            )
+                )
+            } else {
+                text
+            };
+            Error::invalid(None, message)
         } else {
             Error::Report(e)
         }

@@ -1,15 +1,20 @@
 //! `outturn verify DIR`: rerun the experiment a results folder records and
 //! compare every output byte for byte — all but the manifest's `run`
-//! section (SPEC §1, §5). Refuses when an input's hash changed.
+//! section (SPEC §1, §5). Refuses when an input's hash changed. Works on a
+//! folder copied to another machine: the experiment file is the folder's
+//! own copy, the data file is looked for (or given with `--data`), and the
+//! templates of a `render --templates` are given with `--templates`.
 
 use super::merge::load_recorded;
 use super::{RunContext, Silent};
+use crate::digest::sha256_hex;
 use crate::error::{Error, Location, Result};
 use crate::plan;
+use crate::report::render::{default_templates, load_templates, used_templates, Templates};
 use crate::results::manifest::Manifest;
-use crate::spec::Experiment;
+use crate::spec::{Experiment, ReportFormat};
 use serde_json::Value;
-use std::path::Path;
+use std::path::{Path, PathBuf};
 
 pub struct Verdict {
     /// Every difference in words: files changed (with their first differing
@@ -53,8 +58,18 @@ fn without_run(mut v: Value) -> Value {
     v
 }
 
-/// The experiment a results folder records, with its inputs checked unchanged.
-fn recorded_experiment(dir: &Path) -> Result<Experiment> {
+/// Where `verify` looks for what a results folder was made from.
+pub struct Inputs<'a> {
+    /// A folder holding the data file (at the experiment's relative path, or
+    /// by its file name), for a results folder copied to another machine.
+    pub data: Option<&'a Path>,
+    /// The templates the reports were rendered with, when they are not the
+    /// built-in ones (after `render --templates`).
+    pub templates: Option<&'a Path>,
+}
+
+/// The results folder's manifest.
+fn read_manifest(dir: &Path) -> Result<Manifest> {
     let mpath = dir.join("manifest.json");
     let at = |message: String| {
         Error::invalid(
@@ -73,21 +88,123 @@ fn recorded_experiment(dir: &Path) -> Result<Experiment> {
                 .into(),
         ));
     }
-    let manifest = Manifest::from_bytes(&bytes).map_err(at)?;
+    Manifest::from_bytes(&bytes).map_err(at)
+}
+
+fn invalid(message: String) -> Error {
+    Error::invalid(None, format!("{message} — docs/commands.md (verify)"))
+}
+
+/// The experiment a results folder records, with its inputs checked
+/// unchanged. The experiment is the file at the recorded path when it is
+/// still there and unchanged, else the copy the folder keeps
+/// (`experiment.yaml`); the data file is looked for in `--data`, beside the
+/// recorded experiment file, then in and beside the results folder. Every
+/// place looked is named when none holds the recorded data.
+fn recorded_experiment(dir: &Path, manifest: &Manifest, data: Option<&Path>) -> Result<Experiment> {
     let recorded = manifest
         .run
         .as_ref()
-        .ok_or_else(|| at("the manifest does not record the experiment file's path".into()))?;
+        .map(|r| PathBuf::from(&r.experiment_path));
+    let expected = &manifest.experiment.sha256;
     let data_sha = manifest
         .data
         .first()
         .map(|d| d.sha256.as_str())
         .unwrap_or("");
-    load_recorded(
-        &recorded.experiment_path,
-        &manifest.experiment.sha256,
-        data_sha,
-    )
+    // The recorded file, where it still is and unchanged, and its data in place.
+    if let (None, Some(path)) = (data, &recorded) {
+        if std::fs::read(path).is_ok_and(|t| sha256_hex(&t) == *expected) {
+            if let Ok(exp) = load_recorded(&path.to_string_lossy(), expected, data_sha) {
+                return Ok(exp);
+            }
+        }
+    }
+    // The folder's own copy of the experiment file.
+    let copy = dir.join("experiment.yaml");
+    let text = std::fs::read(&copy).map_err(|e| {
+        invalid(format!(
+            "{} cannot be read ({e}): a results folder keeps the experiment file it ran",
+            copy.display()
+        ))
+    })?;
+    if sha256_hex(&text) != *expected {
+        return Err(invalid(format!(
+            "{} is not the experiment file the run recorded (its SHA-256 differs from the manifest's)",
+            copy.display()
+        )));
+    }
+    let text = String::from_utf8(text)
+        .map_err(|_| invalid(format!("{}: not UTF-8 text", copy.display())))?;
+    let declared = crate::spec::declaration(&copy, &text)?;
+    let original = recorded.unwrap_or_else(|| dir.join(&manifest.experiment.file));
+    let mut places: Vec<PathBuf> = Vec::new();
+    if let Some(d) = data {
+        places.push(d.to_path_buf());
+    }
+    if let Some(parent) = original.parent() {
+        places.push(parent.to_path_buf());
+    }
+    places.push(dir.to_path_buf());
+    if let Some(parent) = dir.parent() {
+        places.push(parent.to_path_buf());
+    }
+    let file = &declared.data_file;
+    let name = Path::new(file)
+        .file_name()
+        .map(PathBuf::from)
+        .unwrap_or_default();
+    let mut looked = Vec::new();
+    for place in &places {
+        for candidate in [place.join(file), place.join(&name)] {
+            if looked.contains(&candidate) {
+                continue;
+            }
+            looked.push(candidate.clone());
+            let Ok(bytes) = std::fs::read(&candidate) else {
+                continue;
+            };
+            if sha256_hex(&bytes) == data_sha {
+                return crate::spec::load_text(&original, &text, &candidate);
+            }
+        }
+    }
+    Err(invalid(format!(
+        "the data file {} the run used (SHA-256 {}) is not in any place looked: {}; give the folder that holds it with --data DIR",
+        file,
+        &data_sha[..data_sha.len().min(12)],
+        looked.iter().map(|p| p.display().to_string()).collect::<Vec<_>>().join(", ")
+    )))
+}
+
+/// The templates to rerun the reports with: the built-in ones, or the
+/// folder given with `--templates`; either must be what the manifest recorded.
+fn recorded_templates(manifest: &Manifest, dir: Option<&Path>) -> Result<Templates> {
+    let templates = match dir {
+        Some(d) => load_templates(d)?,
+        None => default_templates(),
+    };
+    let used = used_templates(&templates, &[ReportFormat::Markdown, ReportFormat::Html]);
+    for recorded in &manifest.templates {
+        let ours = used.iter().find(|(name, _)| *name == recorded.name);
+        if ours.is_some_and(|(_, text)| sha256_hex(text.as_bytes()) == recorded.sha256) {
+            continue;
+        }
+        return Err(invalid(match dir {
+            None => format!(
+                "the reports were rendered with a {} other than the built-in one (SHA-256 {} recorded): give the templates with --templates DIR",
+                recorded.name,
+                &recorded.sha256[..12]
+            ),
+            Some(d) => format!(
+                "{} in {} is not the template the reports were rendered with (SHA-256 {} recorded)",
+                recorded.name,
+                d.display(),
+                &recorded.sha256[..12]
+            ),
+        }));
+    }
+    Ok(templates)
 }
 
 /// A scratch folder for the rerun, removed when dropped (it is never swapped in).
@@ -101,7 +218,7 @@ impl Drop for Scratch {
 }
 
 /// Rerun `exp` into a scratch folder.
-fn rerun(exp: &Experiment, jobs: Option<usize>) -> Result<Scratch> {
+fn rerun(exp: &Experiment, jobs: Option<usize>, templates: &Templates) -> Result<Scratch> {
     let started = std::time::Instant::now();
     let cells = plan::cells(exp);
     let (pool, threads) = super::thread_pool(jobs)?;
@@ -112,6 +229,7 @@ fn rerun(exp: &Experiment, jobs: Option<usize>) -> Result<Scratch> {
         shard: "verify".into(),
         durable: false,
         progress: &Silent,
+        templates,
     };
     let scratch = Scratch(std::env::temp_dir().join(format!(
         "outturn-verify-{}-{}",
@@ -161,9 +279,11 @@ fn listing(dir: &Path) -> Result<Vec<String>> {
     Ok(files)
 }
 
-pub fn verify(dir: &Path, jobs: Option<usize>) -> Result<Verdict> {
-    let exp = recorded_experiment(dir)?;
-    let scratch = rerun(&exp, jobs)?;
+pub fn verify(dir: &Path, jobs: Option<usize>, inputs: &Inputs) -> Result<Verdict> {
+    let manifest = read_manifest(dir)?;
+    let templates = recorded_templates(&manifest, inputs.templates)?;
+    let exp = recorded_experiment(dir, &manifest, inputs.data)?;
+    let scratch = rerun(&exp, jobs, &templates)?;
     let files = listing(&scratch.0)?;
     let present = listing(dir)?;
     let mut differences = Vec::new();

@@ -403,7 +403,7 @@ fn decode_select(
                 super::limits::MAX_AR_SEARCH
             };
             if max > cap as i64 {
-                ctx.error(
+                ctx.refuse(
                     item,
                     format!("{path}.max_lags {max} is more than outturn searches for {family} (at most {cap}: every order up to it is fitted in every window)"),
                 );

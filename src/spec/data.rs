@@ -116,6 +116,51 @@ fn data_row(
     Ok(RawRow { line, cells })
 }
 
+/// Line numbers from byte offsets: the csv reader's own line count skips
+/// blank lines.
+struct LineIndex<'a> {
+    bytes: &'a [u8],
+    newlines: Vec<usize>,
+}
+
+impl<'a> LineIndex<'a> {
+    fn new(bytes: &'a [u8]) -> Self {
+        let newlines = bytes
+            .iter()
+            .enumerate()
+            .filter(|(_, b)| **b == b'\n')
+            .map(|(i, _)| i)
+            .collect();
+        LineIndex { bytes, newlines }
+    }
+
+    /// The 1-based line of a record that starts at `byte`.
+    fn line_of(&self, byte: u64) -> usize {
+        // A record's recorded start can sit on blank lines the reader skipped.
+        let mut at = byte as usize;
+        while at < self.bytes.len() && (self.bytes[at] == b'\n' || self.bytes[at] == b'\r') {
+            at += 1;
+        }
+        self.newlines.partition_point(|&i| i < at) + 1
+    }
+}
+
+/// A data row's cells each stay on one line: a quote left open would
+/// otherwise swallow the rows below it.
+fn single_line_cells(path: &Path, line: usize, cells: &Cells) -> Result<(), Diagnostic> {
+    match cells.iter().position(|c| c.contains(['\n', '\r'])) {
+        None => Ok(()),
+        Some(pos) => Err(Diagnostic::new(
+            Some(Location {
+                file: path.to_path_buf(),
+                line: Some(line),
+                column: Some(pos + 1),
+            }),
+            "a quoted cell starting here runs over several lines: a quote (\") is opened and not closed on its line; close it or remove it",
+        )),
+    }
+}
+
 /// Read a CSV file. Blank lines are skipped; a UTF-8 byte-order mark is ignored.
 pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
     let at = |line: Option<usize>, msg: String| {
@@ -135,21 +180,8 @@ pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
             "the data file is empty; it needs a header row naming the columns".into(),
         ));
     }
-    // Line numbers from byte offsets: the csv reader's own line count skips blank lines.
-    let newlines: Vec<usize> = bytes
-        .iter()
-        .enumerate()
-        .filter(|(_, b)| **b == b'\n')
-        .map(|(i, _)| i)
-        .collect();
-    let line_of = |byte: u64| {
-        // A record's recorded start can sit on blank lines the reader skipped.
-        let mut at = byte as usize;
-        while at < bytes.len() && (bytes[at] == b'\n' || bytes[at] == b'\r') {
-            at += 1;
-        }
-        newlines.partition_point(|&i| i < at) + 1
-    };
+    let lines = LineIndex::new(bytes);
+    let line_of = |byte: u64| lines.line_of(byte);
     let mut reader = csv::ReaderBuilder::new()
         .has_headers(false)
         .flexible(true)
@@ -170,16 +202,7 @@ pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
                 for c in record.iter() {
                     cells.push(c.trim());
                 }
-                if let Some(pos) = cells.iter().position(|c| c.contains(['\n', '\r'])) {
-                    return Err(Diagnostic::new(
-                        Some(Location {
-                            file: path.to_path_buf(),
-                            line: Some(line),
-                            column: Some(pos + 1),
-                        }),
-                        "a quoted cell starting here runs over several lines: a quote (\") is opened and not closed on its line; close it or remove it",
-                    ));
-                }
+                single_line_cells(path, line, &cells)?;
                 match &headers {
                     None => {
                         check_header(&cells).map_err(|m| at(Some(line), m))?;

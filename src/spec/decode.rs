@@ -31,6 +31,13 @@ impl<'a> Ctx<'a> {
         self.diags.push(Diagnostic::new(loc, message));
     }
 
+    /// A problem of size or safety, explained with the refusals.
+    pub fn refuse(&mut self, node: &Node, message: impl Into<String>) {
+        let loc = self.loc(node);
+        self.diags
+            .push(Diagnostic::new(loc, message).see(crate::error::pages::REFUSALS));
+    }
+
     /// View a node as a mapping with a closed set of keys. Unknown keys are
     /// reported with the nearest valid key; keys listed in `later` are
     /// accepted by the grammar but refused as not supported yet.
@@ -221,11 +228,11 @@ impl<'a> Ctx<'a> {
                 return None;
             }
             if to - from > 10_000 {
-                self.error(node, format!("{what}: the range {from}..{to} is too large"));
+                self.refuse(node, format!("{what}: the range {from}..{to} is too large"));
                 return None;
             }
             if to > super::limits::MAX_ORDER as i64 {
-                self.error(
+                self.refuse(
                     node,
                     format!(
                         "{what}: {to} is larger than outturn estimates (at most {} lags)",
@@ -248,7 +255,7 @@ impl<'a> Ctx<'a> {
         for item in items {
             let v = self.integer(item, what, min)? as usize;
             if v > super::limits::MAX_ORDER {
-                self.error(
+                self.refuse(
                     item,
                     format!(
                         "{what}: {v} is larger than outturn estimates (at most {} lags)",

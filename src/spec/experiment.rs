@@ -61,6 +61,8 @@ pub(super) struct Decoded {
     schemes: Vec<PendingScheme>,
     horizons: Vec<usize>,
     multi_step: MultiStep,
+    /// The line of `backtest.multi_step`, when it is given.
+    multi_step_line: Option<usize>,
     candidates: Vec<Candidate>,
     scoring: Scoring,
     benchmark: usize,
@@ -92,7 +94,7 @@ pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
             return None;
         }
         if s.len() > limits::MAX_NAME {
-            ctx.error(n, format!("the experiment name has {} characters; at most {} (it names the results folder)", s.len(), limits::MAX_NAME));
+            ctx.refuse(n, format!("the experiment name has {} characters; at most {} (it names the results folder)", s.len(), limits::MAX_NAME));
             return None;
         }
         Some(s)
@@ -129,6 +131,13 @@ pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
         Some(b) => decode_backtest(ctx, b),
         None => (Vec::new(), Vec::new(), MultiStep::Direct),
     };
+    let multi_step_line = top.get("backtest").and_then(|b| match &b.kind {
+        Kind::Map(entries) => entries
+            .iter()
+            .find(|(k, _)| matches!(&k.kind, Kind::Scalar(s, _) if s == "multi_step"))
+            .map(|(k, _)| k.line),
+        _ => None,
+    });
     let candidates = match need(ctx, "candidates") {
         Some(c) => decode_candidates(ctx, c, &predictors, &dummies, data.frequency),
         None => Vec::new(),
@@ -155,6 +164,7 @@ pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
         schemes,
         horizons,
         multi_step,
+        multi_step_line,
         candidates,
         scoring,
         benchmark,
@@ -280,7 +290,7 @@ fn decode_backtest(ctx: &mut Ctx, b: &Node) -> (Vec<PendingScheme>, Vec<usize>, 
                     if horizons.contains(&(v as usize)) {
                         ctx.error(item, format!("horizon {v} is listed twice"));
                     } else if v as usize > limits::MAX_HORIZON {
-                        ctx.error(
+                        ctx.refuse(
                             item,
                             format!("horizon {v} is larger than any data set could support"),
                         );
@@ -430,6 +440,40 @@ fn line_node(line: usize) -> Node {
     }
 }
 
+/// `multi_step: iterated` changes ar candidates only (SPEC §4): say so when
+/// the grid holds others that forecast each horizon directly.
+fn iterated_warning(
+    path: &Path,
+    multi_step: MultiStep,
+    line: Option<usize>,
+    candidates: &[Candidate],
+) -> Option<String> {
+    if multi_step != MultiStep::Iterated {
+        return None;
+    }
+    let direct: Vec<&str> = candidates
+        .iter()
+        .filter(|c| matches!(c.family, Family::Ardl { .. } | Family::ArdlSelect { .. }))
+        .map(|c| c.id.as_str())
+        .collect();
+    if direct.is_empty() {
+        return None;
+    }
+    let shown = direct
+        .iter()
+        .take(5)
+        .copied()
+        .collect::<Vec<_>>()
+        .join(", ");
+    Some(format!(
+        "{}:{}: backtest.multi_step: iterated applies to ar candidates only; {}{} forecast each horizon directly (their predictors' future values are not forecast) — docs/experiment-file.md",
+        path.display(),
+        line.unwrap_or(1),
+        shown,
+        if direct.len() > 5 { ", …" } else { "" }
+    ))
+}
+
 /// SPEC §4: the id named, else naive when it is a candidate, else the first candidate.
 fn resolve_benchmark(ctx: &mut Ctx, scoring: &Scoring, candidates: &[Candidate]) -> usize {
     match &scoring.benchmark {
@@ -501,7 +545,7 @@ impl Decoded {
         {
             return None;
         }
-        let (Some(name), Some(_), Some(_), Some(frequency), Some(transform)) = (
+        let (Some(name), Some((data_file, _)), Some(_), Some(frequency), Some(transform)) = (
             self.name,
             self.data.file,
             self.data.time,
@@ -510,6 +554,14 @@ impl Decoded {
         ) else {
             return None;
         };
+        let warnings = iterated_warning(
+            path,
+            self.multi_step,
+            self.multi_step_line,
+            &self.candidates,
+        )
+        .into_iter()
+        .collect();
         let Scoring {
             metrics,
             rank_by,
@@ -525,6 +577,7 @@ impl Decoded {
             notes: self.notes,
             source_path: path.to_path_buf(),
             source_text: text.to_string(),
+            data_file,
             frequency,
             transform,
             predictors: self.predictors.list,
@@ -541,6 +594,7 @@ impl Decoded {
             rolling_window,
             rank_by,
             benchmark: self.benchmark,
+            warnings,
             formats: self.formats,
             seed: self.seed,
         })
@@ -550,7 +604,13 @@ impl Decoded {
 /// Read the data and resolve the decoded experiment against it. The data
 /// are checked even when the experiment file has problems of its own, so
 /// that `check` lists both.
-pub(super) fn with_data(ctx: &mut Ctx, d: Decoded, path: &Path, text: &str) -> Option<Experiment> {
+pub(super) fn with_data(
+    ctx: &mut Ctx,
+    d: Decoded,
+    path: &Path,
+    text: &str,
+    data_at: Option<&Path>,
+) -> Option<Experiment> {
     let (
         Some((data_file, data_file_node)),
         Some((time_col, time_node)),
@@ -560,8 +620,14 @@ pub(super) fn with_data(ctx: &mut Ctx, d: Decoded, path: &Path, text: &str) -> O
     else {
         return None;
     };
-    let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
-    let data_path: PathBuf = base.join(data_file);
+    let data_path: PathBuf = match data_at {
+        Some(file) => file.to_path_buf(),
+        None => path
+            .parent()
+            .map(Path::to_path_buf)
+            .unwrap_or_default()
+            .join(data_file),
+    };
     if let Err(m) = super::regular_file(&data_path) {
         ctx.error(data_file_node, format!("the data file: {m}"));
         return None;

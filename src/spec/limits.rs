@@ -70,7 +70,7 @@ pub(super) fn check_grid(
 ) {
     let cells = targets.saturating_mul(candidates).saturating_mul(schemes);
     if cells > MAX_CELLS {
-        ctx.error(
+        ctx.refuse(
             node,
             format!("the grid has {targets} target(s) × {candidates} candidate(s) × {schemes} scheme(s) = {cells} cells; one run takes at most {MAX_CELLS} — split the targets over several experiments or run shards of a smaller grid"),
         );
@@ -94,7 +94,7 @@ pub(super) fn check_data_sizes(
                 // At the first origin T0 every scheme estimates with E = T0 (SPEC §4).
                 let end = t.first_origins[s];
                 if let Some(problem) = too_little_data(&c.family, scheme, end) {
-                    ctx.error(
+                    ctx.refuse(
                         &node,
                         format!(
                             "candidate {} on target '{}' under scheme {}: {problem}",
@@ -194,4 +194,33 @@ fn arima_short(size: ArimaSize, end: usize, window: Option<usize>) -> Option<Str
             if size.differences > 0 { " after differencing" } else { "" }
         )
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_grid_beyond_the_cell_limit_is_refused() {
+        // By construction: targets × candidates × schemes against MAX_CELLS.
+        let node = line_node(3);
+        let mut ctx = Ctx::new(std::path::Path::new("e.yaml"));
+        check_grid(&mut ctx, &node, 1000, 100, 100);
+        assert!(ctx.diags.is_empty());
+        check_grid(&mut ctx, &node, 100_000, 100, 2);
+        assert_eq!(ctx.diags.len(), 1);
+        assert!(ctx.diags[0].message.contains("20000000 cells"));
+        check_grid(&mut ctx, &node, usize::MAX, 2, 2);
+        assert_eq!(ctx.diags.len(), 2);
+    }
+
+    #[test]
+    fn an_arima_needs_three_observations_per_parameter() {
+        // arima(12,2,12) has 12 + 12 + 1 (variance) = 25 parameters: 75 observations.
+        assert!(arima_short(12, 2, 12, false, 76, None).is_some());
+        assert!(arima_short(12, 2, 12, false, 77, None).is_none());
+        // d = 0 adds the mean: arima(1,0,1) has 4 parameters; a window of 11 is short.
+        assert!(arima_short(1, 0, 1, false, 100, Some(11)).is_some());
+        assert!(arima_short(1, 0, 1, false, 100, Some(12)).is_none());
+    }
 }

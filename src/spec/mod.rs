@@ -95,7 +95,21 @@ pub fn load(path: &Path) -> Result<Experiment> {
     let (text, root) = parse_file(path)?;
     let mut ctx = Ctx::new(path);
     let exp = experiment::decode(&mut ctx, &root)
-        .and_then(|d| experiment::with_data(&mut ctx, d, path, &text));
+        .and_then(|d| experiment::with_data(&mut ctx, d, path, &text, None));
+    match exp {
+        Some(exp) if ctx.diags.is_empty() => Ok(exp),
+        _ => Err(invalid(path, ctx)),
+    }
+}
+
+/// An experiment from its text, with its data file read from `data_at`
+/// (not looked for beside `path`, which names the file in messages and the
+/// manifest): what `verify` uses on a results folder copied elsewhere.
+pub fn load_text(path: &Path, text: &str, data_at: &Path) -> Result<Experiment> {
+    let root = parse_text(path, text)?;
+    let mut ctx = Ctx::new(path);
+    let exp = experiment::decode(&mut ctx, &root)
+        .and_then(|d| experiment::with_data(&mut ctx, d, path, text, Some(data_at)));
     match exp {
         Some(exp) if ctx.diags.is_empty() => Ok(exp),
         _ => Err(invalid(path, ctx)),

@@ -590,6 +590,8 @@ pub struct Declaration {
     pub title: String,
     pub source_path: PathBuf,
     pub source_text: String,
+    /// The data file as written (relative to the experiment file).
+    pub data_file: String,
     pub frequency: Frequency,
     pub transform: Transform,
     pub predictors: Vec<Predictor>,
@@ -613,6 +615,9 @@ pub struct Declaration {
     pub benchmark: usize,
     pub formats: Vec<ReportFormat>,
     pub seed: u64,
+    /// What the file asks that outturn does differently than it may seem
+    /// (said by `check` and `run`, never an error), with the file and line.
+    pub warnings: Vec<String>,
 }
 
 /// The checked experiment: its declaration and its data, resolved to positions.

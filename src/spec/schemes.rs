@@ -45,6 +45,9 @@ pub(super) fn decode_schemes(ctx: &mut Ctx, node: &Node) -> Vec<PendingScheme> {
 }
 
 /// One entry of `backtest.schemes`: `{kind: {settings}}` or a bare kind.
+///
+/// The keys of a scheme are decoded one after another, a few lines each, so
+/// that every problem is listed with its own line; the length is the key count.
 fn decode_scheme(ctx: &mut Ctx, item: &Node, path: &str) -> Option<Scheme> {
     let kind_name = match &item.kind {
         Kind::Scalar(s, _) if !item.is_null() => Some((s.clone(), None)),
@@ -95,7 +98,7 @@ fn decode_scheme(ctx: &mut Ctx, item: &Node, path: &str) -> Option<Scheme> {
             .integer(n, &format!("{path}.rolling.window"), 1)
             .and_then(|v| {
                 if v as usize > super::limits::MAX_WINDOW {
-                    ctx.error(n, format!("{path}.rolling.window {v} is larger than any data set could hold (at most {})", super::limits::MAX_WINDOW));
+                    ctx.refuse(n, format!("{path}.rolling.window {v} is larger than any data set could hold (at most {})", super::limits::MAX_WINDOW));
                     return None;
                 }
                 Some(v as usize)

@@ -37,7 +37,7 @@ impl Default for Scoring {
 fn count(ctx: &mut Ctx, node: &Node, what: &str, min: i64, max: i64) -> Option<usize> {
     let v = ctx.integer(node, what, min)?;
     if v > max {
-        ctx.error(node, format!("{what} must be at most {max}, found {v}"));
+        ctx.refuse(node, format!("{what} must be at most {max}, found {v}"));
         return None;
     }
     Some(v as usize)

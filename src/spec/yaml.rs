@@ -102,6 +102,8 @@ impl Builder {
 }
 
 impl MarkedEventReceiver for Builder {
+    /// One match over the parser's events (start and end of documents,
+    /// mappings, sequences, scalars, aliases): a state machine read best whole.
     fn on_event(&mut self, ev: Event, mark: Marker) {
         if self.error.is_some() {
             return;

@@ -28,6 +28,9 @@ pub(crate) fn forecast(fit: &EtsFit, y: &[f64], max_h: usize) -> Result<Vec<(f64
 }
 
 /// Deterministic path and linearised covariance propagation from a state.
+///
+/// One function because the mean path and the variance recursion advance
+/// the same state together, step by step.
 pub(super) fn forecast_from_state(
     mult: bool,
     sm: &Smooth,

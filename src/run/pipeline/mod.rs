@@ -122,8 +122,8 @@ fn write_reports_and_manifest(
     };
     // Reports: rendered from the tables and the manifest's deterministic
     // part, exactly as `outturn render` does from the folder.
-    let templates = report::render::default_templates();
-    let templates_used = report::render::used_templates(&templates, &exp.formats);
+    let templates = ctx.templates;
+    let templates_used = report::render::used_templates(templates, &exp.formats);
     // The manifest is built once: without its run section it is what the
     // report reads (outputs so far hold only the tables); the run section
     // and the reports' entries are added before it is written.
@@ -138,7 +138,7 @@ fn write_reports_and_manifest(
     // On this thread: handing the work to a pool thread that has gone to
     // sleep costs the time it takes to wake (milliseconds on a virtual machine).
     let rendered =
-        report::render::reports_of(folder, Some(report_parts), &core, &exp.formats, &templates)
+        report::render::reports_of(folder, Some(report_parts), &core, &exp.formats, templates)
             .map_err(Error::Report)?;
     for (name, bytes) in &rendered {
         manifest
@@ -153,12 +153,16 @@ fn write_reports_and_manifest(
 
 /// What `produce` wrote.
 pub struct Produced {
-    pub failed_cells: usize,
+    /// The cells that could not be estimated: (id, why).
+    pub failed_cells: Vec<(String, String)>,
 }
 
 /// Write every file of a results folder into `dir`, each synced to disk when
 /// this returns if `ctx.durable`. `source(t)` gives target t's cell outputs in plan order
 /// (candidates × schemes; combinations empty).
+///
+/// Its length is the list of output files, written in a fixed order; each
+/// table's own code lives in `results/`.
 pub fn produce(
     exp: &Experiment,
     source: &(dyn Fn(usize) -> Result<Vec<CellOutput>> + Sync),
@@ -188,13 +192,13 @@ pub fn produce(
         // One thread of work means one: compute and write in turn.
         w = pool.install(|| -> Result<Written> {
             for t in 0..exp.targets.len() {
-                let s = slice::slice(exp, &parts, t, source(t)?);
+                let s = slice::slice(ctx.progress, exp, &parts, t, source(t)?);
                 w.append(t == 0, s)?;
             }
             Ok(w)
         })?;
     } else {
-        w = stream::stream_in_order(exp, &parts, source, w, pool, window.max(1))?;
+        w = stream::stream_in_order(ctx.progress, exp, &parts, source, w, pool, window.max(1))?;
     }
     let Written {
         streams,
@@ -205,6 +209,14 @@ pub fn produce(
         failed,
     } = w;
     ctx.step("tables streamed");
+    debug_assert_eq!(
+        failed,
+        cell_facts.iter().filter(|c| c.failure.is_some()).count()
+    );
+    let failed_cells: Vec<(String, String)> = cell_facts
+        .iter()
+        .filter_map(|c| Some((c.id.clone(), c.failure.clone()?)))
+        .collect();
     let (outputs, files) = close_streams(streams)?;
     // The large tables reach the disk while the reports are rendered.
     let durable = ctx.durable;
@@ -232,7 +244,5 @@ pub fn produce(
         .join()
         .map_err(|_| Error::Internal("syncing the tables stopped unexpectedly".into()))??;
     ctx.step("reports and manifest");
-    Ok(Produced {
-        failed_cells: failed,
-    })
+    Ok(Produced { failed_cells })
 }

@@ -43,6 +43,7 @@ pub(super) fn header(bytes: &[u8]) -> &[u8] {
 /// Score, test and format one target. `outputs` are its cells in plan order
 /// (candidates × schemes), combinations not yet formed.
 pub(super) fn slice(
+    progress: &dyn crate::progress::Progress,
     exp: &Experiment,
     parts: &report::PartContext,
     t: usize,
@@ -50,7 +51,7 @@ pub(super) fn slice(
 ) -> Slice {
     let sub = exp.for_target(t);
     let cells = plan::cells(&sub);
-    backtest::combine(&sub, &cells, &mut outputs);
+    backtest::combine(&sub, &cells, &mut outputs, progress);
     let errors = score::cell_errors(&sub, &cells, &outputs);
     let Formatted {
         forecasts_bytes,

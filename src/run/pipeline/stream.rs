@@ -111,7 +111,11 @@ impl Drop for StopOnPanic<'_> {
 /// work, and a worker loop started there would wait for the files to move
 /// on while the target beneath it, which they need, could not finish. Once
 /// every loop runs, only a target's own small jobs are left to pick up.
+/// It stays one function because the worker loop, the hand-over of finished
+/// targets and the in-order writer share one lock and one condition: split,
+/// the waits and wake-ups could no longer be read together.
 pub(super) fn stream_in_order(
+    progress_to: &dyn crate::progress::Progress,
     exp: &Experiment,
     parts: &report::PartContext,
     source: &(dyn Fn(usize) -> Result<Vec<CellOutput>> + Sync),
@@ -210,7 +214,7 @@ pub(super) fn stream_in_order(
                     p = moved.wait(p).unwrap_or_else(|e| e.into_inner());
                 }
             }
-            match source(t).map(|o| slice(exp, parts, t, o)) {
+            match source(t).map(|o| slice(progress_to, exp, parts, t, o)) {
                 Ok(s) => {
                     let mut p = lock();
                     if p.stop {

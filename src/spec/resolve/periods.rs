@@ -136,7 +136,7 @@ pub(super) fn in_order(
         } else if cur - prev != step {
             let missing = (cur - prev) / step - 1;
             format!(
-                "gap: {missing} period(s) missing between '{prev_label}' (line {}) and '{label}'; periods must follow each other without gaps — add the missing rows (cells may be empty only where SPEC allows)",
+                "gap: {missing} period(s) missing between '{prev_label}' (line {}) and '{label}'; periods must follow each other without gaps — add the missing rows (cells may be empty only at a predictor's ragged edge and in future rows)",
                 table.rows[i - 1].line
             )
         } else {
