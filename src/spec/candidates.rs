@@ -532,11 +532,24 @@ fn ardl_predictors(
     declared: &PredictorNames,
 ) -> Option<Vec<usize>> {
     match view.get("predictors") {
-        Some(n) => regressor_indices(ctx, n, &format!("{path}.predictors"), declared, false),
+        Some(n) => {
+            let chosen = regressor_indices(ctx, n, &format!("{path}.predictors"), declared, false)?;
+            if chosen.iter().any(|&i| i >= declared.list.len()) {
+                // The lag design has no way yet to leave out a column that is
+                // constant in a window (SPEC §7.1), so a step before its date
+                // would make every early window singular: refused, not half-done.
+                ctx.error(
+                    n,
+                    format!("{path}.predictors: dummies are not supported by ardl yet (a dummy constant in a window cannot be left out of a lag regression); use them with family: arima, or declare the column as a known_ahead predictor"),
+                );
+                return None;
+            }
+            Some(chosen)
+        }
         None => {
             ctx.error(
                 item,
-                format!("{path}: ardl needs 'predictors': the declared predictor columns (or dummies) it uses"),
+                format!("{path}: ardl needs 'predictors': the declared predictor columns it uses"),
             );
             None
         }

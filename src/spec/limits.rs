@@ -216,11 +216,21 @@ mod tests {
 
     #[test]
     fn an_arima_needs_three_observations_per_parameter() {
+        let size = |coefficients, mean, regressors, differences| ArimaSize {
+            coefficients,
+            mean,
+            regressors,
+            differences,
+        };
         // arima(12,2,12) has 12 + 12 + 1 (variance) = 25 parameters: 75 observations.
-        assert!(arima_short(12, 2, 12, false, 76, None).is_some());
-        assert!(arima_short(12, 2, 12, false, 77, None).is_none());
+        assert!(arima_short(size(24, false, 0, 2), 76, None).is_some());
+        assert!(arima_short(size(24, false, 0, 2), 77, None).is_none());
         // d = 0 adds the mean: arima(1,0,1) has 4 parameters; a window of 11 is short.
-        assert!(arima_short(1, 0, 1, false, 100, Some(11)).is_some());
-        assert!(arima_short(1, 0, 1, false, 100, Some(12)).is_none());
+        assert!(arima_short(size(2, true, 0, 0), 100, Some(11)).is_some());
+        assert!(arima_short(size(2, true, 0, 0), 100, Some(12)).is_none());
+        // The airline model (0,1,1)(0,1,1)12 with two regressors: 2 + 2 + 1 = 5
+        // parameters need 15 observations after its 1 + 12 differences.
+        assert!(arima_short(size(2, false, 2, 13), 27, None).is_some());
+        assert!(arima_short(size(2, false, 2, 13), 28, None).is_none());
     }
 }

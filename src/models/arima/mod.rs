@@ -92,6 +92,8 @@ mod kalman;
 mod poly;
 mod regression;
 mod reparam;
+#[cfg(test)]
+mod sarima_tests;
 mod start;
 #[cfg(test)]
 mod tests;
