@@ -337,19 +337,10 @@ pub(crate) struct SelectedFit {
 impl ArimaSelect {
     /// (d, D) for this window's sample.
     fn differences(&self, y: &[f64]) -> (usize, usize) {
-        use crate::numerics::stationarity::{canova_hansen_rejects, kpss_rejects};
+        use crate::numerics::stationarity::kpss_rejects;
         let tested = self.criterion == crate::spec::ArimaCriterion::Aicc;
-        let mut sd = self.seasonal_ds[0];
-        if tested && self.seasonal_ds.len() > 1 {
-            let first = usize::from(self.ds.iter().any(|&d| d >= 1));
-            for &next in &self.seasonal_ds[1..] {
-                let x = super::arima::differenced(y, first, self.m, sd);
-                if !canova_hansen_rejects(&x, self.m) {
-                    break;
-                }
-                sd = next;
-            }
-        }
+        // spec refuses several D with aicc (no seasonal unit-root test yet).
+        let sd = self.seasonal_ds[0];
         let mut d = self.ds[0];
         if tested && self.ds.len() > 1 {
             for &next in &self.ds[1..] {

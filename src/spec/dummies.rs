@@ -173,7 +173,7 @@ fn decode_kind(
                 Some(p) => {
                     let text = ctx.string(p, &format!("{path}.period"))?;
                     match text.trim().parse::<f64>() {
-                        Ok(v) if v.is_finite() && v >= 2.0 && v <= MAX_DUMMY_PERIOD => v,
+                        Ok(v) if v.is_finite() && (2.0..=MAX_DUMMY_PERIOD).contains(&v) => v,
                         _ => {
                             ctx.error(
                                 p,

@@ -582,7 +582,6 @@ impl Decoded {
             transform,
             predictors: self.predictors.list,
             dummy_columns: super::dummies::columns(&self.dummies.list),
-            dummies: self.dummies.list,
             candidates: self.candidates,
             schemes: self.schemes.into_iter().map(|p| p.scheme).collect(),
             horizons: self.horizons,

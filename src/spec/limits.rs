@@ -47,9 +47,6 @@ pub(super) const MAX_SEASONAL_DIFFERENCE: usize = 1;
 /// The most orders an arima that selects its order estimates in every
 /// training window (the product of its grids).
 pub(super) const MAX_ARIMA_SEARCH: usize = 256;
-/// The largest season m for which D is chosen by the Canova–Hansen test:
-/// its critical values are tabulated for at most 12 restrictions.
-pub(super) const MAX_TESTED_SEASON: usize = 13;
 
 /// A position at the start of a line, for problems of a whole entry.
 fn line_node(line: usize) -> Node {

@@ -595,8 +595,7 @@ pub struct Declaration {
     pub frequency: Frequency,
     pub transform: Transform,
     pub predictors: Vec<Predictor>,
-    /// The built-in regressors of `dummies` (SPEC §7.1), and their columns.
-    pub dummies: Vec<Dummy>,
+    /// The columns of the built-in regressors of `dummies` (SPEC §7.1).
     pub dummy_columns: Vec<DummyColumn>,
     pub candidates: Vec<Candidate>,
     pub schemes: Vec<Scheme>,

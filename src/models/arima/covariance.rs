@@ -123,7 +123,7 @@ pub(super) fn stationary_cov(
             out[j * r + i] = s;
         }
     }
-    if !out.iter().all(|x| x.is_finite()) || !(out[0] > 0.0) {
+    if !out.iter().all(|x| x.is_finite()) || !super::positive(out[0]) {
         return Err(ArimaError::NonFinite {
             context: "initial state covariance",
         });

@@ -125,7 +125,7 @@ fn seasonal_error_forecast(
     let psi = super::poly::integration_weights(order.d, s.m, s.d, max_h);
     // Undo the differences in reverse order: D seasonal ones, then d.
     let mut lags = vec![1; order.d];
-    lags.extend(std::iter::repeat(s.m).take(s.d));
+    lags.extend(std::iter::repeat_n(s.m, s.d));
     let mut levels = wf;
     for k in (0..lags.len()).rev() {
         let mut base = difference(y, order.d.min(k));
