@@ -469,9 +469,10 @@ pub(super) fn regressor_indices(
         let found: Vec<usize> = match predictors.iter().position(|d| d.column == col) {
             Some(i) => {
                 if known_ahead_only && !predictors[i].known_ahead {
-                    ctx.error(
+                    ctx.error_see(
                         p,
                         format!("{what}: '{col}' is not known ahead; a regression with ARIMA errors needs the predictor's value in the forecast period (declare it known_ahead: true, use a dummy, or use family: ardl, which takes its lags)"),
+                        crate::error::pages::ARIMA,
                     );
                     ok = false;
                     continue;
@@ -538,9 +539,10 @@ fn ardl_predictors(
                 // The lag design has no way yet to leave out a column that is
                 // constant in a window (SPEC §7.1), so a step before its date
                 // would make every early window singular: refused, not half-done.
-                ctx.error(
+                ctx.error_see(
                     n,
                     format!("{path}.predictors: dummies are not supported by ardl yet (a dummy constant in a window cannot be left out of a lag regression); use them with family: arima, or declare the column as a known_ahead predictor"),
+                    crate::error::pages::ARIMA,
                 );
                 return None;
             }

@@ -119,9 +119,10 @@ pub(super) fn decode_arima(
             {
                 // A seasonal unit-root test (Canova–Hansen, OCSB) is not
                 // implemented and checked against a reference yet.
-                ctx.error(
+                ctx.error_see(
                     n,
                     format!("{path}: select: aicc chooses d by the KPSS test but has no seasonal unit-root test to choose D yet; list one value under seasonal.d (or use select: aic, bic or hqic, which gives one candidate per D)"),
+                    crate::error::pages::ARIMA,
                 );
                 return;
             }
