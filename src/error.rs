@@ -33,7 +33,8 @@ pub mod pages {
     pub const COMMANDS: &str = "docs/commands.md";
     pub const REFUSALS: &str = "docs/refusals.md";
     pub const BATCH: &str = "docs/batch.md";
-    pub const ALL: [&str; 5] = [EXPERIMENT, RESULTS, COMMANDS, REFUSALS, BATCH];
+    pub const ARIMA: &str = "docs/arima.md";
+    pub const ALL: [&str; 6] = [EXPERIMENT, RESULTS, COMMANDS, REFUSALS, BATCH, ARIMA];
 }
 
 impl Diagnostic {

@@ -423,6 +423,27 @@ fn catalogue() -> Vec<Case> {
             &["exp.yaml:14:12", "'linear' is not known", "none, drift"],
         ),
         case(
+            "arima regressor not known ahead",
+            add_candidate("  - family: arima\n    d: [1]\n    predictors: [x]\n"),
+            &["exp.yaml:14:18", "'x' is not known ahead", "family: ardl", "docs/arima.md"],
+        ),
+        case(
+            "arima aicc with several seasonal d",
+            add_candidate("  - family: arima\n    select: aicc\n    d: [1]\n    seasonal: {p: [0], d: [0, 1], q: [1]}\n"),
+            &["exp.yaml:13:13", "no seasonal unit-root test", "list one value under seasonal.d"],
+        ),
+        case(
+            "ardl with a dummy",
+            add_candidate("  - family: ardl\n    lags: [1]\n    predictors: [law]\n    predictor_lags: [1]\n")
+                .replacen("candidates:\n", "dummies:\n  - {name: law, step: 2001Q1}\ncandidates:\n", 1),
+            &["exp.yaml:16:17", "dummies are not supported by ardl yet", "docs/arima.md"],
+        ),
+        case(
+            "seasonal arima too large for the first window",
+            add_candidate("  - family: arima\n    p: [12]\n    d: [0]\n    q: [12]\n    seasonal: {p: [2], d: [1], q: [2]}\n"),
+            &["candidate arima(12,0,12)(2,1,2)4", "29 parameters need at least 87 observations", "37 after differencing"],
+        ),
+        case(
             "smoothing trend misspelt",
             add_candidate("  - family: smoothing\n    trend: [none, damp]\n"),
             &["exp.yaml:13:19", "'damp' is not known", "did you mean 'damped'"],

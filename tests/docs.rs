@@ -214,7 +214,8 @@ fn the_experiment_reference_names_every_key_and_value_the_decoder_accepts() {
         "the scan found only {} names: {names:?}",
         names.len()
     );
-    let docs = read("docs/experiment-file.md") + &read("docs/candidates.md");
+    let docs =
+        read("docs/experiment-file.md") + &read("docs/candidates.md") + &read("docs/arima.md");
     let missing: Vec<&String> = names
         .iter()
         .filter(|n| !docs.contains(&format!("`{n}")) && !docs.contains(&format!("{n}:")))

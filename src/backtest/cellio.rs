@@ -6,6 +6,7 @@
 //! cell <id>
 //! fallbacks <n>
 //! failure <message>            (only when the cell failed)
+//! l <estimations> <first_end> <last_end> <regressor>   (a regressor left out; none without)
 //! f <h> <origin> <forecast> <is_mse> <is_var> <variance> <order>
 //! o <h> <forecast> <variance>
 //! r <residual> <residual> …
@@ -46,6 +47,15 @@ fn order_text(o: Option<Order>) -> String {
         Some(Order::Ardl(p, q)) => format!("ardl:{p}:{q}"),
         Some(Order::Arima(p, d, q)) => format!("arima:{p}:{d}:{q}"),
         Some(Order::Smoothing(t, s)) => format!("smoothing:{}:{}", t.name(), s.name()),
+        Some(Order::Sarima {
+            p,
+            d,
+            q,
+            seasonal_p,
+            seasonal_d,
+            seasonal_q,
+            m,
+        }) => format!("sarima:{p}:{d}:{q}:{seasonal_p}:{seasonal_d}:{seasonal_q}:{m}"),
     }
 }
 
@@ -88,6 +98,15 @@ fn parse_order(s: &str) -> Result<Option<Order>, String> {
                 SEASONS[pick(2, &SmoothingSeason::NAMES)?],
             )))
         }
+        "sarima" => Ok(Some(Order::Sarima {
+            p: n(1)?,
+            d: n(2)?,
+            q: n(3)?,
+            seasonal_p: n(4)?,
+            seasonal_d: n(5)?,
+            seasonal_q: n(6)?,
+            m: n(7)?,
+        })),
         _ => Err(format!("bad order '{s}'")),
     }
 }
@@ -99,6 +118,16 @@ pub fn write_cell(id: &str, out: &CellOutput, buf: &mut String) {
     let _ = writeln!(buf, "fallbacks {}", out.fallbacks);
     if let Some(f) = &out.failure {
         let _ = writeln!(buf, "failure {}", f.replace('\n', " "));
+    }
+    for l in &out.left_out {
+        let _ = writeln!(
+            buf,
+            "l {} {} {} {}",
+            l.estimations,
+            l.first_end,
+            l.last_end,
+            l.regressor.replace('\n', " ")
+        );
     }
     for r in &out.forecasts {
         let _ = writeln!(
@@ -226,6 +255,24 @@ fn read_line(out: &mut CellOutput, tag: &str, rest: &str, line: &str) -> Result<
     match tag {
         "fallbacks" => out.fallbacks = rest.parse().map_err(|_| "bad fallbacks".to_string())?,
         "failure" => out.failure = Some(rest.to_string()),
+        "l" => {
+            let parts: Vec<&str> = rest.splitn(4, ' ').collect();
+            let n = |i: usize| -> Result<usize, String> {
+                parts
+                    .get(i)
+                    .and_then(|v| v.parse().ok())
+                    .ok_or_else(|| format!("bad left-out line '{line}'"))
+            };
+            out.left_out.push(super::LeftOut {
+                estimations: n(0)?,
+                first_end: n(1)?,
+                last_end: n(2)?,
+                regressor: parts
+                    .get(3)
+                    .ok_or_else(|| format!("bad left-out line '{line}'"))?
+                    .to_string(),
+            });
+        }
         "f" if f.len() == 7 => out.forecasts.push(ForecastRow {
             horizon: f[0].parse().map_err(|_| "bad horizon".to_string())?,
             origin: f[1].parse().map_err(|_| "bad origin".to_string())?,
@@ -272,6 +319,12 @@ mod tests {
             }],
             residuals: vec![1e300, -2.5, f64::MIN_POSITIVE],
             fallbacks: 2,
+            left_out: vec![super::super::LeftOut {
+                regressor: "tariff step".into(),
+                estimations: 3,
+                first_end: 10,
+                last_end: 12,
+            }],
             failure: Some("did not converge".into()),
             seconds: 0.0,
             cached: false,
@@ -292,6 +345,7 @@ mod tests {
             (-0.0f64).to_bits()
         );
         assert_eq!(b.residuals, out.residuals);
+        assert_eq!(b.left_out, out.left_out);
         assert_eq!(
             (b.fallbacks, b.failure.as_deref()),
             (2, Some("did not converge"))

@@ -24,6 +24,9 @@ pub(crate) struct CellOutput {
     pub outlook: Vec<OutlookRow>,
     /// Re-estimations that failed and kept the previous estimate (likelihood families).
     pub fallbacks: usize,
+    /// Regressors left out of some of the cell's estimations because they
+    /// were constant in the window (SPEC §7.1), in the order first seen.
+    pub left_out: Vec<LeftOut>,
     /// Why the cell failed as a whole (likelihood families, combinations of failed members).
     pub failure: Option<String>,
     /// In-sample residuals of the cell's last estimation (its last
@@ -35,6 +38,34 @@ pub(crate) struct CellOutput {
     pub seconds: f64,
     /// Whether the output came from the resume cache (recorded only under `run`).
     pub cached: bool,
+}
+
+/// A regressor column left out of `estimations` estimations of a cell, the
+/// first and last of them ending at positions `first_end` and `last_end`.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub(crate) struct LeftOut {
+    pub regressor: String,
+    pub estimations: usize,
+    pub first_end: usize,
+    pub last_end: usize,
+}
+
+/// Count the columns the estimate ending at `end` left out.
+fn record_left_out(out: &mut Vec<LeftOut>, names: Vec<String>, end: usize) {
+    for name in names {
+        match out.iter_mut().find(|l| l.regressor == name) {
+            Some(l) => {
+                l.estimations += 1;
+                l.last_end = end;
+            }
+            None => out.push(LeftOut {
+                regressor: name,
+                estimations: 1,
+                first_end: end,
+                last_end: end,
+            }),
+        }
+    }
 }
 
 /// The origin loop of one cell (SPEC §4): from the first origin to the
@@ -107,6 +138,7 @@ impl OriginLoop<'_> {
         model: &M,
         current: &mut Option<M::Fit>,
         outlook_window: Option<usize>,
+        left_out: &mut Vec<LeftOut>,
     ) -> Vec<OutlookRow> {
         let window = self.schedule.window();
         let carried = M::CARRIES && outlook_window == window;
@@ -118,16 +150,20 @@ impl OriginLoop<'_> {
             }
         };
         match fit {
-            Some(fit) => self
-                .horizons
-                .iter()
-                .zip(model.forecast(fit, self.n, self.horizons))
-                .map(|(&h, step)| OutlookRow {
-                    horizon: h,
-                    forecast: step.as_ref().ok().map(|s| s.forecast),
-                    variance: step.ok().and_then(|s| s.variance),
-                })
-                .collect(),
+            Some(fit) => {
+                let rows = self
+                    .horizons
+                    .iter()
+                    .zip(model.forecast(fit, self.n, self.horizons))
+                    .map(|(&h, step)| OutlookRow {
+                        horizon: h,
+                        forecast: step.as_ref().ok().map(|s| s.forecast),
+                        variance: step.ok().and_then(|s| s.variance),
+                    })
+                    .collect();
+                record_left_out(left_out, model.left_out(fit), self.n);
+                rows
+            }
             None => self
                 .horizons
                 .iter()
@@ -165,7 +201,8 @@ impl models::Visitor for OriginLoop<'_> {
                 continue;
             }
             let end = sched.estimation_end(origin);
-            if last_end != Some(end) {
+            let new_end = last_end != Some(end);
+            if new_end {
                 if let Refit::CellFails(why) =
                     self.estimate(model, &mut current, (origin, end), &mut out)?
                 {
@@ -206,6 +243,9 @@ impl models::Visitor for OriginLoop<'_> {
                     }
                 }
             }
+            if new_end {
+                record_left_out(&mut out.left_out, model.left_out(fit), end);
+            }
         }
         if let Some(p) = problems.into_iter().flatten().next() {
             return Err(p);
@@ -215,7 +255,7 @@ impl models::Visitor for OriginLoop<'_> {
             out.residuals = model.residuals(fit, end);
         }
         if let Some(outlook_window) = self.outlook {
-            out.outlook = self.outlook(model, &mut current, outlook_window);
+            out.outlook = self.outlook(model, &mut current, outlook_window, &mut out.left_out);
         }
         Ok(out)
     }

@@ -41,7 +41,8 @@ pub(crate) struct ForecastRow {
 }
 
 /// The order chosen by a candidate with `select`, written like its id's
-/// brackets: `3` for ar(3), `2,1` for ardl(2,1), `1,1,0` for arima(1,1,0).
+/// brackets: `3` for ar(3), `2,1` for ardl(2,1), `1,1,0` for arima(1,1,0),
+/// `(0,1,1)(0,1,1)12` for a seasonal arima.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub(crate) enum Order {
     Ar(usize),
@@ -49,6 +50,15 @@ pub(crate) enum Order {
     Arima(usize, usize, usize),
     /// The form `smoothing(aicc)` chose, written like a smoothing id's brackets.
     Smoothing(crate::spec::SmoothingTrend, crate::spec::SmoothingSeason),
+    Sarima {
+        p: usize,
+        d: usize,
+        q: usize,
+        seasonal_p: usize,
+        seasonal_d: usize,
+        seasonal_q: usize,
+        m: usize,
+    },
 }
 
 impl std::fmt::Display for Order {
@@ -58,6 +68,18 @@ impl std::fmt::Display for Order {
             Order::Ardl(p, q) => write!(f, "{p},{q}"),
             Order::Arima(p, d, q) => write!(f, "{p},{d},{q}"),
             Order::Smoothing(t, s) => write!(f, "{},{}", t.name(), s.name()),
+            Order::Sarima {
+                p,
+                d,
+                q,
+                seasonal_p,
+                seasonal_d,
+                seasonal_q,
+                m,
+            } => write!(
+                f,
+                "({p},{d},{q})({seasonal_p},{seasonal_d},{seasonal_q}){m}"
+            ),
         }
     }
 }
@@ -141,6 +163,13 @@ pub(crate) trait Model {
     /// h = 1 regression, estimated for this when 1 is not a horizon), the
     /// benchmarks' in-sample one-step errors.
     fn residuals(&self, fit: &mut Self::Fit, end: usize) -> Vec<f64>;
+
+    /// Names of the regressor columns the current estimate left out because
+    /// they are constant in its window (SPEC §7.1); asked after the
+    /// forecasts of each estimation end.
+    fn left_out(&self, _fit: &mut Self::Fit) -> Vec<String> {
+        Vec::new()
+    }
 }
 
 /// What runs a model: the registry hands it the concrete model of a cell.
@@ -174,7 +203,14 @@ pub(crate) fn visit<V: Visitor>(cell: &CellModel, visitor: V) -> Result<V::Out, 
                 && matches!(cell.family, Family::Ar { .. } | Family::ArSelect { .. });
             visitor.visit(&linear::Linear::new(cell, iterated)?)
         }
-        Family::Arima { p, d, q, drift } => visitor.visit(&likelihood::OnSeries {
+        Family::Arima {
+            p,
+            d,
+            q,
+            drift,
+            seasonal,
+            regressors,
+        } => visitor.visit(&likelihood::OnSeries {
             y: &cell.target.y,
             model: likelihood::Arima {
                 order: arima::ArimaOrder {
@@ -182,31 +218,28 @@ pub(crate) fn visit<V: Visitor>(cell: &CellModel, visitor: V) -> Result<V::Out, 
                     d: *d,
                     q: *q,
                     drift: *drift,
+                    seasonal: seasonal.map(season_of),
                 },
+                regressors: regressor_columns(exp, cell.target, regressors),
             },
         }),
         Family::ArimaSelect {
             criterion,
             ps,
-            d,
+            ds,
             qs,
             drift,
+            seasonal,
+            regressors,
         } => visitor.visit(&likelihood::OnSeries {
             y: &cell.target.y,
-            model: likelihood::ArimaSelect {
-                criterion: *criterion,
-                orders: ps
-                    .iter()
-                    .flat_map(|&p| {
-                        qs.iter().map(move |&q| arima::ArimaOrder {
-                            p,
-                            d: *d,
-                            q,
-                            drift: *drift,
-                        })
-                    })
-                    .collect(),
-            },
+            model: arima_select(
+                exp,
+                cell.target,
+                (*criterion, ps, ds, qs, *drift),
+                seasonal.as_ref(),
+                regressors,
+            ),
         }),
         Family::Smoothing { trend, season } => visitor.visit(&likelihood::OnSeries {
             y: &cell.target.y,
@@ -247,6 +280,97 @@ pub(crate) fn visit<V: Visitor>(cell: &CellModel, visitor: V) -> Result<V::Out, 
         }),
         Family::Combination { .. } => return Err("a combination is formed from its members".into()),
     })
+}
+
+fn season_of(s: crate::spec::SeasonalOrder) -> arima::SeasonalOrder {
+    arima::SeasonalOrder {
+        p: s.p,
+        d: s.d,
+        q: s.q,
+        m: s.m,
+    }
+}
+
+/// The regressor columns of an arima candidate over positions 1..N + the
+/// largest horizon: a known-ahead predictor's values (its future rows
+/// where the data have them), a dummy's everywhere.
+fn regressor_columns(
+    exp: &Experiment,
+    target: &TargetData,
+    indices: &[usize],
+) -> likelihood::Regressors {
+    let len = target.n + exp.horizons.iter().copied().max().unwrap_or(1);
+    likelihood::Regressors {
+        names: indices
+            .iter()
+            .map(|&i| exp.regressor_name(i).to_string())
+            .collect(),
+        values: indices
+            .iter()
+            .map(|&i| match i.checked_sub(exp.predictors.len()) {
+                None => target.predictors[i].clone(),
+                Some(c) => crate::spec::dummies::column_values(exp, target, c, len),
+            })
+            .collect(),
+    }
+}
+
+/// The grid of an arima that selects its order: (d, D, p, q, P, Q) with d
+/// outermost and Q innermost, so that without a season the orders come in
+/// the (p, q) order they always had.
+fn arima_select(
+    exp: &Experiment,
+    target: &TargetData,
+    (criterion, ps, ds, qs, drift): (
+        crate::spec::ArimaCriterion,
+        &[usize],
+        &[usize],
+        &[usize],
+        bool,
+    ),
+    seasonal: Option<&crate::spec::SeasonalGrid>,
+    regressors: &[usize],
+) -> likelihood::ArimaSelect {
+    let mut ds = ds.to_vec();
+    ds.sort_unstable();
+    let (sps, mut sds, sqs, m) = match seasonal {
+        Some(g) => (g.ps.clone(), g.ds.clone(), g.qs.clone(), g.m),
+        None => (vec![0], vec![0], vec![0], 1),
+    };
+    sds.sort_unstable();
+    let mut orders = Vec::new();
+    for &d in &ds {
+        for &sd in &sds {
+            for &p in ps {
+                for &q in qs {
+                    for &sp in &sps {
+                        for &sq in &sqs {
+                            orders.push(arima::ArimaOrder {
+                                p,
+                                d,
+                                q,
+                                drift,
+                                seasonal: seasonal.map(|_| arima::SeasonalOrder {
+                                    p: sp,
+                                    d: sd,
+                                    q: sq,
+                                    m,
+                                }),
+                            });
+                        }
+                    }
+                }
+            }
+        }
+    }
+    likelihood::ArimaSelect {
+        criterion,
+        orders,
+        ds,
+        seasonal_ds: sds,
+        m,
+        regressors: regressor_columns(exp, target, regressors),
+    }
 }
 
 /// Whether a family is estimated by maximum likelihood (its failures are

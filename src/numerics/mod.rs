@@ -9,3 +9,4 @@ pub(crate) mod dist;
 pub(crate) mod ic;
 pub(crate) mod lsq;
 pub(crate) mod optimise;
+pub(crate) mod stationarity;

@@ -66,7 +66,22 @@ pub(crate) struct CellRecord {
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub fallbacks: Option<usize>,
     pub id: String,
+    /// Regressors left out of some estimations (constant in the window).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub left_out: Option<Vec<LeftOutRecord>>,
     pub status: String,
+}
+
+/// A regressor left out of `estimations` of a cell's estimations because it
+/// was constant in the window (SPEC §7.1); `first` and `last` are the
+/// estimation ends (period labels) of the first and the last of them.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(crate) struct LeftOutRecord {
+    pub estimations: usize,
+    pub first: String,
+    pub last: String,
+    pub regressor: String,
 }
 
 /// An output file as the manifest records it.
@@ -155,6 +170,7 @@ pub(crate) struct CellFacts {
     pub id: String,
     pub failure: Option<String>,
     pub fallbacks: usize,
+    pub left_out: Vec<LeftOutRecord>,
     pub seconds: f64,
     pub cached: bool,
 }
@@ -206,6 +222,7 @@ impl Manifest {
                         id: c.id.clone(),
                         status: if c.failure.is_some() { "failed" } else { "ok" }.into(),
                         fallbacks: (c.fallbacks > 0).then_some(c.fallbacks),
+                        left_out: (!c.left_out.is_empty()).then(|| c.left_out.clone()),
                         failure: c.failure.clone(),
                     })
                     .collect(),
@@ -319,6 +336,7 @@ mod tests {
                     failure: Some("did not converge".into()),
                     fallbacks: Some(2),
                     id: "y/naive/fixed".into(),
+                    left_out: None,
                     status: "failed".into(),
                 }],
                 horizons: vec![1],

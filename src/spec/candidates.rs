@@ -4,7 +4,7 @@
 
 use super::decode::{Ctx, MapView};
 use super::yaml::{Kind, Node};
-use super::{Candidate, Criterion, Family, Predictor, Trend};
+use super::{Candidate, Criterion, Dummy, DummyColumn, Family, Predictor, Trend};
 use crate::error::nearest;
 
 pub(super) const FAMILIES: &[&str] = &[
@@ -65,7 +65,7 @@ pub(super) fn decode_candidate(
         return;
     };
     match family.as_str() {
-        "arima" => super::families::decode_arima(ctx, item, &path, out),
+        "arima" => super::families::decode_arima(ctx, item, &path, predictors, out),
         "smoothing" => super::families::decode_smoothing(ctx, item, &path, out),
         "theta" => super::theta::decode_theta(ctx, item, &path, out),
         "combination" => super::families::decode_combination(ctx, item, &path, out, pending),
@@ -423,18 +423,110 @@ fn decode_select(
     })
 }
 
-/// The top-level predictors as far as they could be read.
+/// The top-level predictors and dummies as far as they could be read, and
+/// the season length (None: the frequency could not be read).
 pub(super) struct PredictorNames<'a> {
     pub list: &'a [Predictor],
     /// Columns whose declaration has an error of its own.
     pub failed: &'a [String],
     /// Some declaration could not be read at all (no column name).
     pub unreadable: bool,
+    pub dummies: &'a [Dummy],
+    pub dummy_columns: &'a [DummyColumn],
+    /// Dummies whose entry has an error of its own.
+    pub dummies_failed: &'a [String],
+    pub season: Option<Option<usize>>,
+    pub frequency_name: &'static str,
 }
 
-/// The declared predictors an ardl entry names, as indices; None when
-/// missing, empty or unknown (each reported, unless the declaration itself
-/// was already reported).
+/// The regressors a candidate names under `predictors`: declared
+/// predictors and dummies, as indices into the predictors followed by the
+/// dummy columns (a dummy gives all of its columns). On arima
+/// (`known_ahead_only`) a predictor must be known ahead: the regression's
+/// x_{T+h} must be known at the origin. None when empty or wrong (each
+/// problem reported, unless its declaration was already).
+pub(super) fn regressor_indices(
+    ctx: &mut Ctx,
+    n: &Node,
+    what: &str,
+    declared: &PredictorNames,
+    known_ahead_only: bool,
+) -> Option<Vec<usize>> {
+    let predictors = declared.list;
+    let mut chosen: Vec<usize> = Vec::new();
+    let items = ctx.list(n);
+    if items.is_empty() {
+        ctx.error(
+            n,
+            format!("{what} is empty; name at least one declared predictor or dummy"),
+        );
+        return None;
+    }
+    let mut ok = true;
+    for p in items {
+        let Some(col) = ctx.string(p, what) else {
+            ok = false;
+            continue;
+        };
+        let found: Vec<usize> = match predictors.iter().position(|d| d.column == col) {
+            Some(i) => {
+                if known_ahead_only && !predictors[i].known_ahead {
+                    ctx.error_see(
+                        p,
+                        format!("{what}: '{col}' is not known ahead; a regression with ARIMA errors needs the predictor's value in the forecast period (declare it known_ahead: true, use a dummy, or use family: ardl, which takes its lags)"),
+                        crate::error::pages::ARIMA,
+                    );
+                    ok = false;
+                    continue;
+                }
+                vec![i]
+            }
+            None => match declared.dummies.iter().position(|d| d.name == col) {
+                Some(k) => declared
+                    .dummy_columns
+                    .iter()
+                    .enumerate()
+                    .filter(|(_, c)| c.dummy == k)
+                    .map(|(j, _)| predictors.len() + j)
+                    .collect(),
+                None => {
+                    ok = false;
+                    if declared.unreadable
+                        || declared.failed.contains(&col)
+                        || declared.dummies_failed.contains(&col)
+                    {
+                        continue;
+                    }
+                    let names: Vec<&str> = predictors
+                        .iter()
+                        .map(|d| d.column.as_str())
+                        .chain(declared.dummies.iter().map(|d| d.name.as_str()))
+                        .collect();
+                    let hint = nearest(&col, &names)
+                        .map(|n| format!(" did you mean '{n}'?"))
+                        .unwrap_or_default();
+                    ctx.error(
+                        p,
+                        format!("{what}: '{col}' is not declared under the top-level 'predictors' or 'dummies' key.{hint} Declared: {}",
+                            if names.is_empty() { "none".to_string() } else { names.join(", ") }),
+                    );
+                    continue;
+                }
+            },
+        };
+        if found.iter().any(|i| chosen.contains(i)) {
+            ctx.error(p, format!("{what} names '{col}' twice"));
+            ok = false;
+            continue;
+        }
+        chosen.extend(found);
+    }
+    (ok && !chosen.is_empty()).then_some(chosen)
+}
+
+/// The declared predictors and dummies an ardl entry names, as indices;
+/// None when missing, empty or unknown (each reported, unless the
+/// declaration itself was already reported).
 fn ardl_predictors(
     ctx: &mut Ctx,
     item: &Node,
@@ -442,50 +534,28 @@ fn ardl_predictors(
     path: &str,
     declared: &PredictorNames,
 ) -> Option<Vec<usize>> {
-    let predictors = declared.list;
-    let mut chosen = Vec::new();
     match view.get("predictors") {
         Some(n) => {
-            let items = ctx.list(n);
-            if items.is_empty() {
-                ctx.error(
+            let chosen = regressor_indices(ctx, n, &format!("{path}.predictors"), declared, false)?;
+            if chosen.iter().any(|&i| i >= declared.list.len()) {
+                // The lag design has no way yet to leave out a column that is
+                // constant in a window (SPEC §7.1), so a step before its date
+                // would make every early window singular: refused, not half-done.
+                ctx.error_see(
                     n,
-                    format!("{path}.predictors is empty; name at least one declared predictor"),
+                    format!("{path}.predictors: dummies are not supported by ardl yet (a dummy constant in a window cannot be left out of a lag regression); use them with family: arima, or declare the column as a known_ahead predictor"),
+                    crate::error::pages::ARIMA,
                 );
+                return None;
             }
-            for p in items {
-                let Some(col) = ctx.string(p, &format!("{path}.predictors")) else {
-                    continue;
-                };
-                match predictors.iter().position(|d| d.column == col) {
-                    Some(i) if chosen.contains(&i) => {
-                        ctx.error(p, format!("{path}.predictors names '{col}' twice"))
-                    }
-                    Some(i) => chosen.push(i),
-                    None if declared.unreadable || declared.failed.contains(&col) => {}
-                    None => {
-                        let names: Vec<&str> =
-                            predictors.iter().map(|d| d.column.as_str()).collect();
-                        let hint = nearest(&col, &names)
-                            .map(|n| format!(" did you mean '{n}'?"))
-                            .unwrap_or_default();
-                        ctx.error(
-                                    p,
-                                    format!("{path}.predictors: '{col}' is not declared under the top-level 'predictors' key.{hint} Declared: {}",
-                                        if names.is_empty() { "none".to_string() } else { names.join(", ") }),
-                                );
-                    }
-                }
-            }
+            Some(chosen)
         }
-        None => ctx.error(
-            item,
-            format!("{path}: ardl needs 'predictors': the declared predictor columns it uses"),
-        ),
-    }
-    if chosen.is_empty() {
-        None
-    } else {
-        Some(chosen)
+        None => {
+            ctx.error(
+                item,
+                format!("{path}: ardl needs 'predictors': the declared predictor columns it uses"),
+            );
+            None
+        }
     }
 }

@@ -31,6 +31,12 @@ impl<'a> Ctx<'a> {
         self.diags.push(Diagnostic::new(loc, message));
     }
 
+    /// A problem explained on a page of its own.
+    pub fn error_see(&mut self, node: &Node, message: impl Into<String>, page: &'static str) {
+        let loc = self.loc(node);
+        self.diags.push(Diagnostic::new(loc, message).see(page));
+    }
+
     /// A problem of size or safety, explained with the refusals.
     pub fn refuse(&mut self, node: &Node, message: impl Into<String>) {
         let loc = self.loc(node);

@@ -7,6 +7,7 @@
 
 use super::candidates::{decode_candidate, PendingMembers, PredictorNames};
 use super::decode::{Ctx, MapView};
+use super::dummies::{decode_dummies, Dummies};
 use super::limits;
 use super::period::Frequency;
 use super::predictors::{decode_predictors, Predictors};
@@ -27,6 +28,7 @@ const TOP_KEYS: &[&str] = &[
     "target",
     "transform",
     "predictors",
+    "dummies",
     "candidates",
     "backtest",
     "scoring",
@@ -55,6 +57,7 @@ pub(super) struct Decoded {
     data: DataKeys,
     targets: Vec<(String, Node)>,
     predictors: Predictors,
+    dummies: Dummies,
     schemes: Vec<PendingScheme>,
     horizons: Vec<usize>,
     multi_step: MultiStep,
@@ -121,6 +124,8 @@ pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
         .map(|t| decode_targets(ctx, t))
         .unwrap_or_default();
     let predictors = decode_predictors(ctx, top.get("predictors"), &targets);
+    let dummies = decode_dummies(ctx, top.get("dummies"), data.frequency);
+    check_dummy_names(ctx, &dummies, &predictors, &targets);
     // backtest before candidates: multi_step matters there.
     let (schemes, horizons, multi_step) = match need(ctx, "backtest") {
         Some(b) => decode_backtest(ctx, b),
@@ -134,7 +139,7 @@ pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
         _ => None,
     });
     let candidates = match need(ctx, "candidates") {
-        Some(c) => decode_candidates(ctx, c, &predictors),
+        Some(c) => decode_candidates(ctx, c, &predictors, &dummies, data.frequency),
         None => Vec::new(),
     };
     let scoring = match top.get("scoring") {
@@ -155,6 +160,7 @@ pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
         data,
         targets,
         predictors,
+        dummies,
         schemes,
         horizons,
         multi_step,
@@ -327,15 +333,27 @@ fn decode_backtest(ctx: &mut Ctx, b: &Node) -> (Vec<PendingScheme>, Vec<usize>, 
 
 /// `candidates`: every entry expanded, ids checked for duplicates, and
 /// combination members resolved (no combinations of combinations).
-fn decode_candidates(ctx: &mut Ctx, c: &Node, predictors: &Predictors) -> Vec<Candidate> {
+fn decode_candidates(
+    ctx: &mut Ctx,
+    c: &Node,
+    predictors: &Predictors,
+    dummies: &Dummies,
+    frequency: Option<Frequency>,
+) -> Vec<Candidate> {
     let mut candidates: Vec<Candidate> = Vec::new();
     let mut pending: PendingMembers = Vec::new();
     match &c.kind {
         Kind::Seq(items) if !items.is_empty() => {
+            let dummy_columns = super::dummies::columns(&dummies.list);
             let names = PredictorNames {
                 list: &predictors.list,
                 failed: &predictors.failed,
                 unreadable: predictors.unreadable,
+                dummies: &dummies.list,
+                dummy_columns: &dummy_columns,
+                dummies_failed: &dummies.failed,
+                season: frequency.map(Frequency::season_length),
+                frequency_name: frequency.map_or("", Frequency::name),
             };
             for (i, item) in items.iter().enumerate() {
                 decode_candidate(ctx, item, i + 1, &names, &mut candidates, &mut pending);
@@ -376,6 +394,32 @@ fn decode_candidates(ctx: &mut Ctx, c: &Node, predictors: &Predictors) -> Vec<Ca
         }
     }
     candidates
+}
+
+/// A dummy's name must not be a predictor's column or a target: candidates
+/// name both the same way.
+fn check_dummy_names(
+    ctx: &mut Ctx,
+    dummies: &Dummies,
+    predictors: &Predictors,
+    targets: &[(String, Node)],
+) {
+    for (d, node) in dummies.list.iter().zip(&dummies.nodes) {
+        if predictors.list.iter().any(|p| p.column == d.name) {
+            ctx.error(
+                node,
+                format!("dummy '{}' has the name of a declared predictor; candidates name both alike — rename the dummy", d.name),
+            );
+        } else if targets.iter().any(|(t, _)| *t == d.name) {
+            ctx.error(
+                node,
+                format!(
+                    "dummy '{}' has the name of a target; rename the dummy",
+                    d.name
+                ),
+            );
+        }
+    }
 }
 
 /// "did you mean …? candidate ids are: …" for a name that matches no candidate.
@@ -537,6 +581,7 @@ impl Decoded {
             frequency,
             transform,
             predictors: self.predictors.list,
+            dummy_columns: super::dummies::columns(&self.dummies.list),
             candidates: self.candidates,
             schemes: self.schemes.into_iter().map(|p| p.scheme).collect(),
             horizons: self.horizons,

@@ -33,6 +33,21 @@ pub(super) const MAX_CELLS: usize = 10_000_000;
 /// estimation window (its coefficients, the mean or drift, the variance).
 pub(super) const OBSERVATIONS_PER_PARAMETER: usize = 3;
 
+/// The most entries under `dummies`.
+pub(super) const MAX_DUMMIES: usize = 100;
+/// The most sine/cosine pairs of one Fourier dummy.
+pub(super) const MAX_FOURIER_PAIRS: usize = 50;
+/// The longest cycle a Fourier dummy's `period` may name.
+pub(super) const MAX_DUMMY_PERIOD: f64 = 100_000.0;
+/// The largest non-seasonal p or q of arima.
+pub(super) const MAX_ARIMA_ORDER: usize = 12;
+/// The largest seasonal P or Q, and seasonal D.
+pub(super) const MAX_SEASONAL_ORDER: usize = 2;
+pub(super) const MAX_SEASONAL_DIFFERENCE: usize = 1;
+/// The most orders an arima that selects its order estimates in every
+/// training window (the product of its grids).
+pub(super) const MAX_ARIMA_SEARCH: usize = 256;
+
 /// A position at the start of a line, for problems of a whole entry.
 fn line_node(line: usize) -> Node {
     Node {
@@ -97,35 +112,83 @@ fn too_little_data(family: &Family, scheme: &Scheme, end: usize) -> Option<Strin
         SchemeKind::Rolling => scheme.window,
         _ => None,
     };
-    if let Family::Arima { p, d, q, drift } = family {
-        return arima_short(*p, *d, *q, *drift, end, window);
+    let max = |v: &[usize]| v.iter().copied().max().unwrap_or(0);
+    match family {
+        Family::Arima {
+            p,
+            d,
+            q,
+            drift,
+            seasonal,
+            regressors,
+        } => {
+            let s = seasonal.map_or((0, 0, 0, 0), |s| (s.p, s.d, s.q, s.m));
+            arima_short(
+                ArimaSize {
+                    coefficients: p + q + s.0 + s.2,
+                    mean: d + s.1 == 0 || *drift,
+                    regressors: regressors.len(),
+                    differences: d + s.3 * s.1,
+                },
+                end,
+                window,
+            )
+        }
+        Family::ArimaSelect {
+            ps,
+            ds,
+            qs,
+            drift,
+            seasonal,
+            regressors,
+            ..
+        } => {
+            // The largest orders with the least differencing: the most
+            // parameters on the most observations a window can have;
+            // the largest differencing is checked too.
+            let (sp, sq, sds, m) = seasonal.as_ref().map_or((0, 0, vec![0], 0), |s| {
+                (max(&s.ps), max(&s.qs), s.ds.clone(), s.m)
+            });
+            let worst = ds
+                .iter()
+                .flat_map(|&d| sds.iter().map(move |&sd| (d, sd)))
+                .filter_map(|(d, sd)| {
+                    arima_short(
+                        ArimaSize {
+                            coefficients: max(ps) + max(qs) + sp + sq,
+                            mean: d + sd == 0 || *drift,
+                            regressors: regressors.len(),
+                            differences: d + m * sd,
+                        },
+                        end,
+                        window,
+                    )
+                })
+                .next();
+            worst
+        }
+        _ => None,
     }
-    if let Family::ArimaSelect {
-        ps, d, qs, drift, ..
-    } = family
-    {
-        let p = ps.iter().copied().max().unwrap_or(0);
-        let q = qs.iter().copied().max().unwrap_or(0);
-        return arima_short(p, *d, q, *drift, end, window);
-    }
-    None
 }
 
-fn arima_short(
-    p: usize,
-    d: usize,
-    q: usize,
-    drift: bool,
-    end: usize,
-    window: Option<usize>,
-) -> Option<String> {
-    let parameters = p + q + usize::from(d == 0 || drift) + 1;
-    let observations = window.map_or(end, |w| w.min(end)).saturating_sub(d);
+/// What an ARIMA estimates and what its differencing uses up.
+struct ArimaSize {
+    coefficients: usize,
+    mean: bool,
+    regressors: usize,
+    differences: usize,
+}
+
+fn arima_short(size: ArimaSize, end: usize, window: Option<usize>) -> Option<String> {
+    let parameters = size.coefficients + usize::from(size.mean) + size.regressors + 1;
+    let observations = window
+        .map_or(end, |w| w.min(end))
+        .saturating_sub(size.differences);
     let needed = OBSERVATIONS_PER_PARAMETER * parameters;
     (observations < needed).then(|| {
         format!(
             "its {parameters} parameters need at least {needed} observations ({OBSERVATIONS_PER_PARAMETER} per parameter) in the first estimation window, which has {observations}{}; use a smaller order, start the scheme later or widen the window",
-            if d > 0 { " after differencing" } else { "" }
+            if size.differences > 0 { " after differencing" } else { "" }
         )
     })
 }
@@ -150,11 +213,21 @@ mod tests {
 
     #[test]
     fn an_arima_needs_three_observations_per_parameter() {
+        let size = |coefficients, mean, regressors, differences| ArimaSize {
+            coefficients,
+            mean,
+            regressors,
+            differences,
+        };
         // arima(12,2,12) has 12 + 12 + 1 (variance) = 25 parameters: 75 observations.
-        assert!(arima_short(12, 2, 12, false, 76, None).is_some());
-        assert!(arima_short(12, 2, 12, false, 77, None).is_none());
+        assert!(arima_short(size(24, false, 0, 2), 76, None).is_some());
+        assert!(arima_short(size(24, false, 0, 2), 77, None).is_none());
         // d = 0 adds the mean: arima(1,0,1) has 4 parameters; a window of 11 is short.
-        assert!(arima_short(1, 0, 1, false, 100, Some(11)).is_some());
-        assert!(arima_short(1, 0, 1, false, 100, Some(12)).is_none());
+        assert!(arima_short(size(2, true, 0, 0), 100, Some(11)).is_some());
+        assert!(arima_short(size(2, true, 0, 0), 100, Some(12)).is_none());
+        // The airline model (0,1,1)(0,1,1)12 with two regressors: 2 + 2 + 1 = 5
+        // parameters need 15 observations after its 1 + 12 differences.
+        assert!(arima_short(size(2, false, 2, 13), 27, None).is_some());
+        assert!(arima_short(size(2, false, 2, 13), 28, None).is_none());
     }
 }

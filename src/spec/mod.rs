@@ -11,6 +11,7 @@
 mod candidates;
 pub mod data;
 pub mod decode;
+pub mod dummies;
 mod experiment;
 mod families;
 mod limits;

@@ -277,20 +277,30 @@ pub enum Family {
         max_lags: usize,
         trend: Trend,
     },
-    /// arima(p,d,q) by exact Gaussian maximum likelihood; `drift` only with d ≥ 1.
+    /// arima(p,d,q), or (p,d,q)(P,D,Q)m with `seasonal`, by exact Gaussian
+    /// maximum likelihood; `drift` only with d + D ≥ 1; `regressors` (a
+    /// regression with ARIMA errors) index the declared predictors followed
+    /// by the dummy columns ([`Declaration::regressor_name`]).
     Arima {
         p: usize,
         d: usize,
         q: usize,
         drift: bool,
+        seasonal: Option<SeasonalOrder>,
+        regressors: Vec<usize>,
     },
-    /// arima with (p, q) chosen from the grids inside every training window.
+    /// arima with (p, q) — and (P, Q) — chosen from the grids inside every
+    /// training window by `criterion`; d (and D) by a unit-root test when
+    /// several are listed (`aicc` only; the other criteria expand one
+    /// candidate per d and D).
     ArimaSelect {
-        criterion: Criterion,
+        criterion: ArimaCriterion,
         ps: Vec<usize>,
-        d: usize,
+        ds: Vec<usize>,
         qs: Vec<usize>,
         drift: bool,
+        seasonal: Option<SeasonalGrid>,
+        regressors: Vec<usize>,
     },
     /// Additive-error exponential smoothing (Hyndman et al. 2008).
     Smoothing {
@@ -313,7 +323,9 @@ pub enum Family {
         members: Vec<usize>,
         weights: CombinationWeights,
     },
-    /// ardl with p ∈ 0..=max_lags and q ∈ 1..=max_lags chosen inside every training window.
+    /// ardl with p ∈ 0..=max_lags and q ∈ 1..=max_lags chosen inside every
+    /// training window. (`predictors` of ardl families index the declared
+    /// predictors followed by the dummy columns, as arima's `regressors`.)
     ArdlSelect {
         criterion: Criterion,
         max_lags: usize,
@@ -363,13 +375,37 @@ impl Family {
         match self {
             Family::Naive | Family::SeasonalNaive | Family::Combination { .. } => 0,
             Family::Mean | Family::Drift => 1,
-            Family::Arima { p, d, q, drift } => p + q + usize::from(*d == 0 || *drift),
-            Family::ArimaSelect {
-                ps, d, qs, drift, ..
+            Family::Arima {
+                p,
+                d,
+                q,
+                drift,
+                seasonal,
+                regressors,
             } => {
-                ps.iter().max().unwrap_or(&0)
-                    + qs.iter().max().unwrap_or(&0)
-                    + usize::from(*d == 0 || *drift)
+                let s = seasonal.map_or((0, 0, 0), |s| (s.p, s.d, s.q));
+                p + q + s.0 + s.2 + usize::from(*d + s.1 == 0 || *drift) + regressors.len()
+            }
+            Family::ArimaSelect {
+                ps,
+                ds,
+                qs,
+                drift,
+                seasonal,
+                regressors,
+                ..
+            } => {
+                let max = |v: &[usize]| v.iter().copied().max().unwrap_or(0);
+                let (sp, sd, sq) = seasonal
+                    .as_ref()
+                    .map_or((0, 0, 0), |s| (max(&s.ps), max(&s.ds), max(&s.qs)));
+                let undifferenced = ds.iter().min().copied().unwrap_or(0) == 0 && sd == 0;
+                max(ps)
+                    + max(qs)
+                    + sp
+                    + sq
+                    + usize::from(undifferenced || *drift)
+                    + regressors.len()
             }
             // smoothing parameters plus free initial states (level, trend, m − 1 seasonal)
             Family::Smoothing { trend, season } => {
@@ -392,6 +428,103 @@ impl Family {
             _ => self.coefficients().unwrap_or(0),
         }
     }
+}
+
+/// The seasonal orders (P, D, Q) of an arima candidate at the period m of
+/// the data (SPEC §7.2).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub struct SeasonalOrder {
+    pub p: usize,
+    pub d: usize,
+    pub q: usize,
+    pub m: usize,
+}
+
+/// The seasonal grids of an arima candidate that selects its order.
+#[derive(Debug, Clone, PartialEq, Eq, Hash)]
+pub struct SeasonalGrid {
+    pub ps: Vec<usize>,
+    pub ds: Vec<usize>,
+    pub qs: Vec<usize>,
+    pub m: usize,
+}
+
+/// The criterion of an arima that selects its order: one of the lag
+/// families' criteria, or AICc (Hurvich & Tsai 1989), which also lets a
+/// unit-root test choose d and D.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum ArimaCriterion {
+    Ic(Criterion),
+    Aicc,
+}
+
+impl ArimaCriterion {
+    pub const NAMES: [&'static str; 4] = ["aic", "bic", "hqic", "aicc"];
+    pub fn parse(s: &str) -> Option<ArimaCriterion> {
+        match s {
+            "aicc" => Some(ArimaCriterion::Aicc),
+            _ => Criterion::parse(s).map(ArimaCriterion::Ic),
+        }
+    }
+    pub fn name(self) -> &'static str {
+        match self {
+            ArimaCriterion::Ic(c) => c.name(),
+            ArimaCriterion::Aicc => "aicc",
+        }
+    }
+}
+
+/// A built-in regressor (SPEC §7.1): its name and kind; each gives one or
+/// more columns ([`DummyColumn`]).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Dummy {
+    pub name: String,
+    pub kind: DummyKind,
+    pub line: usize,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub enum DummyKind {
+    /// 1 in the period with this ordinal, 0 elsewhere.
+    Pulse { label: String, ordinal: i64 },
+    /// 0 before the period, 1 from it on.
+    Step { label: String, ordinal: i64 },
+    /// 0 before the period, then 1, 2, 3, … from it on.
+    Ramp { label: String, ordinal: i64 },
+    /// K sine/cosine pairs at `period` (m unless overridden).
+    Fourier { pairs: usize, period: f64 },
+    /// m − 1 season indicators, the first season left out.
+    Seasonal { m: usize },
+}
+
+/// One column of a dummy, as the models use it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DummyColumn {
+    /// `tariff`; `season_sin1`, `season_cos1`; `quarter_2` … `quarter_m`.
+    pub name: String,
+    /// Index of its dummy in [`Declaration::dummies`].
+    pub dummy: usize,
+    pub shape: ColumnShape,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum ColumnShape {
+    Pulse(i64),
+    Step(i64),
+    Ramp(i64),
+    Sin {
+        k: usize,
+        period: f64,
+    },
+    Cos {
+        k: usize,
+        period: f64,
+    },
+    /// Indicator of season s (1-based; 1 is left out).
+    Season {
+        s: usize,
+        m: usize,
+    },
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -485,6 +618,8 @@ pub struct Declaration {
     pub frequency: Frequency,
     pub transform: Transform,
     pub predictors: Vec<Predictor>,
+    /// The columns of the built-in regressors of `dummies` (SPEC §7.1).
+    pub dummy_columns: Vec<DummyColumn>,
     pub candidates: Vec<Candidate>,
     pub schemes: Vec<Scheme>,
     pub horizons: Vec<usize>,
@@ -584,5 +719,17 @@ impl Declaration {
 
     pub fn season_length(&self) -> Option<usize> {
         self.frequency.season_length()
+    }
+
+    /// The name of regressor `i` of an arima or ardl candidate: a declared
+    /// predictor's column for i < predictors.len(), else a dummy column's name.
+    pub fn regressor_name(&self, i: usize) -> &str {
+        match self.predictors.get(i) {
+            Some(p) => &p.column,
+            None => self
+                .dummy_columns
+                .get(i - self.predictors.len())
+                .map_or("", |c| c.name.as_str()),
+        }
     }
 }

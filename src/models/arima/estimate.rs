@@ -3,9 +3,11 @@
 //! the BFGS runs (see the module docs of `arima` for the strategy).
 
 use super::kalman::profile;
-use super::reparam::{constrain, unconstrain_start};
+use super::reparam::{constrain, constrain_seasonal, unconstrain_seasonal, unconstrain_start};
 use super::start::hannan_rissanen;
-use super::{check_order, difference, positive, ArimaError, ArimaFit, ArimaOrder, ArimaParams};
+use super::{
+    check_order, difference_order, positive, ArimaError, ArimaFit, ArimaOrder, ArimaParams,
+};
 use crate::numerics::optimise::bfgs::{bfgs, BfgsError, Optimum};
 
 const MAX_ITER: usize = 400;
@@ -41,21 +43,54 @@ fn run_bfgs(
 }
 
 /// Fewest differenced observations accepted: one more than the parameters
-/// (coefficients, mean and σ²) and at least r + 1 for the state.
-fn min_obs(order: &ArimaOrder) -> usize {
-    let k = order.p + order.q + usize::from(order.has_mean()) + 1;
-    (k + 1).max(order.p.max(order.q + 1) + 1)
+/// (coefficients, regression columns and σ²) and at least r + 1 for the state.
+fn min_obs(order: &ArimaOrder, columns: usize) -> usize {
+    let s = order.season();
+    let k = order.coefficients() + columns + 1;
+    (k + 1).max((order.p + s.m * s.p).max(order.q + s.m * s.q + 1) + 1)
 }
 
-/// The modelled series: w = Δ^d y and its centred copy x (centred on its
-/// mean when μ is estimated), after the checks on order, data and length.
-fn prepare(y: &[f64], order: &ArimaOrder) -> Result<(Vec<f64>, Vec<f64>), ArimaError> {
+/// What the likelihood is computed on: w = Δ^d Δ_m^D y, the regression
+/// columns (a column of ones for the mean or drift, then the differenced
+/// regressors that are not left out), the regressors left out, and x, the
+/// series the start values are computed from (w centred on its mean, or
+/// its least-squares residuals on the columns).
+struct Prepared {
+    w: Vec<f64>,
+    columns: Vec<Vec<f64>>,
+    /// Index of each regressor in `columns` (None: left out).
+    used: Vec<Option<usize>>,
+    x: Vec<f64>,
+}
+
+/// The modelled series and its regression columns, after the checks on
+/// order, data and length.
+fn prepare(y: &[f64], order: &ArimaOrder, regressors: &[Vec<f64>]) -> Result<Prepared, ArimaError> {
     check_order(order)?;
     if !y.iter().all(|v| v.is_finite()) {
         return Err(ArimaError::NonFinite { context: "data" });
     }
-    let w = difference(y, order.d);
-    let needed = min_obs(order);
+    let w = difference_order(y, order);
+    let mut columns = Vec::new();
+    if order.has_mean() {
+        columns.push(vec![1.0; w.len()]);
+    }
+    let mut used = Vec::with_capacity(regressors.len());
+    for raw in regressors {
+        if raw.len() != y.len() || !raw.iter().all(|v| v.is_finite()) {
+            return Err(ArimaError::NonFinite {
+                context: "regressor values",
+            });
+        }
+        let dx = difference_order(raw, order);
+        if super::regression::left_out(raw, &dx) {
+            used.push(None);
+        } else {
+            used.push(Some(columns.len()));
+            columns.push(dx);
+        }
+    }
+    let needed = min_obs(order, columns.len());
     if w.len() < needed {
         return Err(ArimaError::TooShort {
             needed,
@@ -68,14 +103,36 @@ fn prepare(y: &[f64], order: &ArimaOrder) -> Result<(Vec<f64>, Vec<f64>), ArimaE
     } else {
         0.0
     };
-    let x: Vec<f64> = w.iter().map(|v| v - centre).collect();
+    let x: Vec<f64> = if columns.len() > usize::from(order.has_mean()) {
+        ols_residuals(&w, &columns)
+    } else {
+        w.iter().map(|v| v - centre).collect()
+    };
     let spread = x.iter().fold(0.0f64, |a, v| a.max(v.abs()));
     if !positive(spread - 1e-12 * (1.0 + centre.abs())) {
         return Err(ArimaError::Degenerate {
             reason: "the (differenced) series is constant; the likelihood is unbounded",
         });
     }
-    Ok((w, x))
+    Ok(Prepared {
+        w,
+        columns,
+        used,
+        x,
+    })
+}
+
+/// Residuals of w on the columns by least squares (start values only).
+fn ols_residuals(w: &[f64], columns: &[Vec<f64>]) -> Vec<f64> {
+    let rows: Vec<Vec<f64>> = (0..w.len())
+        .map(|t| columns.iter().map(|c| c[t]).collect())
+        .collect();
+    match crate::numerics::lsq::normal_equations::least_squares(&rows, w) {
+        Some(b) => (0..w.len())
+            .map(|t| w[t] - rows[t].iter().zip(&b).map(|(x, c)| x * c).sum::<f64>())
+            .collect(),
+        None => w.to_vec(),
+    }
 }
 
 /// The best optimum so far and the last failure.
@@ -108,21 +165,25 @@ impl Search {
 /// After a warm fit only the structured starts (Hannan–Rissanen, the
 /// origin, near a unit root) are screened: the space-filling set is what
 /// makes a cold fit expensive.
-fn cold_starts(x: &[f64], p: usize, q: usize, after_warm: bool) -> Vec<Vec<f64>> {
+fn cold_starts(x: &[f64], order: &ArimaOrder, after_warm: bool) -> Vec<Vec<f64>> {
+    let (p, q) = (order.p, order.q);
+    let s = order.season();
+    let all = order.coefficients();
     let mut starts = Vec::new();
     let (phi0, theta0) = hannan_rissanen(x, p, q);
-    let u_hr = unconstrain_start(&phi0, &theta0);
+    let mut u_hr = unconstrain_start(&phi0, &theta0);
+    u_hr.resize(all, 0.0);
     starts.push(u_hr.clone());
-    if p + q == 0 {
+    if all == 0 {
         return starts;
     }
-    starts.push(vec![0.0; p + q]);
+    starts.push(vec![0.0; all]);
     // Near a unit root at z = 1 (1 − Σa_j = Π(1 − r_k), so r_1 → 1): the MA
     // mode of over-differenced series, the AR mode of persistent ones.
     let near_one = 0.95f64.atanh();
     if q > 0 {
         let mut u = u_hr.clone();
-        u[p..].iter_mut().for_each(|v| *v = 0.0);
+        u[p..p + q].iter_mut().for_each(|v| *v = 0.0);
         u[p] = near_one;
         starts.push(u);
     }
@@ -132,12 +193,20 @@ fn cold_starts(x: &[f64], p: usize, q: usize, after_warm: bool) -> Vec<Vec<f64>>
         u[0] = near_one;
         starts.push(u);
     }
-    let extra = if after_warm {
-        0
-    } else {
-        2 + 2 * (p + q).min(3)
-    };
-    let alpha: Vec<f64> = (0..p + q)
+    // The same at the seasonal lag: Θ_1 → −1 is the mode of a seasonally
+    // over-differenced series, Φ_1 → 1 that of a persistent season.
+    if s.q > 0 {
+        let mut u = u_hr.clone();
+        u[p + q + s.p] = near_one;
+        starts.push(u);
+    }
+    if s.p > 0 {
+        let mut u = u_hr.clone();
+        u[p + q] = near_one;
+        starts.push(u);
+    }
+    let extra = if after_warm { 0 } else { 2 + 2 * all.min(3) };
+    let alpha: Vec<f64> = (0..all)
         .map(|i| ((i as f64 + 2.0).sqrt() * 0.5 + 0.618_033_988_749_894_8 * (i + 1) as f64).fract())
         .collect();
     for k in 1..=extra {
@@ -153,28 +222,58 @@ fn cold_starts(x: &[f64], p: usize, q: usize, after_warm: bool) -> Vec<Vec<f64>>
     starts
 }
 
-/// Estimate ARIMA(p, d, q) on `y` (levels) by exact maximum likelihood.
-/// `warm`: the parameters of a previous fit of the same order (e.g. the last
-/// window), run first; cold starts are screened and continued only if better.
+/// The expanded (φ, θ) of unconstrained values: the non-seasonal map as it
+/// always was, or the four seasonal factors multiplied out.
+fn coefficients_of(u: &[f64], order: &ArimaOrder) -> (Vec<f64>, Vec<f64>) {
+    match order.seasonal {
+        None => constrain(u, order.p),
+        Some(s) => {
+            let [phi, theta, sphi, stheta] = constrain_seasonal(u, [order.p, order.q, s.p, s.q]);
+            (
+                super::poly::multiply_ar(&phi, &sphi, s.m),
+                super::poly::multiply_ma(&theta, &stheta, s.m),
+            )
+        }
+    }
+}
+
+/// The warm start in unconstrained values, when its lengths fit the order.
+fn warm_start(wp: &ArimaParams, order: &ArimaOrder) -> Option<Vec<f64>> {
+    let s = order.season();
+    let fits = wp.ar.len() == order.p
+        && wp.ma.len() == order.q
+        && wp.sar.len() == s.p
+        && wp.sma.len() == s.q;
+    fits.then(|| match order.seasonal {
+        None => unconstrain_start(&wp.ar, &wp.ma),
+        Some(_) => unconstrain_seasonal(&wp.ar, &wp.ma, &wp.sar, &wp.sma),
+    })
+}
+
+/// Estimate ARIMA(p, d, q)(P, D, Q)m on `y` (levels) by exact maximum
+/// likelihood, with regressors (columns aligned with `y`, undifferenced).
+/// `warm`: the parameters of a previous fit of the same order (e.g. the
+/// last window), run first; cold starts are screened and continued only if
+/// better.
 pub(crate) fn estimate(
     y: &[f64],
     order: &ArimaOrder,
     warm: Option<&ArimaParams>,
+    regressors: &[Vec<f64>],
 ) -> Result<ArimaFit, ArimaError> {
-    let (w, x) = prepare(y, order)?;
-    let (p, q) = (order.p, order.q);
-    let has_mean = order.has_mean();
+    let prep = prepare(y, order, regressors)?;
+    let (w, columns) = (&prep.w, &prep.columns);
+    let seasonal = order.seasonal.is_some();
     let n = w.len() as f64;
     let objective = |u: &[f64]| -> f64 {
-        let (phi, theta) = constrain(u, p);
-        match profile(&w, &phi, &theta, has_mean) {
+        let (phi, theta) = coefficients_of(u, order);
+        match profile(w, columns, &phi, &theta, seasonal) {
             Ok(pr) => -pr.loglik / n,
             Err(_) => f64::INFINITY,
         }
     };
     let mut search = Search::default();
-    if let Some(wp) = warm.filter(|wp| wp.ar.len() == p && wp.ma.len() == q) {
-        let start = unconstrain_start(&wp.ar, &wp.ma);
+    if let Some(start) = warm.and_then(|wp| warm_start(wp, order)) {
         search.consider(run_bfgs(objective, &start, MAX_ITER, true));
     }
     // A warm start alone can stay on a lower mode that the previous window
@@ -183,7 +282,7 @@ pub(crate) fn estimate(
     // only those already better than it.
     let warm_found = search.best.is_some();
     let mut stage1: Vec<Optimum> = Vec::new();
-    for u in &cold_starts(&x, p, q, warm_found) {
+    for u in &cold_starts(&prep.x, order, warm_found) {
         match run_bfgs(objective, u, SCREEN_ITER, false) {
             Ok(o) => stage1.push(o),
             Err(e) => search.last_err = Some(e),
@@ -213,21 +312,45 @@ pub(crate) fn estimate(
             }));
         }
     };
-    fit_at(&w, order, &opt)
+    fit_at(&prep, order, &opt)
 }
 
-/// The fit at an optimum: coefficients, GLS mean, σ² and the likelihood.
-fn fit_at(w: &[f64], order: &ArimaOrder, opt: &Optimum) -> Result<ArimaFit, ArimaError> {
-    let (p, q) = (order.p, order.q);
-    let has_mean = order.has_mean();
-    let (phi, theta) = constrain(&opt.x, p);
-    let pr = profile(w, &phi, &theta, has_mean)?;
+/// The fit at an optimum: coefficients, GLS regression coefficients, σ²
+/// and the likelihood.
+fn fit_at(prep: &Prepared, order: &ArimaOrder, opt: &Optimum) -> Result<ArimaFit, ArimaError> {
+    let (ar, ma, sar, sma) = match order.seasonal {
+        None => {
+            let (phi, theta) = constrain(&opt.x, order.p);
+            (phi, theta, Vec::new(), Vec::new())
+        }
+        Some(s) => {
+            let [a, b, c, d] = constrain_seasonal(&opt.x, [order.p, order.q, s.p, s.q]);
+            (a, b, c, d)
+        }
+    };
+    let (phi, theta) = coefficients_of(&opt.x, order);
+    let pr = profile(
+        &prep.w,
+        &prep.columns,
+        &phi,
+        &theta,
+        order.seasonal.is_some(),
+    )?;
+    let offset = usize::from(order.has_mean());
     let params = ArimaParams {
-        ar: phi,
-        ma: theta,
-        mean_or_drift: pr.mu,
+        ar,
+        ma,
+        sar,
+        sma,
+        mean_or_drift: if order.has_mean() { pr.beta[0] } else { 0.0 },
+        beta: prep
+            .used
+            .iter()
+            .map(|u| u.map_or(0.0, |i| pr.beta[i]))
+            .collect(),
         sigma2: pr.sigma2,
     };
+    debug_assert!(prep.used.iter().flatten().all(|&i| i >= offset));
     if !(pr.is_mse.is_finite() && params.mean_or_drift.is_finite()) {
         return Err(ArimaError::NonFinite {
             context: "estimates",
@@ -239,8 +362,15 @@ fn fit_at(w: &[f64], order: &ArimaOrder, opt: &Optimum) -> Result<ArimaFit, Arim
         params,
         loglik: pr.loglik,
         is_mse: pr.is_mse,
-        n_params: p + q + usize::from(has_mean) + 1,
-        nobs: w.len(),
+        n_params: order.coefficients() + prep.columns.len() + 1,
+        nobs: prep.w.len(),
         iterations: opt.iterations,
+        left_out: prep
+            .used
+            .iter()
+            .enumerate()
+            .filter(|(_, u)| u.is_none())
+            .map(|(j, _)| j)
+            .collect(),
     })
 }

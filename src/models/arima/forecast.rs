@@ -1,16 +1,21 @@
 //! Forecasts of the level: the filter run to the end of the data, the
 //! differenced series' forecasts with the full covariance of their errors,
-//! integrated d times.
+//! integrated back (d times, and D times at the season), plus the
+//! regressors' known future values.
 
 use super::kalman::{run_filter, FilterOut, StateSpace};
-use super::{check_order, check_params, difference, ArimaError, ArimaFit};
+use super::{check_order, check_params, difference, difference_order, ArimaError, ArimaFit};
 
 /// Filter `y` (which may extend beyond the estimation sample) with the fit's
 /// parameters and forecast h = 1..=max_h steps beyond the end of `y`: returns
 /// (mean, variance) per step, for the level of y (undifferenced).
+/// `regressors` hold each regressor column over the positions of `y` and
+/// the max_h after it (known ahead); the forecast is β′x_{T+h} plus the
+/// forecast of the ARIMA error η = y − β′x, whose variance it has.
 pub(crate) fn forecast(
     fit: &ArimaFit,
     y: &[f64],
+    regressors: &[Vec<f64>],
     max_h: usize,
 ) -> Result<Vec<(f64, f64)>, ArimaError> {
     let order = &fit.order;
@@ -19,7 +24,7 @@ pub(crate) fn forecast(
     if !y.iter().all(|v| v.is_finite()) {
         return Err(ArimaError::NonFinite { context: "data" });
     }
-    let d = order.d;
+    let d = order.differences();
     if y.len() < d + 1 {
         return Err(ArimaError::TooShort {
             needed: d + 1,
@@ -29,6 +34,54 @@ pub(crate) fn forecast(
     if max_h == 0 {
         return Ok(Vec::new());
     }
+    let n = y.len();
+    // The regressors with a coefficient (those left out contribute nothing).
+    let active: Vec<(f64, &Vec<f64>)> = fit
+        .params
+        .beta
+        .iter()
+        .zip(regressors)
+        .enumerate()
+        .filter(|(j, _)| !fit.left_out.contains(j))
+        .map(|(_, (b, x))| (*b, x))
+        .collect();
+    if fit.params.beta.len() != regressors.len()
+        || active
+            .iter()
+            .any(|(_, x)| x.len() < n + max_h || !x.iter().all(|v| v.is_finite()))
+    {
+        return Err(ArimaError::InvalidParams {
+            reason: "regressor values do not cover the sample and the horizons",
+        });
+    }
+    let eta: Vec<f64>;
+    let errors: &[f64] = if active.is_empty() {
+        y
+    } else {
+        eta = (0..n)
+            .map(|t| y[t] - active.iter().map(|(b, x)| b * x[t]).sum::<f64>())
+            .collect();
+        &eta
+    };
+    let mut out = match order.seasonal {
+        None => error_forecast(fit, errors, max_h)?,
+        Some(_) => seasonal_error_forecast(fit, errors, max_h)?,
+    };
+    for (h, step) in out.iter_mut().enumerate() {
+        step.0 += active.iter().map(|(b, x)| b * x[n + h]).sum::<f64>();
+        if !step.0.is_finite() {
+            return Err(ArimaError::NonFinite {
+                context: "forecast",
+            });
+        }
+    }
+    Ok(out)
+}
+
+/// The non-seasonal model's level forecasts, computed as they always were.
+fn error_forecast(fit: &ArimaFit, y: &[f64], max_h: usize) -> Result<Vec<(f64, f64)>, ArimaError> {
+    let order = &fit.order;
+    let d = order.d;
     let mu = if order.has_mean() {
         fit.params.mean_or_drift
     } else {
@@ -38,10 +91,78 @@ pub(crate) fn forecast(
     let x: Vec<f64> = difference(y, d).iter().map(|v| v - mu).collect();
     let ss = StateSpace::new(&fit.params.ar, &fit.params.ma);
     let p0 = ss.stationary_cov()?;
-    let fo = run_filter(&ss, &p0, &x, false)?;
+    let fo = run_filter(&ss, &p0, &x, &[])?;
     let (wf, cov) = differenced_forecasts(&ss, &fo, mu, max_h);
     let psi = integration_weights(d, max_h);
     let levels = undifference(y, d, wf)?;
+    collect(&levels, &cov, &psi, s2, max_h)
+}
+
+/// The seasonal model's level forecasts: the differenced series w = Δ^d
+/// Δ_m^D y is forecast with the covariance of its errors, and integrated
+/// back through 1/((1 − L)^d (1 − L^m)^D). Differencing outside the state
+/// space gives the same forecasts and variances as the level model with
+/// an exact diffuse start for the d + mD nonstationary states (Durbin &
+/// Koopman 2012, §5.7; the reference tests check it against statsmodels'
+/// level model so initialised).
+fn seasonal_error_forecast(
+    fit: &ArimaFit,
+    y: &[f64],
+    max_h: usize,
+) -> Result<Vec<(f64, f64)>, ArimaError> {
+    let order = &fit.order;
+    let s = order.season();
+    let mu = if order.has_mean() {
+        fit.params.mean_or_drift
+    } else {
+        0.0
+    };
+    let x: Vec<f64> = difference_order(y, order).iter().map(|v| v - mu).collect();
+    let (phi, theta) = fit.params.expanded(s.m);
+    let (ss, p0) = super::kalman::state_space(&phi, &theta, true)?;
+    let fo = run_filter(&ss, &p0, &x, &[])?;
+    let (wf, cov) = differenced_forecasts(&ss, &fo, mu, max_h);
+    let psi = super::poly::integration_weights(order.d, s.m, s.d, max_h);
+    // Undo the differences in reverse order: D seasonal ones, then d.
+    let mut lags = vec![1; order.d];
+    lags.extend(std::iter::repeat_n(s.m, s.d));
+    let mut levels = wf;
+    for k in (0..lags.len()).rev() {
+        let mut base = difference(y, order.d.min(k));
+        if k > order.d {
+            base = super::seasonal_difference(&base, s.m, k - order.d);
+        }
+        let lag = lags[k];
+        let nb = base.len();
+        if nb < lag {
+            return Err(ArimaError::TooShort {
+                needed: order.differences() + 1,
+                got: y.len(),
+            });
+        }
+        let mut up: Vec<f64> = Vec::with_capacity(max_h);
+        for (i, v) in levels.iter().enumerate() {
+            let prev = if i >= lag {
+                up[i - lag]
+            } else {
+                base[nb - lag + i]
+            };
+            up.push(v + prev);
+        }
+        levels = up;
+    }
+    collect(&levels, &cov, &psi, fit.params.sigma2, max_h)
+}
+
+/// (mean, variance) per step: the level error at step h is Σ_k
+/// ψ*_{h−k}·(w-error_k), so its variance is ψ*′ Cov ψ* times σ².
+fn collect(
+    levels: &[f64],
+    cov: &[f64],
+    psi: &[f64],
+    s2: f64,
+    max_h: usize,
+) -> Result<Vec<(f64, f64)>, ArimaError> {
     let mut out = Vec::with_capacity(max_h);
     for h in 0..max_h {
         let mut var = 0.0;

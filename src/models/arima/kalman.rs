@@ -125,14 +125,15 @@ impl StateSpace {
 #[derive(Default)]
 pub(super) struct FilterOut {
     pub(super) sum_log_f: f64,
-    /// Σ v_y²/F, Σ v_y v_1/F, Σ v_1²/F (v_1: innovations of the ones column)
+    /// Σ v_y²/F and, per regressor column j (its innovations v_j), Σ v_y v_j/F
+    /// and Σ v_j v_l/F (row-major k × k).
     pub(super) wyy: f64,
-    pub(super) wy1: f64,
-    pub(super) w11: f64,
-    /// unweighted Σ v_y², Σ v_y v_1, Σ v_1²
+    pub(super) wxy: Vec<f64>,
+    pub(super) wxx: Vec<f64>,
+    /// The same sums unweighted.
     pub(super) uyy: f64,
-    pub(super) uy1: f64,
-    pub(super) u11: f64,
+    pub(super) uxy: Vec<f64>,
+    pub(super) uxx: Vec<f64>,
     /// predicted state of the data column after the last observation
     pub(super) a_y: Vec<f64>,
     /// its covariance (unit innovation variance)
@@ -142,23 +143,32 @@ pub(super) struct FilterOut {
 /// Relative tolerance for switching to the steady-state filter.
 const STEADY_TOL: f64 = 1e-13;
 
-/// Kalman filter over `x`, optionally with a column of ones in lockstep (for
-/// the GLS mean). The covariance recursion stops once it has converged.
+/// Kalman filter over `x`, with regressor columns (a column of ones for the
+/// GLS mean, differenced regressors) run through the same gains in
+/// lockstep. The covariance recursion stops once it has converged.
 pub(super) fn run_filter(
     ss: &StateSpace,
     p0: &[f64],
     x: &[f64],
-    with_ones: bool,
+    columns: &[Vec<f64>],
 ) -> Result<FilterOut, ArimaError> {
     let r = ss.r;
+    let kc = columns.len();
     let mut p = p0.to_vec();
     let mut pn = vec![0.0; r * r];
     let mut m = vec![0.0; r * r];
     let mut k = vec![0.0; r];
     let mut a_y = vec![0.0; r];
-    let mut a_1 = vec![0.0; r];
+    let mut a_x = vec![vec![0.0; r]; kc];
+    let mut v = vec![0.0; kc];
     let mut tmp = vec![0.0; r];
-    let mut out = FilterOut::default();
+    let mut out = FilterOut {
+        wxy: vec![0.0; kc],
+        wxx: vec![0.0; kc * kc],
+        uxy: vec![0.0; kc],
+        uxx: vec![0.0; kc * kc],
+        ..FilterOut::default()
+    };
     let mut steady = false;
     let mut f = p[0];
     let mut log_f = 0.0;
@@ -184,15 +194,20 @@ pub(super) fn run_filter(
         for i in 0..r {
             a_y[i] = tmp[i] + k[i] * vy;
         }
-        if with_ones {
-            let v1 = 1.0 - a_1[0];
-            out.wy1 += vy * v1 / f;
-            out.w11 += v1 * v1 / f;
-            out.uy1 += vy * v1;
-            out.u11 += v1 * v1;
-            ss.transition(&a_1, &mut tmp);
+        for (j, (col, a)) in columns.iter().zip(a_x.iter_mut()).enumerate() {
+            let vj = col[t] - a[0];
+            v[j] = vj;
+            out.wxy[j] += vy * vj / f;
+            out.uxy[j] += vy * vj;
+            ss.transition(a, &mut tmp);
             for i in 0..r {
-                a_1[i] = tmp[i] + k[i] * v1;
+                a[i] = tmp[i] + k[i] * vj;
+            }
+        }
+        for j in 0..kc {
+            for l in 0..=j {
+                out.wxx[j * kc + l] += v[j] * v[l] / f;
+                out.uxx[j * kc + l] += v[j] * v[l];
             }
         }
         if !steady {
@@ -218,44 +233,59 @@ pub(super) fn run_filter(
             context: "Kalman filter innovations",
         });
     }
+    for j in 0..kc {
+        for l in 0..j {
+            out.wxx[l * kc + j] = out.wxx[j * kc + l];
+            out.uxx[l * kc + j] = out.uxx[j * kc + l];
+        }
+    }
     out.a_y = a_y;
     out.p = p;
     Ok(out)
 }
 
-/// Profile (μ and σ² concentrated) evaluation at given ARMA coefficients.
+/// Profile (β and σ² concentrated) evaluation at given ARMA coefficients.
 pub(super) struct Profile {
     pub(super) loglik: f64,
-    pub(super) mu: f64,
+    /// GLS coefficients of the columns (the mean or drift first when estimated).
+    pub(super) beta: Vec<f64>,
     pub(super) sigma2: f64,
     pub(super) is_mse: f64,
 }
 
 pub(super) const LN_2PI: f64 = 1.837_877_066_409_345_3;
 
-pub(super) fn profile(
-    w: &[f64],
+/// The state space of expanded polynomials and its stationary covariance:
+/// the Kronecker solution for the non-seasonal model (its numbers as they
+/// always were), the autocovariance route for the seasonal one.
+pub(super) fn state_space(
     phi: &[f64],
     theta: &[f64],
-    has_mean: bool,
-) -> Result<Profile, ArimaError> {
+    seasonal: bool,
+) -> Result<(StateSpace, Vec<f64>), ArimaError> {
     let ss = StateSpace::new(phi, theta);
-    let p0 = ss.stationary_cov()?;
-    let fo = run_filter(&ss, &p0, w, has_mean)?;
-    let n = w.len() as f64;
-    let (mu, ss_w, ss_u) = if has_mean {
-        if !positive(fo.w11) {
-            return Err(ArimaError::NonFinite {
-                context: "GLS mean",
-            });
-        }
-        let mu = fo.wy1 / fo.w11;
-        let ss_w = fo.wyy - 2.0 * mu * fo.wy1 + mu * mu * fo.w11;
-        let ss_u = fo.uyy - 2.0 * mu * fo.uy1 + mu * mu * fo.u11;
-        (mu, ss_w, ss_u)
+    let p0 = if seasonal {
+        super::covariance::stationary_cov(&ss, phi, theta)?
     } else {
-        (0.0, fo.wyy, fo.uyy)
+        ss.stationary_cov()?
     };
+    Ok((ss, p0))
+}
+
+/// The exact log-likelihood of `w` with the regression coefficients of
+/// `columns` and σ² concentrated out (generalised least squares through
+/// the filter's innovations).
+pub(super) fn profile(
+    w: &[f64],
+    columns: &[Vec<f64>],
+    phi: &[f64],
+    theta: &[f64],
+    seasonal: bool,
+) -> Result<Profile, ArimaError> {
+    let (ss, p0) = state_space(phi, theta, seasonal)?;
+    let fo = run_filter(&ss, &p0, w, columns)?;
+    let n = w.len() as f64;
+    let (beta, ss_w, ss_u) = super::regression::concentrate(&fo)?;
     let sigma2 = ss_w / n;
     if !(sigma2.is_finite() && sigma2 > 0.0) {
         return Err(ArimaError::NonFinite {
@@ -270,7 +300,7 @@ pub(super) fn profile(
     }
     Ok(Profile {
         loglik,
-        mu,
+        beta,
         sigma2,
         is_mse: (ss_u / n).max(0.0),
     })

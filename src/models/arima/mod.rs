@@ -85,10 +85,15 @@
 //! optimiser that does not converge, non-finite intermediate values) are
 //! returned as [`ArimaError`]; nothing here panics on data or returns NaN.
 
+mod covariance;
 mod estimate;
 mod forecast;
 mod kalman;
+mod poly;
+mod regression;
 mod reparam;
+#[cfg(test)]
+mod sarima_tests;
 mod start;
 #[cfg(test)]
 mod tests;
@@ -99,34 +104,91 @@ pub(crate) use forecast::forecast;
 use reparam::coef_to_pacf;
 use std::fmt;
 
-/// Orders of an ARIMA(p, d, q) model; `drift` (d ≥ 1 only) adds a constant to
-/// the differenced series.
+/// The seasonal part (P, D, Q) at period m of a multiplicative seasonal
+/// ARIMA (SPEC §7.2).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub struct SeasonalOrder {
+    pub p: usize,
+    pub d: usize,
+    pub q: usize,
+    pub m: usize,
+}
+
+/// Orders of an ARIMA(p, d, q)(P, D, Q)m model; `drift` (d + D ≥ 1 only)
+/// adds a constant to the differenced series.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 pub struct ArimaOrder {
     pub p: usize,
     pub d: usize,
     pub q: usize,
     pub drift: bool,
+    /// None: the non-seasonal model, computed exactly as before seasons existed.
+    pub seasonal: Option<SeasonalOrder>,
 }
 
 impl ArimaOrder {
-    /// Whether μ (mean for d = 0, drift for d ≥ 1) is estimated.
+    /// The seasonal orders, (0, 0, 0) at period 1 when there are none.
+    pub fn season(&self) -> SeasonalOrder {
+        self.seasonal.unwrap_or(SeasonalOrder {
+            p: 0,
+            d: 0,
+            q: 0,
+            m: 1,
+        })
+    }
+
+    /// Whether μ (mean for d + D = 0, drift otherwise) is estimated.
     pub fn has_mean(&self) -> bool {
-        self.d == 0 || self.drift
+        self.differences() == 0 || self.drift
+    }
+
+    /// Observations the differencing uses up: d + m·D.
+    pub fn differences(&self) -> usize {
+        let s = self.season();
+        self.d + s.m * s.d
+    }
+
+    /// ARMA coefficients searched: p + q + P + Q.
+    pub fn coefficients(&self) -> usize {
+        let s = self.season();
+        self.p + self.q + s.p + s.q
     }
 }
 
 /// Parameters in the sign convention of the module docs:
-/// φ(L)(w_t − μ) = θ(L)ε_t with φ(L) = 1 − Σφ_i L^i, θ(L) = 1 + Σθ_j L^j.
+/// φ(L)Φ(L^m)(w_t − μ − β′Dx_t) = θ(L)Θ(L^m)ε_t with φ(L) = 1 − Σφ_i L^i,
+/// θ(L) = 1 + Σθ_j L^j and likewise Φ, Θ in L^m.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ArimaParams {
     pub ar: Vec<f64>,
     pub ma: Vec<f64>,
-    /// Mean of the series (d = 0) or drift (constant of the d-times differenced
-    /// series, d ≥ 1 with `drift`); 0 when not estimated.
+    /// Seasonal AR coefficients Φ_1..Φ_P (empty without a season).
+    pub sar: Vec<f64>,
+    /// Seasonal MA coefficients Θ_1..Θ_Q (empty without a season).
+    pub sma: Vec<f64>,
+    /// Mean of the series (d + D = 0) or drift (constant of the differenced
+    /// series, with `drift`); 0 when not estimated.
     pub mean_or_drift: f64,
+    /// Regression coefficients β, one per regressor column (0 for a column
+    /// left out of this estimation).
+    pub beta: Vec<f64>,
     /// Innovation variance σ².
     pub sigma2: f64,
+}
+
+impl ArimaParams {
+    /// The expanded polynomials φ(L)Φ(L^m) and θ(L)Θ(L^m) as coefficient
+    /// lists in the state-space convention (AR with a minus sign in the
+    /// polynomial, MA with a plus); the non-seasonal ones as they are.
+    pub(crate) fn expanded(&self, m: usize) -> (Vec<f64>, Vec<f64>) {
+        if self.sar.is_empty() && self.sma.is_empty() {
+            return (self.ar.clone(), self.ma.clone());
+        }
+        (
+            poly::multiply_ar(&self.ar, &self.sar, m),
+            poly::multiply_ma(&self.ma, &self.sma, m),
+        )
+    }
 }
 
 /// A fitted model.
@@ -138,14 +200,18 @@ pub struct ArimaFit {
     pub loglik: f64,
     /// = `params.sigma2`.
     pub sigma2: f64,
-    /// Mean squared one-step prediction error over the n − d modelled values.
+    /// Mean squared one-step prediction error over the modelled values.
     pub is_mse: f64,
-    /// p + q + (1 if mean/drift) + 1 (σ²), as statsmodels' `df_model`.
+    /// p + q + P + Q + (1 if mean/drift) + regressors used + 1 (σ²), as
+    /// statsmodels' `df_model`.
     pub n_params: usize,
-    /// Number of observations in the likelihood: n − d.
+    /// Number of observations in the likelihood: n − d − m·D.
     pub nobs: usize,
     /// BFGS iterations used by the optimum kept (0 when nothing to optimise).
     pub iterations: usize,
+    /// Regressor columns left out of this estimation: constant in its
+    /// sample, or zero once differenced (SPEC §7.1).
+    pub left_out: Vec<usize>,
 }
 
 /// Typed failures of estimation and forecasting.
@@ -210,8 +276,34 @@ fn difference(y: &[f64], d: usize) -> Vec<f64> {
     w
 }
 
+/// x_t − x_{t−m}, `times` times.
+fn seasonal_difference(x: &[f64], m: usize, times: usize) -> Vec<f64> {
+    let mut w = x.to_vec();
+    for _ in 0..times {
+        if w.len() <= m {
+            return Vec::new();
+        }
+        w = (m..w.len()).map(|t| w[t] - w[t - m]).collect();
+    }
+    w
+}
+
+/// The modelled series Δ^d Δ_m^D y (differencing outside the state space).
+fn difference_order(y: &[f64], order: &ArimaOrder) -> Vec<f64> {
+    let w = difference(y, order.d);
+    match order.seasonal {
+        Some(s) if s.d > 0 => seasonal_difference(&w, s.m, s.d),
+        _ => w,
+    }
+}
+
 fn check_params(params: &ArimaParams, order: &ArimaOrder) -> Result<(), ArimaError> {
-    if params.ar.len() != order.p || params.ma.len() != order.q {
+    let s = order.season();
+    if params.ar.len() != order.p
+        || params.ma.len() != order.q
+        || params.sar.len() != s.p
+        || params.sma.len() != s.q
+    {
         return Err(ArimaError::InvalidParams {
             reason: "coefficient counts do not match the order",
         });
@@ -220,6 +312,9 @@ fn check_params(params: &ArimaParams, order: &ArimaOrder) -> Result<(), ArimaErr
         .ar
         .iter()
         .chain(&params.ma)
+        .chain(&params.sar)
+        .chain(&params.sma)
+        .chain(&params.beta)
         .chain([&params.mean_or_drift, &params.sigma2]);
     if !all.into_iter().all(|x| x.is_finite()) {
         return Err(ArimaError::NonFinite {
@@ -231,13 +326,14 @@ fn check_params(params: &ArimaParams, order: &ArimaOrder) -> Result<(), ArimaErr
             reason: "sigma2 must be positive",
         });
     }
-    if coef_to_pacf(&params.ar).is_none() {
+    if coef_to_pacf(&params.ar).is_none() || coef_to_pacf(&params.sar).is_none() {
         return Err(ArimaError::InvalidParams {
             reason: "AR part is not stationary",
         });
     }
     let neg: Vec<f64> = params.ma.iter().map(|x| -x).collect();
-    if coef_to_pacf(&neg).is_none() {
+    let sneg: Vec<f64> = params.sma.iter().map(|x| -x).collect();
+    if coef_to_pacf(&neg).is_none() || coef_to_pacf(&sneg).is_none() {
         return Err(ArimaError::InvalidParams {
             reason: "MA part is not invertible",
         });
@@ -246,9 +342,14 @@ fn check_params(params: &ArimaParams, order: &ArimaOrder) -> Result<(), ArimaErr
 }
 
 fn check_order(order: &ArimaOrder) -> Result<(), ArimaError> {
-    if order.drift && order.d == 0 {
+    if order.drift && order.differences() == 0 {
         return Err(ArimaError::InvalidOrder {
             reason: "drift needs d >= 1 (d = 0 estimates a mean)",
+        });
+    }
+    if order.seasonal.is_some_and(|s| s.m < 2) {
+        return Err(ArimaError::InvalidOrder {
+            reason: "a seasonal period needs m >= 2",
         });
     }
     Ok(())
@@ -259,4 +360,21 @@ fn check_order(order: &ArimaOrder) -> Result<(), ArimaError> {
 /// reports AIC, BIC and HQIC for the model of the differenced series.
 pub(crate) fn information_criterion(fit: &ArimaFit, criterion: Criterion) -> f64 {
     crate::numerics::ic::from_loglik(fit.loglik, fit.n_params, criterion.penalty(fit.nobs))
+}
+
+/// AICc = −2ℓ + 2k + 2k(k + 1)/(n − k − 1) (Hurvich & Tsai 1989), with k =
+/// `n_params` (σ² included) and n = `nobs`; infinite when n ≤ k + 1, so such
+/// an order is never chosen.
+pub(crate) fn aicc(fit: &ArimaFit) -> f64 {
+    let k = fit.n_params as f64;
+    let n = fit.nobs as f64;
+    if n <= k + 1.0 {
+        return f64::INFINITY;
+    }
+    -2.0 * fit.loglik + 2.0 * k + 2.0 * k * (k + 1.0) / (n - k - 1.0)
+}
+
+/// Δ^d Δ_m^D y, for the unit-root tests that choose d and D.
+pub(crate) fn differenced(y: &[f64], d: usize, m: usize, seasonal_d: usize) -> Vec<f64> {
+    seasonal_difference(&difference(y, d), m, seasonal_d)
 }

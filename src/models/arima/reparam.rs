@@ -1,7 +1,10 @@
 //! The stationarity and invertibility reparametrisation (Jones 1980;
 //! Monahan 1984): unconstrained values ↦ partial autocorrelations
 //! tanh(u) ∈ (−1, 1) ↦ coefficients by the Durbin–Levinson recursion, and
-//! back for start values.
+//! back for start values. The seasonal model applies the same map to each
+//! of its four polynomials φ, θ, Φ, Θ separately: a product of stationary
+//! (invertible) factors is stationary (invertible), so the optimiser
+//! cannot leave the region.
 
 /// Partial autocorrelations in (−1, 1) → AR coefficients (Durbin–Levinson).
 pub(super) fn pacf_to_coef(r: &[f64]) -> Vec<f64> {
@@ -53,6 +56,39 @@ pub(super) fn constrain(u: &[f64], p: usize) -> (Vec<f64>, Vec<f64>) {
     let phi = pacf_to_coef(&ra);
     let theta = pacf_to_coef(&rm).into_iter().map(|x| -x).collect();
     (phi, theta)
+}
+
+/// The four coefficient lists of u = (u_φ, u_θ, u_Φ, u_Θ) with lengths
+/// (p, q, P, Q) = `lengths`: (φ, θ, Φ, Θ).
+pub(super) fn constrain_seasonal(u: &[f64], lengths: [usize; 4]) -> [Vec<f64>; 4] {
+    let t = |x: &f64| x.clamp(-U_MAX, U_MAX).tanh();
+    let mut at = 0;
+    let mut part = |len: usize, sign: f64| {
+        let r: Vec<f64> = u[at..at + len].iter().map(t).collect();
+        at += len;
+        pacf_to_coef(&r)
+            .into_iter()
+            .map(|x| sign * x)
+            .collect::<Vec<f64>>()
+    };
+    let phi = part(lengths[0], 1.0);
+    let theta = part(lengths[1], -1.0);
+    let sphi = part(lengths[2], 1.0);
+    let stheta = part(lengths[3], -1.0);
+    [phi, theta, sphi, stheta]
+}
+
+/// (φ, θ, Φ, Θ) → unconstrained, each shrunk into its region as for
+/// [`unconstrain_start`].
+pub(super) fn unconstrain_seasonal(
+    phi: &[f64],
+    theta: &[f64],
+    sphi: &[f64],
+    stheta: &[f64],
+) -> Vec<f64> {
+    let mut u = unconstrain_start(phi, theta);
+    u.extend(unconstrain_start(sphi, stheta));
+    u
 }
 
 /// Largest |partial autocorrelation| allowed for a start value.

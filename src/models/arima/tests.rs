@@ -23,7 +23,7 @@ fn loglik(y: &[f64], order: &ArimaOrder, params: &ArimaParams) -> Result<f64, Ar
     let x: Vec<f64> = difference(y, order.d).iter().map(|v| v - mu).collect();
     let ss = StateSpace::new(&params.ar, &params.ma);
     let p0 = ss.stationary_cov()?;
-    let fo = run_filter(&ss, &p0, &x, false)?;
+    let fo = run_filter(&ss, &p0, &x, &[])?;
     let n = x.len() as f64;
     let s2 = params.sigma2;
     let ll = -0.5 * (n * LN_2PI + n * s2.ln() + fo.sum_log_f + fo.wyy / s2);
@@ -82,6 +82,7 @@ fn cases() -> Vec<Case> {
                 d: c["d"].as_u64().unwrap() as usize,
                 q: c["q"].as_u64().unwrap() as usize,
                 drift: c["drift"].as_bool().unwrap(),
+                seasonal: None,
             };
             Case {
                 name: format!(
@@ -97,6 +98,9 @@ fn cases() -> Vec<Case> {
                     ar: floats(&c["ar"]),
                     ma: floats(&c["ma"]),
                     mean_or_drift: c["mean_or_drift"].as_f64().unwrap(),
+                    sar: Vec::new(),
+                    sma: Vec::new(),
+                    beta: Vec::new(),
                     sigma2: c["sigma2"].as_f64().unwrap(),
                 },
                 loglik: c["loglik"].as_f64().unwrap(),
@@ -180,8 +184,9 @@ fn forecasts_at_reference_params_match_statsmodels() {
             n_params: c.n_params,
             nobs: c.y.len() - c.order.d,
             iterations: 0,
+            left_out: Vec::new(),
         };
-        let f = forecast(&fit, &c.y, c.fmean.len()).unwrap();
+        let f = forecast(&fit, &c.y, &[], c.fmean.len()).unwrap();
         for (h, ((m, v), (rm, rv))) in f.iter().zip(c.fmean.iter().zip(&c.fvar)).enumerate() {
             assert!(
                 (m - rm).abs() < 1e-8 * (1.0 + rm.abs()),
@@ -227,7 +232,7 @@ fn assert_criteria(c: &Case, fit: &ArimaFit) {
 #[test]
 fn estimates_match_statsmodels() {
     for c in cases() {
-        let fit = estimate(&c.y, &c.order, None).unwrap_or_else(|e| panic!("{}: {e}", c.name));
+        let fit = estimate(&c.y, &c.order, None, &[]).unwrap_or_else(|e| panic!("{}: {e}", c.name));
         // Tolerance: 1e-6 absolute on log-likelihoods of size 200–650.
         // statsmodels' own runs scatter by ~1e-8..1e-7 around its optimum.
         assert!(
@@ -274,7 +279,7 @@ fn estimates_match_statsmodels() {
         );
         assert_criteria(&c, &fit);
         let scale = sd(&c.y);
-        let f = forecast(&fit, &c.y, c.fmean.len()).unwrap();
+        let f = forecast(&fit, &c.y, &[], c.fmean.len()).unwrap();
         for (h, ((m, v), (rm, rv))) in f.iter().zip(c.fmean.iter().zip(&c.fvar)).enumerate() {
             assert!(
                 (m - rm).abs() < 0.01 * scale,
@@ -298,7 +303,12 @@ fn estimates_match_statsmodels() {
 fn is_mse_definition() {
     for c in cases() {
         let w = difference(&c.y, c.order.d);
-        let pr = profile(&w, &c.params.ar, &c.params.ma, c.order.has_mean()).unwrap();
+        let ones = if c.order.has_mean() {
+            vec![vec![1.0; w.len()]]
+        } else {
+            Vec::new()
+        };
+        let pr = profile(&w, &ones, &c.params.ar, &c.params.ma, false).unwrap();
         // profile re-estimates μ by GLS; at the MLE it equals statsmodels'.
         assert!(
             (pr.is_mse / c.is_mse - 1.0).abs() < 1e-5,
@@ -330,8 +340,10 @@ fn nile_local_level_matches_durbin_koopman() {
             d: 1,
             q: 1,
             drift: false,
+            seasonal: None,
         },
         None,
+        &[],
     )
     .unwrap();
     let th = fit.params.ma[0];
@@ -344,10 +356,10 @@ fn nile_local_level_matches_durbin_koopman() {
 #[test]
 fn warm_start_reaches_the_same_optimum() {
     for c in cases() {
-        let cold = estimate(&c.y, &c.order, None).unwrap();
+        let cold = estimate(&c.y, &c.order, None, &[]).unwrap();
         let n = c.y.len();
-        let short = estimate(&c.y[..n - 5], &c.order, None).unwrap();
-        let warm = estimate(&c.y, &c.order, Some(&short.params)).unwrap();
+        let short = estimate(&c.y[..n - 5], &c.order, None, &[]).unwrap();
+        let warm = estimate(&c.y, &c.order, Some(&short.params), &[]).unwrap();
         if FLAT.contains(&c.name.as_str()) || c.name == "nile (2,1,2)" {
             // multimodal / flat: the warm start may stay on another mode
             assert!(warm.loglik.is_finite());
@@ -374,9 +386,10 @@ fn fixed_scheme_filters_beyond_the_estimation_sample() {
         d: 0,
         q: 0,
         drift: false,
+        seasonal: None,
     };
-    let fit = estimate(&y[..120], &order, None).unwrap();
-    let f = forecast(&fit, &y, 2).unwrap();
+    let fit = estimate(&y[..120], &order, None, &[]).unwrap();
+    let f = forecast(&fit, &y, &[], 2).unwrap();
     let phi = fit.params.ar[0];
     let mu = fit.params.mean_or_drift;
     let last = *y.last().unwrap();
@@ -400,14 +413,16 @@ fn random_walk_with_drift_forecasts() {
             d: 1,
             q: 0,
             drift: true,
+            seasonal: None,
         },
         None,
+        &[],
     )
     .unwrap();
     let w = difference(&y, 1);
     let mu = w.iter().sum::<f64>() / w.len() as f64;
     assert!((fit.params.mean_or_drift - mu).abs() < 1e-12);
-    let f = forecast(&fit, &y, 3).unwrap();
+    let f = forecast(&fit, &y, &[], 3).unwrap();
     for (h, (m, v)) in f.iter().enumerate() {
         let hh = (h + 1) as f64;
         assert!((m - (y[59] + hh * mu)).abs() < 1e-9);
@@ -421,11 +436,13 @@ fn random_walk_with_drift_forecasts() {
             d: 2,
             q: 0,
             drift: false,
+            seasonal: None,
         },
         None,
+        &[],
     )
     .unwrap();
-    let f2 = forecast(&fit2, &y, 3).unwrap();
+    let f2 = forecast(&fit2, &y, &[], 3).unwrap();
     for (h, (m, v)) in f2.iter().enumerate() {
         let hh = (h + 1) as f64;
         assert!((m - (y[59] + hh * (y[59] - y[58]))).abs() < 1e-9);
@@ -441,20 +458,21 @@ fn failures_are_typed_errors() {
         d: 0,
         q: 1,
         drift: false,
+        seasonal: None,
     };
     assert!(matches!(
-        estimate(&[1.0, 2.0, 3.0], &o, None),
+        estimate(&[1.0, 2.0, 3.0], &o, None, &[]),
         Err(ArimaError::TooShort { .. })
     ));
     let mut y: Vec<f64> = (0..50).map(|t| (t as f64).sin()).collect();
     y[10] = f64::NAN;
     assert!(matches!(
-        estimate(&y, &o, None),
+        estimate(&y, &o, None, &[]),
         Err(ArimaError::NonFinite { .. })
     ));
     let flat = vec![3.0; 50];
     assert!(matches!(
-        estimate(&flat, &o, None),
+        estimate(&flat, &o, None, &[]),
         Err(ArimaError::Degenerate { .. })
     ));
     // a linear trend is constant after differencing
@@ -464,9 +482,10 @@ fn failures_are_typed_errors() {
         d: 1,
         q: 1,
         drift: true,
+        seasonal: None,
     };
     assert!(matches!(
-        estimate(&line, &o1, None),
+        estimate(&line, &o1, None, &[]),
         Err(ArimaError::Degenerate { .. })
     ));
     let bad = ArimaOrder {
@@ -474,9 +493,10 @@ fn failures_are_typed_errors() {
         d: 0,
         q: 0,
         drift: true,
+        seasonal: None,
     };
     assert!(matches!(
-        estimate(&line, &bad, None),
+        estimate(&line, &bad, None, &[]),
         Err(ArimaError::InvalidOrder { .. })
     ));
     let mut fit = estimate(
@@ -486,13 +506,15 @@ fn failures_are_typed_errors() {
             d: 0,
             q: 0,
             drift: false,
+            seasonal: None,
         },
         None,
+        &[],
     )
     .unwrap();
     fit.params.ar[0] = 1.5;
     assert!(matches!(
-        forecast(&fit, &line, 2),
+        forecast(&fit, &line, &[], 2),
         Err(ArimaError::InvalidParams { .. })
     ));
     // messages render
@@ -504,10 +526,13 @@ fn failures_are_typed_errors() {
         ar: vec![0.1, 0.2],
         ma: vec![],
         mean_or_drift: 0.0,
+        sar: Vec::new(),
+        sma: Vec::new(),
+        beta: Vec::new(),
         sigma2: 1.0,
     };
     let yy: Vec<f64> = (0..50)
         .map(|t| (t as f64 * 0.7).sin() + 0.1 * (t as f64 * 2.3).cos())
         .collect();
-    assert!(estimate(&yy, &o, Some(&warm)).is_ok());
+    assert!(estimate(&yy, &o, Some(&warm), &[]).is_ok());
 }

@@ -28,7 +28,12 @@ pub(crate) fn fit_aicc(fit: &EtsFit) -> f64 {
 
 impl Likelihood for SmoothingSelect {
     type Fit = SelectedEts;
-    fn estimate(&self, y: &[f64], warm: Option<&Self::Fit>) -> Result<Self::Fit, String> {
+    fn estimate(
+        &self,
+        y: &[f64],
+        _start: usize,
+        warm: Option<&Self::Fit>,
+    ) -> Result<Self::Fit, String> {
         let mut fits = Vec::with_capacity(self.specs.len());
         let mut best = Smallest::default();
         let mut last_error = String::from("no smoothing form could be estimated");
@@ -55,6 +60,7 @@ impl Likelihood for SmoothingSelect {
         &self,
         fit: &Self::Fit,
         y: &[f64],
+        _start: usize,
         max_h: usize,
     ) -> Result<Vec<(f64, f64)>, String> {
         let chosen = fit.fits[fit.chosen].as_ref().ok_or("no chosen form")?;
@@ -63,7 +69,7 @@ impl Likelihood for SmoothingSelect {
     fn is_mse(&self, fit: &Self::Fit) -> f64 {
         fit.fits[fit.chosen].as_ref().map_or(f64::NAN, |f| f.is_mse)
     }
-    fn residuals(&self, fit: &Self::Fit, y: &[f64]) -> Vec<f64> {
+    fn residuals(&self, fit: &Self::Fit, y: &[f64], _start: usize) -> Vec<f64> {
         fit.fits[fit.chosen]
             .as_ref()
             .and_then(|f| super::one_step_errors(&f.spec, &f.params, y).ok())

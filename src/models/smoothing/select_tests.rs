@@ -82,7 +82,7 @@ fn the_choice_by_aicc_is_statsmodels_choice_where_it_is_clear() {
         let model = SmoothingSelect {
             specs: specs.clone(),
         };
-        let fit = model.estimate(&y, None).unwrap();
+        let fit = model.estimate(&y, 1, None).unwrap();
         for (i, f) in forms.iter().enumerate() {
             let ours = fit.fits[i].as_ref().unwrap();
             assert_eq!(ours.n_params + 1, our_k(f), "{name} form {i}");

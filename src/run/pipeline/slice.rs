@@ -75,6 +75,16 @@ pub(super) fn slice(
             id: c.id.clone(),
             failure: o.failure.clone(),
             fallbacks: o.fallbacks,
+            left_out: o
+                .left_out
+                .iter()
+                .map(|l| manifest::LeftOutRecord {
+                    regressor: l.regressor.clone(),
+                    estimations: l.estimations,
+                    first: exp.period_label(&exp.targets[t], l.first_end),
+                    last: exp.period_label(&exp.targets[t], l.last_end),
+                })
+                .collect(),
             seconds: o.seconds,
             cached: o.cached,
         })
