@@ -38,6 +38,51 @@ fn rank_among(list: &[&ScoreRow], c: usize) -> Option<usize> {
     list.iter().position(|r| r.candidate == c).map(|p| p + 1)
 }
 
+/// Candidates ordered by an error (missing last), ties by candidate.
+fn sorted_by_error<'a>(
+    rows: &[&'a ScoreRow],
+    error: impl Fn(&ScoreRow) -> Option<f64>,
+) -> Vec<&'a ScoreRow> {
+    let mut list = rows.to_vec();
+    list.sort_by(|a, b| {
+        error(a)
+            .unwrap_or(f64::INFINITY)
+            .total_cmp(&error(b).unwrap_or(f64::INFINITY))
+            .then(a.candidate.cmp(&b.candidate))
+    });
+    list
+}
+
+/// The candidates of the `k` largest gaps among the flagged ones
+/// (rank in sample, candidate, gap), ties by candidate.
+fn largest_gaps(flagged: &[(usize, usize, Option<f64>)], k: usize) -> Vec<usize> {
+    let mut by_gap: Vec<&(usize, usize, Option<f64>)> = flagged.iter().collect();
+    by_gap.sort_by(|a, b| {
+        b.2.unwrap_or(0.0)
+            .total_cmp(&a.2.unwrap_or(0.0))
+            .then(a.1.cmp(&b.1))
+    });
+    by_gap.iter().take(k).map(|f| f.1).collect()
+}
+
+/// A gap-table row for a candidate whose in-sample error is one-step only
+/// (no gap: it would compare one-step with h-step errors).
+fn one_step_row(ix: &Index, r: &ScoreRow) -> Value {
+    json!({
+        "candidate": ix.f.grid.candidates[r.candidate],
+        "parameters": r.parameters,
+        "is_rmse": format!("{} (one-step)", show(r.is_rmse)),
+        "oos_rmse": show(ix.rmse_of(r)),
+        "gap": "–",
+        "is_r2": show(r.is_r2),
+        "rank_in": null,
+        "rank_out": null,
+        "flag": false,
+    })
+}
+
+/// One scheme and horizon's panel: the gap table, the flags, the rank
+/// correlation and (with charts) the scatter and complexity charts.
 fn panel(
     ix: &Index,
     t: usize,
@@ -66,28 +111,12 @@ fn panel(
         .copied()
         .filter(|r| r.is_rmse.is_some() && r.gap.is_none() && ix.rmse_of(r).is_some())
         .collect();
-    let by_error = |error: &dyn Fn(&ScoreRow) -> Option<f64>| {
-        let mut list = both.clone();
-        list.sort_by(|a, b| {
-            error(a)
-                .unwrap_or(f64::INFINITY)
-                .total_cmp(&error(b).unwrap_or(f64::INFINITY))
-                .then(a.candidate.cmp(&b.candidate))
-        });
-        list
-    };
-    let by_in = by_error(&|r| r.is_rmse);
-    let by_out = by_error(&|r| ix.rmse_of(r));
+    let by_in = sorted_by_error(&both, |r| r.is_rmse);
+    let by_out = sorted_by_error(&both, |r| ix.rmse_of(r));
     let flagged = carried_over_badly(&both, &by_in, &by_out);
     let (flags, flags_intro) = flag_texts(ix, &flagged, &by_out, both.len());
     // Label the leaders and the three flagged candidates with the largest gaps.
-    let mut by_gap: Vec<&(usize, usize, Option<f64>)> = flagged.iter().collect();
-    by_gap.sort_by(|a, b| {
-        b.2.unwrap_or(0.0)
-            .total_cmp(&a.2.unwrap_or(0.0))
-            .then(a.1.cmp(&b.1))
-    });
-    let labelled: Vec<usize> = by_gap.iter().take(3).map(|f| f.1).collect();
+    let labelled = largest_gaps(&flagged, 3);
     let flagged: Vec<usize> = flagged.iter().map(|f| f.1).collect();
     let rho = ix
         .test(t, s, h, "rank_correlation", None, None)
@@ -98,19 +127,7 @@ fn panel(
         .map(|r| g.candidates[r.candidate].clone())
         .collect();
     let mut table = gap_table(ix, &by_in, &by_out, &flagged);
-    table.extend(one_step.iter().map(|r| {
-        json!({
-            "candidate": g.candidates[r.candidate],
-            "parameters": r.parameters,
-            "is_rmse": format!("{} (one-step)", show(r.is_rmse)),
-            "oos_rmse": show(ix.rmse_of(r)),
-            "gap": "–",
-            "is_r2": show(r.is_r2),
-            "rank_in": null,
-            "rank_out": null,
-            "flag": false,
-        })
-    }));
+    table.extend(one_step.iter().map(|r| one_step_row(ix, r)));
     let id = format!("t{t}-s{s}-h{h}");
     let (scatter, complexity) = if charts && !both.is_empty() {
         (

@@ -145,6 +145,57 @@ fn snooping_text(ix: &Index, r: &TestRow, group: &[&ScoreRow], n: usize) -> Stri
     )
 }
 
+/// The Clark–West sentence: how many of the candidates that nest the
+/// benchmark reject equal population MSPE.
+fn clark_west_sentence(here: &[&TestRow], bench: usize, bench_id: &str, tally: &Tally) -> String {
+    let cw_n = here
+        .iter()
+        .filter(|r| r.test == "clark_west" && r.versus == Some(bench))
+        .count();
+    if cw_n == 0 {
+        return format!(
+            "Clark–West: no candidate nests {bench_id}; the nested pairs tested are in tests.csv."
+        );
+    }
+    let worse = match tally.cw_reject_worse {
+            0 => String::new(),
+            k => format!(
+                " ({k} of them forecast significantly worse than {bench_id} in this sample by Diebold–Mariano: extra terms that are not zero in population, yet cost more to estimate than they gave here)"
+            ),
+        };
+    format!(
+            "Clark–West at 5% (H0: equal population MSPE, {bench_id} nested): rejected for {} of the {} that nest {bench_id}{worse}.",
+            tally.cw_reject,
+            claims::candidates(cw_n)
+        )
+}
+
+/// The model confidence set's sentence.
+fn confidence_set_sentence(
+    ix: &Index,
+    here: &[&TestRow],
+    candidates: usize,
+    tally: &Tally,
+) -> String {
+    let computed = here
+        .iter()
+        .any(|r| r.test == "confidence_set" && r.p_value.is_some());
+    let level =
+        ix.f.settings
+            .alpha
+            .map(|a| format!(" at {}%", a * 100.0))
+            .unwrap_or_default();
+    if computed {
+        format!(
+            "Model confidence set{level}: {} of {} cannot be told apart from the best (MCS p-value above the level).",
+            tally.in_set,
+            claims::candidates(candidates)
+        )
+    } else {
+        format!("Model confidence set{level}: not computable (the losses do not vary enough).")
+    }
+}
+
 /// One sentence per test that was run.
 fn summary(ix: &Index, here: &[&TestRow], group: &[&ScoreRow], tally: &Tally) -> Vec<String> {
     let g = &ix.f.grid;
@@ -179,46 +230,10 @@ fn summary(ix: &Index, here: &[&TestRow], group: &[&ScoreRow], tally: &Tally) ->
         ));
     }
     if has("clark_west") {
-        let cw_n = here
-            .iter()
-            .filter(|r| r.test == "clark_west" && r.versus == Some(bench))
-            .count();
-        if cw_n == 0 {
-            summary.push(format!(
-                "Clark–West: no candidate nests {bench_id}; the nested pairs tested are in tests.csv."
-            ));
-        } else {
-            let worse = match tally.cw_reject_worse {
-                0 => String::new(),
-                k => format!(
-                    " ({k} of them forecast significantly worse than {bench_id} in this sample by Diebold–Mariano: extra terms that are not zero in population, yet cost more to estimate than they gave here)"
-                ),
-            };
-            summary.push(format!(
-                "Clark–West at 5% (H0: equal population MSPE, {bench_id} nested): rejected for {} of the {} that nest {bench_id}{worse}.",
-                tally.cw_reject,
-                claims::candidates(cw_n)
-            ));
-        }
+        summary.push(clark_west_sentence(here, bench, bench_id, tally));
     }
     if has("confidence_set") {
-        let computed = here
-            .iter()
-            .any(|r| r.test == "confidence_set" && r.p_value.is_some());
-        let level =
-            ix.f.settings
-                .alpha
-                .map(|a| format!(" at {}%", a * 100.0))
-                .unwrap_or_default();
-        summary.push(if computed {
-            format!(
-                "Model confidence set{level}: {} of {} cannot be told apart from the best (MCS p-value above the level).",
-                tally.in_set,
-                claims::candidates(group.len())
-            )
-        } else {
-            format!("Model confidence set{level}: not computable (the losses do not vary enough).")
-        });
+        summary.push(confidence_set_sentence(ix, here, group.len(), tally));
     }
     if has("fluctuation") {
         summary.push(format!(

@@ -66,37 +66,9 @@ pub(super) fn decode_dummies(
         ) else {
             continue;
         };
-        let Some(name) = (match view.get("name") {
-            Some(n) => ctx.string(n, &format!("{path}.name")),
-            None => {
-                ctx.error(
-                    item,
-                    format!("{path} needs 'name': how candidates refer to it"),
-                );
-                None
-            }
-        }) else {
+        let Some(name) = decode_name(ctx, item, &view, &path, &mut out) else {
             continue;
         };
-        if name.is_empty()
-            || !name
-                .bytes()
-                .all(|b| b.is_ascii_alphanumeric() || b == b'_' || b == b'-' || b == b'.')
-        {
-            ctx.error(
-                item,
-                format!("{path}.name '{name}' must use only letters, digits, '_', '-' and '.'"),
-            );
-            out.failed.push(name);
-            continue;
-        }
-        if out.list.iter().any(|d| d.name == name) {
-            ctx.error(
-                item,
-                format!("{path}: the name '{name}' is used by another dummy"),
-            );
-            continue;
-        }
         match decode_kind(ctx, item, &view, &path, frequency) {
             Some(kind) => {
                 out.list.push(Dummy {
@@ -110,6 +82,46 @@ pub(super) fn decode_dummies(
         }
     }
     out
+}
+
+/// An entry's `name`: present, made of plain characters and not taken.
+/// A malformed name is also recorded as failed, so that candidates naming
+/// it are not reported again.
+fn decode_name(
+    ctx: &mut Ctx,
+    item: &Node,
+    view: &super::decode::MapView,
+    path: &str,
+    out: &mut Dummies,
+) -> Option<String> {
+    let Some(n) = view.get("name") else {
+        ctx.error(
+            item,
+            format!("{path} needs 'name': how candidates refer to it"),
+        );
+        return None;
+    };
+    let name = ctx.string(n, &format!("{path}.name"))?;
+    if name.is_empty()
+        || !name
+            .bytes()
+            .all(|b| b.is_ascii_alphanumeric() || b == b'_' || b == b'-' || b == b'.')
+    {
+        ctx.error(
+            item,
+            format!("{path}.name '{name}' must use only letters, digits, '_', '-' and '.'"),
+        );
+        out.failed.push(name);
+        return None;
+    }
+    if out.list.iter().any(|d| d.name == name) {
+        ctx.error(
+            item,
+            format!("{path}: the name '{name}' is used by another dummy"),
+        );
+        return None;
+    }
+    Some(name)
 }
 
 /// The one kind key of an entry, checked against the frequency.
@@ -147,87 +159,111 @@ fn decode_kind(
             return None;
         }
     }
-    let season = frequency.and_then(Frequency::season_length);
     match *kind {
-        "pulse" | "step" | "ramp" => {
-            let label = ctx.string(node, &format!("{path}.{kind}"))?;
-            let ordinal = match frequency {
-                Some(f) => match parse_label(f, &label) {
-                    Ok((o, _)) => o,
-                    Err(e) => {
-                        ctx.error(node, format!("{path}.{kind}: {e}"));
-                        return None;
-                    }
-                },
-                None => return None,
-            };
-            Some(match *kind {
-                "pulse" => DummyKind::Pulse { label, ordinal },
-                "step" => DummyKind::Step { label, ordinal },
-                _ => DummyKind::Ramp { label, ordinal },
-            })
+        "pulse" | "step" | "ramp" => decode_date_kind(ctx, node, kind, path, frequency),
+        "fourier" => decode_fourier(ctx, node, view, path, frequency),
+        _ => decode_seasonal(ctx, node, path, frequency),
+    }
+}
+
+/// `pulse`, `step` or `ramp`: a period label of the data's frequency.
+fn decode_date_kind(
+    ctx: &mut Ctx,
+    node: &Node,
+    kind: &str,
+    path: &str,
+    frequency: Option<Frequency>,
+) -> Option<DummyKind> {
+    let label = ctx.string(node, &format!("{path}.{kind}"))?;
+    let ordinal = match parse_label(frequency?, &label) {
+        Ok((o, _)) => o,
+        Err(e) => {
+            ctx.error(node, format!("{path}.{kind}: {e}"));
+            return None;
         }
-        "fourier" => {
-            let pairs = ctx.integer(node, &format!("{path}.fourier"), 1)?;
-            let period = match view.get("period") {
-                Some(p) => {
-                    let text = ctx.string(p, &format!("{path}.period"))?;
-                    match text.trim().parse::<f64>() {
-                        Ok(v) if v.is_finite() && (2.0..=MAX_DUMMY_PERIOD).contains(&v) => v,
-                        _ => {
-                            ctx.error(
-                                p,
-                                format!("{path}.period must be a number from 2 to {MAX_DUMMY_PERIOD} (periods per cycle), found '{}'", text.trim()),
-                            );
-                            return None;
-                        }
-                    }
-                }
-                None => match (season, frequency) {
-                    (Some(m), _) => m as f64,
-                    (None, Some(f)) => {
-                        ctx.error(
-                            node,
-                            format!("{path}: {} data have no season length; give the cycle as 'period' (periods per cycle)", f.name()),
-                        );
-                        return None;
-                    }
-                    (None, None) => return None,
-                },
-            };
-            let most = ((period / 2.0).floor() as usize).min(MAX_FOURIER_PAIRS);
-            if pairs as usize > most {
-                ctx.error(
-                    node,
-                    format!("{path}.fourier = {pairs}: a cycle of {period} periods carries at most {most} sine/cosine pairs"),
-                );
-                return None;
-            }
-            Some(DummyKind::Fourier {
-                pairs: pairs as usize,
-                period,
-            })
-        }
-        _ => {
-            let on = ctx.boolean(node, &format!("{path}.seasonal"))?;
-            if !on {
-                ctx.error(
-                    node,
-                    format!("{path}: 'seasonal: false' adds nothing; remove the entry"),
-                );
-                return None;
-            }
-            match (season, frequency) {
-                (Some(m), _) => Some(DummyKind::Seasonal { m }),
-                (None, Some(f)) => {
+    };
+    Some(match kind {
+        "pulse" => DummyKind::Pulse { label, ordinal },
+        "step" => DummyKind::Step { label, ordinal },
+        _ => DummyKind::Ramp { label, ordinal },
+    })
+}
+
+/// `fourier: K` with an optional `period` (else the season length).
+fn decode_fourier(
+    ctx: &mut Ctx,
+    node: &Node,
+    view: &super::decode::MapView,
+    path: &str,
+    frequency: Option<Frequency>,
+) -> Option<DummyKind> {
+    let pairs = ctx.integer(node, &format!("{path}.fourier"), 1)?;
+    let period = match view.get("period") {
+        Some(p) => {
+            let text = ctx.string(p, &format!("{path}.period"))?;
+            match text.trim().parse::<f64>() {
+                Ok(v) if v.is_finite() && (2.0..=MAX_DUMMY_PERIOD).contains(&v) => v,
+                _ => {
                     ctx.error(
-                        node,
-                        format!("{path}: season indicators need seasonal data; {} data have no season length", f.name()),
+                        p,
+                        format!("{path}.period must be a number from 2 to {MAX_DUMMY_PERIOD} (periods per cycle), found '{}'", text.trim()),
                     );
-                    None
+                    return None;
                 }
-                (None, None) => None,
             }
+        }
+        None => match frequency?.season_length() {
+            Some(m) => m as f64,
+            None => {
+                ctx.error(
+                    node,
+                    format!("{path}: {} data have no season length; give the cycle as 'period' (periods per cycle)", frequency?.name()),
+                );
+                return None;
+            }
+        },
+    };
+    let most = ((period / 2.0).floor() as usize).min(MAX_FOURIER_PAIRS);
+    if pairs as usize > most {
+        ctx.error(
+            node,
+            format!("{path}.fourier = {pairs}: a cycle of {period} periods carries at most {most} sine/cosine pairs"),
+        );
+        return None;
+    }
+    Some(DummyKind::Fourier {
+        pairs: pairs as usize,
+        period,
+    })
+}
+
+/// `seasonal: true`: m − 1 season indicators.
+fn decode_seasonal(
+    ctx: &mut Ctx,
+    node: &Node,
+    path: &str,
+    frequency: Option<Frequency>,
+) -> Option<DummyKind> {
+    let on = ctx.boolean(node, &format!("{path}.seasonal"))?;
+    if !on {
+        ctx.error(
+            node,
+            format!("{path}: 'seasonal: false' adds nothing; remove the entry"),
+        );
+        return None;
+    }
+    let f = frequency?;
+    match f.season_length() {
+        Some(m) => Some(DummyKind::Seasonal { m }),
+        None => {
+            ctx.error(
+                node,
+                format!(
+                    "{path}: season indicators need seasonal data; {} data have no season length",
+                    f.name()
+                ),
+            );
+            None
         }
     }
 }
