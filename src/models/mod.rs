@@ -189,6 +189,8 @@ pub(crate) struct CellModel<'a> {
 /// `Err` when the candidate cannot be modelled on these data at all
 /// (e.g. a seasonal model on data without a season); combinations are
 /// formed from their members' rows and have no model.
+///
+/// One arm per family, each a few lines: the length is the family count.
 pub(crate) fn visit<V: Visitor>(cell: &CellModel, visitor: V) -> Result<V::Out, String> {
     let exp = cell.exp;
     Ok(match cell.family {

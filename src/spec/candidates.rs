@@ -82,45 +82,29 @@ fn decode_lag_family(
     predictors: &PredictorNames,
     out: &mut Vec<Candidate>,
 ) {
-    let (allowed, later): (&[&str], &[&str]) = match family {
-        "ar" => (
-            &["family", "label", "lags", "trend", "select", "max_lags"],
-            &[],
-        ),
-        "ardl" => (
-            &[
-                "family",
-                "label",
-                "lags",
-                "trend",
-                "predictors",
-                "predictor_lags",
-                "select",
-                "max_lags",
-            ],
-            &[],
-        ),
-        _ => (&["family", "label"], &[]),
+    let allowed: &[&str] = match family {
+        "ar" => &["family", "label", "lags", "trend", "select", "max_lags"],
+        "ardl" => &[
+            "family",
+            "label",
+            "lags",
+            "trend",
+            "predictors",
+            "predictor_lags",
+            "select",
+            "max_lags",
+        ],
+        _ => &["family", "label"],
     };
-    let Some(view) = ctx.map(item, path, allowed, later) else {
+    let Some(view) = ctx.map(item, path, allowed, &[]) else {
         return;
     };
-    if later.iter().any(|k| view.get(k).is_some()) {
-        return;
-    }
     let Ok(label) = candidate_label(ctx, &view, path) else {
         return;
     };
     let base = label.unwrap_or_else(|| family.to_string());
-    let trend = match view.get("trend") {
-        Some(n) => match ctx
-            .choice(n, &format!("{path}.trend"), &Trend::NAMES)
-            .and_then(|s| Trend::parse(&s))
-        {
-            Some(t) => t,
-            None => return,
-        },
-        None => Trend::Constant,
+    let Some(trend) = decode_trend(ctx, &view, path) else {
+        return;
     };
     let trend_suffix = if trend == Trend::Constant {
         String::new()
@@ -144,27 +128,22 @@ fn decode_lag_family(
         });
         return;
     }
+    let benchmark = match family {
+        "naive" => Some(Family::Naive),
+        "mean" => Some(Family::Mean),
+        "drift" => Some(Family::Drift),
+        "seasonal_naive" => Some(Family::SeasonalNaive),
+        _ => None,
+    };
+    if let Some(family) = benchmark {
+        out.push(Candidate {
+            id: base,
+            family,
+            line,
+        });
+        return;
+    }
     match family {
-        "naive" => out.push(Candidate {
-            id: base,
-            family: Family::Naive,
-            line,
-        }),
-        "mean" => out.push(Candidate {
-            id: base,
-            family: Family::Mean,
-            line,
-        }),
-        "drift" => out.push(Candidate {
-            id: base,
-            family: Family::Drift,
-            line,
-        }),
-        "seasonal_naive" => out.push(Candidate {
-            id: base,
-            family: Family::SeasonalNaive,
-            line,
-        }),
         "ar" => expand_ar(
             ctx,
             item,
@@ -188,6 +167,16 @@ fn decode_lag_family(
             expand_ardl(ctx, item, &view, path, select, predictors, entry, out)
         }
         _ => {}
+    }
+}
+
+/// `trend` of a lag family (default: a constant). None after an error.
+fn decode_trend(ctx: &mut Ctx, view: &MapView, path: &str) -> Option<Trend> {
+    match view.get("trend") {
+        Some(n) => ctx
+            .choice(n, &format!("{path}.trend"), &Trend::NAMES)
+            .and_then(|s| Trend::parse(&s)),
+        None => Some(Trend::Constant),
     }
 }
 

@@ -161,18 +161,29 @@ fn single_line_cells(path: &Path, line: usize, cells: &Cells) -> Result<(), Diag
     }
 }
 
+/// A problem at a line of the data file (or the whole file).
+fn at_line(path: &Path, line: Option<usize>, msg: String) -> Diagnostic {
+    Diagnostic::new(
+        Some(Location {
+            file: path.to_path_buf(),
+            line,
+            column: None,
+        }),
+        msg,
+    )
+}
+
+/// What a CSV reader error means for the user.
+fn csv_problem(e: &csv::Error) -> String {
+    match e.kind() {
+        csv::ErrorKind::Utf8 { .. } => "the data file is not valid UTF-8 text".to_string(),
+        _ => format!("the data file is not a readable CSV: {e}"),
+    }
+}
+
 /// Read a CSV file. Blank lines are skipped; a UTF-8 byte-order mark is ignored.
 pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
-    let at = |line: Option<usize>, msg: String| {
-        Diagnostic::new(
-            Some(Location {
-                file: path.to_path_buf(),
-                line,
-                column: None,
-            }),
-            msg,
-        )
-    };
+    let at = |line: Option<usize>, msg: String| at_line(path, line, msg);
     let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
     if bytes.iter().all(|b| b.is_ascii_whitespace()) {
         return Err(at(
@@ -212,16 +223,7 @@ pub fn read_table(path: &Path, bytes: &[u8]) -> Result<RawTable, Diagnostic> {
                     Some(h) => rows.push(data_row(path, line, cells, h.len())?),
                 }
             }
-            Err(e) => {
-                let line = e.position().map(|p| line_of(p.byte()));
-                let msg = match e.kind() {
-                    csv::ErrorKind::Utf8 { .. } => {
-                        "the data file is not valid UTF-8 text".to_string()
-                    }
-                    _ => format!("the data file is not a readable CSV: {e}"),
-                };
-                return Err(at(line, msg));
-            }
+            Err(e) => return Err(at(e.position().map(|p| line_of(p.byte())), csv_problem(&e))),
         }
     }
     let Some(headers) = headers else {

@@ -146,6 +146,10 @@ const STEADY_TOL: f64 = 1e-13;
 /// Kalman filter over `x`, with regressor columns (a column of ones for the
 /// GLS mean, differenced regressors) run through the same gains in
 /// lockstep. The covariance recursion stops once it has converged.
+///
+/// One function because it is the likelihood's inner loop: the state, its
+/// covariance and the regressors' states live in local buffers updated
+/// together at every step; split, they would be passed on every step.
 pub(super) fn run_filter(
     ss: &StateSpace,
     p0: &[f64],
