@@ -102,6 +102,32 @@ enum Command {
     Kinds,
 }
 
+/// Print the audit's outcome on standard output; true when a forecast moved.
+fn print_audit(a: &outturn::AuditOutcome) -> bool {
+    println!(
+        "{} checks across {} cells, {} forecasts moved",
+        a.checks,
+        a.cells,
+        a.moved.len()
+    );
+    for m in &a.moved {
+        println!(
+            "moved: target {}, candidate {}, scheme {}, horizon {}, origin {}: {}",
+            m.target, m.candidate, m.scheme, m.horizon, m.origin, m.what
+        );
+    }
+    if a.path_differences > 0 {
+        println!("{} forecasts of the run differ from the same estimation made from scratch on the same data (reached another way; docs/commands.md#audit)", a.path_differences);
+    }
+    if a.unchecked > 0 {
+        println!(
+            "{} checks not made: the estimation fails at that origin with and without the change",
+            a.unchecked
+        );
+    }
+    !a.moved.is_empty()
+}
+
 /// `--shard` as (K, N), 1-based.
 fn parse_shard(text: &str) -> Result<(usize, usize), String> {
     let env = |name: &str| -> Result<usize, String> {
@@ -322,25 +348,8 @@ fn main() -> ExitCode {
                 jobs: jobs.map(usize::from),
             };
             match outturn::audit(&file, &opts) {
-                Ok(a) => {
-                    println!("{} checks across {} cells, {} forecasts moved", a.checks, a.cells, a.moved.len());
-                    for m in &a.moved {
-                        println!(
-                            "moved: target {}, candidate {}, scheme {}, horizon {}, origin {}: {}",
-                            m.target, m.candidate, m.scheme, m.horizon, m.origin, m.what
-                        );
-                    }
-                    if a.path_differences > 0 {
-                        println!("{} forecasts of the run differ from the same estimation made from scratch on the same data (reached another way; docs/commands.md#audit)", a.path_differences);
-                    }
-                    if a.unchecked > 0 {
-                        println!("{} checks not made: the estimation fails at that origin with and without the change", a.unchecked);
-                    }
-                    if !a.moved.is_empty() {
-                        return ExitCode::from(1);
-                    }
-                    Ok(())
-                }
+                Ok(a) if print_audit(&a) => return ExitCode::from(1),
+                Ok(_) => Ok(()),
                 Err(e) => Err(e),
             }
         }
