@@ -106,6 +106,38 @@ fn a_run_with_audit_records_it_and_verifies_and_without_it_keeps_its_tables() {
     }
     let out = outturn(&["verify", path(&audited.join("out"))]);
     assert_eq!(out.status.code(), Some(0), "{}", text(&out.stdout));
+    // A merge of shards audits as the single run does.
+    let exp = audited.join("exp.yaml");
+    for k in ["1/2", "2/2"] {
+        let shard = audited.join(format!("shard{}", &k[..1]));
+        let out = outturn(&[
+            "run",
+            path(&exp),
+            "--shard",
+            k,
+            "--out",
+            path(&shard),
+            "--quiet",
+            "--no-cache",
+        ]);
+        assert_eq!(out.status.code(), Some(0), "{}", text(&out.stderr));
+    }
+    let merged = audited.join("merged");
+    let out = outturn(&[
+        "merge",
+        path(&audited.join("shard1")),
+        path(&audited.join("shard2")),
+        "--out",
+        path(&merged),
+    ]);
+    assert_eq!(out.status.code(), Some(0), "{}", text(&out.stderr));
+    let audit_of = |m: &str| m[..m.find("\"data\"").unwrap()].to_string();
+    let merged_manifest = std::fs::read_to_string(merged.join("manifest.json")).unwrap();
+    assert_eq!(audit_of(&merged_manifest), audit_of(&manifest));
+    assert_eq!(
+        std::fs::read(merged.join("report.md")).unwrap(),
+        std::fs::read(audited.join("out/report.md")).unwrap()
+    );
     let _ = std::fs::remove_dir_all(&plain);
     let _ = std::fs::remove_dir_all(&audited);
 }
