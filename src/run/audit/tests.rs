@@ -30,6 +30,9 @@ enum Column {
 struct Leak {
     column: Column,
     offset: i64,
+    /// Whether a re-estimation (not a fresh fit) reads one position more:
+    /// state carried from one estimation to the next that sees too much.
+    in_update: bool,
 }
 
 /// A model whose forecast is one value of the data, read at a position
@@ -41,7 +44,7 @@ struct Reader<'a> {
 }
 
 impl Reader<'_> {
-    fn value(&self, origin: usize, horizon: usize) -> f64 {
+    fn value(&self, origin: usize, horizon: usize, updated: bool) -> f64 {
         let t = origin as i64;
         let (values, latest): (Vec<Option<f64>>, i64) = match self.leak.column {
             Column::Target => (self.target.y.iter().map(|&v| Some(v)).collect(), t),
@@ -55,7 +58,8 @@ impl Reader<'_> {
                 (self.target.predictors[i].clone(), latest)
             }
         };
-        let position = latest + self.leak.offset;
+        let extra = i64::from(updated && self.leak.in_update);
+        let position = latest + self.leak.offset + extra;
         // An empty cell (the ragged edge) reads as 0.
         values
             .get((position - 1) as usize)
@@ -66,16 +70,27 @@ impl Reader<'_> {
 }
 
 impl Model for Reader<'_> {
-    type Fit = ();
+    /// Whether the estimate came from an update.
+    type Fit = bool;
     const STRICT: bool = true;
 
-    fn fit(&self, _end: usize, _window: Option<usize>) -> std::result::Result<(), String> {
+    fn fit(&self, _end: usize, _window: Option<usize>) -> std::result::Result<bool, String> {
+        Ok(false)
+    }
+
+    fn update(
+        &self,
+        fit: &mut bool,
+        _end: usize,
+        _window: Option<usize>,
+    ) -> std::result::Result<(), String> {
+        *fit = true;
         Ok(())
     }
 
     fn forecast(
         &self,
-        _fit: &mut (),
+        fit: &mut bool,
         origin: usize,
         horizons: &[usize],
     ) -> Vec<std::result::Result<Step, Problem>> {
@@ -83,7 +98,7 @@ impl Model for Reader<'_> {
             .iter()
             .map(|&h| {
                 Ok(Step {
-                    forecast: self.value(origin, h),
+                    forecast: self.value(origin, h, *fit),
                     variance: Some(1.0),
                     is_mse: None,
                     is_var: None,
@@ -93,7 +108,7 @@ impl Model for Reader<'_> {
             .collect()
     }
 
-    fn residuals(&self, _fit: &mut (), _end: usize) -> Vec<f64> {
+    fn residuals(&self, _fit: &mut bool, _end: usize) -> Vec<f64> {
         Vec::new()
     }
 }
@@ -190,10 +205,12 @@ fn a_model_that_reads_the_target_at_t_plus_1_is_caught() {
     assert_caught(Leak {
         column: Column::Target,
         offset: 1,
+        in_update: false,
     });
     assert_passes(Leak {
         column: Column::Target,
         offset: 0,
+        in_update: false,
     });
 }
 
@@ -204,10 +221,12 @@ fn a_model_that_reads_a_release_lagged_predictor_too_early_is_caught() {
     assert_caught(Leak {
         column: Column::Predictor(0),
         offset: 1,
+        in_update: false,
     });
     assert_passes(Leak {
         column: Column::Predictor(0),
         offset: 0,
+        in_update: false,
     });
 }
 
@@ -220,6 +239,7 @@ fn a_model_that_reads_a_known_ahead_predictor_beyond_t_plus_h_is_caught() {
     assert_caught(Leak {
         column: Column::Predictor(1),
         offset: 1,
+        in_update: false,
     });
 }
 
@@ -298,4 +318,32 @@ fn origins_are_drawn_reproducibly_with_the_first_and_last() {
         all[..4]
     );
     assert_eq!(chosen_origins(&all, 1, &mut stream(3, "x", None)), vec![59]);
+}
+
+#[test]
+fn a_re_estimation_that_carries_a_later_value_is_caught() {
+    // Fresh fits read the target at T, re-estimations at T + 1: the
+    // changed and unchanged data agree from scratch, the run's own forecast
+    // does not, and for a family whose incremental path must give a fresh
+    // fit's bits that is a moved forecast. A fixed scheme never
+    // re-estimates, and each scheme's first origin is a fresh fit.
+    let (outcome, _) = audit_with(Leak {
+        column: Column::Target,
+        offset: 0,
+        in_update: true,
+    });
+    assert!(!outcome.moved.is_empty());
+    for m in &outcome.moved {
+        assert_eq!(m.candidate, "naive");
+        assert_ne!(m.scheme, "fixed");
+        assert!(
+            m.what.starts_with("the run's own forecast differs"),
+            "{}",
+            m.what
+        );
+        assert_ne!(m.origin, "2018-12", "the first origin is a fresh fit");
+    }
+    for scheme in ["expanding", "rolling(48)"] {
+        assert!(outcome.moved.iter().any(|m| m.scheme == scheme), "{scheme}");
+    }
 }
