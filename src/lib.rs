@@ -38,6 +38,7 @@ mod spec;
 
 pub use error::{Error, Result};
 pub use results::shard::MAX_SHARDS;
+pub use run::audit::{audit, AuditOptions, AuditOutcome, Moved};
 pub use run::draft::draft;
 pub use run::kinds::text as kinds;
 pub use run::merge::merge;

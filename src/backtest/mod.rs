@@ -11,6 +11,7 @@ pub(crate) mod cellio;
 use crate::error::{Diagnostic, Error, Location, Result};
 use crate::models::{
     self, combination, CellModel, EstimationProblem, ForecastRow, Model, OutlookRow, Problem,
+    Registry,
 };
 use crate::plan::{self, Cell, Schedule};
 use crate::progress::Progress;
@@ -267,6 +268,16 @@ pub(crate) fn run_cell(
     cell: &Cell,
     progress: &dyn Progress,
 ) -> std::result::Result<CellOutput, EstimationProblem> {
+    run_cell_in(&models::Families, exp, cell, progress)
+}
+
+/// Run one cell with the model `registry` gives it.
+pub(crate) fn run_cell_in<R: Registry>(
+    registry: &R,
+    exp: &Experiment,
+    cell: &Cell,
+    progress: &dyn Progress,
+) -> std::result::Result<CellOutput, EstimationProblem> {
     let target = &exp.targets[cell.target];
     let candidate = &exp.candidates[cell.candidate];
     if matches!(candidate.family, Family::Combination { .. }) {
@@ -290,11 +301,76 @@ pub(crate) fn run_cell(
         outlook: with_outlook.then(|| plan::outlook_window(exp)),
         n: target.n,
     };
-    models::visit(&model, origin_loop).map_err(|message| EstimationProblem {
-        horizon: 0,
-        origin: 0,
-        message,
-    })?
+    registry
+        .visit(&model, origin_loop)
+        .map_err(|message| EstimationProblem {
+            horizon: 0,
+            origin: 0,
+            message,
+        })?
+}
+
+/// One origin's forecasts from an estimation made from scratch at its
+/// estimation end: what the look-ahead audit recomputes.
+struct FromScratch<'a> {
+    end: usize,
+    window: Option<usize>,
+    origin: usize,
+    horizons: &'a [usize],
+}
+
+/// A forecast of one horizon, or why it could not be made.
+pub(crate) type Recomputed = std::result::Result<ForecastRow, String>;
+
+impl models::Visitor for FromScratch<'_> {
+    type Out = std::result::Result<Vec<Recomputed>, String>;
+    fn visit<M: Model>(self, model: &M) -> Self::Out {
+        let mut fit = model.fit(self.end, self.window)?;
+        Ok(self
+            .horizons
+            .iter()
+            .zip(model.forecast(&mut fit, self.origin, self.horizons))
+            .map(|(&horizon, step)| {
+                step.map(|step| ForecastRow {
+                    horizon,
+                    origin: self.origin,
+                    forecast: step.forecast,
+                    is_mse: step.is_mse,
+                    is_var: step.is_var,
+                    variance: step.variance,
+                    order: step.order,
+                })
+                .map_err(|p| p.message)
+            })
+            .collect())
+    }
+}
+
+/// The forecasts of `cell` from `origin` at `horizons` (ascending), its
+/// model estimated from scratch at that origin's estimation end on
+/// `target` (the cell's target, or a copy of it with other data): Err when
+/// the model cannot be built or the estimation fails.
+pub(crate) fn from_scratch<R: Registry>(
+    registry: &R,
+    exp: &Experiment,
+    target: &crate::spec::TargetData,
+    cell: &Cell,
+    origin: usize,
+    horizons: &[usize],
+) -> std::result::Result<Vec<Recomputed>, String> {
+    let schedule = schedule_of(exp, cell);
+    let model = CellModel {
+        exp,
+        family: &exp.candidates[cell.candidate].family,
+        target,
+    };
+    let visitor = FromScratch {
+        end: schedule.estimation_end(origin),
+        window: schedule.window(),
+        origin,
+        horizons,
+    };
+    registry.visit(&model, visitor)?
 }
 
 /// Times one estimation of a cell's model at its first estimation end.
@@ -313,7 +389,7 @@ impl models::Visitor for TimeOneFit {
 }
 
 /// The schedule of a cell.
-fn schedule_of<'a>(exp: &'a Experiment, cell: &Cell) -> Schedule<'a> {
+pub(crate) fn schedule_of<'a>(exp: &'a Experiment, cell: &Cell) -> Schedule<'a> {
     let target = &exp.targets[cell.target];
     Schedule {
         scheme: &exp.schemes[cell.scheme],

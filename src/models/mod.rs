@@ -178,6 +178,22 @@ pub(crate) trait Visitor {
     fn visit<M: Model>(self, model: &M) -> Self::Out;
 }
 
+/// Which model runs a cell: the families ([`Families`]), or, in tests, a
+/// registry that swaps a model of its own in (the look-ahead audit's
+/// deliberately leaky model).
+pub(crate) trait Registry: Sync {
+    fn visit<V: Visitor>(&self, cell: &CellModel, visitor: V) -> Result<V::Out, String>;
+}
+
+/// The registry of the model families: [`visit`].
+pub(crate) struct Families;
+
+impl Registry for Families {
+    fn visit<V: Visitor>(&self, cell: &CellModel, visitor: V) -> Result<V::Out, String> {
+        visit(cell, visitor)
+    }
+}
+
 /// Everything a model of a cell is built from.
 pub(crate) struct CellModel<'a> {
     pub exp: &'a Experiment,

@@ -73,6 +73,8 @@ pub fn record(f: &Folder, manifest: &Value) -> Value {
         "cells": cells.len(),
         "failures": failures(&cells),
         "fallbacks": fallbacks,
+        // The look-ahead audit's outcome, when the run audited itself.
+        "audit": manifest.get("audit"),
         "experiment_text": f.record.experiment_text,
         // A code fence longer than any run of backticks in the text, so the
         // verbatim file cannot close it early (Markdown shows it as code).

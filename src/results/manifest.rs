@@ -19,6 +19,9 @@ pub(crate) const TOOL: &str = "outturn";
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub(crate) struct Manifest {
+    /// The look-ahead audit's outcome, when the experiment asks for one.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub audit: Option<AuditRecord>,
     pub data: Vec<InputFile>,
     pub experiment: ExperimentRecord,
     pub grid: GridRecord,
@@ -28,6 +31,30 @@ pub(crate) struct Manifest {
     pub seed: u64,
     pub templates: Vec<TemplateRecord>,
     pub tool: ToolRecord,
+}
+
+/// The look-ahead audit of a run (docs/results-folder.md#manifestjson).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(crate) struct AuditRecord {
+    pub cells: usize,
+    pub checks: usize,
+    pub moved: Vec<MovedRecord>,
+    pub origins: usize,
+    pub path_differences: usize,
+    pub unchecked: usize,
+}
+
+/// A forecast that moved when data hidden at its origin changed.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(crate) struct MovedRecord {
+    pub candidate: String,
+    pub horizon: usize,
+    pub origin: String,
+    pub scheme: String,
+    pub target: String,
+    pub what: String,
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -192,6 +219,7 @@ impl Manifest {
         run: &RunFacts,
     ) -> Manifest {
         Manifest {
+            audit: None,
             tool: ToolRecord::this(),
             experiment: ExperimentRecord {
                 name: exp.name.clone(),
@@ -320,6 +348,7 @@ mod tests {
 
     fn sample() -> Manifest {
         Manifest {
+            audit: None,
             data: vec![InputFile {
                 file: "d.csv".into(),
                 sha256: "ab".into(),

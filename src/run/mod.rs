@@ -3,6 +3,7 @@
 //! own files; `pipeline` turns cell outputs into a results folder for run,
 //! merge and verify alike.
 
+pub(crate) mod audit;
 pub(crate) mod draft;
 pub(crate) mod kinds;
 pub(crate) mod merge;

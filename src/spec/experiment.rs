@@ -34,6 +34,7 @@ const TOP_KEYS: &[&str] = &[
     "scoring",
     "report",
     "seed",
+    "audit",
 ];
 
 /// The keys of `data`, as far as they could be read.
@@ -53,6 +54,7 @@ pub(super) struct Decoded {
     title: Option<String>,
     formats: Vec<ReportFormat>,
     seed: u64,
+    audit: Option<usize>,
     transform: Option<Transform>,
     data: DataKeys,
     targets: Vec<(String, Node)>,
@@ -111,6 +113,7 @@ pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
         Some(n) => ctx.unsigned(n, "seed").unwrap_or(0),
         None => 0,
     };
+    let audit = top.get("audit").and_then(|n| decode_audit(ctx, n));
     let transform = match top.get("transform") {
         Some(n) => ctx
             .choice(n, "transform", &Transform::NAMES)
@@ -156,6 +159,7 @@ pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
         title,
         formats,
         seed,
+        audit,
         transform,
         data,
         targets,
@@ -171,6 +175,26 @@ pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
     };
     check_seasons(ctx, &decoded, &top);
     Some(decoded)
+}
+
+/// `audit`: the look-ahead audit's origins per cell (docs/experiment-file.md#audit).
+fn decode_audit(ctx: &mut Ctx, node: &Node) -> Option<usize> {
+    let view = ctx.map(node, "audit", &["origins"], &[])?;
+    let Some(n) = view.get("origins") else {
+        return Some(limits::DEFAULT_AUDIT_ORIGINS);
+    };
+    let k = ctx.integer(n, "audit.origins", 1)? as u64;
+    if k > limits::MAX_AUDIT_ORIGINS as u64 {
+        ctx.refuse(
+            n,
+            format!(
+                "audit.origins {k}: at most {} origins per cell are audited",
+                limits::MAX_AUDIT_ORIGINS
+            ),
+        );
+        return None;
+    }
+    Some(k as usize)
 }
 
 /// `report`: the title and the formats (both when none is named).
@@ -596,6 +620,7 @@ impl Decoded {
             warnings,
             formats: self.formats,
             seed: self.seed,
+            audit: self.audit,
         })
     }
 }

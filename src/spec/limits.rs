@@ -27,6 +27,10 @@ pub(super) const MAX_HORIZON: usize = 100_000;
 pub(super) const MAX_RESAMPLES: i64 = 1_000_000;
 /// The longest experiment name (it names a folder, and its temporary twin).
 pub(super) const MAX_NAME: usize = 200;
+/// The most origins per cell the look-ahead audit checks (`audit.origins`).
+pub const MAX_AUDIT_ORIGINS: usize = 1000;
+/// The origins per cell the look-ahead audit checks when none are named.
+pub const DEFAULT_AUDIT_ORIGINS: usize = 3;
 /// The most cells (targets × candidates × schemes) in one run.
 pub(super) const MAX_CELLS: usize = 10_000_000;
 /// Observations per estimated parameter an ARIMA needs in its first

@@ -24,6 +24,7 @@ mod scoring;
 mod theta;
 pub mod yaml;
 
+pub use limits::{DEFAULT_AUDIT_ORIGINS, MAX_AUDIT_ORIGINS};
 pub use model::*;
 
 use crate::error::{Diagnostic, Error, Location, Result};

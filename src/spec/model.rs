@@ -602,6 +602,22 @@ pub struct TargetData {
     pub first_origins: Vec<usize>,
     /// Raw (untransformed) target values at positions 1..N, for the report's data chart.
     pub raw: Vec<f64>,
+    /// The data file's values this target was made from, before any
+    /// transform (what the look-ahead audit perturbs, see `resolve::remade`).
+    pub source: RawSource,
+}
+
+/// A target's values as read from the data file, before transforms: the
+/// selected rows from the first (row 0) on, position p being row
+/// `lag + p - 1` (`lag` the target transform's lag).
+#[derive(Debug, Clone, PartialEq)]
+pub struct RawSource {
+    pub lag: usize,
+    /// The target column, rows 0..=lag + N - 1.
+    pub target: Vec<Option<f64>>,
+    /// Each declared predictor's column over every selected row (empty
+    /// cells, and rows a predictor does not use, None).
+    pub predictors: Vec<Vec<Option<f64>>>,
 }
 
 /// What an experiment file declares, checked, before any data is read:
@@ -637,6 +653,9 @@ pub struct Declaration {
     pub benchmark: usize,
     pub formats: Vec<ReportFormat>,
     pub seed: u64,
+    /// `audit.origins`: the look-ahead audit's origins per cell, when the
+    /// run is to audit itself.
+    pub audit: Option<usize>,
     /// What the file asks that outturn does differently than it may seem
     /// (said by `check` and `run`, never an error), with the file and line.
     pub warnings: Vec<String>,

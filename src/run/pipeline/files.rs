@@ -85,6 +85,8 @@ pub(super) struct Written {
     pub experiment_text: String,
     pub cell_facts: Vec<manifest::CellFacts>,
     pub failed: usize,
+    /// The look-ahead audit of the targets appended so far, when asked for.
+    pub audit: Option<crate::run::audit::AuditOutcome>,
 }
 
 impl Written {
@@ -116,6 +118,12 @@ impl Written {
         });
         self.failed += s.failed;
         self.cell_facts.extend(s.cells);
+        if let Some(audit) = s.audit {
+            match self.audit.as_mut() {
+                Some(total) => total.add(audit),
+                None => self.audit = Some(audit),
+            }
+        }
         Ok(())
     }
 }

@@ -93,6 +93,7 @@ struct Assembled {
     experiment_text: String,
     cell_facts: Vec<manifest::CellFacts>,
     outputs: Vec<OutputFile>,
+    audit: Option<crate::run::audit::AuditOutcome>,
 }
 
 /// The reports, rendered from the tables' rows and the manifest's
@@ -111,6 +112,7 @@ fn write_reports_and_manifest(
         experiment_text,
         cell_facts,
         outputs,
+        audit,
     } = a;
     let facts = manifest::RunFacts {
         seconds: ctx.started.elapsed().as_secs_f64(),
@@ -128,6 +130,7 @@ fn write_reports_and_manifest(
     // report reads (outputs so far hold only the tables); the run section
     // and the reports' entries are added before it is written.
     let mut manifest = manifest::Manifest::of(exp, &cell_facts, &templates_used, outputs, &facts);
+    manifest.audit = audit.map(|a| a.record());
     let core = manifest.core_value();
     let rows = match report_rows {
         Some(rows) => rows.map_err(Error::Report)?,
@@ -187,6 +190,7 @@ pub fn produce(
         experiment_text: String::new(),
         cell_facts: Vec::new(),
         failed: 0,
+        audit: None,
     };
     if ctx.threads <= 1 {
         // One thread of work means one: compute and write in turn.
@@ -207,6 +211,7 @@ pub fn produce(
         experiment_text,
         cell_facts,
         failed,
+        audit,
     } = w;
     ctx.step("tables streamed");
     debug_assert_eq!(
@@ -238,6 +243,7 @@ pub fn produce(
             experiment_text,
             cell_facts,
             outputs,
+            audit,
         },
     )?;
     syncing

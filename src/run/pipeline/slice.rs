@@ -31,6 +31,8 @@ pub(super) struct Slice {
     pub report_rows: std::result::Result<(Rows, report::TargetPart), String>,
     pub cells: Vec<manifest::CellFacts>,
     pub failed: usize,
+    /// The look-ahead audit of this target's cells, when asked for.
+    pub audit: Option<crate::run::audit::AuditOutcome>,
 }
 
 pub(super) fn header(bytes: &[u8]) -> &[u8] {
@@ -52,6 +54,9 @@ pub(super) fn slice(
     let sub = exp.for_target(t);
     let cells = plan::cells(&sub);
     backtest::combine(&sub, &cells, &mut outputs, progress);
+    let audit = exp.audit.map(|k| {
+        crate::run::audit::audit_outputs(&crate::models::Families, &sub, &cells, &outputs, k)
+    });
     let errors = score::cell_errors(&sub, &cells, &outputs);
     let Formatted {
         forecasts_bytes,
@@ -130,6 +135,7 @@ pub(super) fn slice(
         report_rows,
         cells: cells_facts,
         failed: outputs.iter().filter(|o| o.failure.is_some()).count(),
+        audit,
     }
 }
 

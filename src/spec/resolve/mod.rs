@@ -89,3 +89,76 @@ pub fn resolve_data(ctx: &mut Ctx, table: &RawTable, req: DataRequest) -> Option
         label_style,
     })
 }
+
+/// A column of the data file that a target is made from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum RawColumn {
+    Target,
+    /// Declared predictor `i`.
+    Predictor(usize),
+}
+
+/// What is visible of each column at some origin: the latest usable
+/// position (SPEC §4) of the target and of each declared predictor; a
+/// position below 1 hides the whole column.
+pub struct Visible {
+    pub target: i64,
+    pub predictors: Vec<i64>,
+}
+
+/// The target made again from its raw values (the data file's, before any
+/// transform) with every raw row after the last one visible replaced by
+/// `replace(column, row, value)`, and transformed as the run transforms it.
+/// A transformed value at position p reads raw rows up to `lag + p - 1`
+/// only (a difference reads that row and the one a lag or a season
+/// before), so the rows after `lag + u - 1`, u the latest usable position,
+/// are exactly the ones no visible value depends on. The target's future
+/// rows stay empty (they would move N). Err when a replaced value cannot
+/// be transformed.
+pub fn remade(
+    target: &TargetData,
+    transform: Transform,
+    predictors: &[Predictor],
+    season: Option<usize>,
+    visible: &Visible,
+    replace: &mut dyn FnMut(RawColumn, usize, Option<f64>) -> f64,
+) -> Result<TargetData, String> {
+    let src = &target.source;
+    let first_hidden = |u: i64| (src.lag as i64).saturating_add(u).max(0) as usize;
+    let mut hide = |column: RawColumn, values: &[Option<f64>], from: usize| {
+        let mut out = values.to_vec();
+        for (row, v) in out.iter_mut().enumerate().skip(from) {
+            *v = Some(replace(column, row, *v));
+        }
+        out
+    };
+    let raw_target = hide(RawColumn::Target, &src.target, first_hidden(visible.target));
+    let why = |column: &str, (row, m): (usize, String)| {
+        format!("{column}, row {} of the selected rows: {m}", row + 1)
+    };
+    let y = columns::apply_transform(transform, &raw_target, season)
+        .map_err(|e| why("the target", e))?;
+    let mut out = target.clone();
+    let n = target.n;
+    out.y = y[src.lag..src.lag + n]
+        .iter()
+        .map(|v| v.unwrap_or(f64::NAN))
+        .collect();
+    out.raw = raw_target[src.lag..src.lag + n]
+        .iter()
+        .map(|v| v.unwrap_or(f64::NAN))
+        .collect();
+    for (i, p) in predictors.iter().enumerate() {
+        let raw = hide(
+            RawColumn::Predictor(i),
+            &src.predictors[i],
+            first_hidden(visible.predictors[i]),
+        );
+        let values =
+            columns::apply_transform(p.transform, &raw, season).map_err(|e| why(&p.column, e))?;
+        out.predictors[i] = values[src.lag..].to_vec();
+        out.source.predictors[i] = raw;
+    }
+    out.source.target = raw_target;
+    Ok(out)
+}

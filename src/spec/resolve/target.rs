@@ -5,7 +5,7 @@
 
 use super::super::data::{RawRow, RawTable};
 use super::super::decode::Ctx;
-use super::super::model::{SchemeStart, TargetData};
+use super::super::model::{RawSource, SchemeStart, TargetData};
 use super::super::period::{parse_label, Frequency};
 use super::super::yaml::Node;
 use super::columns::{
@@ -108,7 +108,7 @@ pub(super) fn resolve_target(
         .iter()
         .map(|v| v.unwrap_or(f64::NAN))
         .collect();
-    let predictors = predictor_values(ctx, sel, req, name, last, lag)?;
+    let (predictors, raw_predictors) = predictor_values(ctx, sel, req, name, last, lag)?;
     debug_assert_eq!(labels.len(), rows.len() - lag);
     let first_origins = first_origins(ctx, sel.freq, req, name, n, &ordinals, &labels)?;
     Some(TargetData {
@@ -120,6 +120,11 @@ pub(super) fn resolve_target(
         predictors,
         first_origins,
         raw: raw_target,
+        source: RawSource {
+            lag,
+            target: raw[..=last].to_vec(),
+            predictors: raw_predictors,
+        },
     })
 }
 
@@ -167,9 +172,13 @@ fn target_values(
     empty.is_empty().then_some((raw, last))
 }
 
+/// A column's values before and after its transform.
+type RawAndTransformed = (Vec<Option<f64>>, Vec<Option<f64>>);
+
 /// Every declared predictor, transformed, at the target's positions (the
-/// target's last value is row `last`, its transform's lag `lag`); None
-/// when any of them has a problem (all are checked and reported).
+/// target's last value is row `last`, its transform's lag `lag`), and its
+/// raw values over the selected rows; None when any of them has a problem
+/// (all are checked and reported).
 fn predictor_values(
     ctx: &mut Ctx,
     sel: &Selection,
@@ -177,19 +186,26 @@ fn predictor_values(
     name: &str,
     last: usize,
     lag: usize,
-) -> Option<Vec<Vec<Option<f64>>>> {
+) -> Option<PredictorColumns> {
     let mut values = Vec::new();
+    let mut raws = Vec::new();
     let mut all_ok = true;
     for (i, pnode) in req.predictor_nodes.iter().enumerate() {
         match predictor(ctx, sel, req, i, pnode, name, last) {
-            Some(v) => values.push(v[lag..].to_vec()),
+            Some((raw, v)) => {
+                values.push(v[lag..].to_vec());
+                raws.push(raw);
+            }
             None => all_ok = false,
         }
     }
-    all_ok.then_some(values)
+    all_ok.then_some((values, raws))
 }
 
-/// Predictor `i`'s transformed values over every selected row, or None (reported).
+/// The predictors' transformed values at the target's positions, then their raw values.
+type PredictorColumns = (Vec<Vec<Option<f64>>>, Vec<Vec<Option<f64>>>);
+
+/// Predictor `i`'s raw and transformed values over every selected row, or None (reported).
 fn predictor(
     ctx: &mut Ctx,
     sel: &Selection,
@@ -198,7 +214,7 @@ fn predictor(
     pnode: &Node,
     name: &str,
     last: usize,
-) -> Option<Vec<Option<f64>>> {
+) -> Option<RawAndTransformed> {
     let p = &req.predictors[i];
     let pcol = sel.predictor_columns[i]?;
     let rows = sel.rows;
@@ -266,7 +282,8 @@ fn predictor(
             return None;
         }
     };
-    check_scale(ctx, sel.table, pcol, &transformed, &sel.lines, p.transform).then_some(transformed)
+    check_scale(ctx, sel.table, pcol, &transformed, &sel.lines, p.transform)
+        .then_some((praw, transformed))
 }
 
 /// The first origin T0 of each scheme on this target (SPEC §4); None when
