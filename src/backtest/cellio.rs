@@ -16,6 +16,7 @@
 
 use super::CellOutput;
 use crate::models::{ForecastRow, Order, OutlookRow};
+use crate::spec::SmoothingError;
 
 fn num(v: f64) -> String {
     if v.is_nan() {
@@ -46,7 +47,13 @@ fn order_text(o: Option<Order>) -> String {
         Some(Order::Ar(p)) => format!("ar:{p}"),
         Some(Order::Ardl(p, q)) => format!("ardl:{p}:{q}"),
         Some(Order::Arima(p, d, q)) => format!("arima:{p}:{d}:{q}"),
-        Some(Order::Smoothing(t, s)) => format!("smoothing:{}:{}", t.name(), s.name()),
+        // the error only when multiplicative, so additive cells keep their text
+        Some(Order::Smoothing(SmoothingError::Additive, t, s)) => {
+            format!("smoothing:{}:{}", t.name(), s.name())
+        }
+        Some(Order::Smoothing(e, t, s)) => {
+            format!("smoothing:{}:{}:{}", e.name(), t.name(), s.name())
+        }
         Some(Order::Sarima {
             p,
             d,
@@ -93,9 +100,17 @@ fn parse_order(s: &str) -> Result<Option<Order>, String> {
                 SmoothingSeason::Additive,
                 SmoothingSeason::Multiplicative,
             ];
+            const ERRORS: [SmoothingError; 2] =
+                [SmoothingError::Additive, SmoothingError::Multiplicative];
+            let (error, at) = if parts.len() == 4 {
+                (ERRORS[pick(1, &SmoothingError::NAMES)?], 2)
+            } else {
+                (SmoothingError::Additive, 1)
+            };
             Ok(Some(Order::Smoothing(
-                TRENDS[pick(1, &SmoothingTrend::NAMES)?],
-                SEASONS[pick(2, &SmoothingSeason::NAMES)?],
+                error,
+                TRENDS[pick(at, &SmoothingTrend::NAMES)?],
+                SEASONS[pick(at + 1, &SmoothingSeason::NAMES)?],
             )))
         }
         "sarima" => Ok(Some(Order::Sarima {

@@ -282,6 +282,7 @@ pub(crate) fn run_cell(
         exp,
         family: &candidate.family,
         target,
+        seed: models::cell_seed(exp.seed, &cell.id),
     };
     let origin_loop = OriginLoop {
         progress,
@@ -346,6 +347,7 @@ pub(crate) fn time_one_estimation(
         exp,
         family: &exp.candidates[cell.candidate].family,
         target: &exp.targets[cell.target],
+        seed: models::cell_seed(exp.seed, &cell.id),
     };
     let timer = TimeOneFit {
         end: schedule.first_origin,
