@@ -367,6 +367,34 @@ mod tests {
         );
     }
 
+    /// Smoothing orders: an additive error keeps the text it had before the
+    /// error was a choice (`smoothing:trend:season`), a multiplicative one
+    /// names it; both read back to the same order.
+    #[test]
+    fn smoothing_orders_round_trip() {
+        use crate::spec::{SmoothingSeason, SmoothingTrend};
+        let add = Order::Smoothing(
+            SmoothingError::Additive,
+            SmoothingTrend::Damped,
+            SmoothingSeason::Additive,
+        );
+        let mult = Order::Smoothing(
+            SmoothingError::Multiplicative,
+            SmoothingTrend::None,
+            SmoothingSeason::Multiplicative,
+        );
+        assert_eq!(order_text(Some(add)), "smoothing:damped:additive");
+        assert_eq!(
+            order_text(Some(mult)),
+            "smoothing:multiplicative:none:multiplicative"
+        );
+        for o in [add, mult] {
+            assert_eq!(parse_order(&order_text(Some(o))).unwrap(), Some(o));
+        }
+        assert_eq!(mult.to_string(), "mult,none,multiplicative");
+        assert_eq!(add.to_string(), "damped,additive");
+    }
+
     #[test]
     fn damaged_text_is_refused() {
         assert!(read_cells("cell a\nf 1 2 x - - - -\nend\n").is_err());
