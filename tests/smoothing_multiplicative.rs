@@ -85,7 +85,12 @@ fn run(exp: &Path, out: &Path, jobs: &str) -> String {
         "--jobs".as_ref(),
         jobs.as_ref(),
     ]);
-    assert_eq!(o.status.code(), Some(0), "{}", String::from_utf8_lossy(&o.stderr));
+    assert_eq!(
+        o.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
     std::fs::read_to_string(out.join("forecasts.csv")).unwrap()
 }
 
