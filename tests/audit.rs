@@ -173,3 +173,32 @@ fn bad_audit_values_are_refused_with_key_and_line() {
     let out = outturn(&["audit", path(&exp), "--origins", "0"]);
     assert_eq!(out.status.code(), Some(2));
 }
+
+/// Multiplicative-error smoothing (levels: its data must be positive),
+/// whose seasonal forms simulate their variances with the cell's seed:
+/// the from-scratch estimation the audit makes gives the run's bits.
+#[test]
+fn multiplicative_error_smoothing_passes_the_audit() {
+    let dir = std::env::temp_dir().join(format!("outturn-audit-{}-mult", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).unwrap();
+    let data = root().join("experiments/data/water_demand.csv");
+    let yaml = format!(
+        "version: 1\nexperiment: audit-mult\ndata: {{file: {}, time: period, frequency: monthly, start: 2013-01}}\n\
+         target: demand_ml\ntransform: none\ncandidates:\n  - family: naive\n\
+         \x20 - {{family: smoothing, error: [multiplicative], trend: [none, damped], season: [none, multiplicative]}}\n\
+         backtest:\n  schemes: [{{expanding: {{first_origin: 2021-12, refit_every: 6}}}}]\n  horizons: [1, 3]\n\
+         scoring: {{benchmark: naive}}\n",
+        data.to_string_lossy()
+    );
+    std::fs::write(dir.join("exp.yaml"), yaml).unwrap();
+    let out = outturn(&["audit", path(&dir.join("exp.yaml")), "--origins", "3"]);
+    let stdout = text(&out.stdout);
+    assert_eq!(out.status.code(), Some(0), "{stdout}{}", text(&out.stderr));
+    let first = stdout.lines().next().unwrap();
+    assert!(
+        first.ends_with("checks across 5 cells, 0 forecasts moved"),
+        "{first}"
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}

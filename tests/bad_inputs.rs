@@ -710,6 +710,24 @@ fn catalogue() -> Vec<Case> {
             with_cell(9, 1, "\"101,5\""),
             &["data.csv:11:2", "write the decimal point as '.'"],
         ),
+        Case {
+            name: "multiplicative error on a series that reaches 0",
+            yaml: add_candidate("  - family: smoothing\n    error: [additive, multiplicative]\n"),
+            csv: Some(with_cell(9, 1, "0")),
+            expect: vec![
+                "data.csv:11:2",
+                "column 'y'",
+                "the value 0 is not above 0",
+                "candidate 'smoothing(mult,none,none)' has a multiplicative error",
+                "docs/refusals.md",
+            ],
+        },
+        Case {
+            name: "smoothing select with only multiplicative error and additive season",
+            yaml: add_candidate("  - family: smoothing\n    select: aicc\n    error: [multiplicative]\n    season: [additive]\n"),
+            csv: Some(base_csv()),
+            expect: vec!["exp.yaml:12:5", "select: aicc leaves out a multiplicative error with an additive season", "docs/candidates.md"],
+        },
         data_case(
             "empty target cell",
             with_cell(9, 1, ""),

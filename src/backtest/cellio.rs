@@ -16,6 +16,7 @@
 
 use super::CellOutput;
 use crate::models::{ForecastRow, Order, OutlookRow};
+use crate::spec::SmoothingError;
 
 fn num(v: f64) -> String {
     if v.is_nan() {
@@ -46,7 +47,13 @@ fn order_text(o: Option<Order>) -> String {
         Some(Order::Ar(p)) => format!("ar:{p}"),
         Some(Order::Ardl(p, q)) => format!("ardl:{p}:{q}"),
         Some(Order::Arima(p, d, q)) => format!("arima:{p}:{d}:{q}"),
-        Some(Order::Smoothing(t, s)) => format!("smoothing:{}:{}", t.name(), s.name()),
+        // the error only when multiplicative, so additive cells keep their text
+        Some(Order::Smoothing(SmoothingError::Additive, t, s)) => {
+            format!("smoothing:{}:{}", t.name(), s.name())
+        }
+        Some(Order::Smoothing(e, t, s)) => {
+            format!("smoothing:{}:{}:{}", e.name(), t.name(), s.name())
+        }
         Some(Order::Sarima {
             p,
             d,
@@ -93,9 +100,17 @@ fn parse_order(s: &str) -> Result<Option<Order>, String> {
                 SmoothingSeason::Additive,
                 SmoothingSeason::Multiplicative,
             ];
+            const ERRORS: [SmoothingError; 2] =
+                [SmoothingError::Additive, SmoothingError::Multiplicative];
+            let (error, at) = if parts.len() == 4 {
+                (ERRORS[pick(1, &SmoothingError::NAMES)?], 2)
+            } else {
+                (SmoothingError::Additive, 1)
+            };
             Ok(Some(Order::Smoothing(
-                TRENDS[pick(1, &SmoothingTrend::NAMES)?],
-                SEASONS[pick(2, &SmoothingSeason::NAMES)?],
+                error,
+                TRENDS[pick(at, &SmoothingTrend::NAMES)?],
+                SEASONS[pick(at + 1, &SmoothingSeason::NAMES)?],
             )))
         }
         "sarima" => Ok(Some(Order::Sarima {
@@ -350,6 +365,34 @@ mod tests {
             (b.fallbacks, b.failure.as_deref()),
             (2, Some("did not converge"))
         );
+    }
+
+    /// Smoothing orders: an additive error keeps the text it had before the
+    /// error was a choice (`smoothing:trend:season`), a multiplicative one
+    /// names it; both read back to the same order.
+    #[test]
+    fn smoothing_orders_round_trip() {
+        use crate::spec::{SmoothingSeason, SmoothingTrend};
+        let add = Order::Smoothing(
+            SmoothingError::Additive,
+            SmoothingTrend::Damped,
+            SmoothingSeason::Additive,
+        );
+        let mult = Order::Smoothing(
+            SmoothingError::Multiplicative,
+            SmoothingTrend::None,
+            SmoothingSeason::Multiplicative,
+        );
+        assert_eq!(order_text(Some(add)), "smoothing:damped:additive");
+        assert_eq!(
+            order_text(Some(mult)),
+            "smoothing:multiplicative:none:multiplicative"
+        );
+        for o in [add, mult] {
+            assert_eq!(parse_order(&order_text(Some(o))).unwrap(), Some(o));
+        }
+        assert_eq!(mult.to_string(), "mult,none,multiplicative");
+        assert_eq!(add.to_string(), "damped,additive");
     }
 
     #[test]

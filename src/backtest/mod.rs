@@ -293,6 +293,7 @@ pub(crate) fn run_cell_in<R: Registry>(
         exp,
         family: &candidate.family,
         target,
+        seed: models::cell_seed(exp.seed, &cell.id),
     };
     let origin_loop = OriginLoop {
         progress,
@@ -363,6 +364,7 @@ pub(crate) fn from_scratch<R: Registry>(
         exp,
         family: &exp.candidates[cell.candidate].family,
         target,
+        seed: models::cell_seed(exp.seed, &cell.id),
     };
     let visitor = FromScratch {
         end: schedule.estimation_end(origin),
@@ -422,6 +424,7 @@ pub(crate) fn time_one_estimation(
         exp,
         family: &exp.candidates[cell.candidate].family,
         target: &exp.targets[cell.target],
+        seed: models::cell_seed(exp.seed, &cell.id),
     };
     let timer = TimeOneFit {
         end: schedule.first_origin,

@@ -141,6 +141,8 @@ impl<L: Likelihood> Model for OnSeries<'_, L> {
 /// Exponential smoothing through [`super::smoothing`].
 pub(crate) struct Smoothing {
     pub spec: super::smoothing::EtsSpec,
+    /// The cell's seed, for simulated forecast variances.
+    pub seed: u64,
 }
 
 impl Likelihood for Smoothing {
@@ -158,10 +160,10 @@ impl Likelihood for Smoothing {
         &self,
         fit: &Self::Fit,
         y: &[f64],
-        _start: usize,
+        start: usize,
         max_h: usize,
     ) -> Result<Vec<(f64, f64)>, String> {
-        super::smoothing::forecast(fit, y, max_h).map_err(|e| e.to_string())
+        super::smoothing::forecast(fit, y, max_h, self.seed, start).map_err(|e| e.to_string())
     }
     fn is_mse(&self, fit: &Self::Fit) -> f64 {
         fit.is_mse

@@ -48,8 +48,13 @@ pub(crate) enum Order {
     Ar(usize),
     Ardl(usize, usize),
     Arima(usize, usize, usize),
-    /// The form `smoothing(aicc)` chose, written like a smoothing id's brackets.
-    Smoothing(crate::spec::SmoothingTrend, crate::spec::SmoothingSeason),
+    /// The form `smoothing(aicc)` chose, written like a smoothing id's
+    /// brackets (the error only when multiplicative).
+    Smoothing(
+        crate::spec::SmoothingError,
+        crate::spec::SmoothingTrend,
+        crate::spec::SmoothingSeason,
+    ),
     Sarima {
         p: usize,
         d: usize,
@@ -67,7 +72,12 @@ impl std::fmt::Display for Order {
             Order::Ar(p) => write!(f, "{p}"),
             Order::Ardl(p, q) => write!(f, "{p},{q}"),
             Order::Arima(p, d, q) => write!(f, "{p},{d},{q}"),
-            Order::Smoothing(t, s) => write!(f, "{},{}", t.name(), s.name()),
+            Order::Smoothing(e, t, s) => {
+                if *e == crate::spec::SmoothingError::Multiplicative {
+                    write!(f, "mult,")?;
+                }
+                write!(f, "{},{}", t.name(), s.name())
+            }
             Order::Sarima {
                 p,
                 d,
@@ -199,6 +209,17 @@ pub(crate) struct CellModel<'a> {
     pub exp: &'a Experiment,
     pub family: &'a Family,
     pub target: &'a TargetData,
+    /// The cell's own seed (from the experiment's seed and the cell id),
+    /// for a model that simulates.
+    pub seed: u64,
+}
+
+/// A cell's seed: the first 8 bytes of SHA-256 of "seed/cell id", so it
+/// does not depend on the order or the thread cells run in.
+pub(crate) fn cell_seed(experiment_seed: u64, cell_id: &str) -> u64 {
+    use sha2::{Digest, Sha256};
+    let d = Sha256::digest(format!("{experiment_seed}/{cell_id}").as_bytes());
+    u64::from_le_bytes(d[..8].try_into().expect("8 bytes"))
 }
 
 /// The registry: build the model of a cell and hand it to `visitor`.
@@ -259,15 +280,19 @@ pub(crate) fn visit<V: Visitor>(cell: &CellModel, visitor: V) -> Result<V::Out, 
                 regressors,
             ),
         }),
-        Family::Smoothing { trend, season } => visitor.visit(&likelihood::OnSeries {
+        Family::Smoothing {
+            error,
+            trend,
+            season,
+        } => visitor.visit(&likelihood::OnSeries {
             y: &cell.target.y,
             model: likelihood::Smoothing {
                 spec: smoothing::spec_of(
-                    *trend,
-                    *season,
+                    (*error, *trend, *season),
                     exp.season_length(),
                     exp.frequency.name(),
                 )?,
+                seed: cell.seed,
             },
         }),
         Family::SmoothingSelect { forms } => visitor.visit(&likelihood::OnSeries {
@@ -275,10 +300,11 @@ pub(crate) fn visit<V: Visitor>(cell: &CellModel, visitor: V) -> Result<V::Out, 
             model: smoothing::select::SmoothingSelect {
                 specs: forms
                     .iter()
-                    .map(|&(trend, season)| {
-                        smoothing::spec_of(trend, season, exp.season_length(), exp.frequency.name())
+                    .map(|&form| {
+                        smoothing::spec_of(form, exp.season_length(), exp.frequency.name())
                     })
                     .collect::<Result<_, _>>()?,
+                seed: cell.seed,
             },
         }),
         Family::Theta { multiplicative } => visitor.visit(&likelihood::OnSeries {

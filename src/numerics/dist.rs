@@ -83,3 +83,11 @@ pub(crate) fn chi2_sf(x: f64, df: f64) -> Option<f64> {
     let p = dist.sf(x);
     p.is_finite().then_some(p)
 }
+
+/// Two independent standard normal draws from two uniforms on (0, 1]
+/// and [0, 1) by the Box–Muller transform (Box & Muller 1958).
+pub(crate) fn box_muller(u1: f64, u2: f64) -> (f64, f64) {
+    let r = (-2.0 * u1.ln()).sqrt();
+    let a = 2.0 * std::f64::consts::PI * u2;
+    (r * a.cos(), r * a.sin())
+}

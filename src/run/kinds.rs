@@ -10,7 +10,7 @@ pub fn text() -> String {
         ("ar", "autoregression of order p by least squares; direct or iterated multi-step; select: aic|bic|hqic"),
         ("ardl", "autoregressive distributed lag: p own lags and q lags of each predictor, release lags respected"),
         ("arima", "ARIMA(p,d,q)(P,D,Q)m by exact Gaussian likelihood via the Kalman filter, with known-ahead regressors and dummies (Harvey 1989; Durbin & Koopman 2012)"),
-        ("smoothing", "additive-error exponential smoothing, trend none|additive|damped, season none|additive|multiplicative; select: aicc (Hyndman et al. 2008)"),
+        ("smoothing", "exponential smoothing, error additive|multiplicative, trend none|additive|damped, season none|additive|multiplicative; select: aicc (Hyndman et al. 2008)"),
         ("theta", "simple exponential smoothing with half the trend line's slope as drift; deseasonalise: none|multiplicative (Assimakopoulos & Nikolopoulos 2000; Hyndman & Billah 2003)"),
         ("combination", "mean, inverse-MSE-weighted or trimmed mean of member forecasts (Bates & Granger 1969)"),
     ];

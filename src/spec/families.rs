@@ -10,7 +10,7 @@ use super::limits::{
 use super::yaml::Node;
 use super::{
     ArimaCriterion, Candidate, CombinationWeights, Family, SeasonalGrid, SeasonalOrder,
-    SmoothingSeason, SmoothingTrend,
+    SmoothingError, SmoothingSeason, SmoothingTrend,
 };
 
 /// `family: arima`: p, d, q grids (and seasonal ones), a drift,
@@ -328,13 +328,15 @@ fn expand_select(
     }
 }
 
-/// `family: smoothing`: trend × season grids.
+/// `family: smoothing`: error × trend × season grids. Ids name the error
+/// only when it is multiplicative (`smoothing(mult,damped,additive)`), so
+/// additive-error ids are those of the additive-only family.
 pub(super) fn decode_smoothing(ctx: &mut Ctx, item: &Node, path: &str, out: &mut Vec<Candidate>) {
     let line = item.line;
     let Some(view) = ctx.map(
         item,
         path,
-        &["family", "label", "trend", "season", "select"],
+        &["family", "label", "error", "trend", "season", "select"],
         &[],
     ) else {
         return;
@@ -350,17 +352,17 @@ pub(super) fn decode_smoothing(ctx: &mut Ctx, item: &Node, path: &str, out: &mut
         },
         None => false,
     };
-    let trends = match view.get("trend") {
-        Some(n) => names(ctx, n, &format!("{path}.trend"), &SmoothingTrend::NAMES),
+    let mut grid = |key: &str, options: &[&'static str]| match view.get(key) {
+        Some(n) => names(ctx, n, &format!("{path}.{key}"), options),
         None => Some(vec![0]),
     };
-    let seasons = match view.get("season") {
-        Some(n) => names(ctx, n, &format!("{path}.season"), &SmoothingSeason::NAMES),
-        None => Some(vec![0]),
-    };
-    let (Some(trends), Some(seasons)) = (trends, seasons) else {
+    let errors = grid("error", &SmoothingError::NAMES);
+    let trends = grid("trend", &SmoothingTrend::NAMES);
+    let seasons = grid("season", &SmoothingSeason::NAMES);
+    let (Some(errors), Some(trends), Some(seasons)) = (errors, trends, seasons) else {
         return;
     };
+    const ERRORS: [SmoothingError; 2] = [SmoothingError::Additive, SmoothingError::Multiplicative];
     const TRENDS: [SmoothingTrend; 3] = [
         SmoothingTrend::None,
         SmoothingTrend::Additive,
@@ -371,11 +373,27 @@ pub(super) fn decode_smoothing(ctx: &mut Ctx, item: &Node, path: &str, out: &mut
         SmoothingSeason::Additive,
         SmoothingSeason::Multiplicative,
     ];
+    let mut forms = Vec::new();
+    for &e in &errors {
+        for &t in &trends {
+            for &s in &seasons {
+                forms.push((ERRORS[e], TRENDS[t], SEASONS[s]));
+            }
+        }
+    }
     if select {
-        let forms = trends
-            .iter()
-            .flat_map(|&t| seasons.iter().map(move |&s| (TRENDS[t], SEASONS[s])))
-            .collect();
+        // a multiplicative error with an additive season is left out of the
+        // search: its likelihood is unstable (docs/candidates.md)
+        forms.retain(|&(e, _, s)| {
+            !(e == SmoothingError::Multiplicative && s == SmoothingSeason::Additive)
+        });
+        if forms.is_empty() {
+            ctx.error(
+                item,
+                format!("{path}: select: aicc leaves out a multiplicative error with an additive season, so this grid has no form to choose from; add season none or multiplicative (see docs/candidates.md)"),
+            );
+            return;
+        }
         out.push(Candidate {
             id: format!("{base}(aicc)"),
             family: Family::SmoothingSelect { forms },
@@ -383,15 +401,21 @@ pub(super) fn decode_smoothing(ctx: &mut Ctx, item: &Node, path: &str, out: &mut
         });
         return;
     }
-    for &t in &trends {
-        for &s in &seasons {
-            let (trend, season) = (TRENDS[t], SEASONS[s]);
-            out.push(Candidate {
-                id: format!("{base}({},{})", trend.name(), season.name()),
-                family: Family::Smoothing { trend, season },
-                line,
-            });
-        }
+    for (error, trend, season) in forms {
+        let mult = if error == SmoothingError::Multiplicative {
+            "mult,"
+        } else {
+            ""
+        };
+        out.push(Candidate {
+            id: format!("{base}({mult}{},{})", trend.name(), season.name()),
+            family: Family::Smoothing {
+                error,
+                trend,
+                season,
+            },
+            line,
+        });
     }
 }
 

@@ -302,15 +302,17 @@ pub enum Family {
         seasonal: Option<SeasonalGrid>,
         regressors: Vec<usize>,
     },
-    /// Additive-error exponential smoothing (Hyndman et al. 2008).
+    /// Exponential smoothing with an additive or multiplicative error
+    /// (Hyndman et al. 2008).
     Smoothing {
+        error: SmoothingError,
         trend: SmoothingTrend,
         season: SmoothingSeason,
     },
     /// smoothing with the form chosen by AICc inside every training window
-    /// from a trend × season grid.
+    /// from an error × trend × season grid.
     SmoothingSelect {
-        forms: Vec<(SmoothingTrend, SmoothingSeason)>,
+        forms: Vec<(SmoothingError, SmoothingTrend, SmoothingSeason)>,
     },
     /// The theta method (simple exponential smoothing with half the trend
     /// line's slope as drift), on multiplicatively seasonally adjusted data
@@ -355,6 +357,17 @@ impl Family {
                 ..
             } => Some(trend.terms() + max_lags * (1 + predictors.len())),
             _ => None,
+        }
+    }
+
+    /// Whether the family has a multiplicative error (smoothing), whose
+    /// model needs a series above 0.
+    pub fn multiplicative_error(&self) -> bool {
+        let mult = SmoothingError::Multiplicative;
+        match self {
+            Family::Smoothing { error, .. } => *error == mult,
+            Family::SmoothingSelect { forms } => forms.iter().any(|f| f.0 == mult),
+            _ => false,
         }
     }
 
@@ -408,7 +421,7 @@ impl Family {
                     + regressors.len()
             }
             // smoothing parameters plus free initial states (level, trend, m − 1 seasonal)
-            Family::Smoothing { trend, season } => {
+            Family::Smoothing { trend, season, .. } => {
                 let t = match trend {
                     SmoothingTrend::None => 0,
                     SmoothingTrend::Additive => 2,
@@ -419,7 +432,14 @@ impl Family {
             // the largest form of the grid
             Family::SmoothingSelect { forms } => forms
                 .iter()
-                .map(|&(trend, season)| Family::Smoothing { trend, season }.parameters())
+                .map(|&(error, trend, season)| {
+                    Family::Smoothing {
+                        error,
+                        trend,
+                        season,
+                    }
+                    .parameters()
+                })
                 .max()
                 .unwrap_or(0),
             // α and b0 (ℓ0 is the first value), and m − 1 free seasonal
@@ -525,6 +545,20 @@ pub enum ColumnShape {
         s: usize,
         m: usize,
     },
+}
+
+/// The error of a smoothing model: y = ŷ + e, or y = ŷ(1 + ε).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum SmoothingError {
+    Additive,
+    Multiplicative,
+}
+
+impl SmoothingError {
+    pub const NAMES: [&'static str; 2] = ["additive", "multiplicative"];
+    pub fn name(self) -> &'static str {
+        Self::NAMES[self as usize]
+    }
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]

@@ -3,7 +3,7 @@
 //! unit box, the initial states concentrated out at every evaluation, from
 //! a grid of starts or a warm start, with restarts.
 
-use super::filter::{initial_state, run_filter, Smooth};
+use super::filter::{initial_state, relative_sums, run_filter, Smooth, State};
 use super::states::{heuristic_z, inner_solve, params_from, z_from_params};
 use super::{check_data, EtsError, EtsFit, EtsParams, EtsSpec, PAR_HI, PAR_LO, PHI_HI, PHI_LO};
 use crate::numerics::optimise::nelder_mead::{nelder_mead, Simplex};
@@ -55,7 +55,8 @@ fn u_from_params(spec: &EtsSpec, p: &EtsParams) -> Option<Vec<f64>> {
     Some(u)
 }
 
-/// The outer problem: ln SSE over the smoothing parameters in the unit box,
+/// The outer problem: ln SSE (for a multiplicative error, ln of the
+/// likelihood's least-squares form) over the smoothing parameters in the unit box,
 /// with the best point and initial states seen so far.
 struct Problem<'a> {
     spec: &'a EtsSpec,
@@ -72,13 +73,14 @@ impl Problem<'_> {
     fn eval(&mut self, u: &[f64]) -> f64 {
         self.evals += 1;
         let sm = smooth_from_u(self.spec, u);
-        let start = if self.spec.multiplicative() && !self.best_z.is_empty() {
+        let nonlinear = self.spec.nonlinear_states();
+        let start = if nonlinear && !self.best_z.is_empty() {
             self.best_z.clone()
         } else {
             self.z_start.clone()
         };
         let mut res = inner_solve(self.spec, &sm, self.y, &start);
-        if res.is_none() && self.spec.multiplicative() {
+        if res.is_none() && nonlinear {
             res = inner_solve(self.spec, &sm, self.y, &self.z_start);
         }
         let f = match res {
@@ -207,6 +209,19 @@ impl Problem<'_> {
         converged
     }
 
+    /// Finer restarts from the best point (simplex steps 0.01 and 0.002),
+    /// for a multiplicative error: its likelihood often has a narrow ridge
+    /// along the box's edge (e.g. γ at 1 − α), where the coarser restarts
+    /// stop at a corner. Whether a run converged.
+    fn polish(&mut self) -> bool {
+        let mut converged = false;
+        for step in [0.01, 0.002] {
+            let start = self.best_u.clone();
+            converged |= self.descend(&start, step).converged;
+        }
+        converged
+    }
+
     /// Restarts from the best point until they stop improving (at most 4).
     /// Whether a run converged.
     fn restart(&mut self) -> bool {
@@ -223,7 +238,7 @@ impl Problem<'_> {
     }
 }
 
-/// Estimate an ETS(A,·,·) model on `y` by maximum likelihood. `warm` (for
+/// Estimate an ETS(·,·,·) model on `y` by maximum likelihood. `warm` (for
 /// example the previous origin's parameters in an expanding or rolling window)
 /// is tried first; an incompatible warm start (wrong season length) only
 /// contributes what fits.
@@ -253,7 +268,7 @@ pub(crate) fn estimate(
     };
     let warm_u = warm.and_then(|w| u_from_params(spec, w));
     if let Some(w) = warm {
-        if spec.multiplicative() {
+        if spec.nonlinear_states() {
             if let Some(z) = z_from_params(spec, w) {
                 prob.z_start = z;
             }
@@ -270,6 +285,9 @@ pub(crate) fn estimate(
         });
     }
     any_converged |= prob.restart();
+    if spec.mult_error() {
+        any_converged |= prob.polish();
+    }
     if !any_converged {
         return Err(EtsError::NonConvergence {
             evaluations: prob.evals,
@@ -286,6 +304,9 @@ fn fit_at(spec: &EtsSpec, y: &[f64], prob: &Problem) -> Result<EtsFit, EtsError>
     let sm = smooth_from_u(spec, &prob.best_u);
     let params = params_from(spec, &sm, &prob.best_z);
     let mut st = initial_state(spec, &params);
+    if spec.mult_error() {
+        return relative_fit(spec, y, prob, params, st);
+    }
     let sse = run_filter(spec.multiplicative(), &sm, &mut st, y, None).ok_or_else(|| {
         EtsError::NonFinite {
             what: "filter at the estimated parameters".into(),
@@ -308,6 +329,43 @@ fn fit_at(spec: &EtsSpec, y: &[f64], prob: &Problem) -> Result<EtsFit, EtsError>
         loglik,
         n_params: spec.n_params(),
         nobs: n,
+        evaluations: prob.evals,
+    })
+}
+
+/// The fit of a multiplicative-error model: σ̂² = Σ ε_t²/n of the relative
+/// errors and ℓ = −n/2·(ln(2π σ̂²) + 1) − Σ ln ŷ_t (Hyndman et al. 2008,
+/// §5.2); `is_mse` stays the mean squared one-step error y_t − ŷ_t.
+fn relative_fit(
+    spec: &EtsSpec,
+    y: &[f64],
+    prob: &Problem,
+    params: EtsParams,
+    mut st: State,
+) -> Result<EtsFit, EtsError> {
+    let sm = Smooth::of(&params, spec);
+    let sums = relative_sums(spec.multiplicative(), &sm, &mut st, y).ok_or_else(|| {
+        EtsError::NonFinite {
+            what: "filter at the estimated parameters (a prediction ≤ 0?)".into(),
+        }
+    })?;
+    let nf = y.len() as f64;
+    let sigma2 = sums.sum_eps2 / nf;
+    let loglik = -0.5 * nf * ((2.0 * std::f64::consts::PI * sigma2).ln() + 1.0) - sums.sum_ln_yhat;
+    if !(sigma2 > 0.0 && loglik.is_finite()) {
+        return Err(EtsError::NonFinite {
+            what: "likelihood at the estimated parameters (a perfect fit?)".into(),
+        });
+    }
+    Ok(EtsFit {
+        spec: *spec,
+        params,
+        sse: sums.sse,
+        is_mse: sums.sse / nf,
+        sigma2,
+        loglik,
+        n_params: spec.n_params(),
+        nobs: y.len(),
         evaluations: prob.evals,
     })
 }

@@ -1,14 +1,31 @@
 //! Forecasts: the deterministic path from the filtered state (all future
-//! errors zero) and its variance, the state covariance propagated through
-//! the model linearised along that path (see the module docs).
+//! errors zero) and its variance. With an additive error the state
+//! covariance is propagated through the model linearised along that path
+//! (see the module docs). With a multiplicative error and no season the
+//! book's closed form (class 2); with a season, simulated sample paths.
 
 use super::filter::{initial_state, run_filter, Smooth, State};
 use super::{check_data, check_params, EtsError, EtsFit};
+use crate::numerics::dist::box_muller;
+use rand_chacha::ChaCha20Rng;
+use rand_core::{RngCore, SeedableRng};
+
+/// Sample paths behind a simulated forecast variance.
+pub(crate) const SIMULATED_PATHS: usize = 10_000;
 
 /// Run the filter with the fit's parameters through all of `y` (which starts
 /// at the estimation sample's first period and may extend past its end) and
 /// forecast h = 1..=max_h beyond its end: (mean, variance) per horizon.
-pub(crate) fn forecast(fit: &EtsFit, y: &[f64], max_h: usize) -> Result<Vec<(f64, f64)>, EtsError> {
+/// `seed` and `start` (the position of `y[0]`) seed the sample paths of a
+/// simulated variance, so the draws depend on the cell, the window's first
+/// position and the origin only.
+pub(crate) fn forecast(
+    fit: &EtsFit,
+    y: &[f64],
+    max_h: usize,
+    seed: u64,
+    start: usize,
+) -> Result<Vec<(f64, f64)>, EtsError> {
     let spec = &fit.spec;
     spec.validate()?;
     check_params(spec, &fit.params)?;
@@ -24,7 +41,121 @@ pub(crate) fn forecast(fit: &EtsFit, y: &[f64], max_h: usize) -> Result<Vec<(f64
     run_filter(mult, &sm, &mut st, y, None).ok_or_else(|| EtsError::NonFinite {
         what: "filtered states".into(),
     })?;
-    forecast_from_state(mult, &sm, fit.sigma2, &st, max_h)
+    let linear = forecast_from_state(mult, &sm, fit.sigma2, &st, max_h)?;
+    if !spec.mult_error() {
+        return Ok(linear);
+    }
+    let means: Vec<f64> = linear.iter().map(|p| p.0).collect();
+    let variances = if spec.has_season() {
+        let origin = start + y.len() - 1;
+        let stream = ((start as u64) << 32) ^ origin as u64;
+        simulated_variances(mult, &sm, fit.sigma2, &st, max_h, (seed, stream))
+    } else {
+        class2_variances(&sm, fit.sigma2, &means)
+    };
+    let out: Vec<(f64, f64)> = means.into_iter().zip(variances).collect();
+    if out.iter().any(|(m, v)| !(m.is_finite() && v.is_finite())) {
+        return Err(EtsError::NonFinite {
+            what: "forecast variance".into(),
+        });
+    }
+    Ok(out)
+}
+
+/// Forecast variances of ETS(M,N,N), (M,A,N) and (M,Ad,N), class 2 of
+/// Hyndman, Koehler, Ord & Snyder (2008, §6.3):
+/// v_h = (1 + σ²) θ_h − μ_h², θ_1 = μ_1², θ_h = μ_h² + σ² Σ_{j=1}^{h−1} c_j² θ_{h−j},
+/// with the class-1 weights c_j = α + β φ_j, φ_j = φ + … + φ^j (β = 0
+/// without a trend, φ = 1 without damping) and μ_h the point forecasts.
+fn class2_variances(sm: &Smooth, sigma2: f64, means: &[f64]) -> Vec<f64> {
+    let h_max = means.len();
+    let mut c = Vec::with_capacity(h_max);
+    let mut phi_j = 0.0;
+    let mut power = 1.0;
+    for _ in 1..h_max {
+        power *= sm.phi;
+        phi_j += power;
+        c.push(sm.alpha + sm.beta * phi_j);
+    }
+    let mut theta: Vec<f64> = Vec::with_capacity(h_max);
+    for (h, &mu) in means.iter().enumerate() {
+        let lagged: f64 = (1..=h).map(|j| c[j - 1] * c[j - 1] * theta[h - j]).sum();
+        theta.push(mu * mu + sigma2 * lagged);
+    }
+    theta
+        .iter()
+        .zip(means)
+        .map(|(th, mu)| ((1.0 + sigma2) * th - mu * mu).max(0.0))
+        .collect()
+}
+
+/// Forecast variances of a multiplicative-error model by simulation: from
+/// the filtered state, [`SIMULATED_PATHS`] sample paths with
+/// y_{t} = ŷ_t (1 + ε_t), ε_t ~ N(0, σ²) drawn from ChaCha20 seeded with
+/// `seed` on stream `stream`, the states advanced by the filter's
+/// equations; the variance of the paths' values at each horizon (divided
+/// by the number of paths). Non-finite paths are left out.
+fn simulated_variances(
+    mult_season: bool,
+    sm: &Smooth,
+    sigma2: f64,
+    st: &State,
+    max_h: usize,
+    (seed, stream): (u64, u64),
+) -> Vec<f64> {
+    let mut rng = ChaCha20Rng::seed_from_u64(seed);
+    rng.set_stream(stream);
+    let uniform = |rng: &mut ChaCha20Rng| (rng.next_u64() >> 11) as f64 / (1u64 << 53) as f64;
+    let sigma = sigma2.sqrt();
+    let m = st.s.len();
+    let mut sum = vec![0.0; max_h];
+    let mut sum_sq = vec![0.0; max_h];
+    let mut count = 0usize;
+    let mut draws = Vec::with_capacity(max_h + 1);
+    let mut path = vec![0.0; max_h];
+    let mut s = st.s.clone();
+    for _ in 0..SIMULATED_PATHS {
+        draws.clear();
+        while draws.len() < max_h {
+            let (z1, z2) = box_muller(1.0 - uniform(&mut rng), uniform(&mut rng));
+            draws.extend([z1, z2]);
+        }
+        let (mut l, mut b) = (st.l, st.b);
+        s.copy_from_slice(&st.s);
+        let mut finite = true;
+        for j in 0..max_h {
+            let idx = (st.t + j) % m;
+            let u = l + sm.phi * b;
+            let sv = s[idx];
+            let mean = if mult_season { u * sv } else { u + sv };
+            let e = mean * sigma * draws[j];
+            if mult_season {
+                l = u + sm.alpha * e / sv;
+                b = sm.phi * b + sm.beta * e / sv;
+                s[idx] = sv + sm.gamma * e / u;
+            } else {
+                l = u + sm.alpha * e;
+                b = sm.phi * b + sm.beta * e;
+                s[idx] = sv + sm.gamma * e;
+            }
+            path[j] = mean + e;
+            finite &= path[j].is_finite();
+        }
+        if finite {
+            count += 1;
+            for j in 0..max_h {
+                sum[j] += path[j];
+                sum_sq[j] += path[j] * path[j];
+            }
+        }
+    }
+    let nf = count as f64;
+    (0..max_h)
+        .map(|j| {
+            let mean = sum[j] / nf;
+            (sum_sq[j] / nf - mean * mean).max(0.0)
+        })
+        .collect()
 }
 
 /// Deterministic path and linearised covariance propagation from a state.

@@ -94,6 +94,8 @@ mod estimate;
 mod filter;
 mod forecast;
 #[cfg(test)]
+mod mult_tests;
+#[cfg(test)]
 mod property_tests;
 pub(crate) mod select;
 mod states;
@@ -104,7 +106,7 @@ pub(crate) use estimate::estimate;
 pub(crate) use filter::one_step_errors;
 pub(crate) use forecast::forecast;
 
-use crate::spec::{SmoothingSeason, SmoothingTrend};
+use crate::spec::{SmoothingError, SmoothingSeason, SmoothingTrend};
 use std::fmt;
 
 const PAR_LO: f64 = 1e-4;
@@ -112,11 +114,10 @@ const PAR_HI: f64 = 1.0 - 1e-4;
 const PHI_LO: f64 = 0.8;
 const PHI_HI: f64 = 0.98;
 
-/// The model of a `smoothing(trend,season)` candidate on data whose season
-/// length is `season` (None for annual and index data).
+/// The model of a `smoothing(…)` candidate's (error, trend, season) on data
+/// whose season length is `season_length` (None for annual and index data).
 pub(crate) fn spec_of(
-    trend: SmoothingTrend,
-    season: SmoothingSeason,
+    (error, trend, season): (SmoothingError, SmoothingTrend, SmoothingSeason),
     season_length: Option<usize>,
     frequency: &str,
 ) -> Result<EtsSpec, String> {
@@ -129,26 +130,30 @@ pub(crate) fn spec_of(
             ))
         }
     };
-    EtsSpec::new(trend, season, period).map_err(|e| e.to_string())
+    EtsSpec::new(trend, season, period)
+        .map(|s| s.with_error(error))
+        .map_err(|e| e.to_string())
 }
 
-/// Which ETS(A,·,·) model. `period` is the season length m (4 quarterly,
+/// Which ETS(·,·,·) model. `period` is the season length m (4 quarterly,
 /// 12 monthly, 52 weekly, 7 daily); it is ignored without a season.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 pub(crate) struct EtsSpec {
+    pub error: SmoothingError,
     pub trend: SmoothingTrend,
     pub season: SmoothingSeason,
     pub period: usize,
 }
 
 impl EtsSpec {
-    /// A validated spec: a seasonal model needs `period` ≥ 2.
+    /// A validated additive-error spec: a seasonal model needs `period` ≥ 2.
     pub(crate) fn new(
         trend: SmoothingTrend,
         season: SmoothingSeason,
         period: usize,
     ) -> Result<Self, EtsError> {
         let spec = EtsSpec {
+            error: SmoothingError::Additive,
             trend,
             season,
             period,
@@ -169,6 +174,16 @@ impl EtsSpec {
         Ok(())
     }
 
+    /// The same model with error `error`.
+    pub(crate) fn with_error(self, error: SmoothingError) -> Self {
+        EtsSpec { error, ..self }
+    }
+
+    /// Whether the error is multiplicative: y_t = ŷ_t (1 + ε_t).
+    pub(crate) fn mult_error(&self) -> bool {
+        self.error == SmoothingError::Multiplicative
+    }
+
     pub(crate) fn has_trend(&self) -> bool {
         self.trend != SmoothingTrend::None
     }
@@ -179,6 +194,13 @@ impl EtsSpec {
 
     fn multiplicative(&self) -> bool {
         self.season == SmoothingSeason::Multiplicative
+    }
+
+    /// Whether the best initial states are a nonlinear least-squares
+    /// problem (a multiplicative season or error), solved iteratively and
+    /// warm-started.
+    fn nonlinear_states(&self) -> bool {
+        self.multiplicative() || self.mult_error()
     }
 
     /// Number of seasonal slots in the filter (1 without a season).
@@ -236,7 +258,8 @@ impl EtsSpec {
             SmoothingSeason::Additive => "A",
             SmoothingSeason::Multiplicative => "M",
         };
-        format!("ETS(A,{t},{s})")
+        let e = if self.mult_error() { "M" } else { "A" };
+        format!("ETS({e},{t},{s})")
     }
 }
 
@@ -266,9 +289,12 @@ pub(crate) struct EtsFit {
     pub sse: f64,
     /// SSE / n.
     pub is_mse: f64,
-    /// Maximum-likelihood σ² = SSE / n (used by the forecast variances).
+    /// Maximum-likelihood σ² (used by the forecast variances): SSE / n with
+    /// an additive error, Σ ε_t² / n of the relative errors
+    /// ε_t = (y_t − ŷ_t)/ŷ_t with a multiplicative one.
     pub sigma2: f64,
-    /// Concentrated Gaussian log-likelihood −n/2·(ln(2π σ²) + 1).
+    /// Concentrated Gaussian log-likelihood −n/2·(ln(2π σ²) + 1), less
+    /// Σ ln ŷ_t with a multiplicative error.
     pub loglik: f64,
     /// Free parameters (smoothing + initial states; σ² not counted).
     pub n_params: usize,
@@ -286,6 +312,8 @@ pub(crate) enum EtsError {
     TooShort { needed: usize, got: usize },
     /// A multiplicative season needs strictly positive data.
     NonPositive { index: usize, value: f64 },
+    /// A multiplicative error needs strictly positive data.
+    NonPositiveForError { index: usize, value: f64 },
     /// The optimiser did not meet its tolerances within its budget.
     NonConvergence { evaluations: usize, detail: String },
     /// A non-finite input, state, likelihood or forecast.
@@ -303,6 +331,11 @@ impl fmt::Display for EtsError {
             EtsError::NonPositive { index, value } => write!(
                 f,
                 "multiplicative season needs positive data; observation {} is {value}",
+                index + 1
+            ),
+            EtsError::NonPositiveForError { index, value } => write!(
+                f,
+                "a multiplicative error needs positive data; observation {} is {value}",
                 index + 1
             ),
             EtsError::NonConvergence {
@@ -325,11 +358,13 @@ fn check_data(spec: &EtsSpec, y: &[f64]) -> Result<(), EtsError> {
             what: format!("observation {} ({})", i + 1, y[i]),
         });
     }
-    if spec.multiplicative() {
+    if spec.multiplicative() || spec.mult_error() {
         if let Some(i) = y.iter().position(|&v| v <= 0.0) {
-            return Err(EtsError::NonPositive {
-                index: i,
-                value: y[i],
+            let (index, value) = (i, y[i]);
+            return Err(if spec.multiplicative() {
+                EtsError::NonPositive { index, value }
+            } else {
+                EtsError::NonPositiveForError { index, value }
             });
         }
     }

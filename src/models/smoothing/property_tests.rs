@@ -152,6 +152,7 @@ fn typed_errors() {
         Err(EtsError::InvalidSpec { .. })
     ));
     let bad = EtsSpec {
+        error: crate::spec::SmoothingError::Additive,
         trend: SmoothingTrend::None,
         season: SmoothingSeason::Multiplicative,
         period: 1,
@@ -198,7 +199,7 @@ fn typed_errors() {
     }
     // a fit forecasts past an extended sample
     let f = estimate(&y, &ann, None).unwrap();
-    let fc = forecast(&f, &y, 3).unwrap();
+    let fc = forecast(&f, &y, 3, 0, 1).unwrap();
     assert_eq!(fc.len(), 3);
     assert!(fc.iter().all(|(m, v)| m.is_finite() && *v > 0.0));
 }
@@ -283,7 +284,7 @@ fn every_model_beats_its_generating_parameters() {
                 assert!(p.gamma > 0.0 && p.gamma < 1.0 - p.alpha);
             }
             assert!((PHI_LO..=PHI_HI).contains(&p.phi) || p.phi == 1.0);
-            let fc = forecast(&fit, &y, 14).unwrap();
+            let fc = forecast(&fit, &y, 14, 0, 1).unwrap();
             assert!(fc
                 .iter()
                 .all(|(m, v)| m.is_finite() && v.is_finite() && *v > 0.0));

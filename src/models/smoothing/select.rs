@@ -1,5 +1,5 @@
 //! `smoothing(aicc)`: inside every estimation window, each form of the
-//! trend × season grid is estimated and the one with the smallest AICc
+//! error × trend × season grid is estimated and the one with the smallest AICc
 //! forecasts (Hyndman, Koehler, Ord & Snyder 2008, ch. 7, choose by AICc).
 //! AICc = −2ℓ + 2k + 2k(k + 1)/(n − k − 1), k the free parameters plus one
 //! for σ² (Hurvich & Tsai 1989); a form with n ≤ k + 1 or that cannot be
@@ -13,6 +13,8 @@ use crate::numerics::ic::{aicc, Smallest};
 
 pub(crate) struct SmoothingSelect {
     pub specs: Vec<EtsSpec>,
+    /// The cell's seed, for simulated forecast variances.
+    pub seed: u64,
 }
 
 #[derive(Clone)]
@@ -60,11 +62,11 @@ impl Likelihood for SmoothingSelect {
         &self,
         fit: &Self::Fit,
         y: &[f64],
-        _start: usize,
+        start: usize,
         max_h: usize,
     ) -> Result<Vec<(f64, f64)>, String> {
         let chosen = fit.fits[fit.chosen].as_ref().ok_or("no chosen form")?;
-        super::forecast(chosen, y, max_h).map_err(|e| e.to_string())
+        super::forecast(chosen, y, max_h, self.seed, start).map_err(|e| e.to_string())
     }
     fn is_mse(&self, fit: &Self::Fit) -> f64 {
         fit.fits[fit.chosen].as_ref().map_or(f64::NAN, |f| f.is_mse)
@@ -77,7 +79,7 @@ impl Likelihood for SmoothingSelect {
     }
     fn order(&self, fit: &Self::Fit) -> Option<Order> {
         let s = &self.specs[fit.chosen];
-        Some(Order::Smoothing(s.trend, s.season))
+        Some(Order::Smoothing(s.error, s.trend, s.season))
     }
 }
 

@@ -81,6 +81,7 @@ fn the_choice_by_aicc_is_statsmodels_choice_where_it_is_clear() {
         }
         let model = SmoothingSelect {
             specs: specs.clone(),
+            seed: 0,
         };
         let fit = model.estimate(&y, 1, None).unwrap();
         for (i, f) in forms.iter().enumerate() {

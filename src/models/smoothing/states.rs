@@ -5,7 +5,7 @@
 //! Levenberg–Marquardt for a multiplicative season, with the Jacobian from
 //! a forward-mode (tangent) pass of the filter.
 
-use super::filter::{initial_state, run_filter, Smooth};
+use super::filter::{initial_state, relative_sums, run_filter, Smooth};
 use super::{EtsParams, EtsSpec};
 use crate::numerics::lsq::householder::least_squares;
 use crate::numerics::optimise::levenberg_marquardt::levenberg_marquardt;
@@ -259,9 +259,54 @@ fn sse_at_z(spec: &EtsSpec, sm: &Smooth, z: &[f64], y: &[f64]) -> Option<f64> {
     run_filter(spec.multiplicative(), sm, &mut st, y, None)
 }
 
+/// The least-squares form of a multiplicative-error likelihood at z:
+/// Σ (g ε_t)², g the geometric mean of the predictions (see
+/// [`super::filter::RelativeSums::scaled`]).
+fn scaled_at_z(spec: &EtsSpec, sm: &Smooth, z: &[f64], y: &[f64]) -> Option<f64> {
+    let p = params_from(spec, sm, z);
+    let mut st = initial_state(spec, &p);
+    relative_sums(spec.multiplicative(), sm, &mut st, y).map(|r| r.scaled(y.len()))
+}
+
+/// The residuals r_t = g ε_t of the multiplicative-error likelihood in
+/// least-squares form and their Jacobian (column-major n×k), from the
+/// one-step errors' tangents: with ŷ_t = y_t − e_t, ∂ε_t = ∂e_t · y_t/ŷ_t²
+/// and ∂ln g = −(1/n) Σ_t ∂e_t/ŷ_t. `None` where some ŷ_t ≤ 0.
+fn relative_residuals_jacobian(
+    spec: &EtsSpec,
+    sm: &Smooth,
+    z: &[f64],
+    y: &[f64],
+) -> Option<(Vec<f64>, Vec<f64>)> {
+    let (mut r, mut jac) = residuals_jacobian(spec, sm, z, y)?;
+    let n = y.len();
+    let yhat: Vec<f64> = y.iter().zip(&r).map(|(yt, e)| yt - e).collect();
+    if yhat.iter().any(|&v| v <= 0.0 || !v.is_finite()) {
+        return None;
+    }
+    let nf = n as f64;
+    let g = (yhat.iter().map(|v| v.ln()).sum::<f64>() / nf).exp();
+    for (rt, mu) in r.iter_mut().zip(&yhat) {
+        *rt /= mu; // ε_t
+    }
+    for col in jac.chunks_mut(n) {
+        let dlng = -col.iter().zip(&yhat).map(|(d, mu)| d / mu).sum::<f64>() / nf;
+        for t in 0..n {
+            col[t] = g * (col[t] * y[t] / (yhat[t] * yhat[t]) + r[t] * dlng);
+        }
+    }
+    for rt in &mut r {
+        *rt *= g;
+    }
+    let finite = g.is_finite() && jac.iter().all(|v| v.is_finite());
+    finite.then_some((r, jac))
+}
+
 /// Best initial states for given smoothing parameters, from `z0`.
-/// Linear models: one exact Gauss–Newton (least squares) step. Multiplicative
-/// season: Levenberg–Marquardt. Returns (SSE, z).
+/// Linear models with an additive error: one exact Gauss–Newton (least
+/// squares) step. Multiplicative season: Levenberg–Marquardt. Multiplicative
+/// error: Levenberg–Marquardt on the likelihood's least-squares form.
+/// Returns (SSE, z), the SSE of that least-squares form.
 pub(super) fn inner_solve(
     spec: &EtsSpec,
     sm: &Smooth,
@@ -269,6 +314,14 @@ pub(super) fn inner_solve(
     z0: &[f64],
 ) -> Option<(f64, Vec<f64>)> {
     let n = y.len();
+    if spec.mult_error() {
+        return levenberg_marquardt(
+            |z: &[f64]| relative_residuals_jacobian(spec, sm, z, y),
+            |z: &[f64]| scaled_at_z(spec, sm, z, y),
+            z0,
+            n,
+        );
+    }
     if spec.multiplicative() {
         return levenberg_marquardt(
             |z: &[f64]| residuals_jacobian(spec, sm, z, y),

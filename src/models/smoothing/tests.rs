@@ -143,7 +143,7 @@ fn forecast_matches_statsmodels_at_its_parameters() {
                 nobs: n,
                 evaluations: 0,
             };
-            let fc = forecast(&fit, &y, 8).unwrap();
+            let fc = forecast(&fit, &y, 8, 0, 1).unwrap();
             let mean = floats(&start["forecast"]);
             let var = floats(&start["variance"]);
             // the book's seasonal update differs slightly from statsmodels'
@@ -224,7 +224,7 @@ fn estimate_matches_or_beats_statsmodels() {
             let best = &case["starts"][case["best"].as_u64().unwrap() as usize];
             let mean = floats(&best["forecast"]);
             let var = floats(&best["variance"]);
-            let fc = forecast(&fit, &y, 8).unwrap();
+            let fc = forecast(&fit, &y, 8, 0, 1).unwrap();
             let vtol = if spec.multiplicative() { 0.06 } else { 0.03 };
             compared += 1;
             for h in 0..8 {

@@ -74,6 +74,11 @@ pub(in crate::spec) fn with_data(
                 .map(|p| (&p.scheme, &p.node))
                 .collect::<Vec<_>>(),
             horizons: &d.horizons,
+            positive_for: d
+                .candidates
+                .iter()
+                .find(|c| c.family.multiplicative_error())
+                .map(|c| c.id.as_str()),
         },
     );
     let resolved = resolved.filter(|_| d.name.is_some())?;

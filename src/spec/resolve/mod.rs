@@ -25,6 +25,9 @@ pub struct DataRequest<'a> {
     pub predictor_nodes: &'a [Node],
     pub schemes: &'a [(&'a Scheme, &'a Node)],
     pub horizons: &'a [usize],
+    /// The first candidate whose model needs every target value above 0
+    /// (a multiplicative error), if any.
+    pub positive_for: Option<&'a str>,
 }
 
 pub struct Resolved {

@@ -95,6 +95,25 @@ pub(super) fn resolve_target(
         .iter()
         .map(|v| v.unwrap_or(f64::NAN))
         .collect();
+    if let Some(candidate) = req.positive_for {
+        if let Some(i) = y.iter().position(|&v| v <= 0.0) {
+            ctx.diags.push(cell_error(
+                sel.table,
+                rows[lag + i].line,
+                col,
+                format!(
+                    "{}{} is not above 0, and candidate '{candidate}' has a multiplicative error, which needs every target value above 0; remove the candidate's multiplicative error, or transform or select the data so the series stays positive (see docs/refusals.md)",
+                    if req.transform != super::super::model::Transform::None {
+                        format!("after the transform {}, the value ", req.transform.name())
+                    } else {
+                        "the value ".to_string()
+                    },
+                    y[i]
+                ),
+            ));
+            return None;
+        }
+    }
     let labels = shared_labels
         .get_or_insert_with(|| {
             rows[lag..]
