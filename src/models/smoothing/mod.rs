@@ -93,6 +93,7 @@
 mod estimate;
 mod filter;
 mod forecast;
+mod parameters;
 #[cfg(test)]
 mod property_tests;
 pub(crate) mod select;
@@ -103,6 +104,7 @@ mod tests;
 pub(crate) use estimate::estimate;
 pub(crate) use filter::one_step_errors;
 pub(crate) use forecast::forecast;
+pub(crate) use parameters::parameters;
 
 use crate::spec::{SmoothingSeason, SmoothingTrend};
 use std::fmt;
