@@ -59,7 +59,7 @@ fn loglik(order: &ArimaOrder, w: &[f64], columns: &[Vec<f64>], x: &[f64]) -> f64
     } else {
         (ar.to_vec(), ma.to_vec())
     };
-    if !(sigma2 > 0.0) {
+    if sigma2.is_nan() || sigma2 <= 0.0 {
         return f64::NAN;
     }
     let Ok((ss, p0)) = state_space(&phi, &theta, seasonal) else {
