@@ -313,7 +313,7 @@ fn read_line(out: &mut CellOutput, tag: &str, rest: &str, line: &str) -> Result<
                     "-" => None,
                     h => Some(h.parse().map_err(|_| bad())?),
                 },
-                name: name.to_string(),
+                name: name.into(),
                 estimate: parse_num(estimate)?,
                 std_error: parse_opt(std_error)?,
             };

@@ -90,13 +90,18 @@ impl std::fmt::Display for Order {
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) struct Parameter {
     pub horizon: Option<usize>,
-    pub name: String,
+    /// Shared: a least-squares model names the same columns at every estimation.
+    pub name: std::sync::Arc<str>,
     pub estimate: f64,
     pub std_error: Option<f64>,
 }
 
 impl Parameter {
-    pub(crate) fn new(name: impl Into<String>, estimate: f64, std_error: Option<f64>) -> Self {
+    pub(crate) fn new(
+        name: impl Into<std::sync::Arc<str>>,
+        estimate: f64,
+        std_error: Option<f64>,
+    ) -> Self {
         Parameter {
             horizon: None,
             name: name.into(),

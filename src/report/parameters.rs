@@ -98,9 +98,11 @@ pub fn parameters_for(ix: &Index, t: usize, charts: bool) -> Value {
         .iter()
         .enumerate()
         .map(|(i, x)| {
+            // The rows of one horizon come in time order, so each
+            // estimation's rows are consecutive.
             let mut origins: Vec<&str> = Vec::new();
             for r in &x.rows {
-                if !origins.contains(&r.origin.as_str()) {
+                if origins.last() != Some(&r.origin.as_str()) {
                     origins.push(&r.origin);
                 }
             }
@@ -128,7 +130,6 @@ pub fn parameters_for(ix: &Index, t: usize, charts: bool) -> Value {
                 "leads_at": x.leads_at.iter().map(|h| horizon_text(Some(*h))).collect::<Vec<_>>().join(", "),
                 "regression": x.horizon.map(|h| format!("its horizon-{h} regression")),
                 "origin": last,
-                "estimations": origins.len(),
                 "rows": table,
                 "charts": drawn,
             })
@@ -159,7 +160,9 @@ fn coefficient_charts(ix: &Index, t: usize, i: usize, x: &Fitted, origins: &[&st
         .take(MAX_CHARTED)
         .enumerate()
         .map(|(j, name)| {
-            let at = |r: &&Row| origins.iter().position(|o| *o == r.origin);
+            let index: std::collections::HashMap<&str, usize> =
+                origins.iter().enumerate().map(|(i, o)| (*o, i)).collect();
+            let at = |r: &&Row| index.get(r.origin.as_str()).copied();
             let mine: Vec<&&Row> = x.rows.iter().filter(|r| r.parameter == *name).collect();
             let point = |f: &dyn Fn(&Row) -> Option<f64>| -> Vec<(f64, f64)> {
                 mine.iter()

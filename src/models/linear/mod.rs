@@ -79,6 +79,8 @@ pub(crate) struct Linear<'a> {
     /// The one-step regression's rows of a direct model whose horizons do
     /// not include 1: its residuals are the ones Ljung–Box reads.
     one_step: Option<Rows>,
+    /// The design's column names, then `sigma2`, for parameters.csv.
+    names: Vec<std::sync::Arc<str>>,
 }
 
 /// The estimators of a linear model and the estimation end they stand at
@@ -100,7 +102,11 @@ impl<'a> Linear<'a> {
             horizons.iter().map(|&h| Rows::build(&design, h)).collect()
         };
         let one_step = (!iterated && !horizons.contains(&1)).then(|| Rows::build(&design, 1));
+        let mut names: Vec<std::sync::Arc<str>> =
+            design.column_names().into_iter().map(Into::into).collect();
+        names.push("sigma2".into());
         Ok(Linear {
+            names,
             design,
             subs,
             criterion,
@@ -223,7 +229,7 @@ impl Model for Linear<'_> {
     /// their horizon, an iterated model's none. Least squares is not a
     /// likelihood fit: no fit rows.
     fn parameters(&self, fit: &mut LinearFit) -> Vec<Parameter> {
-        let names = self.design.column_names();
+        let names = &self.names;
         let mut out = Vec::new();
         for (i, est) in fit.estimators.iter().enumerate() {
             let Some((chosen, diag)) = est.solved_at(fit.end) else {
@@ -238,9 +244,9 @@ impl Model for Linear<'_> {
                 .iter()
                 .zip(columns)
                 .zip(&diag)
-                .map(|((&b, &c), &d)| Parameter::new(names[c].as_str(), b, Some((s2 * d).sqrt())));
+                .map(|((&b, &c), &d)| Parameter::new(names[c].clone(), b, Some((s2 * d).sqrt())));
             out.extend(
-                rows.chain([Parameter::new("sigma2", s2, None)])
+                rows.chain([Parameter::new(names[names.len() - 1].clone(), s2, None)])
                     .map(|p| Parameter { horizon, ..p }),
             );
         }

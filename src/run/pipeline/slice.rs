@@ -107,14 +107,20 @@ pub(super) fn slice(
         outlook_bytes,
         parameters::write(&sub, &cells, &outputs),
     ];
-    // The report shows the parameters of the leaders only.
+    // The report shows the parameters of the leaders only: every
+    // estimation where it charts them, else the last of each horizon.
+    let charted = t < report_targets(exp);
     let report_parameters = if t < report::DETAIL_TARGETS {
         let kept: Vec<CellOutput> = cells
             .iter()
             .zip(&outputs)
             .map(|(c, o)| match leaders.contains(&c.candidate) {
                 true => CellOutput {
-                    parameters: o.parameters.clone(),
+                    parameters: if charted {
+                        o.parameters.clone()
+                    } else {
+                        last_estimations(&o.parameters)
+                    },
                     failure: o.failure.clone(),
                     ..Default::default()
                 },
@@ -271,6 +277,36 @@ fn leaders(exp: &Experiment, scores: &[score::ScoreRow]) -> Vec<usize> {
     out.sort_unstable();
     out.dedup();
     out
+}
+
+/// The last estimation that holds each horizon (or the horizon-free
+/// parameters), in time order.
+fn last_estimations(all: &[backtest::Estimation]) -> Vec<backtest::Estimation> {
+    let mut seen: Vec<Option<usize>> = Vec::new();
+    let mut kept: Vec<backtest::Estimation> = Vec::new();
+    for e in all.iter().rev() {
+        let fresh: Vec<Option<usize>> = e
+            .parameters
+            .iter()
+            .map(|p| p.horizon)
+            .filter(|h| !seen.contains(h))
+            .collect();
+        if fresh.is_empty() {
+            continue;
+        }
+        kept.push(backtest::Estimation {
+            end: e.end,
+            parameters: e
+                .parameters
+                .iter()
+                .filter(|p| fresh.contains(&p.horizon))
+                .cloned()
+                .collect(),
+        });
+        seen.extend(fresh);
+    }
+    kept.reverse();
+    kept
 }
 
 /// Of each cell, the first forecast per horizon; of the benchmark, all.
