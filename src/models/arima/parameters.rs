@@ -201,7 +201,7 @@ mod tests {
             let rows = parameters(&fit, &y, &regs, &names);
             let get = |n: &str| {
                 rows.iter()
-                    .find(|p| p.name == n)
+                    .find(|p| &*p.name == n)
                     .unwrap_or_else(|| panic!("{name}: no {n}"))
             };
             for p in case["parameters"].as_array().unwrap() {

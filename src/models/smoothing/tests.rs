@@ -349,7 +349,7 @@ fn parameter_rows_match_statsmodels_at_a_sharp_optimum() {
         let rows = parameters(&fit, &y);
         let get = |name: &str| {
             rows.iter()
-                .find(|p| p.name == name)
+                .find(|p| &*p.name == name)
                 .unwrap_or_else(|| panic!("{}: no {name}", case["name"]))
                 .estimate
         };
