@@ -52,11 +52,12 @@ fn ok(args: &[&str]) {
     );
 }
 
-const TABLES: [&str; 10] = [
+const TABLES: [&str; 11] = [
     "forecasts.csv",
     "scores.csv",
     "tests.csv",
     "outlook.csv",
+    "parameters.csv",
     "stability.csv",
     "diagnostics.csv",
     "series.csv",

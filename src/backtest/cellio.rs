@@ -9,13 +9,14 @@
 //! l <estimations> <first_end> <last_end> <regressor>   (a regressor left out; none without)
 //! f <h> <origin> <forecast> <is_mse> <is_var> <variance> <order>
 //! o <h> <forecast> <variance>
+//! p <end> <h> <estimate> <std_error> <name>   (a parameter of the estimation ending at <end>)
 //! r <residual> <residual> …
 //! end
 //! ```
 //! `-` stands for an undefined value.
 
-use super::CellOutput;
-use crate::models::{ForecastRow, Order, OutlookRow};
+use super::{CellOutput, Estimation};
+use crate::models::{ForecastRow, Order, OutlookRow, Parameter};
 use crate::spec::SmoothingError;
 
 fn num(v: f64) -> String {
@@ -166,6 +167,19 @@ pub fn write_cell(id: &str, out: &CellOutput, buf: &mut String) {
             opt(r.variance)
         );
     }
+    for e in &out.parameters {
+        for p in &e.parameters {
+            let h = p.horizon.map_or_else(|| "-".to_string(), |h| h.to_string());
+            let _ = writeln!(
+                buf,
+                "p {} {h} {} {} {}",
+                e.end,
+                num(p.estimate),
+                opt(p.std_error),
+                p.name.replace('\n', " ")
+            );
+        }
+    }
     if !out.residuals.is_empty() {
         let parts: Vec<String> = out.residuals.iter().map(|v| num(*v)).collect();
         let _ = writeln!(buf, "r {}", parts.join(" "));
@@ -302,6 +316,30 @@ fn read_line(out: &mut CellOutput, tag: &str, rest: &str, line: &str) -> Result<
             forecast: parse_opt(f[1])?,
             variance: parse_opt(f[2])?,
         }),
+        "p" => {
+            let parts: Vec<&str> = rest.splitn(5, ' ').collect();
+            let bad = || format!("bad parameter line '{line}'");
+            let [end, h, estimate, std_error, name] = parts[..] else {
+                return Err(bad());
+            };
+            let end: usize = end.parse().map_err(|_| bad())?;
+            let parameter = Parameter {
+                horizon: match h {
+                    "-" => None,
+                    h => Some(h.parse().map_err(|_| bad())?),
+                },
+                name: name.into(),
+                estimate: parse_num(estimate)?,
+                std_error: parse_opt(std_error)?,
+            };
+            match out.parameters.last_mut() {
+                Some(e) if e.end == end => e.parameters.push(parameter),
+                _ => out.parameters.push(Estimation {
+                    end,
+                    parameters: vec![parameter],
+                }),
+            }
+        }
         "r" => {
             out.residuals = f.iter().map(|v| parse_num(v)).collect::<Result<_, _>>()?;
         }
@@ -341,6 +379,22 @@ mod tests {
                 last_end: 12,
             }],
             failure: Some("did not converge".into()),
+            parameters: vec![
+                Estimation {
+                    end: 12,
+                    parameters: vec![
+                        Parameter::new("rain fall_1", 0.1 + 0.7, Some(1.0 / 3.0)),
+                        Parameter {
+                            horizon: Some(4),
+                            ..Parameter::new("sigma2", 5e-324, None)
+                        },
+                    ],
+                },
+                Estimation {
+                    end: 13,
+                    parameters: vec![Parameter::new("ar1", -0.0, None)],
+                },
+            ],
             seconds: 0.0,
             cached: false,
         };
@@ -361,6 +415,11 @@ mod tests {
         );
         assert_eq!(b.residuals, out.residuals);
         assert_eq!(b.left_out, out.left_out);
+        assert_eq!(b.parameters, out.parameters);
+        assert_eq!(
+            b.parameters[1].parameters[0].estimate.to_bits(),
+            (-0.0f64).to_bits()
+        );
         assert_eq!(
             (b.fallbacks, b.failure.as_deref()),
             (2, Some("did not converge"))
@@ -400,5 +459,7 @@ mod tests {
         assert!(read_cells("cell a\nf 1 2 x - - - -\nend\n").is_err());
         assert!(read_cells("cell a\n").is_err());
         assert!(read_cells("f 1 2 3 - - - -\n").is_err());
+        assert!(read_cells("cell a\np 3 - 1\nend\n").is_err());
+        assert!(read_cells("cell a\np 3 x 1 - ar1\nend\n").is_err());
     }
 }

@@ -10,8 +10,8 @@ pub(crate) mod cellio;
 
 use crate::error::{Diagnostic, Error, Location, Result};
 use crate::models::{
-    self, combination, CellModel, EstimationProblem, ForecastRow, Model, OutlookRow, Problem,
-    Registry,
+    self, combination, CellModel, EstimationProblem, ForecastRow, Model, OutlookRow, Parameter,
+    Problem, Registry,
 };
 use crate::plan::{self, Cell, Schedule};
 use crate::progress::Progress;
@@ -35,10 +35,20 @@ pub(crate) struct CellOutput {
     /// estimate to N): one-step errors, for direct models those of their
     /// h = 1 regression (see `Model::residuals`).
     pub residuals: Vec<f64>,
+    /// The parameters of every estimation of the backtest, in time order
+    /// (the outlook's estimation at N is not one of them).
+    pub parameters: Vec<Estimation>,
     /// Wall-clock seconds the cell took (recorded only in the manifest's `run` section).
     pub seconds: f64,
     /// Whether the output came from the resume cache (recorded only under `run`).
     pub cached: bool,
+}
+
+/// The parameters of one estimation, ending at position `end`.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct Estimation {
+    pub end: usize,
+    pub parameters: Vec<Parameter>,
 }
 
 /// A regressor column left out of `estimations` estimations of a cell, the
@@ -246,6 +256,10 @@ impl models::Visitor for OriginLoop<'_> {
             }
             if new_end {
                 record_left_out(&mut out.left_out, model.left_out(fit), end);
+                out.parameters.push(Estimation {
+                    end,
+                    parameters: model.parameters(fit),
+                });
             }
         }
         if let Some(p) = problems.into_iter().flatten().next() {
@@ -490,6 +504,24 @@ pub(crate) fn check_output(
     }
     if out.residuals.len() > target.n {
         return Err("more residuals than observations".into());
+    }
+    for e in &out.parameters {
+        if e.end == 0 || e.end > target.n {
+            return Err(format!(
+                "parameters of an estimation ending at position {}",
+                e.end
+            ));
+        }
+        if let Some(h) = e
+            .parameters
+            .iter()
+            .filter_map(|p| p.horizon)
+            .find(|h| !exp.horizons.contains(h))
+        {
+            return Err(format!(
+                "parameters of horizon {h}, not a horizon of the plan"
+            ));
+        }
     }
     Ok(())
 }

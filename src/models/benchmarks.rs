@@ -9,7 +9,7 @@
 //! seasonal naive (⌊(h − 1)/m⌋ + 1)·σ̂² with σ̂² the mean squared seasonal
 //! change, all over the estimation sample.
 
-use super::{Model, Problem, Step};
+use super::{Model, Parameter, Problem, Step};
 use crate::spec::{Family, TargetData};
 
 /// A simple family's forecast at origin T for horizon h with estimation
@@ -176,6 +176,46 @@ impl Model for Benchmark<'_> {
     fn residuals(&self, fit: &mut Sample, end: usize) -> Vec<f64> {
         residuals(self.family, self.y, fit.start, end, self.season)
     }
+
+    fn parameters(&self, fit: &mut Sample) -> Vec<Parameter> {
+        parameters(self.family, self.y, fit, self.season)
+    }
+}
+
+/// What a benchmark estimates on a..=E: the mean (`constant`, s.e. σ̂/√n)
+/// and drift (`drift`, the mean one-step change, s.e. σ̂/√(E − a)), and
+/// every benchmark's `sigma2`, the σ̂² its intervals use (module docs).
+fn parameters(family: &Family, y: &[f64], fit: &Sample, season: Option<usize>) -> Vec<Parameter> {
+    let origin = fit.end;
+    let Ok(f) = simple_forecast(family, y, origin, 1, fit.start, fit.end, season) else {
+        return Vec::new();
+    };
+    let Some(sigma2) = f.variance else {
+        return Vec::new();
+    };
+    let mut out = Vec::new();
+    match family {
+        Family::Mean => {
+            let n = (fit.end + 1 - fit.start) as f64;
+            out.push(Parameter::new(
+                "constant",
+                f.forecast,
+                Some((sigma2 / n).sqrt()),
+            ));
+        }
+        Family::Drift => {
+            let steps = (fit.end - fit.start) as f64;
+            let slope = (y[fit.end - 1] - y[fit.start - 1]) / steps;
+            out.push(Parameter::new(
+                "drift",
+                slope,
+                Some((sigma2 / steps).sqrt()),
+            ));
+        }
+        _ => {}
+    }
+    out.push(Parameter::new("sigma2", sigma2, None));
+    out
 }
 
 /// In-sample residuals of a simple family over the estimation sample a..=E:

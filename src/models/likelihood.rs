@@ -8,7 +8,7 @@
 //! - a forecast filters from the sample's start to the origin (beyond the
 //!   estimation sample under a fixed scheme) and forecasts beyond it.
 
-use super::{Model, Order, Problem, Step};
+use super::{Model, Order, Parameter, Problem, Step};
 use crate::numerics::ic::Smallest;
 
 /// A model estimated by maximum likelihood on a sample of observations.
@@ -44,6 +44,9 @@ pub(crate) trait Likelihood {
             })
             .collect()
     }
+    /// The rows of parameters.csv of an estimate on `y` (its estimation
+    /// sample, from position `start`): the chosen order's for a selection.
+    fn parameters(&self, fit: &Self::Fit, y: &[f64], start: usize) -> Vec<Parameter>;
     /// The order chosen, for families that select one.
     fn order(&self, _fit: &Self::Fit) -> Option<Order> {
         None
@@ -64,6 +67,8 @@ pub(crate) struct OnSeries<'a, L> {
 pub(crate) struct SampleFit<F> {
     fit: F,
     start: usize,
+    /// The estimation end.
+    end: usize,
 }
 
 impl<L: Likelihood> Model for OnSeries<'_, L> {
@@ -73,7 +78,7 @@ impl<L: Likelihood> Model for OnSeries<'_, L> {
     fn fit(&self, end: usize, window: Option<usize>) -> Result<Self::Fit, String> {
         let start = crate::plan::window_start(end, window);
         let fit = self.model.estimate(&self.y[start - 1..end], start, None)?;
-        Ok(SampleFit { fit, start })
+        Ok(SampleFit { fit, start, end })
     }
 
     fn update(&self, fit: &mut Self::Fit, end: usize, window: Option<usize>) -> Result<(), String> {
@@ -81,7 +86,11 @@ impl<L: Likelihood> Model for OnSeries<'_, L> {
         let next = self
             .model
             .estimate(&self.y[start - 1..end], start, Some(&fit.fit))?;
-        *fit = SampleFit { fit: next, start };
+        *fit = SampleFit {
+            fit: next,
+            start,
+            end,
+        };
         Ok(())
     }
 
@@ -136,6 +145,11 @@ impl<L: Likelihood> Model for OnSeries<'_, L> {
     fn left_out(&self, fit: &mut Self::Fit) -> Vec<String> {
         self.model.left_out(&fit.fit)
     }
+
+    fn parameters(&self, fit: &mut Self::Fit) -> Vec<Parameter> {
+        self.model
+            .parameters(&fit.fit, &self.y[fit.start - 1..fit.end], fit.start)
+    }
 }
 
 /// Exponential smoothing through [`super::smoothing`].
@@ -171,6 +185,9 @@ impl Likelihood for Smoothing {
     fn residuals(&self, fit: &Self::Fit, y: &[f64], _start: usize) -> Vec<f64> {
         super::smoothing::one_step_errors(&fit.spec, &fit.params, y).unwrap_or_default()
     }
+    fn parameters(&self, fit: &Self::Fit, y: &[f64], _start: usize) -> Vec<Parameter> {
+        super::smoothing::parameters(fit, y)
+    }
 }
 
 /// The theta method through [`super::theta`]: estimated in closed form
@@ -199,6 +216,9 @@ impl Likelihood for super::theta::Theta {
     }
     fn residuals(&self, fit: &Self::Fit, y: &[f64], _start: usize) -> Vec<f64> {
         self.one_step_errors(fit, y).1
+    }
+    fn parameters(&self, fit: &Self::Fit, y: &[f64], _start: usize) -> Vec<Parameter> {
+        super::theta::Theta::parameters(self, fit, y)
     }
 }
 
@@ -295,6 +315,29 @@ fn arima_forecast(
     super::arima::forecast(fit, y, &columns, steps).map_err(|e| e.to_string())
 }
 
+/// The parameters of an arima fit on its sample `y` from `start`, less
+/// the skipped observations, with the regressors' columns over it.
+fn arima_parameters(
+    regressors: &Regressors,
+    fit: &super::arima::ArimaFit,
+    (y, start, skip): (&[f64], usize, usize),
+) -> Vec<Parameter> {
+    if regressors.values.is_empty() {
+        return super::arima::parameters(fit, y, &[], &[]);
+    }
+    let Some(y) = y.get(skip..) else {
+        return Vec::new();
+    };
+    let columns: Vec<Vec<f64>> = (0..regressors.values.len())
+        .map(|j| {
+            (0..y.len())
+                .map(|i| regressors.at(j, start + skip + i).unwrap_or(0.0))
+                .collect()
+        })
+        .collect();
+    super::arima::parameters(fit, y, &columns, &regressors.names)
+}
+
 /// arima(p,d,q)(P,D,Q)m, with regressors, through [`super::arima`].
 pub(crate) struct Arima {
     pub order: super::arima::ArimaOrder,
@@ -334,6 +377,9 @@ impl Likelihood for Arima {
     }
     fn left_out(&self, fit: &Self::Fit) -> Vec<String> {
         self.regressors.names_of(&fit.fit.left_out)
+    }
+    fn parameters(&self, fit: &Self::Fit, y: &[f64], start: usize) -> Vec<Parameter> {
+        arima_parameters(&self.regressors, &fit.fit, (y, start, fit.skip))
     }
 }
 
@@ -475,5 +521,10 @@ impl Likelihood for ArimaSelect {
         fit.fits[fit.chosen]
             .as_ref()
             .map_or_else(Vec::new, |f| self.regressors.names_of(&f.left_out))
+    }
+    fn parameters(&self, fit: &Self::Fit, y: &[f64], start: usize) -> Vec<Parameter> {
+        fit.fits[fit.chosen].as_ref().map_or_else(Vec::new, |f| {
+            arima_parameters(&self.regressors, f, (y, start, fit.skip))
+        })
     }
 }

@@ -94,6 +94,50 @@ impl std::fmt::Display for Order {
     }
 }
 
+/// One estimated parameter of an estimation (SPEC §7.4), named as
+/// parameters.csv names it; `horizon` is Some for a direct model's
+/// regression of that horizon, None where the estimate serves every horizon.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct Parameter {
+    pub horizon: Option<usize>,
+    /// Shared: a least-squares model names the same columns at every estimation.
+    pub name: std::sync::Arc<str>,
+    pub estimate: f64,
+    pub std_error: Option<f64>,
+}
+
+impl Parameter {
+    pub(crate) fn new(
+        name: impl Into<std::sync::Arc<str>>,
+        estimate: f64,
+        std_error: Option<f64>,
+    ) -> Self {
+        Parameter {
+            horizon: None,
+            name: name.into(),
+            estimate,
+            std_error: std_error.filter(|s| s.is_finite()),
+        }
+    }
+}
+
+/// The fit rows of a Gaussian likelihood ℓ with k parameters (σ² counted)
+/// on n observations: loglik, aic, aicc, bic, estimates only (aicc is
+/// left out when n ≤ k + 1, where it does not exist).
+pub(crate) fn fit_rows(loglik: f64, k: usize, n: usize) -> Vec<Parameter> {
+    use crate::numerics::ic;
+    let bic = ic::from_loglik(loglik, k, (n as f64).ln());
+    [
+        Parameter::new("loglik", loglik, None),
+        Parameter::new("aic", ic::from_loglik(loglik, k, 2.0), None),
+        Parameter::new("aicc", ic::aicc(loglik, k, n), None),
+        Parameter::new("bic", bic, None),
+    ]
+    .into_iter()
+    .filter(|p| p.estimate.is_finite())
+    .collect()
+}
+
 /// One forecast beyond the data, from origin N.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub(crate) struct OutlookRow {
@@ -180,6 +224,12 @@ pub(crate) trait Model {
     fn left_out(&self, _fit: &mut Self::Fit) -> Vec<String> {
         Vec::new()
     }
+
+    /// The parameters of the current estimate (SPEC §7.4), asked after the
+    /// forecasts of each estimation end: for a model that selects its
+    /// order, the chosen order's; a direct model only the horizons it
+    /// estimated at this end.
+    fn parameters(&self, fit: &mut Self::Fit) -> Vec<Parameter>;
 }
 
 /// What runs a model: the registry hands it the concrete model of a cell.

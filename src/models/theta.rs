@@ -184,6 +184,33 @@ impl Theta {
         Ok(fit)
     }
 
+    /// The rows of parameters.csv of an estimate on `y` (its sample):
+    /// `alpha` with the standard error of the observed information of
+    /// simple exponential smoothing's likelihood with σ² concentrated
+    /// out, ℓ(α) = −m/2·ln(SSE(α)/m) + const over the m = n − 1 one-step
+    /// errors (none when α is on the edge of [0, 1]); `drift`, b0/2; and
+    /// `sigma2`, the mean squared one-step error of the theta forecasts
+    /// on the adjusted scale. The line's slope and the seasonal indices
+    /// are estimated by least squares and averaging, not by the
+    /// likelihood: no standard errors, no fit rows.
+    pub(crate) fn parameters(&self, fit: &ThetaFit, y: &[f64]) -> Vec<super::Parameter> {
+        let x = Self::adjusted(&fit.indices, y);
+        let m = (x.len() - 1) as f64;
+        let interior = fit.alpha > 1e-6 && fit.alpha < 1.0 - 1e-6;
+        let se = interior
+            .then(|| {
+                let profile = |a: &[f64]| -0.5 * m * (ses_sse(&x, a[0]) / m).ln();
+                crate::numerics::hessian::covariance(profile, &[fit.alpha], &[0.1])
+            })
+            .flatten()
+            .map(|c| c[0].max(0.0).sqrt());
+        vec![
+            super::Parameter::new("alpha", fit.alpha, se),
+            super::Parameter::new("drift", 0.5 * fit.b0, None),
+            super::Parameter::new("sigma2", fit.sigma2, None),
+        ]
+    }
+
     /// One-step errors of the theta forecasts over a sample (from its second
     /// value on): on the adjusted scale and in the data's units.
     pub(crate) fn one_step_errors(&self, fit: &ThetaFit, y: &[f64]) -> (Vec<f64>, Vec<f64>) {

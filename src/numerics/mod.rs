@@ -6,6 +6,7 @@
 
 pub(crate) mod acov;
 pub(crate) mod dist;
+pub(crate) mod hessian;
 pub(crate) mod ic;
 pub(crate) mod lsq;
 pub(crate) mod optimise;

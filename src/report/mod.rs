@@ -4,7 +4,7 @@
 //! tables into typed rows, [`view`] holds them with the grid and the
 //! checked declaration's settings and indexes them, one module per section
 //! turns the view into that section's part of the report-data value
-//! ([`verdict`], [`rankings`], [`overfitting`], [`significance`],
+//! ([`verdict`], [`rankings`], [`overfitting`], [`parameters`], [`significance`],
 //! [`over_time`], [`outlook`], [`data`], [`record`]), [`parts`] assembles
 //! the value target by target, and the minijinja templates in `templates/`
 //! lay it out ([`render`]). Charts are inline SVG built in [`charts`];
@@ -17,6 +17,7 @@ mod format;
 mod outlook;
 mod over_time;
 mod overfitting;
+mod parameters;
 mod parts;
 mod rankings;
 mod record;

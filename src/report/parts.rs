@@ -9,6 +9,7 @@ use super::format::{best_words, metric_words, slug, transform_words};
 use super::outlook::outlook_for;
 use super::over_time::over_time_for;
 use super::overfitting::overfitting_for;
+use super::parameters::parameters_for;
 use super::rankings::rankings_for;
 use super::record::{self, record};
 use super::significance::tests_for;
@@ -147,6 +148,7 @@ fn target_part(ix: &Index, t: usize, draw: bool) -> TargetPart {
         full["outlook"] = outlook_for(ix, t, series, charts);
         full["rankings"] = rankings_for(ix, t);
         full["overfitting"] = overfitting_for(ix, t, charts);
+        full["parameters"] = parameters_for(ix, t, charts);
         full["tests"] = tests_for(ix, t);
         full["over_time"] = over_time_for(ix, t, series, charts);
         full["data"] = data_for(ix, t, series, charts);

@@ -1,8 +1,8 @@
 //! results: everything a results folder holds. Each output table is a
 //! module with its file name, its columns, its writer and its reader of
 //! typed rows, used alike by `run`, `render`, `verify` and `merge`
-//! (`forecasts`, `scores`, `tests`, `outlook`, `stability`, `diagnostics`,
-//! `series`); `text` is the number text and the CSV reader they share,
+//! (`forecasts`, `scores`, `tests`, `outlook`, `parameters`, `stability`,
+//! `diagnostics`, `series`); `text` is the number text and the CSV reader they share,
 //! `grid` the ids the tables name and `rows` all of a folder's rows read
 //! together. The manifest is a typed value; `folder` writes a results
 //! folder whole or not at all; `shard` is a shard folder's files.
@@ -13,6 +13,7 @@ pub(crate) mod forecasts;
 pub(crate) mod grid;
 pub(crate) mod manifest;
 pub(crate) mod outlook;
+pub(crate) mod parameters;
 pub(crate) mod rows;
 pub(crate) mod scores;
 pub(crate) mod series;

@@ -7,7 +7,7 @@
 
 use super::grid::Grid;
 use super::text::ReadError;
-use super::{diagnostics, forecasts, outlook, scores, series, stability, tests};
+use super::{diagnostics, forecasts, outlook, parameters, scores, series, stability, tests};
 use std::borrow::Cow;
 use std::collections::BTreeMap;
 use std::io::Read;
@@ -26,6 +26,8 @@ pub struct Rows {
     pub tests: Vec<tests::Row>,
     pub forecasts: forecasts::Forecasts,
     pub outlook: Vec<outlook::Row>,
+    /// parameters.csv's rows (of the targets kept).
+    pub parameters: Vec<parameters::Row>,
     pub stability: stability::Stability,
     pub series: Vec<series::Series>,
     pub diagnostics: Vec<diagnostics::Row>,
@@ -73,8 +75,8 @@ impl Rows {
     }
 
     /// The rows of the folder `dir` against `grid`, given its scores.csv
-    /// (read already, for the grid). Of forecasts.csv, stability.csv and
-    /// series.csv only the targets `keep` accepts are kept (every
+    /// (read already, for the grid). Of forecasts.csv, parameters.csv,
+    /// stability.csv and series.csv only the targets `keep` accepts are kept (every
     /// predictor series is).
     pub fn read_folder(
         dir: &Path,
@@ -120,6 +122,9 @@ impl Rows {
         if let Some(bytes) = small(outlook::FILE)? {
             rows.outlook = outlook::read(&bytes, &lookup)?;
         }
+        if let Some(input) = source.stream(parameters::FILE)? {
+            rows.parameters = parameters::read(input, &lookup, &|t, _| keep(t))?;
+        }
         if let Some(input) = source.stream(stability::FILE)? {
             rows.stability = stability::read(input, &lookup, keep)?;
         }
@@ -144,6 +149,7 @@ impl Rows {
             self.forecasts.entry(k).or_default().extend(v);
         }
         self.outlook.extend(next.outlook);
+        self.parameters.extend(next.parameters);
         for (k, v) in next.stability {
             self.stability.entry(k).or_default().extend(v);
         }

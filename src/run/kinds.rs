@@ -39,12 +39,26 @@ pub fn text() -> String {
         ("ljung_box", "autocorrelation left in a model's in-sample residuals (Ljung & Box 1978); diagnostics.csv"),
         ("adf", "augmented Dickey-Fuller unit-root test, AIC lag length, MacKinnon p-values (Said & Dickey 1984; MacKinnon 1994, 2010); diagnostics.csv"),
     ];
+    // The parameter names each family writes to parameters.csv.
+    let parameters: &[(&str, &str)] = &[
+        ("naive", "sigma2"),
+        ("mean", "constant, sigma2"),
+        ("drift", "drift, sigma2"),
+        ("seasonal_naive", "sigma2"),
+        ("ar", "constant, trend, ar1..arp (ar1 the latest value), sigma2; per horizon when direct"),
+        ("ardl", "as ar, then <predictor>_1..q per predictor (_1 its latest usable value)"),
+        ("arima", "ar1.., ma1.., sar1.., sma1.., constant (d + D = 0) or drift, <regressor> per predictor or dummy, sigma2, loglik, aic, aicc, bic"),
+        ("smoothing", "alpha, beta, gamma, phi (as the form has them), level_0, slope_0, season_0_1..m, sigma2, loglik, aic, aicc, bic"),
+        ("theta", "alpha, drift (half the line's slope), sigma2"),
+        ("combination", "none: its weights follow from the members' past errors; the members' parameters are written"),
+    ];
     let mut out = String::new();
     for (title, rows) in [
         ("model families", families),
         ("metrics", metrics),
         ("tests (keys of scoring.tests)", tests),
         ("always run (not keys of scoring.tests)", always),
+        ("parameters.csv names (docs/results-folder.md)", parameters),
     ] {
         out.push_str(title);
         out.push('\n');

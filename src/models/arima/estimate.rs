@@ -55,17 +55,21 @@ fn min_obs(order: &ArimaOrder, columns: usize) -> usize {
 /// regressors that are not left out), the regressors left out, and x, the
 /// series the start values are computed from (w centred on its mean, or
 /// its least-squares residuals on the columns).
-struct Prepared {
-    w: Vec<f64>,
-    columns: Vec<Vec<f64>>,
+pub(super) struct Prepared {
+    pub(super) w: Vec<f64>,
+    pub(super) columns: Vec<Vec<f64>>,
     /// Index of each regressor in `columns` (None: left out).
-    used: Vec<Option<usize>>,
+    pub(super) used: Vec<Option<usize>>,
     x: Vec<f64>,
 }
 
 /// The modelled series and its regression columns, after the checks on
 /// order, data and length.
-fn prepare(y: &[f64], order: &ArimaOrder, regressors: &[Vec<f64>]) -> Result<Prepared, ArimaError> {
+pub(super) fn prepare(
+    y: &[f64],
+    order: &ArimaOrder,
+    regressors: &[Vec<f64>],
+) -> Result<Prepared, ArimaError> {
     check_order(order)?;
     if !y.iter().all(|v| v.is_finite()) {
         return Err(ArimaError::NonFinite { context: "data" });

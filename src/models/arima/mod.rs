@@ -89,6 +89,7 @@ mod covariance;
 mod estimate;
 mod forecast;
 mod kalman;
+mod parameters;
 mod poly;
 mod regression;
 mod reparam;
@@ -101,6 +102,7 @@ mod tests;
 use crate::spec::Criterion;
 pub(crate) use estimate::estimate;
 pub(crate) use forecast::forecast;
+pub(crate) use parameters::parameters;
 use reparam::coef_to_pacf;
 use std::fmt;
 

@@ -14,6 +14,8 @@ pub(crate) struct Design<'a> {
     /// (values at positions 1.., release lag, known ahead)
     pub(super) predictors: Vec<(&'a [Option<f64>], usize, bool)>,
     pub(super) predictor_lags: usize,
+    /// The predictors' column names, for parameters.csv.
+    pub(super) predictor_names: Vec<&'a str>,
 }
 
 impl<'a> Design<'a> {
@@ -54,11 +56,32 @@ impl<'a> Design<'a> {
             lags,
             predictors,
             predictor_lags,
+            predictor_names: preds
+                .iter()
+                .map(|&i| exp.predictors[i].column.as_str())
+                .collect(),
         })
     }
 
     pub fn coefficients(&self) -> usize {
         self.trend.terms() + self.lags + self.predictor_lags * self.predictors.len()
+    }
+
+    /// The name of every column of a row (SPEC §7.4): `constant`, `trend`,
+    /// `ar1..` (ar1 the latest value), `<predictor>_1..` (the latest first).
+    pub fn column_names(&self) -> Vec<String> {
+        let mut names = Vec::with_capacity(self.coefficients());
+        if self.trend != Trend::None {
+            names.push("constant".to_string());
+        }
+        if self.trend == Trend::Linear {
+            names.push("trend".to_string());
+        }
+        names.extend((1..=self.lags).map(|j| format!("ar{j}")));
+        for p in &self.predictor_names {
+            names.extend((1..=self.predictor_lags).map(|j| format!("{p}_{j}")));
+        }
+        names
     }
 
     /// Regressors at origin s for a dependent value at position s + h; false

@@ -89,6 +89,17 @@ impl Estimator {
         self.chosen.as_ref().ok_or(LinalgError::NonFinite)
     }
 
+    /// The solved submodel at `end` and the diagonal of its (X′X)⁻¹, if
+    /// this estimator was solved there (a direct model solves only the
+    /// horizons it forecasts at an end).
+    pub(super) fn solved_at(&self, end: usize) -> Option<(&Chosen, Vec<f64>)> {
+        if self.last_end != Some(end) {
+            return None;
+        }
+        let chosen = self.chosen.as_ref()?;
+        Some((chosen, self.ls[chosen.index].xtx_inv_diag()))
+    }
+
     /// Residuals of the estimation at `end` for the chosen submodel, in time order.
     pub(super) fn residuals(&self, inp: &Inputs, end: usize, chosen: &Chosen) -> Vec<f64> {
         let mut rows: Vec<usize> = (1..=end.saturating_sub(self.h))

@@ -12,7 +12,7 @@
 //! on that sample gives the forecast, so nothing after the estimation end is
 //! ever looked at.
 
-use super::{CellModel, Model, Order, Problem, Step};
+use super::{CellModel, Model, Order, Parameter, Problem, Step};
 use crate::numerics::lsq::Solution;
 use crate::spec::{Criterion, Trend};
 
@@ -79,6 +79,8 @@ pub(crate) struct Linear<'a> {
     /// The one-step regression's rows of a direct model whose horizons do
     /// not include 1: its residuals are the ones Ljung–Box reads.
     one_step: Option<Rows>,
+    /// The design's column names, then `sigma2`, for parameters.csv.
+    names: Vec<std::sync::Arc<str>>,
 }
 
 /// The estimators of a linear model and the estimation end they stand at
@@ -100,7 +102,11 @@ impl<'a> Linear<'a> {
             horizons.iter().map(|&h| Rows::build(&design, h)).collect()
         };
         let one_step = (!iterated && !horizons.contains(&1)).then(|| Rows::build(&design, 1));
+        let mut names: Vec<std::sync::Arc<str>> =
+            design.column_names().into_iter().map(Into::into).collect();
+        names.push("sigma2".into());
         Ok(Linear {
+            names,
             design,
             subs,
             criterion,
@@ -215,6 +221,36 @@ impl Model for Linear<'_> {
                 ))
             })
             .collect()
+    }
+
+    /// The coefficients of each regression solved at the current end with
+    /// their classical standard errors s·√((X′X)⁻¹)_jj, s² = SSR/(n − k),
+    /// and `sigma2` = s² (no standard error); a direct model's rows carry
+    /// their horizon, an iterated model's none. Least squares is not a
+    /// likelihood fit: no fit rows.
+    fn parameters(&self, fit: &mut LinearFit) -> Vec<Parameter> {
+        let names = &self.names;
+        let mut out = Vec::new();
+        for (i, est) in fit.estimators.iter().enumerate() {
+            let Some((chosen, diag)) = est.solved_at(fit.end) else {
+                continue;
+            };
+            let horizon = (!self.iterated).then(|| self.horizons[i]);
+            let s2 = chosen.solution.sigma2();
+            let columns = &self.subs[chosen.index].columns;
+            let rows = chosen
+                .solution
+                .coef
+                .iter()
+                .zip(columns)
+                .zip(&diag)
+                .map(|((&b, &c), &d)| Parameter::new(names[c].clone(), b, Some((s2 * d).sqrt())));
+            out.extend(
+                rows.chain([Parameter::new(names[names.len() - 1].clone(), s2, None)])
+                    .map(|p| Parameter { horizon, ..p }),
+            );
+        }
+        out
     }
 
     /// The one-step regression's residuals at `end` (the cell's last

@@ -95,6 +95,7 @@ mod filter;
 mod forecast;
 #[cfg(test)]
 mod mult_tests;
+mod parameters;
 #[cfg(test)]
 mod property_tests;
 pub(crate) mod select;
@@ -105,6 +106,7 @@ mod tests;
 pub(crate) use estimate::estimate;
 pub(crate) use filter::one_step_errors;
 pub(crate) use forecast::forecast;
+pub(crate) use parameters::parameters;
 
 use crate::spec::{SmoothingError, SmoothingSeason, SmoothingTrend};
 use std::fmt;

@@ -77,6 +77,16 @@ impl Likelihood for SmoothingSelect {
             .and_then(|f| super::one_step_errors(&f.spec, &f.params, y).ok())
             .unwrap_or_default()
     }
+    fn parameters(
+        &self,
+        fit: &Self::Fit,
+        y: &[f64],
+        _start: usize,
+    ) -> Vec<crate::models::Parameter> {
+        fit.fits[fit.chosen]
+            .as_ref()
+            .map_or_else(Vec::new, |f| super::parameters(f, y))
+    }
     fn order(&self, fit: &Self::Fit) -> Option<Order> {
         let s = &self.specs[fit.chosen];
         Some(Order::Smoothing(s.error, s.trend, s.season))

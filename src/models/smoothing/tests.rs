@@ -316,3 +316,84 @@ fn estimated_params_are_consistent() {
     assert!(fit.params.beta < fit.params.alpha && fit.params.gamma < 1.0 - fit.params.alpha);
     assert!(fit.params.phi == 1.0);
 }
+
+/// parameters.csv's smoothing rows against statsmodels ETSModel's
+/// estimates (smoothing_level, smoothing_trend, smoothing_seasonal,
+/// damping_trend, initial_level, initial_trend, initial_seasonal oldest
+/// first) on every case with a sharp optimum that both reach: the weights,
+/// and the initial states once statsmodels' are normalised as ours are
+/// (seasonal states summing to 0, the mean moved into the level; the
+/// likelihood does not change). Multiplicative seasons are compared on
+/// their weights only.
+#[test]
+fn parameter_rows_match_statsmodels_at_a_sharp_optimum() {
+    let r = load();
+    let mut compared = 0;
+    let (mut worst_weight, mut worst_state): (f64, f64) = (0.0, 0.0);
+    for case in r["cases"].as_array().unwrap() {
+        let spec = spec_of(case);
+        let y = floats(&case["y"]);
+        let sd = case["sd"].as_f64().unwrap();
+        let best_mse = case["best_mse"].as_f64().unwrap();
+        let fit = estimate(&y, &spec, None).unwrap();
+        if !(case["sharp"].as_bool().unwrap() && fit.is_mse >= best_mse * (1.0 - 1e-4)) {
+            continue;
+        }
+        let best = &case["starts"][case["best"].as_u64().unwrap() as usize];
+        let mut want = ref_params(best);
+        if spec.season == SmoothingSeason::Additive {
+            let shift = want.season0.iter().sum::<f64>() / want.season0.len() as f64;
+            want.season0.iter_mut().for_each(|s| *s -= shift);
+            want.level0 += shift;
+        }
+        let rows = parameters(&fit, &y);
+        let get = |name: &str| {
+            rows.iter()
+                .find(|p| &*p.name == name)
+                .unwrap_or_else(|| panic!("{}: no {name}", case["name"]))
+                .estimate
+        };
+        let mut weights = vec![("alpha", want.alpha)];
+        if spec.has_trend() {
+            weights.push(("beta", want.beta));
+        }
+        if spec.has_season() {
+            weights.push(("gamma", want.gamma));
+        }
+        if spec.trend == SmoothingTrend::Damped {
+            weights.push(("phi", want.phi));
+        }
+        for (name, w) in weights {
+            let gap = (get(name) - w).abs();
+            worst_weight = worst_weight.max(gap);
+            assert!(gap <= 5e-3, "{} {name}: {} vs {w}", case["name"], get(name));
+        }
+        if !spec.multiplicative() {
+            let mut states = vec![("level_0".to_string(), want.level0)];
+            if spec.has_trend() {
+                states.push(("slope_0".to_string(), want.trend0));
+            }
+            for (j, s) in want.season0.iter().enumerate() {
+                states.push((format!("season_0_{}", j + 1), *s));
+            }
+            for (name, w) in states {
+                let gap = (get(&name) - w).abs() / sd;
+                worst_state = worst_state.max(gap);
+                assert!(
+                    gap <= 5e-3,
+                    "{} {name}: {} vs {w}",
+                    case["name"],
+                    get(&name)
+                );
+            }
+        }
+        // σ² is SSE/n, as statsmodels' mse.
+        assert!((get("sigma2") - fit.is_mse).abs() <= 1e-12 * fit.is_mse);
+        compared += 1;
+    }
+    eprintln!(
+        "parameters compared on {compared} sharp cases: worst weight gap {worst_weight:.2e}, \
+         worst initial-state gap {worst_state:.2e} sd"
+    );
+    assert!(compared >= 20, "too few sharp cases compared: {compared}");
+}

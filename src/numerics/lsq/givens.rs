@@ -220,6 +220,27 @@ impl LeastSquares {
     pub fn ssr(&self) -> f64 {
         self.ssr
     }
+
+    /// The diagonal of (X′X)⁻¹ = R⁻¹R⁻ᵀ: the squared row norms of R⁻¹,
+    /// for the classical standard errors s·√((X′X)⁻¹)_jj. R⁻¹ is upper
+    /// triangular and found column by column by back substitution.
+    #[allow(clippy::needless_range_loop)]
+    pub fn xtx_inv_diag(&self) -> Vec<f64> {
+        let k = self.k;
+        let mut inv = vec![0.0; k * k];
+        for c in 0..k {
+            for i in (0..=c).rev() {
+                let mut acc = if i == c { 1.0 } else { 0.0 };
+                for j in (i + 1)..=c {
+                    acc -= self.r[i * k + j] * inv[j * k + c];
+                }
+                inv[i * k + c] = acc / self.r[i * k + i];
+            }
+        }
+        (0..k)
+            .map(|i| (i..k).map(|c| inv[i * k + c] * inv[i * k + c]).sum())
+            .collect()
+    }
 }
 
 #[cfg(test)]

@@ -122,6 +122,16 @@ fn check(case: &Case) {
         case.resid_sd * case.resid_sd * dof,
         8.0,
     );
+    // The classical standard errors parameters.csv writes: s·√((X′X)⁻¹)ⱼⱼ
+    // from the Givens factor, against the certified standard deviations.
+    for (j, (d, &c)) in ls.xtx_inv_diag().iter().zip(&case.se).enumerate() {
+        report.require(
+            &format!("Givens se B{j}"),
+            (sol.sigma2() * d).sqrt(),
+            c,
+            8.0,
+        );
+    }
     // The Householder path, as the ADF regressions use it.
     let cols: Vec<Vec<f64>> = (0..k)
         .map(|j| case.x.iter().map(|row| row[j]).collect())

@@ -111,6 +111,10 @@ impl Model for Reader<'_> {
     fn residuals(&self, _fit: &mut bool, _end: usize) -> Vec<f64> {
         Vec::new()
     }
+
+    fn parameters(&self, _fit: &mut bool) -> Vec<crate::models::Parameter> {
+        Vec::new()
+    }
 }
 
 /// The families, with candidate 0 (`naive`) replaced by the reader.

@@ -27,7 +27,7 @@ use sha2::{Digest, Sha256};
 use std::path::Path;
 
 /// The tables a folder holds, in manifest order (the reports and manifest follow).
-pub(super) const TABLES: [&str; 8] = [
+pub(super) const TABLES: [&str; 9] = [
     "forecasts.csv",
     "scores.csv",
     "tests.csv",
@@ -36,6 +36,7 @@ pub(super) const TABLES: [&str; 8] = [
     "series.csv",
     "experiment.yaml",
     "outlook.csv",
+    "parameters.csv",
 ];
 
 /// A stream for each table, created in `dir`.

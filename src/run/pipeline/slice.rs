@@ -7,7 +7,9 @@ use crate::backtest::{self, CellOutput};
 use crate::plan;
 use crate::report;
 use crate::results::manifest;
-use crate::results::{self, diagnostics, forecasts, outlook, scores, series, stability};
+use crate::results::{
+    self, diagnostics, forecasts, outlook, parameters, scores, series, stability,
+};
 use crate::results::{Rows, Tables};
 use crate::score;
 use crate::spec::Experiment;
@@ -24,7 +26,7 @@ fn report_targets(exp: &Experiment) -> usize {
 
 /// One target's slice of every table.
 pub(super) struct Slice {
-    pub tables: [Vec<u8>; 8],
+    pub tables: [Vec<u8>; 9],
     /// The rows the report reads of this target, parsed from its slice of
     /// the tables exactly as `outturn render` parses a whole folder, and the
     /// target's part of the report built from them.
@@ -66,6 +68,7 @@ pub(super) fn slice(
         fluctuation,
         scores_bytes,
         mut tests,
+        leaders,
         diagnostics_bytes,
         series,
         report_series,
@@ -107,7 +110,32 @@ pub(super) fn slice(
             Vec::new()
         },
         outlook_bytes,
+        parameters::write(&sub, &cells, &outputs),
     ];
+    // The report shows the parameters of the leaders only: every
+    // estimation where it charts them, else the last of each horizon.
+    let charted = t < report_targets(exp);
+    let report_parameters = if t < report::DETAIL_TARGETS {
+        let kept: Vec<CellOutput> = cells
+            .iter()
+            .zip(&outputs)
+            .map(|(c, o)| match leaders.contains(&c.candidate) {
+                true => CellOutput {
+                    parameters: if charted {
+                        o.parameters.clone()
+                    } else {
+                        last_estimations(&o.parameters)
+                    },
+                    failure: o.failure.clone(),
+                    ..Default::default()
+                },
+                false => CellOutput::default(),
+            })
+            .collect();
+        parameters::write(&sub, &cells, &kept)
+    } else {
+        header(&tables[8]).to_vec()
+    };
     // The report reads every small table whole; of the large ones only the
     // rows it draws (none of stability.csv beyond the charted targets: that
     // table is left out).
@@ -119,6 +147,7 @@ pub(super) fn slice(
                 "forecasts.csv" => &report_forecasts,
                 "stability.csv" => &report_stability,
                 "series.csv" => &report_series,
+                "parameters.csv" => &report_parameters,
                 _ => table,
             };
             (name, keep)
@@ -148,6 +177,8 @@ struct Formatted {
     fluctuation: Vec<score::comparison::TestRow>,
     scores_bytes: Vec<u8>,
     tests: Vec<score::comparison::TestRow>,
+    /// The candidates that lead some scheme at some horizon.
+    leaders: Vec<usize>,
     diagnostics_bytes: Vec<u8>,
     series: Vec<u8>,
     report_series: Vec<u8>,
@@ -190,7 +221,7 @@ fn formatted(
     let scores_part = || {
         let scores = score::scores(sub, errors);
         let tests = score::comparison::run(sub, errors);
-        (scores::write(sub, &scores), tests)
+        (scores::write(sub, &scores), tests, leaders(sub, &scores))
     };
     let rest_part = || {
         let diagnostics = score::stability::diagnostics(sub, cells, outputs, t == 0);
@@ -209,7 +240,7 @@ fn formatted(
     };
     let (
         ((forecasts_bytes, report_forecasts), (stability_bytes, report_stability, fluctuation)),
-        ((scores_bytes, tests), (diagnostics_bytes, series, report_series, outlook_bytes)),
+        ((scores_bytes, tests, leaders), (diagnostics_bytes, series, report_series, outlook_bytes)),
     ) = rayon::join(
         || rayon::join(forecasts_part, stability_part),
         || rayon::join(scores_part, rest_part),
@@ -222,11 +253,66 @@ fn formatted(
         fluctuation,
         scores_bytes,
         tests,
+        leaders,
         diagnostics_bytes,
         series,
         report_series,
         outlook_bytes,
     }
+}
+
+/// The candidate the report names as the leader of each scheme at each
+/// listed horizon (the whole sample's rank 1 that is not the benchmark,
+/// the first candidate on ties: `report::Index::leaders`), once each.
+fn leaders(exp: &Experiment, scores: &[score::ScoreRow]) -> Vec<usize> {
+    let mut best: std::collections::BTreeMap<(usize, usize), (usize, usize)> = Default::default();
+    for r in scores {
+        let (None, Some(h)) = (r.period_set, r.horizon) else {
+            continue;
+        };
+        if r.candidate == exp.benchmark {
+            continue;
+        }
+        let key = (r.scheme, h);
+        let value = (r.rank, r.candidate);
+        best.entry(key)
+            .and_modify(|b| *b = (*b).min(value))
+            .or_insert(value);
+    }
+    let mut out: Vec<usize> = best.values().map(|&(_, c)| c).collect();
+    out.sort_unstable();
+    out.dedup();
+    out
+}
+
+/// The last estimation that holds each horizon (or the horizon-free
+/// parameters), in time order.
+fn last_estimations(all: &[backtest::Estimation]) -> Vec<backtest::Estimation> {
+    let mut seen: Vec<Option<usize>> = Vec::new();
+    let mut kept: Vec<backtest::Estimation> = Vec::new();
+    for e in all.iter().rev() {
+        let fresh: Vec<Option<usize>> = e
+            .parameters
+            .iter()
+            .map(|p| p.horizon)
+            .filter(|h| !seen.contains(h))
+            .collect();
+        if fresh.is_empty() {
+            continue;
+        }
+        kept.push(backtest::Estimation {
+            end: e.end,
+            parameters: e
+                .parameters
+                .iter()
+                .filter(|p| fresh.contains(&p.horizon))
+                .cloned()
+                .collect(),
+        });
+        seen.extend(fresh);
+    }
+    kept.reverse();
+    kept
 }
 
 /// Of each cell, the first forecast per horizon; of the benchmark, all.
