@@ -7,6 +7,8 @@
 
 pub(crate) mod cache;
 pub(crate) mod cellio;
+mod single;
+pub(crate) use single::{from_scratch, time_one_estimation, Recomputed};
 
 use crate::error::{Diagnostic, Error, Location, Result};
 use crate::models::{
@@ -325,85 +327,6 @@ pub(crate) fn run_cell_in<R: Registry>(
         })?
 }
 
-/// One origin's forecasts from an estimation made from scratch at its
-/// estimation end: what the look-ahead audit recomputes.
-struct FromScratch<'a> {
-    end: usize,
-    window: Option<usize>,
-    origin: usize,
-    horizons: &'a [usize],
-}
-
-/// A forecast of one horizon, or why it could not be made.
-pub(crate) type Recomputed = std::result::Result<ForecastRow, String>;
-
-impl models::Visitor for FromScratch<'_> {
-    type Out = std::result::Result<Vec<Recomputed>, String>;
-    fn visit<M: Model>(self, model: &M) -> Self::Out {
-        let mut fit = model.fit(self.end, self.window)?;
-        Ok(self
-            .horizons
-            .iter()
-            .zip(model.forecast(&mut fit, self.origin, self.horizons))
-            .map(|(&horizon, step)| {
-                step.map(|step| ForecastRow {
-                    horizon,
-                    origin: self.origin,
-                    forecast: step.forecast,
-                    is_mse: step.is_mse,
-                    is_var: step.is_var,
-                    variance: step.variance,
-                    order: step.order,
-                })
-                .map_err(|p| p.message)
-            })
-            .collect())
-    }
-}
-
-/// The forecasts of `cell` from `origin` at `horizons` (ascending), its
-/// model estimated from scratch at that origin's estimation end on
-/// `target` (the cell's target, or a copy of it with other data): Err when
-/// the model cannot be built or the estimation fails.
-pub(crate) fn from_scratch<R: Registry>(
-    registry: &R,
-    exp: &Experiment,
-    target: &crate::spec::TargetData,
-    cell: &Cell,
-    origin: usize,
-    horizons: &[usize],
-) -> std::result::Result<Vec<Recomputed>, String> {
-    let schedule = schedule_of(exp, cell);
-    let model = CellModel {
-        exp,
-        family: &exp.candidates[cell.candidate].family,
-        target,
-        seed: models::cell_seed(exp.seed, &cell.id),
-    };
-    let visitor = FromScratch {
-        end: schedule.estimation_end(origin),
-        window: schedule.window(),
-        origin,
-        horizons,
-    };
-    registry.visit(&model, visitor)?
-}
-
-/// Times one estimation of a cell's model at its first estimation end.
-struct TimeOneFit {
-    end: usize,
-    window: Option<usize>,
-}
-
-impl models::Visitor for TimeOneFit {
-    type Out = std::result::Result<f64, String>;
-    fn visit<M: Model>(self, model: &M) -> std::result::Result<f64, String> {
-        let started = std::time::Instant::now();
-        model.fit(self.end, self.window)?;
-        Ok(started.elapsed().as_secs_f64())
-    }
-}
-
 /// The schedule of a cell.
 pub(crate) fn schedule_of<'a>(exp: &'a Experiment, cell: &Cell) -> Schedule<'a> {
     let target = &exp.targets[cell.target];
@@ -423,35 +346,6 @@ pub(crate) fn estimations(exp: &Experiment, cell: &Cell) -> usize {
         .collect();
     ends.dedup();
     ends.len()
-}
-
-/// The seconds one estimation of the cell's model takes at its first
-/// origin, or why that estimation fails; `Err` when the model cannot be
-/// built on these data at all (the run refuses such a cell), as a
-/// diagnostic at the candidate's line.
-pub(crate) fn time_one_estimation(
-    exp: &Experiment,
-    cell: &Cell,
-) -> std::result::Result<std::result::Result<f64, String>, Diagnostic> {
-    let schedule = schedule_of(exp, cell);
-    let model = CellModel {
-        exp,
-        family: &exp.candidates[cell.candidate].family,
-        target: &exp.targets[cell.target],
-        seed: models::cell_seed(exp.seed, &cell.id),
-    };
-    let timer = TimeOneFit {
-        end: schedule.first_origin,
-        window: schedule.window(),
-    };
-    models::visit(&model, timer).map_err(|message| {
-        let p = EstimationProblem {
-            horizon: 0,
-            origin: 0,
-            message,
-        };
-        problem_diagnostic(exp, cell, &p)
-    })
 }
 
 /// Whether a cell's output read back from a file (a shard folder, the

@@ -139,6 +139,9 @@ pub fn parameters_for(ix: &Index, t: usize, charts: bool) -> Value {
 }
 
 /// Each coefficient of a leader across its estimations, with ±2 s.e.
+///
+/// One function because the estimate line, both bands, the zero line and
+/// the number table share one pass over the estimations.
 fn coefficient_charts(ix: &Index, t: usize, i: usize, x: &Fitted, origins: &[&str]) -> Vec<Value> {
     let g = &ix.f.grid;
     let mut names: Vec<&str> = Vec::new();

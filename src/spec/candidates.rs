@@ -74,6 +74,9 @@ pub(super) fn decode_candidate(
 }
 
 /// The benchmarks, ar and ardl: lags or an order chosen by `select`, and a trend.
+///
+/// The keys shared by the lag families are decoded in turn, then one arm
+/// per family expands the grid: the length is the key and family count.
 fn decode_lag_family(
     ctx: &mut Ctx,
     item: &Node,

@@ -75,6 +75,9 @@ pub(super) struct Decoded {
 
 /// Read every key of the experiment file. None only when the file is not a
 /// mapping at all; otherwise problems are in `ctx`.
+///
+/// One call per top-level key, in the file's order of meaning: the length
+/// is the key count (each section's rules live in its own function).
 pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
     let top = ctx.map(root, "the experiment", TOP_KEYS, &[])?;
     let anchor = top.anchor();

@@ -15,6 +15,9 @@ use super::{
 
 /// `family: arima`: p, d, q grids (and seasonal ones), a drift,
 /// regressors, or an order chosen by `select`.
+///
+/// The keys are decoded one after another, a few lines each, so that every
+/// problem is listed with its own line; the length is the key count.
 pub(super) fn decode_arima(
     ctx: &mut Ctx,
     item: &Node,
@@ -331,6 +334,9 @@ fn expand_select(
 /// `family: smoothing`: error × trend × season grids. Ids name the error
 /// only when it is multiplicative (`smoothing(mult,damped,additive)`), so
 /// additive-error ids are those of the additive-only family.
+///
+/// The three grids and `select` are decoded in turn, then expanded: the
+/// length is the key count.
 pub(super) fn decode_smoothing(ctx: &mut Ctx, item: &Node, path: &str, out: &mut Vec<Candidate>) {
     let line = item.line;
     let Some(view) = ctx.map(

@@ -46,6 +46,9 @@ pub(super) fn header(bytes: &[u8]) -> &[u8] {
 
 /// Score, test and format one target. `outputs` are its cells in plan order
 /// (candidates × schemes), combinations not yet formed.
+///
+/// Its length is the list of a target's tables, made in a fixed order from
+/// the same scored rows (each table's own code lives in `results/`).
 pub(super) fn slice(
     progress: &dyn crate::progress::Progress,
     exp: &Experiment,

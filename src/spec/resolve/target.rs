@@ -49,6 +49,10 @@ impl Selection<'_> {
 /// Target `name` (its column `col`) resolved, or None (reported). Every
 /// target has the same rows, so the same period labels: `shared_labels`
 /// holds them once made.
+///
+/// One function because each step (the column, its transform, the span, the
+/// first origins, the predictors) narrows what the next may use, and each
+/// reports against the same target.
 pub(super) fn resolve_target(
     ctx: &mut Ctx,
     sel: &Selection,
