@@ -193,6 +193,10 @@ impl OriginLoop<'_> {
 impl models::Visitor for OriginLoop<'_> {
     type Out = std::result::Result<CellOutput, EstimationProblem>;
 
+    /// The origin loop itself, written once for every family: estimate,
+    /// refit or update as the schedule says, forecast, record parameters
+    /// and left-out columns. One function because those steps share the
+    /// estimate and the schedule's position at every origin.
     fn visit<M: Model>(self, model: &M) -> Self::Out {
         let sched = self.schedule;
         let horizons = self.horizons;
