@@ -67,6 +67,24 @@ fn theta_candidates_are_named_and_run() {
         scores.contains("\ny,theta(mult),expanding,4,all,"),
         "{scores}"
     );
+    // The gap compares like with like (docs/verdict.md): theta's in-sample
+    // error is one step ahead, so it has a gap at horizon 1 only.
+    let mut lines = scores.lines();
+    let header: Vec<&str> = lines.next().unwrap().split(',').collect();
+    let col = |name: &str| header.iter().position(|h| *h == name).unwrap();
+    let (cand, hor, gap) = (col("candidate"), col("horizon"), col("gap"));
+    let mut seen = 0;
+    for line in lines {
+        let f: Vec<&str> = line.split(',').collect();
+        if f[cand].starts_with("theta") && f[col("period_set")] == "all" {
+            seen += 1;
+            match f[hor] {
+                "1" => assert!(!f[gap].is_empty(), "{line}"),
+                _ => assert!(f[gap].is_empty(), "{line}"),
+            }
+        }
+    }
+    assert!(seen >= 4, "{scores}");
 }
 
 #[test]

@@ -251,7 +251,7 @@ pub fn in_sample_rmse(e: &Errors) -> Option<f64> {
 pub fn in_sample_comparable(exp: &Experiment, candidate: usize, horizon: Option<usize>) -> bool {
     let one_step_only = match &exp.candidates[candidate].family {
         Family::Drift | Family::Arima { .. } | Family::ArimaSelect { .. } => true,
-        Family::Smoothing { .. } => true,
+        Family::Smoothing { .. } | Family::SmoothingSelect { .. } | Family::Theta { .. } => true,
         Family::Ar { .. } | Family::ArSelect { .. } => exp.multi_step == MultiStep::Iterated,
         _ => false,
     };
