@@ -123,3 +123,36 @@ fn multiplicative_error_ids_orders_and_thread_independence() {
         u
     });
 }
+
+/// A horizon's simulated interval does not depend on which other horizons
+/// are listed (each sample path reads its own block of the stream; by
+/// construction): the h = 3 rows with horizons [3, 6] equal those of a run
+/// asking for h = 3 alone (which draws paths of 3 steps instead of 6).
+#[test]
+fn simulated_variances_do_not_depend_on_the_other_horizons() {
+    let dir = scratch("horizons");
+    let yaml = std::fs::read_to_string(experiment(&dir)).unwrap();
+    let rows = |text: &str| -> Vec<String> {
+        text.lines()
+            .filter(|l| {
+                l.contains("\"smoothing(mult,none,multiplicative)\"") && l.contains(",expanding,3,")
+            })
+            .map(String::from)
+            .collect()
+    };
+    let mut got = Vec::new();
+    for (name, horizons) in [("both", "[3, 6]"), ("alone", "[3]")] {
+        let exp = dir.join(format!("{name}.yaml"));
+        std::fs::write(
+            &exp,
+            yaml.replace("horizons: [1, 6]", &format!("horizons: {horizons}")),
+        )
+        .unwrap();
+        got.push(rows(&run(&exp, &dir.join(name), "2")));
+    }
+    assert!(!got[0].is_empty());
+    assert_eq!(
+        got[0], got[1],
+        "h = 3 rows differ when h = 6 is also listed"
+    );
+}

@@ -89,6 +89,10 @@ fn class2_variances(sm: &Smooth, sigma2: f64, means: &[f64]) -> Vec<f64> {
         .collect()
 }
 
+/// 32-bit words of the random stream reserved for one sample path: 2²⁰
+/// words, 2¹⁸ normal pairs, far more than the longest horizon allowed.
+const PATH_BLOCK_WORDS: u128 = 1 << 20;
+
 /// Forecast variances of a multiplicative-error model by simulation: from
 /// the filtered state, [`SIMULATED_PATHS`] sample paths with
 /// y_{t} = ŷ_t (1 + ε_t), ε_t ~ N(0, σ²) drawn from ChaCha20 seeded with
@@ -114,7 +118,11 @@ fn simulated_variances(
     let mut draws = Vec::with_capacity(max_h + 1);
     let mut path = vec![0.0; max_h];
     let mut s = st.s.clone();
-    for _ in 0..SIMULATED_PATHS {
+    for k in 0..SIMULATED_PATHS {
+        // Each path reads its own fixed block of the stream, so a path's
+        // first h draws (and the variance at h) do not depend on how many
+        // horizons are asked for.
+        rng.set_word_pos(k as u128 * PATH_BLOCK_WORDS);
         draws.clear();
         while draws.len() < max_h {
             let (z1, z2) = box_muller(1.0 - uniform(&mut rng), uniform(&mut rng));
@@ -150,8 +158,18 @@ fn simulated_variances(
         }
     }
     let nf = count as f64;
+    // One step ahead the variance is exact: ŷ² σ² (Hyndman et al. 2008, ch. 6).
+    let first = {
+        let u = st.l + sm.phi * st.b;
+        let sv = st.s[st.t % m];
+        let mean = if mult_season { u * sv } else { u + sv };
+        mean * mean * sigma2
+    };
     (0..max_h)
         .map(|j| {
+            if j == 0 {
+                return first;
+            }
             let mean = sum[j] / nf;
             (sum_sq[j] / nf - mean * mean).max(0.0)
         })
