@@ -156,3 +156,40 @@ fn simulated_variances_do_not_depend_on_the_other_horizons() {
         "h = 3 rows differ when h = 6 is also listed"
     );
 }
+
+/// parameters.csv of a multiplicative-error model: σ² is the variance of
+/// the relative errors, and its standard error from the observed
+/// information is σ̂²·√(2/n), the maximum-likelihood result for a normal
+/// variance (common practice), whatever the error's form.
+#[test]
+fn the_relative_error_variance_has_its_normal_theory_standard_error() {
+    let dir = scratch("sigma2");
+    let yaml = std::fs::read_to_string(experiment(&dir))
+        .unwrap()
+        .replace(
+            "schemes: [{expanding: {first_origin: 1959-12, refit_every: 4}}]",
+            "schemes: [{fixed: {test_start: 1958-01}}]",
+        )
+        .replace("horizons: [1, 6]", "horizons: [1]");
+    let exp = dir.join("fixed.yaml");
+    std::fs::write(&exp, yaml).unwrap();
+    run(&exp, &dir.join("res"), "1");
+    let table = std::fs::read_to_string(dir.join("res/parameters.csv")).unwrap();
+    let n = 108.0; // 1949-01 .. 1957-12
+    let mut seen = 0;
+    for line in table.lines().filter(|l| l.contains(",sigma2,")) {
+        if !line.contains("smoothing(mult,") {
+            continue;
+        }
+        let f: Vec<&str> = line.rsplitn(3, ',').collect();
+        let (se, est): (f64, f64) = (f[0].parse().unwrap(), f[1].parse().unwrap());
+        assert!(est > 0.0 && est < 0.05, "a relative-error variance: {line}");
+        let want = est * (2.0f64 / n).sqrt();
+        assert!(
+            (se / want - 1.0).abs() < 0.05,
+            "{line}: s.e. {se} against {want}"
+        );
+        seen += 1;
+    }
+    assert!(seen >= 1, "{table}");
+}

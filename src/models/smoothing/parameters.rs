@@ -99,7 +99,8 @@ fn with(fit: &EtsFit, slots: &[Slot], x: &[f64]) -> EtsParams {
 /// The rows of parameters.csv of an estimate on `y` (its estimation
 /// sample): alpha, beta, gamma, phi as the form has them, level_0,
 /// slope_0, season_0_1..m (season_0_1 the oldest, s_{1−m}; season_0_m the
-/// state just before the sample, s_0), sigma2 (SSE/n), then loglik, aic,
+/// state just before the sample, s_0), sigma2 (SSE/n, or Σε²/n of the
+/// relative errors with a multiplicative error), then loglik, aic,
 /// aicc, bic (k = free parameters + 1 for σ², n observations).
 pub(crate) fn parameters(fit: &EtsFit, y: &[f64]) -> Vec<Parameter> {
     let slots = slots(fit);
@@ -115,13 +116,25 @@ pub(crate) fn parameters(fit: &EtsFit, y: &[f64]) -> Vec<Parameter> {
     x.push(fit.sigma2);
     scale.push(fit.sigma2);
     let n = y.len() as f64;
+    let mult = fit.spec.mult_error();
     let loglik = |v: &[f64]| {
         let sigma2 = v[v.len() - 1];
         let p = with(fit, &slots, &v[..v.len() - 1]);
         match super::one_step_errors(&fit.spec, &p, y) {
             Ok(e) if sigma2 > 0.0 => {
-                let sse: f64 = e.iter().map(|e| e * e).sum();
-                -0.5 * n * (2.0 * std::f64::consts::PI * sigma2).ln() - sse / (2.0 * sigma2)
+                // Additive error: Σ e²; multiplicative: Σ ε² of the relative
+                // errors ε = e/ŷ plus the Σ ln|ŷ| term (Hyndman et al. 2008, ch. 5).
+                let (ss, log_yhat) = if mult {
+                    e.iter().zip(y).fold((0.0, 0.0), |(ss, lj), (e, y)| {
+                        let yhat = y - e;
+                        (ss + (e / yhat).powi(2), lj + yhat.abs().ln())
+                    })
+                } else {
+                    (e.iter().map(|e| e * e).sum(), 0.0)
+                };
+                -0.5 * n * (2.0 * std::f64::consts::PI * sigma2).ln()
+                    - ss / (2.0 * sigma2)
+                    - log_yhat
             }
             _ => f64::NAN,
         }

@@ -77,7 +77,7 @@ pub enum Family {
     },
     /// ardl with p ∈ 0..=max_lags and q ∈ 1..=max_lags chosen inside every
     /// training window. (`predictors` of ardl families index the declared
-    /// predictors followed by the dummy columns, as arima's `regressors`.)
+    /// predictors only: `check` refuses dummies in ardl.)
     ArdlSelect {
         criterion: Criterion,
         max_lags: usize,
