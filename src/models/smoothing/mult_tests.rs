@@ -6,6 +6,7 @@
 
 use super::filter::log_likelihood;
 use super::select::fit_aicc;
+use super::tests::{floats, ref_params};
 use super::*;
 use serde_json::Value;
 
@@ -19,48 +20,9 @@ fn load() -> Value {
     serde_json::from_str(&text).expect("valid JSON")
 }
 
+/// A case's form, with the multiplicative error.
 fn spec_of(case: &Value) -> EtsSpec {
-    let trend = match case["trend"].as_str().unwrap() {
-        "none" => SmoothingTrend::None,
-        "additive" => SmoothingTrend::Additive,
-        "damped" => SmoothingTrend::Damped,
-        t => panic!("trend {t}"),
-    };
-    let season = match case["season"].as_str().unwrap() {
-        "none" => SmoothingSeason::None,
-        "additive" => SmoothingSeason::Additive,
-        "multiplicative" => SmoothingSeason::Multiplicative,
-        s => panic!("season {s}"),
-    };
-    EtsSpec::new(trend, season, case["period"].as_u64().unwrap() as usize)
-        .unwrap()
-        .with_error(SmoothingError::Multiplicative)
-}
-
-fn floats(v: &Value) -> Vec<f64> {
-    v.as_array()
-        .unwrap()
-        .iter()
-        .map(|x| x.as_f64().unwrap())
-        .collect()
-}
-
-fn ref_params(start: &Value) -> EtsParams {
-    EtsParams {
-        alpha: start["alpha"].as_f64().unwrap(),
-        beta: start["beta"].as_f64().unwrap(),
-        gamma: start["gamma"].as_f64().unwrap(),
-        phi: start["phi"].as_f64().unwrap(),
-        level0: start["initial_level"].as_f64().unwrap(),
-        trend0: start
-            .get("initial_trend")
-            .and_then(Value::as_f64)
-            .unwrap_or(0.0),
-        season0: start
-            .get("initial_seasonal")
-            .map(floats)
-            .unwrap_or_default(),
-    }
+    super::tests::spec_of(case).with_error(SmoothingError::Multiplicative)
 }
 
 fn fit_at_reference(spec: EtsSpec, p: EtsParams, y: &[f64], llf: f64) -> EtsFit {

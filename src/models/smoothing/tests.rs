@@ -14,7 +14,7 @@ fn load() -> Value {
     serde_json::from_str(&text).expect("valid JSON")
 }
 
-fn spec_of(case: &Value) -> EtsSpec {
+pub(super) fn spec_of(case: &Value) -> EtsSpec {
     let trend = match case["trend"].as_str().unwrap() {
         "none" => SmoothingTrend::None,
         "additive" => SmoothingTrend::Additive,
@@ -30,7 +30,7 @@ fn spec_of(case: &Value) -> EtsSpec {
     EtsSpec::new(trend, season, case["period"].as_u64().unwrap() as usize).unwrap()
 }
 
-fn floats(v: &Value) -> Vec<f64> {
+pub(super) fn floats(v: &Value) -> Vec<f64> {
     v.as_array()
         .unwrap()
         .iter()
@@ -38,7 +38,7 @@ fn floats(v: &Value) -> Vec<f64> {
         .collect()
 }
 
-fn ref_params(start: &Value) -> EtsParams {
+pub(super) fn ref_params(start: &Value) -> EtsParams {
     EtsParams {
         alpha: start["alpha"].as_f64().unwrap(),
         beta: start["beta"].as_f64().unwrap(),
