@@ -4,7 +4,7 @@
 //! tables into typed rows, [`view`] holds them with the grid and the
 //! checked declaration's settings and indexes them, one module per section
 //! turns the view into that section's part of the report-data value
-//! ([`verdict`], [`rankings`], [`overfitting`], [`parameters`], [`significance`],
+//! ([`summary`] across targets, [`verdict`], [`rankings`], [`overfitting`], [`parameters`], [`significance`],
 //! [`over_time`], [`outlook`], [`data`], [`record`]), [`parts`] assembles
 //! the value target by target, and the minijinja templates in `templates/`
 //! lay it out ([`render`]). Charts are inline SVG built in [`charts`];
@@ -23,6 +23,7 @@ mod rankings;
 mod record;
 pub(crate) mod render;
 mod significance;
+mod summary;
 mod verdict;
 mod view;
 

@@ -198,7 +198,8 @@ pub fn report_data(
         verdict_rows.extend(part.rows);
         statuses.extend(part.statuses);
     }
-    let data = run_data(&ix, manifest, &statuses);
+    let mut data = run_data(&ix, manifest, &statuses);
+    data["summary"] = super::summary::summary_for(&ix, draw);
     // To template values: the targets' parts are converted already.
     let Value::Object(map) = data else {
         unreachable!("the report data is an object")

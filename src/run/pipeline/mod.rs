@@ -192,6 +192,7 @@ pub fn produce(
         cell_facts: Vec::new(),
         failed: 0,
         audit: None,
+        summary: Vec::new(),
     };
     if ctx.threads <= 1 {
         // One thread of work means one: compute and write in turn.
@@ -213,6 +214,7 @@ pub fn produce(
         cell_facts,
         failed,
         audit,
+        summary,
     } = w;
     ctx.step("tables streamed");
     debug_assert_eq!(
@@ -223,7 +225,22 @@ pub fn produce(
         .iter()
         .filter_map(|c| Some((c.id.clone(), c.failure.clone()?)))
         .collect();
-    let (outputs, files) = close_streams(streams)?;
+    let (mut outputs, files) = close_streams(streams)?;
+    // The summary across targets, with two or more of them.
+    let mut report_rows = report_rows;
+    if exp.targets.len() >= 2 {
+        let rows = score::summary::summarise(exp, &summary);
+        let bytes = crate::results::summary::write(exp, &rows);
+        outputs.push(write_file(
+            dir,
+            crate::results::summary::FILE,
+            &bytes,
+            ctx.durable,
+        )?);
+        if let Some(Ok(r)) = report_rows.as_mut() {
+            r.summary = rows;
+        }
+    }
     // The large tables reach the disk while the reports are rendered.
     let durable = ctx.durable;
     let syncing = std::thread::spawn(move || -> Result<()> {

@@ -35,6 +35,8 @@ pub(super) struct Slice {
     pub failed: usize,
     /// The look-ahead audit of this target's cells, when asked for.
     pub audit: Option<crate::run::audit::AuditOutcome>,
+    /// What the summary across targets takes of this target's scores.
+    pub summary: Vec<score::summary::Entry>,
 }
 
 pub(super) fn header(bytes: &[u8]) -> &[u8] {
@@ -72,6 +74,7 @@ pub(super) fn slice(
         scores_bytes,
         mut tests,
         leaders,
+        summary,
         diagnostics_bytes,
         series,
         report_series,
@@ -168,6 +171,7 @@ pub(super) fn slice(
         cells: cells_facts,
         failed: outputs.iter().filter(|o| o.failure.is_some()).count(),
         audit,
+        summary,
     }
 }
 
@@ -182,6 +186,7 @@ struct Formatted {
     tests: Vec<score::comparison::TestRow>,
     /// The candidates that lead some scheme at some horizon.
     leaders: Vec<usize>,
+    summary: Vec<score::summary::Entry>,
     diagnostics_bytes: Vec<u8>,
     series: Vec<u8>,
     report_series: Vec<u8>,
@@ -224,7 +229,14 @@ fn formatted(
     let scores_part = || {
         let scores = score::scores(sub, errors);
         let tests = score::comparison::run(sub, errors);
-        (scores::write(sub, &scores), tests, leaders(sub, &scores))
+        let mut summary = score::summary::entries(sub, &scores);
+        summary.iter_mut().for_each(|e| e.target = t);
+        (
+            scores::write(sub, &scores),
+            tests,
+            leaders(sub, &scores),
+            summary,
+        )
     };
     let rest_part = || {
         let diagnostics = score::stability::diagnostics(sub, cells, outputs, t == 0);
@@ -243,7 +255,10 @@ fn formatted(
     };
     let (
         ((forecasts_bytes, report_forecasts), (stability_bytes, report_stability, fluctuation)),
-        ((scores_bytes, tests, leaders), (diagnostics_bytes, series, report_series, outlook_bytes)),
+        (
+            (scores_bytes, tests, leaders, summary),
+            (diagnostics_bytes, series, report_series, outlook_bytes),
+        ),
     ) = rayon::join(
         || rayon::join(forecasts_part, stability_part),
         || rayon::join(scores_part, rest_part),
@@ -257,6 +272,7 @@ fn formatted(
         scores_bytes,
         tests,
         leaders,
+        summary,
         diagnostics_bytes,
         series,
         report_series,
