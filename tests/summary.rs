@@ -225,3 +225,104 @@ fn one_target_has_no_summary() {
         .contains("## Across the"));
     let _ = std::fs::remove_dir_all(&out);
 }
+
+/// With `report.targets: 3` of six targets, the three with the largest gain
+/// over the benchmark (1 − lowest other RMSE / the benchmark's, pooled
+/// horizons, averaged over schemes; recomputed here from scores.csv) get
+/// the detailed sections, in target order; one and two threads and
+/// `render` write the same reports.
+#[test]
+fn the_targets_with_the_largest_gain_are_shown_in_detail() {
+    let dir = scratch("chosen");
+    std::fs::create_dir_all(&dir).unwrap();
+    let text = std::fs::read_to_string(here("tests/summary/macro_panel.yaml"))
+        .unwrap()
+        .replace(
+            "../reference/data/macro.csv",
+            here("tests/reference/data/macro.csv").to_str().unwrap(),
+        )
+        .replace(
+            "  formats: [markdown, html]",
+            "  formats: [markdown, html]\n  targets: 3",
+        );
+    let yaml = dir.join("chosen.yaml");
+    std::fs::write(&yaml, text).unwrap();
+    let mut reports = Vec::new();
+    for jobs in ["1", "2"] {
+        let out = dir.join(format!("out{jobs}"));
+        let run = outturn(&[
+            "run",
+            yaml.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+            "--quiet",
+            "--jobs",
+            jobs,
+        ]);
+        assert!(
+            run.status.success(),
+            "{}",
+            String::from_utf8_lossy(&run.stderr)
+        );
+        reports.push(std::fs::read(out.join("report.md")).unwrap());
+        reports.push(std::fs::read(out.join("report.html")).unwrap());
+    }
+    assert_eq!(reports[0], reports[2]);
+    assert_eq!(reports[1], reports[3]);
+    let out = dir.join("out2");
+    let render = outturn(&["render", out.to_str().unwrap()]);
+    assert!(render.status.success());
+    assert_eq!(std::fs::read(out.join("report.md")).unwrap(), reports[2]);
+    assert_eq!(std::fs::read(out.join("report.html")).unwrap(), reports[3]);
+
+    let scores = table(&out.join("scores.csv"));
+    let targets = ["realgdp", "realcons", "realinv", "m1", "tbilrate", "unemp"];
+    let gain = |t: &str| {
+        let mut gains = Vec::new();
+        let mut schemes: Vec<&String> = scores.iter().map(|r| &r["scheme"]).collect();
+        schemes.dedup();
+        for scheme in schemes {
+            let rows: Vec<_> = scores
+                .iter()
+                .filter(|r| {
+                    r["target"] == t
+                        && &r["scheme"] == scheme
+                        && r["horizon"] == "all"
+                        && r["period_set"] == "all"
+                })
+                .collect();
+            let bench = rows
+                .iter()
+                .find(|r| r["candidate"] == "naive")
+                .map(|r| num(r, "rmse"))
+                .unwrap();
+            let best = rows
+                .iter()
+                .filter(|r| r["candidate"] != "naive")
+                .map(|r| num(r, "rmse"))
+                .fold(f64::INFINITY, f64::min);
+            gains.push(1.0 - best / bench);
+        }
+        gains.iter().sum::<f64>() / gains.len() as f64
+    };
+    let mut order: Vec<(f64, usize)> = targets
+        .iter()
+        .enumerate()
+        .map(|(i, t)| (-gain(t), i))
+        .collect();
+    order.sort_by(|a, b| a.partial_cmp(b).unwrap());
+    let mut want: Vec<&str> = order[..3].iter().map(|&(_, i)| targets[i]).collect();
+    want.sort_by_key(|t| targets.iter().position(|x| x == t));
+    let md = String::from_utf8(reports[2].clone()).unwrap();
+    let rankings = &md[md.find("## 3. Rankings").unwrap()..md.find("## 4.").unwrap()];
+    let mut shown: Vec<&str> = Vec::new();
+    for line in rankings.lines().filter_map(|l| l.strip_prefix("### ")) {
+        let t = line.split(" · ").next().unwrap();
+        if shown.last() != Some(&t) {
+            shown.push(t);
+        }
+    }
+    assert_eq!(shown, want);
+    assert!(md.contains("the other 3 have their verdict above"));
+    let _ = std::fs::remove_dir_all(&dir);
+}

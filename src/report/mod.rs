@@ -22,12 +22,14 @@ mod parts;
 mod rankings;
 mod record;
 pub(crate) mod render;
+pub(crate) mod selection;
 mod significance;
 mod summary;
 mod verdict;
 mod view;
 
 pub use parts::{report_data, PartContext, TargetPart};
+pub use selection::{Key, Shown};
 pub use view::Folder;
 
 use serde_json::{json, Value};
@@ -37,11 +39,9 @@ pub const CAUTION: &str = "Backtest accuracy describes how these models would ha
 /// The significance level of the report's plain-language readings of
 /// p-values (the tables show the p-values themselves).
 pub const LEVEL: f64 = 0.05;
-/// Targets shown with every chart; later targets get tables only.
+/// Targets shown with every chart (those of the detailed targets with the
+/// largest gain, see [`selection`]); the others get tables only.
 pub const CHART_TARGETS: usize = 8;
-/// Targets whose sections after the verdict are shown in detail; beyond
-/// them the report keeps the verdict and points at the tables.
-pub const DETAIL_TARGETS: usize = 25;
 
 /// A chart as the templates take it: the inline SVG, its caption, and the
 /// numbers behind it as a table.

@@ -199,7 +199,7 @@ pub fn produce(
         w = pool.install(|| -> Result<Written> {
             for t in 0..exp.targets.len() {
                 let s = slice::slice(ctx.progress, exp, &parts, t, source(t)?);
-                w.append(t == 0, s)?;
+                w.append(t, s, &parts)?;
             }
             Ok(w)
         })?;
@@ -217,6 +217,12 @@ pub fn produce(
         summary,
     } = w;
     ctx.step("tables streamed");
+    // Each target's part as the final choice of detailed targets shows it.
+    let report_parts = report_parts
+        .into_iter()
+        .enumerate()
+        .map(|(t, p)| p.settle(parts.shown(t)))
+        .collect();
     debug_assert_eq!(
         failed,
         cell_facts.iter().filter(|c| c.failure.is_some()).count()
