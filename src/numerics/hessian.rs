@@ -28,11 +28,7 @@ pub(crate) fn covariance(
     if k == 0 {
         return Some(Vec::new());
     }
-    let h: Vec<f64> = x
-        .iter()
-        .zip(scale)
-        .map(|(v, s)| STEP * v.abs().max(*s))
-        .collect();
+    let h: Vec<f64> = x.iter().zip(scale).map(|(v, s)| step(*v, *s)).collect();
     let mut p = x.to_vec();
     let mut at = |p: &mut Vec<f64>, moves: &[(usize, f64)]| {
         for &(i, d) in moves {
@@ -60,6 +56,18 @@ pub(crate) fn covariance(
             neg[(j, i)] = v;
         }
     }
+    invert(neg)
+}
+
+/// The step of a parameter at `v` with scale `s` (the module docs' rule).
+pub(crate) fn step(v: f64, s: f64) -> f64 {
+    STEP * v.abs().max(s)
+}
+
+/// The covariance (row-major) from −H; None when a value is not finite or
+/// −H is not positive definite.
+pub(crate) fn invert(neg: DMatrix<f64>) -> Option<Vec<f64>> {
+    let k = neg.nrows();
     if !neg.iter().all(|v| v.is_finite()) {
         return None;
     }

@@ -4,7 +4,7 @@
 //! tables into typed rows, [`view`] holds them with the grid and the
 //! checked declaration's settings and indexes them, one module per section
 //! turns the view into that section's part of the report-data value
-//! ([`verdict`], [`rankings`], [`overfitting`], [`parameters`], [`significance`],
+//! ([`summary`] across targets, [`verdict`], [`rankings`], [`overfitting`], [`parameters`], [`significance`],
 //! [`over_time`], [`outlook`], [`data`], [`record`]), [`parts`] assembles
 //! the value target by target, and the minijinja templates in `templates/`
 //! lay it out ([`render`]). Charts are inline SVG built in [`charts`];
@@ -22,11 +22,14 @@ mod parts;
 mod rankings;
 mod record;
 pub(crate) mod render;
+pub(crate) mod selection;
 mod significance;
+mod summary;
 mod verdict;
 mod view;
 
 pub use parts::{report_data, PartContext, TargetPart};
+pub use selection::{Key, Shown};
 pub use view::Folder;
 
 use serde_json::{json, Value};
@@ -36,11 +39,9 @@ pub const CAUTION: &str = "Backtest accuracy describes how these models would ha
 /// The significance level of the report's plain-language readings of
 /// p-values (the tables show the p-values themselves).
 pub const LEVEL: f64 = 0.05;
-/// Targets shown with every chart; later targets get tables only.
+/// Targets shown with every chart (those of the detailed targets with the
+/// largest gain, see [`selection`]); the others get tables only.
 pub const CHART_TARGETS: usize = 8;
-/// Targets whose sections after the verdict are shown in detail; beyond
-/// them the report keeps the verdict and points at the tables.
-pub const DETAIL_TARGETS: usize = 25;
 
 /// A chart as the templates take it: the inline SVG, its caption, and the
 /// numbers behind it as a table.

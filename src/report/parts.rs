@@ -12,31 +12,66 @@ use super::overfitting::overfitting_for;
 use super::parameters::parameters_for;
 use super::rankings::rankings_for;
 use super::record::{self, record};
+use super::selection::{self, Chooser, Key, Shown};
 use super::significance::tests_for;
 use super::verdict::verdict_for;
 use super::view::{Folder, Index, Record, Settings};
-use super::{CAUTION, CHART_TARGETS, DETAIL_TARGETS};
+use super::{CAUTION, CHART_TARGETS};
 use crate::results::diagnostics::{self, Row as DiagnosticRow};
 use crate::results::{Grid, Rows};
 use serde_json::{json, Value};
 use std::collections::BTreeMap;
 
-/// One target's part of the report data, already in template values: its
-/// entry in the list of targets, its detailed sections (first
-/// DETAIL_TARGETS targets) and its verdict rows.
+/// One target's part of the report data: its entry in the list of targets,
+/// its detailed sections when it may be shown in detail (built with charts
+/// when it may be charted, and then also without, for a target that keeps
+/// its detail but loses its charts to later targets: see
+/// [`super::selection`]) and its verdict rows.
 pub struct TargetPart {
-    entry: minijinja::Value,
+    entry: Value,
     full: Option<minijinja::Value>,
+    plain: Option<minijinja::Value>,
     rows: Vec<minijinja::Value>,
     statuses: Vec<String>,
+}
+
+impl TargetPart {
+    /// The part as the final choice shows it.
+    pub fn settle(mut self, shown: Shown) -> TargetPart {
+        self.entry["detail"] = json!(shown.detail);
+        self.entry["charts"] = json!(shown.charts);
+        self.full = match (shown.detail, shown.charts) {
+            (false, _) => None,
+            (true, true) => self.full,
+            (true, false) => self.plain.take().or(self.full),
+        };
+        self.plain = None;
+        self
+    }
+
+    /// A placeholder while a part is being replaced.
+    pub fn empty() -> TargetPart {
+        TargetPart {
+            entry: Value::Null,
+            full: None,
+            plain: None,
+            rows: Vec::new(),
+            statuses: Vec::new(),
+        }
+    }
+
+    /// Whether it holds what showing it as `shown` needs.
+    pub fn can_show(&self, shown: Shown) -> bool {
+        !shown.detail || self.full.is_some()
+    }
 }
 
 impl Folder {
     /// The report part of target `t`. The folder must hold every row of
     /// that target (other targets' rows may be absent), and the predictors'
     /// unit-root rows.
-    pub fn target_part(&self, t: usize, draw: bool) -> TargetPart {
-        target_part(&Index::new(self), t, draw)
+    pub fn target_part(&self, t: usize, draw: bool, shown: Shown) -> TargetPart {
+        target_part(&Index::new(self), t, draw, shown)
     }
 }
 
@@ -49,6 +84,8 @@ pub struct PartContext {
     /// worker, not before the workers start).
     predictor_rows: std::sync::OnceLock<Result<Vec<DiagnosticRow>, String>>,
     predictor_diagnostics: Box<dyn Fn() -> Vec<u8> + Send + Sync>,
+    /// The targets chosen so far, in target order (see [`selection`]).
+    chooser: std::sync::Mutex<Chooser>,
 }
 
 impl PartContext {
@@ -61,6 +98,7 @@ impl PartContext {
     ) -> PartContext {
         PartContext {
             grid,
+            chooser: std::sync::Mutex::new(Chooser::new(declared.report_targets)),
             settings: Settings::of(declared),
             predictor_rows: std::sync::OnceLock::new(),
             predictor_diagnostics,
@@ -80,9 +118,41 @@ impl PartContext {
         &self.grid
     }
 
+    fn chooser(&self) -> std::sync::MutexGuard<'_, Chooser> {
+        self.chooser.lock().unwrap_or_else(|e| e.into_inner())
+    }
+
+    /// The key of a target from its scores.csv slice.
+    pub fn key(&self, t: usize, scores: &[u8]) -> Result<Key, String> {
+        let s =
+            crate::results::scores::read(scores, &self.grid.lookup()).map_err(|e| e.to_string())?;
+        Ok(selection::key(&self.grid, &s.metric_names, &s.rows, t))
+    }
+
+    /// How a target might still be shown, given the targets admitted so far.
+    pub fn admits(&self, key: &Key) -> Shown {
+        self.chooser().admits(key)
+    }
+
+    /// The final choice for target `t` (after every target is admitted).
+    pub fn shown(&self, t: usize) -> Shown {
+        self.chooser().shown(t)
+    }
+
+    /// Admit the next target in target order.
+    pub fn admit(&self, key: Key) -> selection::Admitted {
+        self.chooser().admit(key)
+    }
+
     /// The report part of target `t` from that target's rows, which are
     /// handed back for the whole folder.
-    pub fn part(&self, t: usize, mut rows: Rows, draw: bool) -> Result<(TargetPart, Rows), String> {
+    pub fn part(
+        &self,
+        t: usize,
+        mut rows: Rows,
+        draw: bool,
+        shown: Shown,
+    ) -> Result<(TargetPart, Rows), String> {
         // The folder as the report sees it for target t: its rows, and the
         // predictors' rows ahead of them as in the whole table.
         let predictors = if t == 0 {
@@ -102,19 +172,19 @@ impl PartContext {
             self.settings.clone(),
             Record::default(),
         );
-        let part = folder.target_part(t, draw);
+        let part = folder.target_part(t, draw, shown);
         let mut rows = folder.rows;
         rows.diagnostics.drain(..borrowed);
         Ok((part, rows))
     }
 }
 
-fn target_part(ix: &Index, t: usize, draw: bool) -> TargetPart {
+fn target_part(ix: &Index, t: usize, draw: bool, shown: Shown) -> TargetPart {
     let f = ix.f;
     let g = &f.grid;
     let target = &g.targets[t];
     let many = g.targets.len() > 3;
-    let charts = draw && t < CHART_TARGETS;
+    let charts = draw && shown.charts;
     let verdict = verdict_for(ix, t);
     let rows: Vec<Value> = verdict["rows"]
         .as_array()
@@ -141,10 +211,11 @@ fn target_part(ix: &Index, t: usize, draw: bool) -> TargetPart {
         "panels_open": panels_open,
     });
     entry["verdict"] = verdict;
-    // Every target gets its verdict; the sections after it go into
-    // detail for the first DETAIL_TARGETS only (the tables hold the rest).
-    let full = (t < DETAIL_TARGETS).then(|| {
+    // Every target gets its verdict; the sections after it go into detail
+    // for the targets chosen (the tables hold the rest).
+    let full_with = |charts: bool| {
         let mut full = entry.clone();
+        full["charts"] = json!(charts);
         full["outlook"] = outlook_for(ix, t, series, charts);
         full["rankings"] = rankings_for(ix, t);
         full["overfitting"] = overfitting_for(ix, t, charts);
@@ -152,12 +223,15 @@ fn target_part(ix: &Index, t: usize, draw: bool) -> TargetPart {
         full["tests"] = tests_for(ix, t);
         full["over_time"] = over_time_for(ix, t, series, charts);
         full["data"] = data_for(ix, t, series, charts);
-        full
-    });
-    entry["detail"] = json!(t < DETAIL_TARGETS);
+        minijinja::Value::from_serialize(&full)
+    };
+    let full = shown.detail.then(|| full_with(charts));
+    let plain = (shown.detail && charts).then(|| full_with(false));
+    entry["detail"] = json!(shown.detail);
     TargetPart {
-        entry: minijinja::Value::from_serialize(&entry),
-        full: full.as_ref().map(minijinja::Value::from_serialize),
+        entry,
+        full,
+        plain,
         statuses: rows
             .iter()
             .map(|v| v["status"].as_str().unwrap_or("").to_string())
@@ -182,10 +256,12 @@ pub fn report_data(
     let g = &f.grid;
     // Targets are independent: build them in parallel, assemble in order.
     use rayon::prelude::*;
+    let quota = f.settings.report_targets;
     let parts = parts.unwrap_or_else(|| {
+        let chosen = selection::choose(&f.grid, &f.rows.metric_names, &f.rows.scores, quota);
         (0..g.targets.len())
             .into_par_iter()
-            .map(|t| target_part(&ix, t, draw))
+            .map(|t| target_part(&ix, t, draw, chosen.shown(t)))
             .collect()
     });
     let mut targets = Vec::with_capacity(parts.len());
@@ -193,12 +269,13 @@ pub fn report_data(
     let mut verdict_rows = Vec::new();
     let mut statuses = Vec::new();
     for part in parts {
-        targets.push(part.entry);
+        targets.push(minijinja::Value::from_serialize(&part.entry));
         detailed.extend(part.full);
         verdict_rows.extend(part.rows);
         statuses.extend(part.statuses);
     }
-    let data = run_data(&ix, manifest, &statuses);
+    let mut data = run_data(&ix, manifest, &statuses);
+    data["summary"] = super::summary::summary_for(&ix, draw);
     // To template values: the targets' parts are converted already.
     let Value::Object(map) = data else {
         unreachable!("the report data is an object")
@@ -291,8 +368,8 @@ fn run_data(ix: &Index, manifest: &Value, statuses: &[String]) -> Value {
         "has_snooping": rows.tests.iter().any(|r| r.test == "snooping"),
         "chart_targets": CHART_TARGETS,
         "known_ahead": known_ahead,
-        "detail_targets": DETAIL_TARGETS.min(g.targets.len()),
-        "omitted_detail": g.targets.len().saturating_sub(DETAIL_TARGETS),
+        "detail_targets": f.settings.report_targets.min(g.targets.len()),
+        "omitted_detail": g.targets.len().saturating_sub(f.settings.report_targets),
         "predictors": settings.predictors.iter().map(|p| json!({
             "column": p.column, "transform": p.transform, "transform_words": transform_words(&p.transform), "release_lag": p.release_lag, "known_ahead": p.known_ahead,
         })).collect::<Vec<_>>(),

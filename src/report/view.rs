@@ -24,6 +24,8 @@ pub struct Settings {
     pub predictors: Vec<PredictorSetting>,
     /// (name, first, last) of each period set, as written.
     pub periods: Vec<(String, String, String)>,
+    /// report.targets.
+    pub report_targets: usize,
 }
 
 #[derive(Clone)]
@@ -42,6 +44,7 @@ impl Settings {
             frequency: d.frequency.name().to_string(),
             transform: d.transform.name().to_string(),
             rank_by: d.rank_by.name().to_string(),
+            report_targets: d.report_targets,
             multi_step: match d.multi_step {
                 crate::spec::MultiStep::Direct => "direct",
                 crate::spec::MultiStep::Iterated => "iterated",

@@ -19,6 +19,7 @@ pub(crate) mod scores;
 pub(crate) mod series;
 pub(crate) mod shard;
 pub(crate) mod stability;
+pub(crate) mod summary;
 pub(crate) mod tests;
 pub(crate) mod text;
 

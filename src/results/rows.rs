@@ -7,7 +7,9 @@
 
 use super::grid::Grid;
 use super::text::ReadError;
-use super::{diagnostics, forecasts, outlook, parameters, scores, series, stability, tests};
+use super::{
+    diagnostics, forecasts, outlook, parameters, scores, series, stability, summary, tests,
+};
 use std::borrow::Cow;
 use std::collections::BTreeMap;
 use std::io::Read;
@@ -31,6 +33,8 @@ pub struct Rows {
     pub stability: stability::Stability,
     pub series: Vec<series::Series>,
     pub diagnostics: Vec<diagnostics::Row>,
+    /// summary.csv's rows (runs with two or more targets).
+    pub summary: Vec<crate::score::summary::SummaryRow>,
 }
 
 /// Where the tables come from.
@@ -134,6 +138,9 @@ impl Rows {
         if let Some(bytes) = small(diagnostics::FILE)? {
             rows.diagnostics = diagnostics::read(&bytes)?;
         }
+        if let Some(bytes) = small(summary::FILE)? {
+            rows.summary = summary::read(&bytes, &lookup)?;
+        }
         Ok(rows)
     }
 
@@ -164,5 +171,6 @@ impl Rows {
             }
         }
         self.diagnostics.extend(next.diagnostics);
+        self.summary.extend(next.summary);
     }
 }

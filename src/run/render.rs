@@ -5,7 +5,7 @@
 use crate::digest::sha256_hex;
 use crate::error::{Error, Result};
 use crate::report::render::{default_templates, load_templates, reports_of, used_templates};
-use crate::report::{Folder, DETAIL_TARGETS};
+use crate::report::{selection, Folder};
 use crate::results::manifest::{Manifest, OutputFile, TemplateRecord};
 use crate::results::{Grid, Rows};
 use serde_json::Value;
@@ -71,11 +71,6 @@ pub fn render_folder(dir: &Path, templates: Option<&Path>) -> Result<()> {
             dir.display()
         )
     })?;
-    // The large tables are read row by row, keeping the rows of the targets
-    // the report shows in detail (a 1000-series folder holds gigabytes).
-    let grid = Grid::read(&manifest.core_value(), &scores).map_err(|e| e.into_error(dir))?;
-    let rows = Rows::read_folder(dir, &scores, &grid, &|t| t < DETAIL_TARGETS)
-        .map_err(|e| e.into_error(dir))?;
     let user_templates = templates.is_some();
     let templates = match templates {
         Some(t) => load_templates(t)?,
@@ -96,6 +91,16 @@ pub fn render_folder(dir: &Path, templates: Option<&Path>) -> Result<()> {
         )
     })?;
     let declared = crate::spec::declaration(&experiment_path, &text)?;
+    // The large tables are read row by row, keeping the rows of the targets
+    // the report shows in detail (a 1000-series folder holds gigabytes).
+    let grid = Grid::read(&manifest.core_value(), &scores).map_err(|e| e.into_error(dir))?;
+    let chosen = {
+        let s =
+            crate::results::scores::read(&scores, &grid.lookup()).map_err(|e| e.into_error(dir))?;
+        selection::choose(&grid, &s.metric_names, &s.rows, declared.report_targets)
+    };
+    let rows = Rows::read_folder(dir, &scores, &grid, &|t| chosen.shown(t).detail)
+        .map_err(|e| e.into_error(dir))?;
     let used = used_templates(&templates, &declared.formats);
     manifest.templates = used
         .iter()

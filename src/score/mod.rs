@@ -7,6 +7,7 @@ pub mod comparison;
 pub mod diagnostics;
 pub mod pairwise;
 pub mod stability;
+pub mod summary;
 
 #[cfg(test)]
 mod refdata;

@@ -56,6 +56,7 @@ pub(super) struct Decoded {
     notes: Option<String>,
     title: Option<String>,
     formats: Vec<ReportFormat>,
+    report_targets: usize,
     seed: u64,
     audit: Option<usize>,
     transform: Option<Transform>,
@@ -114,7 +115,7 @@ pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
             ctx.string(n, "notes")
         }
     });
-    let (title, formats) = decode_report(ctx, top.get("report"));
+    let (title, formats, report_targets) = decode_report(ctx, top.get("report"));
     let seed = match top.get("seed") {
         Some(n) => ctx.unsigned(n, "seed").unwrap_or(0),
         None => 0,
@@ -164,6 +165,7 @@ pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
         notes,
         title,
         formats,
+        report_targets,
         seed,
         audit,
         transform,
@@ -447,6 +449,7 @@ impl Decoded {
             benchmark: self.benchmark,
             warnings,
             formats: self.formats,
+            report_targets: self.report_targets,
             seed: self.seed,
             audit: self.audit,
         })

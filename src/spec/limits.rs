@@ -197,6 +197,12 @@ fn arima_short(size: ArimaSize, end: usize, window: Option<usize>) -> Option<Str
     })
 }
 
+/// Targets shown in detail by default (`report.targets`).
+pub(crate) const REPORT_TARGETS: usize = 50;
+/// The most `report.targets` may ask for: each detailed target adds its
+/// sections to one report file.
+pub(crate) const MAX_REPORT_TARGETS: usize = 1000;
+
 #[cfg(test)]
 mod tests {
     use super::*;

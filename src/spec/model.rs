@@ -332,6 +332,9 @@ pub struct Declaration {
     /// Index into `candidates`.
     pub benchmark: usize,
     pub formats: Vec<ReportFormat>,
+    /// `report.targets`: at most this many targets get detailed sections
+    /// (those with the largest gain over the benchmark when there are more).
+    pub report_targets: usize,
     pub seed: u64,
     /// `audit.origins`: the look-ahead audit's origins per cell, when the
     /// run is to audit itself.

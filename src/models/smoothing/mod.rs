@@ -93,6 +93,7 @@
 mod estimate;
 mod filter;
 mod forecast;
+mod information;
 #[cfg(test)]
 mod mult_tests;
 mod parameters;

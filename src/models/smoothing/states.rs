@@ -228,7 +228,7 @@ impl Tangents {
 
 /// One-step errors and their Jacobian with respect to z (column-major n×k)
 /// by a forward-mode pass of the filter. `None` when non-finite.
-fn residuals_jacobian(
+pub(super) fn residuals_jacobian(
     spec: &EtsSpec,
     sm: &Smooth,
     z: &[f64],

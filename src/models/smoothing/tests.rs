@@ -9,6 +9,10 @@ const REF: &str = concat!(
     "/tests/reference/smoothing/smoothing_reference.json"
 );
 
+pub(super) fn load_reference() -> Value {
+    load()
+}
+
 fn load() -> Value {
     let text = std::fs::read_to_string(REF).expect("reference JSON");
     serde_json::from_str(&text).expect("valid JSON")

@@ -12,6 +12,8 @@
 //! the caller chooses) is left out: it takes no pivot row and its
 //! coefficient is 0.
 
+use crate::numerics::dot;
+
 /// A Householder QR of the columns of a design, with Qᵀy.
 #[derive(Debug, Clone)]
 pub(crate) struct Householder {
@@ -53,7 +55,7 @@ impl Householder {
             }
             let (left, right) = a.split_at_mut((j + 1) * rows);
             let col = &mut left[j * rows..];
-            let norm = col[row..].iter().map(|v| v * v).sum::<f64>().sqrt();
+            let norm = dot(&col[row..], &col[row..]).sqrt();
             if !norm.is_finite() {
                 return None;
             }
@@ -64,7 +66,7 @@ impl Householder {
             // v = x − alpha e_1, stored in place
             col[row] -= alpha;
             let v = &col[row..];
-            let vtv: f64 = v.iter().map(|x| x * x).sum();
+            let vtv = dot(v, v);
             if vtv > 0.0 {
                 for later in right.chunks_exact_mut(rows) {
                     reflect(v, vtv, &mut later[row..]);
@@ -172,8 +174,7 @@ impl Householder {
 
 /// c ← c − (2 vᵀc / vᵀv) v.
 fn reflect(v: &[f64], vtv: f64, c: &mut [f64]) {
-    let dot: f64 = v.iter().zip(c.iter()).map(|(p, q)| p * q).sum();
-    let f = 2.0 * dot / vtv;
+    let f = 2.0 * dot(v, c) / vtv;
     for (ci, vi) in c.iter_mut().zip(v) {
         *ci -= f * vi;
     }

@@ -87,10 +87,15 @@ pub(super) struct Written {
     pub failed: usize,
     /// The look-ahead audit of the targets appended so far, when asked for.
     pub audit: Option<crate::run::audit::AuditOutcome>,
+    /// The summary's entries of the targets appended so far.
+    pub summary: Vec<crate::score::summary::Entry>,
 }
 
 impl Written {
-    pub(super) fn append(&mut self, first: bool, s: Slice) -> Result<()> {
+    /// Append target `t`'s slice (targets in order), admitting it to the
+    /// report's choice of detailed targets (`parts`).
+    pub(super) fn append(&mut self, t: usize, s: Slice, parts: &report::PartContext) -> Result<()> {
+        let first = t == 0;
         for (k, table) in s.tables.iter().enumerate() {
             let name = TABLES[k];
             let body: &[u8] = if first || name == "experiment.yaml" {
@@ -104,10 +109,34 @@ impl Written {
                     .push_str(&String::from_utf8_lossy(table));
             }
         }
-        let next = s.report_rows.map(|(rows, part)| {
+        let key = s.key.map_err(Error::Report)?;
+        let admitted = parts.admit(key);
+        let next = s.report_rows.and_then(|(rows, part)| {
+            if !part.can_show(admitted.shown) {
+                return Err(format!(
+                    "target {t} was chosen for the report's detail but not prepared for it"
+                ));
+            }
             self.report_parts.push(part);
-            rows
+            Ok(rows)
         });
+        // A target that lost its detail or its charts to this one lets go
+        // of what it no longer shows.
+        for (lost, shown) in [
+            (admitted.dropped, report::Shown::default()),
+            (
+                admitted.uncharted,
+                report::Shown {
+                    detail: true,
+                    charts: false,
+                },
+            ),
+        ] {
+            if let Some(p) = lost.and_then(|l| self.report_parts.get_mut(l)) {
+                let part = std::mem::replace(p, report::TargetPart::empty());
+                *p = part.settle(shown);
+            }
+        }
         self.report_rows = Some(match (self.report_rows.take(), next) {
             (None, next) => next,
             (Some(Ok(mut rows)), Ok(next)) => {
@@ -117,6 +146,7 @@ impl Written {
             (Some(Err(e)), _) | (_, Err(e)) => Err(e),
         });
         self.failed += s.failed;
+        self.summary.extend(s.summary);
         self.cell_facts.extend(s.cells);
         if let Some(audit) = s.audit {
             match self.audit.as_mut() {

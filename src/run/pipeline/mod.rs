@@ -192,13 +192,14 @@ pub fn produce(
         cell_facts: Vec::new(),
         failed: 0,
         audit: None,
+        summary: Vec::new(),
     };
     if ctx.threads <= 1 {
         // One thread of work means one: compute and write in turn.
         w = pool.install(|| -> Result<Written> {
             for t in 0..exp.targets.len() {
                 let s = slice::slice(ctx.progress, exp, &parts, t, source(t)?);
-                w.append(t == 0, s)?;
+                w.append(t, s, &parts)?;
             }
             Ok(w)
         })?;
@@ -213,8 +214,15 @@ pub fn produce(
         cell_facts,
         failed,
         audit,
+        summary,
     } = w;
     ctx.step("tables streamed");
+    // Each target's part as the final choice of detailed targets shows it.
+    let report_parts = report_parts
+        .into_iter()
+        .enumerate()
+        .map(|(t, p)| p.settle(parts.shown(t)))
+        .collect();
     debug_assert_eq!(
         failed,
         cell_facts.iter().filter(|c| c.failure.is_some()).count()
@@ -223,7 +231,22 @@ pub fn produce(
         .iter()
         .filter_map(|c| Some((c.id.clone(), c.failure.clone()?)))
         .collect();
-    let (outputs, files) = close_streams(streams)?;
+    let (mut outputs, files) = close_streams(streams)?;
+    // The summary across targets, with two or more of them.
+    let mut report_rows = report_rows;
+    if exp.targets.len() >= 2 {
+        let rows = score::summary::summarise(exp, &summary);
+        let bytes = crate::results::summary::write(exp, &rows);
+        outputs.push(write_file(
+            dir,
+            crate::results::summary::FILE,
+            &bytes,
+            ctx.durable,
+        )?);
+        if let Some(Ok(r)) = report_rows.as_mut() {
+            r.summary = rows;
+        }
+    }
     // The large tables reach the disk while the reports are rendered.
     let durable = ctx.durable;
     let syncing = std::thread::spawn(move || -> Result<()> {

@@ -14,16 +14,6 @@ use crate::results::{Rows, Tables};
 use crate::score;
 use crate::spec::Experiment;
 
-/// Targets whose rows the report draws in full: the charted ones, when
-/// there is an HTML report to chart them in.
-fn report_targets(exp: &Experiment) -> usize {
-    if exp.formats.contains(&crate::spec::ReportFormat::Html) {
-        report::CHART_TARGETS
-    } else {
-        0
-    }
-}
-
 /// One target's slice of every table.
 pub(super) struct Slice {
     pub tables: [Vec<u8>; 9],
@@ -35,6 +25,10 @@ pub(super) struct Slice {
     pub failed: usize,
     /// The look-ahead audit of this target's cells, when asked for.
     pub audit: Option<crate::run::audit::AuditOutcome>,
+    /// Its place in the report's choice of detailed targets.
+    pub key: std::result::Result<report::Key, String>,
+    /// What the summary across targets takes of this target's scores.
+    pub summary: Vec<score::summary::Entry>,
 }
 
 pub(super) fn header(bytes: &[u8]) -> &[u8] {
@@ -65,18 +59,16 @@ pub(super) fn slice(
     let errors = score::cell_errors(&sub, &cells, &outputs);
     let Formatted {
         forecasts_bytes,
-        report_forecasts,
         stability_bytes,
-        report_stability,
         fluctuation,
         scores_bytes,
         mut tests,
         leaders,
+        summary,
         diagnostics_bytes,
         series,
-        report_series,
         outlook_bytes,
-    } = formatted(exp, &sub, t, &cells, &outputs, &errors);
+    } = formatted(&sub, t, &cells, &outputs, &errors);
     tests.extend(fluctuation);
     tests.sort_by_key(|r| (r.target, r.scheme, r.horizon));
     let cells_facts = cells
@@ -115,10 +107,39 @@ pub(super) fn slice(
         outlook_bytes,
         parameters::write(&sub, &cells, &outputs),
     ];
+    // How the report may still show this target (the final choice is
+    // made in target order as the slices are appended): the rows it reads
+    // are kept for what it may show.
+    let key = parts.key(t, &tables[1]);
+    let draw = exp.formats.contains(&crate::spec::ReportFormat::Html);
+    let shown = match &key {
+        Ok(k) => parts.admits(k),
+        Err(_) => report::Shown::default(),
+    };
+    let charted = draw && shown.charts;
+    let keep_forecasts = if charted {
+        tables[0].clone()
+    } else if shown.detail {
+        // Beyond the charted targets the report reads the benchmark's
+        // forecasts (spans and counts) and where every other series begins.
+        forecasts::write(&sub, &cells, &report_firsts(exp, &cells, &outputs))
+    } else {
+        // Beyond the detailed targets the report shows only the verdict.
+        header(&tables[0]).to_vec()
+    };
+    let keep_stability = if charted {
+        tables[3].clone()
+    } else {
+        Vec::new()
+    };
+    let keep_series = if shown.detail {
+        tables[5].clone()
+    } else {
+        header(&tables[5]).to_vec()
+    };
     // The report shows the parameters of the leaders only: every
     // estimation where it charts them, else the last of each horizon.
-    let charted = t < report_targets(exp);
-    let report_parameters = if t < report::DETAIL_TARGETS {
+    let report_parameters = if shown.detail {
         let kept: Vec<CellOutput> = cells
             .iter()
             .zip(&outputs)
@@ -147,9 +168,9 @@ pub(super) fn slice(
         .zip(&tables)
         .map(|(&name, table)| {
             let keep: &[u8] = match name {
-                "forecasts.csv" => &report_forecasts,
-                "stability.csv" => &report_stability,
-                "series.csv" => &report_series,
+                "forecasts.csv" => &keep_forecasts,
+                "stability.csv" => &keep_stability,
+                "series.csv" => &keep_series,
                 "parameters.csv" => &report_parameters,
                 _ => table,
             };
@@ -157,10 +178,9 @@ pub(super) fn slice(
         })
         .filter(|(_, keep)| !keep.is_empty())
         .collect();
-    let draw = exp.formats.contains(&crate::spec::ReportFormat::Html);
     let report_rows = Rows::read(&report_tables, parts.grid())
         .map_err(|e| e.to_string())
-        .and_then(|rows| parts.part(t, rows, draw))
+        .and_then(|rows| parts.part(t, rows, draw, shown))
         .map(|(part, rows)| (rows, part));
     Slice {
         tables,
@@ -168,30 +188,29 @@ pub(super) fn slice(
         cells: cells_facts,
         failed: outputs.iter().filter(|o| o.failure.is_some()).count(),
         audit,
+        key,
+        summary,
     }
 }
 
-/// A target's tables formatted, and what of the large ones the report keeps.
+/// A target's tables formatted.
 struct Formatted {
     forecasts_bytes: Vec<u8>,
-    report_forecasts: Vec<u8>,
     stability_bytes: Vec<u8>,
-    report_stability: Vec<u8>,
     fluctuation: Vec<score::comparison::TestRow>,
     scores_bytes: Vec<u8>,
     tests: Vec<score::comparison::TestRow>,
     /// The candidates that lead some scheme at some horizon.
     leaders: Vec<usize>,
+    summary: Vec<score::summary::Entry>,
     diagnostics_bytes: Vec<u8>,
     series: Vec<u8>,
-    report_series: Vec<u8>,
     outlook_bytes: Vec<u8>,
 }
 
 /// Score, test and format target `t` (its experiment `sub`, its cells
 /// combined): the four independent parts side by side.
 fn formatted(
-    exp: &Experiment,
     sub: &Experiment,
     t: usize,
     cells: &[plan::Cell],
@@ -200,66 +219,48 @@ fn formatted(
 ) -> Formatted {
     // The parts below are independent: a worker that has run out of targets
     // takes some of them over (rayon runs a join in place when none is idle).
-    let charted = t < report_targets(exp);
-    let forecasts_part = || {
-        let tables = forecasts::write(sub, cells, outputs);
-        let keep = if charted {
-            tables.clone()
-        } else if t >= report::DETAIL_TARGETS {
-            // Beyond the detailed targets the report shows only the verdict.
-            header(&tables).to_vec()
-        } else {
-            // Beyond the charted targets the report reads the benchmark's
-            // forecasts (spans and counts) and where every other series begins.
-            forecasts::write(sub, cells, &report_firsts(exp, cells, outputs))
-        };
-        (tables, keep)
-    };
+    let forecasts_part = || forecasts::write(sub, cells, outputs);
     let stability_part = || {
         let (stability, fluctuation) = score::stability::rolling(sub, errors);
-        let bytes = stability::write(sub, &stability);
-        let keep = if charted { bytes.clone() } else { Vec::new() };
-        (bytes, keep, fluctuation)
+        (stability::write(sub, &stability), fluctuation)
     };
     let scores_part = || {
         let scores = score::scores(sub, errors);
         let tests = score::comparison::run(sub, errors);
-        (scores::write(sub, &scores), tests, leaders(sub, &scores))
+        let mut summary = score::summary::entries(sub, &scores);
+        summary.iter_mut().for_each(|e| e.target = t);
+        (
+            scores::write(sub, &scores),
+            tests,
+            leaders(sub, &scores),
+            summary,
+        )
     };
     let rest_part = || {
         let diagnostics = score::stability::diagnostics(sub, cells, outputs, t == 0);
-        let series = series::write(sub, t == 0);
-        let keep = if t < report::DETAIL_TARGETS {
-            series.clone()
-        } else {
-            header(&series).to_vec()
-        };
         (
             diagnostics::write(&diagnostics),
-            series,
-            keep,
+            series::write(sub, t == 0),
             outlook::write(sub, cells, outputs),
         )
     };
     let (
-        ((forecasts_bytes, report_forecasts), (stability_bytes, report_stability, fluctuation)),
-        ((scores_bytes, tests, leaders), (diagnostics_bytes, series, report_series, outlook_bytes)),
+        (forecasts_bytes, (stability_bytes, fluctuation)),
+        ((scores_bytes, tests, leaders, summary), (diagnostics_bytes, series, outlook_bytes)),
     ) = rayon::join(
         || rayon::join(forecasts_part, stability_part),
         || rayon::join(scores_part, rest_part),
     );
     Formatted {
         forecasts_bytes,
-        report_forecasts,
         stability_bytes,
-        report_stability,
         fluctuation,
         scores_bytes,
         tests,
         leaders,
+        summary,
         diagnostics_bytes,
         series,
-        report_series,
         outlook_bytes,
     }
 }

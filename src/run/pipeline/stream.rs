@@ -163,7 +163,7 @@ pub(super) fn stream_in_order(
             let appended = files
                 .lock()
                 .unwrap_or_else(|e| e.into_inner())
-                .append(t == 0, s);
+                .append(t, s, parts);
             p = lock();
             match appended {
                 Ok(()) => {

@@ -29,16 +29,36 @@ pub(super) fn decode_audit(ctx: &mut Ctx, node: &Node) -> Option<usize> {
     Some(k as usize)
 }
 
-/// `report`: the title and the formats (both when none is named).
+/// `report`: the title, the formats (both when none is named) and the
+/// number of targets shown in detail (`targets`, default
+/// [`limits::REPORT_TARGETS`]).
 pub(super) fn decode_report(
     ctx: &mut Ctx,
     node: Option<&Node>,
-) -> (Option<String>, Vec<ReportFormat>) {
+) -> (Option<String>, Vec<ReportFormat>, usize) {
     let mut title = None;
     let mut formats = vec![ReportFormat::Html, ReportFormat::Markdown];
-    let Some(view) = node.and_then(|r| ctx.map(r, "report", &["formats", "title"], &[])) else {
-        return (title, formats);
+    let mut targets = limits::REPORT_TARGETS;
+    let Some(view) = node.and_then(|r| ctx.map(r, "report", &["formats", "targets", "title"], &[]))
+    else {
+        return (title, formats, targets);
     };
+    if let Some(n) = view.get("targets") {
+        targets = match ctx.integer(n, "report.targets", 1) {
+            Some(k) if k as usize <= limits::MAX_REPORT_TARGETS => k as usize,
+            Some(k) => {
+                ctx.refuse(
+                    n,
+                    format!(
+                        "report.targets is {k}; at most {} targets can be shown in detail",
+                        limits::MAX_REPORT_TARGETS
+                    ),
+                );
+                targets
+            }
+            None => targets,
+        };
+    }
     if let Some(t) = view.get("title") {
         title = ctx.string(t, "report.title");
     }
@@ -58,7 +78,7 @@ pub(super) fn decode_report(
         }
         formats = out;
     }
-    (title, formats)
+    (title, formats, targets)
 }
 
 /// `data`: the file, the time column, the frequency and an optional span.
