@@ -8,7 +8,9 @@
 pub(crate) mod cache;
 pub(crate) mod cellio;
 mod single;
-pub(crate) use single::{from_scratch, time_one_estimation, Recomputed};
+mod vintage;
+pub(crate) use single::{from_scratch, time_one_estimation, Recomputed, Want};
+pub(crate) use vintage::on_vintage;
 
 use crate::error::{Diagnostic, Error, Location, Result};
 use crate::models::{
@@ -302,6 +304,10 @@ pub(crate) fn run_cell_in<R: Registry>(
     let candidate = &exp.candidates[cell.candidate];
     if matches!(candidate.family, Family::Combination { .. }) {
         return Ok(CellOutput::default());
+    }
+    if target.vintages.is_some() {
+        let strict = !models::is_likelihood(&candidate.family);
+        return vintage::run(registry, exp, cell, strict, progress);
     }
     let schedule = Schedule {
         scheme: &exp.schemes[cell.scheme],

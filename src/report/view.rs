@@ -24,6 +24,8 @@ pub struct Settings {
     pub predictors: Vec<PredictorSetting>,
     /// (name, first, last) of each period set, as written.
     pub periods: Vec<(String, String, String)>,
+    /// Under a vintage layout, what each origin sees and which release is the outturn.
+    pub vintages: Option<String>,
 }
 
 #[derive(Clone)]
@@ -42,6 +44,13 @@ impl Settings {
             frequency: d.frequency.name().to_string(),
             transform: d.transform.name().to_string(),
             rank_by: d.rank_by.name().to_string(),
+            vintages: d.vintages.as_ref().map(|v| {
+                format!(
+                    "Real-time data (layout {}): at each origin every candidate sees only the vintage published in that period, and the outturn scored is {}.",
+                    v.layout.name(),
+                    v.actual.describe()
+                )
+            }),
             multi_step: match d.multi_step {
                 crate::spec::MultiStep::Direct => "direct",
                 crate::spec::MultiStep::Iterated => "iterated",
