@@ -80,6 +80,10 @@ pub(crate) fn on_vintage<R: Registry>(
             r.horizon = h;
         }
     }
+    // A direct model's regression for horizon h + gap is the one for h here.
+    for p in &mut out.parameters {
+        p.horizon = p.horizon.map(|h| h.saturating_sub(gap).max(1));
+    }
     Ok(out)
 }
 
