@@ -283,7 +283,13 @@ fn run_data(ix: &Index, manifest: &Value, statuses: &[String]) -> Value {
             "frequency": settings.frequency,
             "transform": settings.transform,
             "transform_words": transform_words(&settings.transform),
-            "multi_step": settings.multi_step,
+            // The templates end this sentence; under vintages the sentence
+            // that says what each origin sees follows it in the same fact,
+            // so the templates (and a run's bytes without vintages) stay.
+            "multi_step": match &settings.vintages {
+                Some(v) => format!("{}. {}", settings.multi_step, v.trim_end_matches('.')),
+                None => settings.multi_step.clone(),
+            },
             "vintages": settings.vintages,
         },
         "many_targets": g.targets.len() > 3,
