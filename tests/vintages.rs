@@ -1,4 +1,4 @@
-//! Real-time data (docs/data.md#vintages) through the command line. No
+//! Real-time data (docs/experiment-file.md#vintages) through the command line. No
 //! real-time data set ships with any registry package pinned here, so the
 //! vintage machinery is checked by properties that hold by construction,
 //! on vintage files made here from the demo's invented series (which

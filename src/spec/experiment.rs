@@ -407,7 +407,7 @@ fn check_seasons(ctx: &mut Ctx, d: &Decoded, top: &MapView) {
 fn check_vintage_keys(ctx: &mut Ctx, d: &Decoded) {
     let layout = d.data.layout();
     if let (Layout::Periods, Some((_, node))) = (layout, &d.scoring.actual) {
-        ctx.error(node, "scoring.actual picks which release of real-time data is the outturn; it needs data.layout vintages or vintage_columns (see docs/data.md#vintages)");
+        ctx.error(node, "scoring.actual picks which release of real-time data is the outturn; it needs data.layout vintages or vintage_columns (see docs/experiment-file.md#vintages)");
     }
     if layout == Layout::Periods {
         return;
@@ -424,7 +424,7 @@ fn check_vintage_keys(ctx: &mut Ctx, d: &Decoded) {
             }
         )
     }) {
-        ctx.error(&at, format!("candidate {}: inverse_mse weights come from past errors, and under data.layout {} the outturns known at an origin differ from vintage to vintage; this version does not form them — use weights equal or trimmed (see docs/data.md#vintages)", c.id, layout.name()));
+        ctx.error(&at, format!("candidate {}: inverse_mse weights come from past errors, and under data.layout {} the outturns known at an origin differ from vintage to vintage; this version does not form them — use weights equal or trimmed (see docs/experiment-file.md#vintages)", c.id, layout.name()));
     }
 }
 

@@ -303,7 +303,7 @@ impl TargetData {
     }
 }
 
-/// The vintages of one target (docs/data.md#vintages), in the target's
+/// The vintages of one target (docs/experiment-file.md#vintages), in the target's
 /// position space: every vintage starts at the same period as the last.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Vintages {
@@ -326,7 +326,7 @@ pub struct Vintages {
     pub actual_release: Vec<Option<usize>>,
 }
 
-/// How the data file lays out its rows (docs/data.md).
+/// How the data file lays out its rows (docs/experiment-file.md).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Layout {
     /// One row per period (the default).

@@ -126,7 +126,7 @@ pub(super) fn decode_data_keys(ctx: &mut Ctx, d: &Node) -> DataKeys {
         if keys.layout != Some(Layout::Vintages) {
             ctx.error(
                 n,
-                "data.vintage names the vintage column of 'layout: vintages'; set that layout, or remove the key (layout vintage_columns names each vintage in its column header, see docs/data.md#vintages)",
+                "data.vintage names the vintage column of 'layout: vintages'; set that layout, or remove the key (layout vintage_columns names each vintage in its column header, see docs/experiment-file.md#vintages)",
             );
         }
     }

@@ -1,4 +1,4 @@
-//! Real-time data (docs/data.md#vintages): a data file holding several
+//! Real-time data (docs/experiment-file.md#vintages): a data file holding several
 //! vintages, each the data as published in one period. The file is split
 //! into one ordinary table per vintage (the rows of a vintage in the long
 //! layout; the period column, the vintage's own target columns and the
@@ -195,7 +195,7 @@ fn split_wide(ctx: &mut Ctx, table: &RawTable, req: &DataRequest) -> Option<Vec<
         }
         if cols.is_empty() && ok {
             ctx.error(node, format!(
-                "layout vintage_columns: target '{name}' has no vintage columns; name them '{name}@<vintage label>', e.g. '{name}@{}' (see docs/data.md#vintages)",
+                "layout vintage_columns: target '{name}' has no vintage columns; name them '{name}@<vintage label>', e.g. '{name}@{}' (see docs/experiment-file.md#vintages)",
                 req.frequency.example()
             ));
             ok = false;
