@@ -347,9 +347,13 @@ pub(crate) fn schedule_of<'a>(exp: &'a Experiment, cell: &Cell) -> Schedule<'a> 
     }
 }
 
-/// How many estimations a cell makes: one per estimation end its origins meet.
+/// How many estimations a cell makes: one per estimation end its origins
+/// meet, or under vintages one per origin (each on its own vintage).
 pub(crate) fn estimations(exp: &Experiment, cell: &Cell) -> usize {
     let schedule = schedule_of(exp, cell);
+    if exp.targets[cell.target].vintages.is_some() {
+        return schedule.origins(exp.horizons[0]).count();
+    }
     let mut ends: Vec<usize> = schedule
         .origins(exp.horizons[0])
         .map(|o| schedule.estimation_end(o))
