@@ -8,7 +8,9 @@
 pub(crate) mod cache;
 pub(crate) mod cellio;
 mod single;
-pub(crate) use single::{from_scratch, time_one_estimation, Recomputed};
+mod vintage;
+pub(crate) use single::{from_scratch, time_one_estimation, Recomputed, Want};
+pub(crate) use vintage::on_vintage;
 
 use crate::error::{Diagnostic, Error, Location, Result};
 use crate::models::{
@@ -303,6 +305,10 @@ pub(crate) fn run_cell_in<R: Registry>(
     if matches!(candidate.family, Family::Combination { .. }) {
         return Ok(CellOutput::default());
     }
+    if target.vintages.is_some() {
+        let strict = !models::is_likelihood(&candidate.family);
+        return vintage::run(registry, exp, cell, strict, progress);
+    }
     let schedule = Schedule {
         scheme: &exp.schemes[cell.scheme],
         first_origin: target.first_origins[cell.scheme],
@@ -341,9 +347,13 @@ pub(crate) fn schedule_of<'a>(exp: &'a Experiment, cell: &Cell) -> Schedule<'a> 
     }
 }
 
-/// How many estimations a cell makes: one per estimation end its origins meet.
+/// How many estimations a cell makes: one per estimation end its origins
+/// meet, or under vintages one per origin (each on its own vintage).
 pub(crate) fn estimations(exp: &Experiment, cell: &Cell) -> usize {
     let schedule = schedule_of(exp, cell);
+    if exp.targets[cell.target].vintages.is_some() {
+        return schedule.origins(exp.horizons[0]).count();
+    }
     let mut ends: Vec<usize> = schedule
         .origins(exp.horizons[0])
         .map(|o| schedule.estimation_end(o))

@@ -4,34 +4,67 @@
 
 use super::{problem_diagnostic, schedule_of};
 use crate::error::Diagnostic;
-use crate::models::{self, CellModel, EstimationProblem, ForecastRow, Model, Registry};
+use crate::models::{self, CellModel, EstimationProblem, ForecastRow, Model, Parameter, Registry};
 use crate::plan::Cell;
 use crate::spec::Experiment;
 
-/// One origin's forecasts from an estimation made from scratch at its
-/// estimation end: what the look-ahead audit recomputes.
+/// One origin's forecasts from an estimation made from scratch at `end`:
+/// what the look-ahead audit recomputes, and what a run on vintages makes
+/// at every origin (with the parameters and residuals `want` asks for).
 struct FromScratch<'a> {
-    end: usize,
-    window: Option<usize>,
-    origin: usize,
+    at: Estimate,
     horizons: &'a [usize],
+    want: Want,
+}
+
+/// Where an estimation from scratch ends, its window, and the origin it
+/// forecasts from.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct Estimate {
+    pub end: usize,
+    pub window: Option<usize>,
+    pub origin: usize,
+}
+
+/// What an estimation from scratch reports besides its forecasts.
+#[derive(Debug, Clone, Copy, Default)]
+pub(crate) struct Want {
+    /// Its parameters and the regressors it left out.
+    pub parameters: bool,
+    /// Its in-sample residuals.
+    pub residuals: bool,
 }
 
 /// A forecast of one horizon, or why it could not be made.
 pub(crate) type Recomputed = std::result::Result<ForecastRow, String>;
 
+/// The outcome of one estimation from scratch.
+#[derive(Debug, Default)]
+pub(crate) struct Scratch {
+    /// One per horizon asked, in order.
+    pub rows: Vec<Recomputed>,
+    pub parameters: Vec<Parameter>,
+    pub left_out: Vec<String>,
+    pub residuals: Vec<f64>,
+}
+
 impl models::Visitor for FromScratch<'_> {
-    type Out = std::result::Result<Vec<Recomputed>, String>;
+    type Out = std::result::Result<Scratch, String>;
     fn visit<M: Model>(self, model: &M) -> Self::Out {
-        let mut fit = model.fit(self.end, self.window)?;
-        Ok(self
+        let Estimate {
+            end,
+            window,
+            origin,
+        } = self.at;
+        let mut fit = model.fit(end, window)?;
+        let rows = self
             .horizons
             .iter()
-            .zip(model.forecast(&mut fit, self.origin, self.horizons))
+            .zip(model.forecast(&mut fit, origin, self.horizons))
             .map(|(&horizon, step)| {
                 step.map(|step| ForecastRow {
                     horizon,
-                    origin: self.origin,
+                    origin,
                     forecast: step.forecast,
                     is_mse: step.is_mse,
                     is_var: step.is_var,
@@ -40,7 +73,19 @@ impl models::Visitor for FromScratch<'_> {
                 })
                 .map_err(|p| p.message)
             })
-            .collect())
+            .collect();
+        let mut out = Scratch {
+            rows,
+            ..Scratch::default()
+        };
+        if self.want.parameters {
+            out.parameters = model.parameters(&mut fit);
+            out.left_out = model.left_out(&mut fit);
+        }
+        if self.want.residuals {
+            out.residuals = model.residuals(&mut fit, end);
+        }
+        Ok(out)
     }
 }
 
@@ -57,19 +102,33 @@ pub(crate) fn from_scratch<R: Registry>(
     horizons: &[usize],
 ) -> std::result::Result<Vec<Recomputed>, String> {
     let schedule = schedule_of(exp, cell);
+    let at = Estimate {
+        end: schedule.estimation_end(origin),
+        window: schedule.window(),
+        origin,
+    };
+    estimate_once(registry, exp, target, cell, at, horizons, Want::default()).map(|s| s.rows)
+}
+
+/// One estimation of `cell`'s model from scratch on `target`, as `at`
+/// says, and its forecasts at `horizons` (ascending; `exp`'s horizons are
+/// the ones a direct model estimates for).
+pub(crate) fn estimate_once<R: Registry>(
+    registry: &R,
+    exp: &Experiment,
+    target: &crate::spec::TargetData,
+    cell: &Cell,
+    at: Estimate,
+    horizons: &[usize],
+    want: Want,
+) -> std::result::Result<Scratch, String> {
     let model = CellModel {
         exp,
         family: &exp.candidates[cell.candidate].family,
         target,
         seed: models::cell_seed(exp.seed, &cell.id),
     };
-    let visitor = FromScratch {
-        end: schedule.estimation_end(origin),
-        window: schedule.window(),
-        origin,
-        horizons,
-    };
-    registry.visit(&model, visitor)?
+    registry.visit(&model, FromScratch { at, horizons, want })?
 }
 
 /// Times one estimation of a cell's model at its first estimation end.

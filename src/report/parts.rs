@@ -361,6 +361,7 @@ fn run_data(ix: &Index, manifest: &Value, statuses: &[String]) -> Value {
             "transform": settings.transform,
             "transform_words": transform_words(&settings.transform),
             "multi_step": settings.multi_step,
+            "vintages": settings.vintages,
         },
         "many_targets": g.targets.len() > 3,
         "overall": overall(g, statuses),

@@ -26,6 +26,8 @@ pub struct Settings {
     pub periods: Vec<(String, String, String)>,
     /// report.targets.
     pub report_targets: usize,
+    /// Under a vintage layout, what each origin sees and which release is the outturn.
+    pub vintages: Option<String>,
 }
 
 #[derive(Clone)]
@@ -45,6 +47,13 @@ impl Settings {
             transform: d.transform.name().to_string(),
             rank_by: d.rank_by.name().to_string(),
             report_targets: d.report_targets,
+            vintages: d.vintages.as_ref().map(|v| {
+                format!(
+                    "Real-time data (layout {}): at each origin every candidate sees only the vintage published in that period, and the outturn scored is {}.",
+                    v.layout.name(),
+                    v.actual.describe()
+                )
+            }),
             multi_step: match d.multi_step {
                 crate::spec::MultiStep::Direct => "direct",
                 crate::spec::MultiStep::Iterated => "iterated",

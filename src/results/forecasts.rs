@@ -28,6 +28,11 @@ pub const COLUMNS: [&str; 9] = [
     "error",
 ];
 
+/// The last columns under a vintage layout (docs/results-folder.md): the
+/// vintage the forecast was made on, and the vintage whose value is the
+/// outturn scored (empty when the file holds no such release yet).
+pub const VINTAGE_COLUMNS: [&str; 2] = ["vintage", "actual_release"];
+
 /// `lower_<c>,upper_<c>` per interval level, ascending (SPEC §5).
 pub(super) fn interval_headers(exp: &Experiment) -> Vec<String> {
     exp.intervals
@@ -52,6 +57,10 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
     let with_order = exp.candidates.iter().any(|c| c.family.selects());
     if with_order {
         header.push("order".into());
+    }
+    let vintages = exp.vintages.is_some();
+    if vintages {
+        header.extend(VINTAGE_COLUMNS.iter().map(|c| c.to_string()));
     }
     let rows: usize = outputs.iter().map(|o| o.forecasts.len()).sum();
     let mut out = Vec::with_capacity(64 + rows * (96 + 40 * exp.intervals.len()));
@@ -79,7 +88,7 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
         lead.push(b',');
         for r in &o.forecasts {
             let pos = r.origin + r.horizon;
-            let actual = target.y[pos - 1];
+            let actual = target.actual(pos);
             out.extend_from_slice(&lead);
             push_usize(&mut out, r.horizon);
             out.push(b',');
@@ -112,6 +121,16 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
                 out.push(b',');
                 if let Some(order) = r.order {
                     push_field(&mut out, &order.to_string());
+                }
+            }
+            if let (true, Some(v)) = (vintages, &target.vintages) {
+                out.push(b',');
+                if let Some(i) = v.at_origin[r.origin - 1] {
+                    push_field(&mut out, &v.labels[i]);
+                }
+                out.push(b',');
+                if let Some(i) = v.actual_release[pos - 1] {
+                    push_field(&mut out, &v.labels[i]);
                 }
             }
             out.push(b'\n');

@@ -290,6 +290,65 @@ fn changed(
     )
 }
 
+/// Under vintages (docs/arithmetic.md#vintages), the cell's target with
+/// every value hidden at `origin` changed: in the vintage labelled with the
+/// origin's period what the rules above hide (after its own last value;
+/// `horizon` as the model on that vintage counts it), every value of every
+/// later vintage, the last vintage's data the target itself holds, and
+/// the outturns. Which vintages are later follows from their labels, not
+/// from the vintage the run picks, so a run that read a later one is
+/// caught. Earlier vintages stay as they are.
+fn changed_vintages(
+    exp: &Experiment,
+    target: &TargetData,
+    (origin, horizon): (usize, usize),
+    rng: &mut ChaCha20Rng,
+) -> std::result::Result<TargetData, String> {
+    let Some(v) = &target.vintages else {
+        return changed(exp, target, &visible_at(exp, origin, horizon), rng);
+    };
+    let period = target.ordinals[origin - 1];
+    let nothing = Visible {
+        target: i64::MIN / 2,
+        predictors: vec![i64::MIN / 2; exp.predictors.len()],
+    };
+    let mut changed_v = (**v).clone();
+    for (j, data) in changed_v.data.iter_mut().enumerate() {
+        let ordinal = v.ordinals[j];
+        if ordinal == period {
+            let gap = origin.saturating_sub(data.n);
+            *data = changed(exp, data, &visible_at(exp, data.n, horizon + gap), rng)?;
+        } else if ordinal > period {
+            *data = changed(exp, data, &nothing, rng)?;
+        }
+    }
+    for a in changed_v.actual.iter_mut() {
+        *a *= 1.5 + 1.5 * uniform(rng);
+    }
+    let mut out = changed(exp, target, &nothing, rng)?;
+    out.vintages = Some(std::sync::Arc::new(changed_v));
+    Ok(out)
+}
+
+/// The forecasts of `cell` from `origin` at `horizons`, estimated from
+/// scratch on `target` as the run estimates them: on the origin's vintage
+/// under vintages, else at the origin's estimation end.
+fn recompute<R: Registry>(
+    registry: &R,
+    exp: &Experiment,
+    target: &TargetData,
+    cell: &Cell,
+    origin: usize,
+    horizons: &[usize],
+) -> std::result::Result<Vec<Recomputed>, String> {
+    if target.vintages.is_some() {
+        let want = backtest::Want::default();
+        return backtest::on_vintage(registry, exp, target, cell, (origin, horizons), want)
+            .map(|s| s.rows);
+    }
+    backtest::from_scratch(registry, exp, target, cell, origin, horizons)
+}
+
 /// Whether two forecast rows agree in every bit.
 fn same_bits(a: &ForecastRow, b: &ForecastRow) -> bool {
     let bits = |v: Option<f64>| v.map(f64::to_bits);
@@ -422,16 +481,17 @@ impl CellAudit<'_> {
         let exp = self.exp;
         let cell = self.cell();
         let target = &exp.targets[cell.target];
-        let visible = visible_at(exp, origin, horizons[0]);
-        let changed_rows = changed(exp, target, &visible, rng)
-            .and_then(|t| backtest::from_scratch(registry, exp, &t, cell, origin, horizons));
+        let changed_rows = changed_vintages(exp, target, (origin, horizons[0]), rng)
+            .and_then(|t| recompute(registry, exp, &t, cell, origin, horizons));
         let schedule = self.schedule();
         // Where the run's own path must give the same bits as an estimation
         // from scratch: where it estimated from scratch itself (the first
         // estimation end), and for least squares and the benchmarks, whose
         // rows folded in or refactored give the bits a fresh fit gives; only
         // the likelihood families' warm starts may stop elsewhere.
+        // Under vintages the run estimates every origin from scratch.
         let exact_path = !crate::models::is_likelihood(&exp.candidates[cell.candidate].family)
+            || target.vintages.is_some()
             || schedule.estimation_end(origin) == schedule.estimation_end(schedule.first_origin);
         for (j, &h) in horizons.iter().enumerate() {
             let Some(own) = self.own(h, origin) else {
@@ -445,9 +505,7 @@ impl CellAudit<'_> {
                 }
             }
             let before = unchanged
-                .get_or_insert_with(|| {
-                    backtest::from_scratch(registry, exp, target, cell, origin, at_origin)
-                })
+                .get_or_insert_with(|| recompute(registry, exp, target, cell, origin, at_origin))
                 .as_ref()
                 .ok()
                 .and_then(|rows| at_origin.iter().position(|&x| x == h).map(|i| &rows[i]));

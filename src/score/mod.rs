@@ -290,7 +290,13 @@ pub fn cell_errors(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> 
                     let mut e = Errors::default();
                     for r in out.forecasts.iter().filter(|r| r.horizon == h) {
                         let pos = r.origin + h;
-                        e.actual.push(target.y[pos - 1]);
+                        let actual = target.actual(pos);
+                        // No outturn yet (a release the vintages do not
+                        // hold): left out of every score.
+                        if actual.is_nan() {
+                            continue;
+                        }
+                        e.actual.push(actual);
                         e.forecast.push(r.forecast);
                         e.is_mse.push(r.is_mse);
                         e.is_var.push(r.is_var);

@@ -53,6 +53,16 @@ pub struct RawTable {
 }
 
 impl RawTable {
+    /// The same file's header with no rows (a vintage's table starts so).
+    pub fn clone_empty(&self) -> RawTable {
+        RawTable {
+            path: self.path.clone(),
+            header_line: self.header_line,
+            headers: self.headers.clone(),
+            rows: Vec::new(),
+        }
+    }
+
     pub fn column(&self, name: &str) -> Option<usize> {
         self.headers.iter().position(|h| h == name)
     }

@@ -14,7 +14,10 @@ use super::predictors::{decode_predictors, Predictors};
 use super::schemes::PendingScheme;
 use super::scoring::{decode_scoring, Scoring};
 use super::yaml::{Kind, Node};
-use super::{Candidate, Declaration, Family, MultiStep, ReportFormat, Transform};
+use super::{
+    Candidate, CombinationWeights, Declaration, Family, Layout, MultiStep, Release, ReportFormat,
+    Transform, VintageSpec,
+};
 use crate::error::nearest;
 use std::path::Path;
 
@@ -48,6 +51,18 @@ struct DataKeys {
     frequency: Option<Frequency>,
     start: Option<(String, Node)>,
     end: Option<(String, Node)>,
+    /// `layout` (None: not given or not valid) and where it is written.
+    layout: Option<Layout>,
+    layout_node: Option<Node>,
+    /// `vintage`: the vintage column (long layout).
+    vintage: Option<(String, Node)>,
+}
+
+impl DataKeys {
+    /// The layout asked for (the ordinary one when none is given).
+    fn layout(&self) -> Layout {
+        self.layout.unwrap_or(Layout::Periods)
+    }
 }
 
 /// Everything the experiment file says, as far as it could be read.
@@ -182,6 +197,7 @@ pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
         benchmark,
     };
     check_seasons(ctx, &decoded, &top);
+    check_vintage_keys(ctx, &decoded);
     Some(decoded)
 }
 
@@ -389,7 +405,50 @@ fn check_seasons(ctx: &mut Ctx, d: &Decoded, top: &MapView) {
     }
 }
 
+/// What the vintage layouts exclude, and `scoring.actual` without one.
+fn check_vintage_keys(ctx: &mut Ctx, d: &Decoded) {
+    let layout = d.data.layout();
+    if let (Layout::Periods, Some((_, node))) = (layout, &d.scoring.actual) {
+        ctx.error(node, "scoring.actual picks which release of real-time data is the outturn; it needs data.layout vintages or vintage_columns (see docs/experiment-file.md#vintages)");
+    }
+    if layout == Layout::Periods {
+        return;
+    }
+    let Some(at) = d.data.layout_node.clone() else {
+        return;
+    };
+    if let Some(c) = d.candidates.iter().find(|c| {
+        matches!(
+            c.family,
+            Family::Combination {
+                weights: CombinationWeights::InverseMse,
+                ..
+            }
+        )
+    }) {
+        ctx.error(&at, format!("candidate {}: inverse_mse weights come from past errors, and under data.layout {} the outturns known at an origin differ from vintage to vintage; this version does not form them — use weights equal or trimmed (see docs/experiment-file.md#vintages)", c.id, layout.name()));
+    }
+}
+
 impl Decoded {
+    /// Real-time data as declared, None for the ordinary layout.
+    fn vintage_spec(&self) -> Option<VintageSpec> {
+        let layout = self.data.layout();
+        (layout != Layout::Periods).then(|| VintageSpec {
+            layout,
+            column: self
+                .data
+                .vintage
+                .as_ref()
+                .map_or_else(|| "vintage".to_string(), |(s, _)| s.clone()),
+            actual: self
+                .scoring
+                .actual
+                .as_ref()
+                .map_or(Release::Latest, |(r, _)| *r),
+        })
+    }
+
     /// The checked declaration, when the file has no problem of its own.
     pub(super) fn declaration(self, ctx: &Ctx, path: &Path, text: &str) -> Option<Declaration> {
         if !ctx.diags.is_empty()
@@ -399,6 +458,7 @@ impl Decoded {
         {
             return None;
         }
+        let vintages = self.vintage_spec();
         let (Some(name), Some((data_file, _)), Some(_), Some(frequency), Some(transform)) = (
             self.name,
             self.data.file,
@@ -452,6 +512,7 @@ impl Decoded {
             report_targets: self.report_targets,
             seed: self.seed,
             audit: self.audit,
+            vintages,
         })
     }
 }

@@ -285,6 +285,103 @@ pub struct TargetData {
     /// The data file's values this target was made from, before any
     /// transform (what the look-ahead audit perturbs, see `resolve::remade`).
     pub source: RawSource,
+    /// Real-time data (`data.layout: vintages` or `vintage_columns`): every
+    /// vintage of this target and the outturns scored; None for the
+    /// ordinary layout. The fields above then hold the last vintage.
+    pub vintages: Option<std::sync::Arc<Vintages>>,
+}
+
+impl TargetData {
+    /// The outturn scored at position `pos` (1-based): the chosen release
+    /// under vintages (NaN where the file has no such release yet), else
+    /// the target itself.
+    pub fn actual(&self, pos: usize) -> f64 {
+        match &self.vintages {
+            Some(v) => v.actual[pos - 1],
+            None => self.y[pos - 1],
+        }
+    }
+}
+
+/// The vintages of one target (docs/experiment-file.md#vintages), in the target's
+/// position space: every vintage starts at the same period as the last.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Vintages {
+    /// Each vintage's label as written in the data file, in label order.
+    pub labels: Vec<String>,
+    /// Each vintage's label as a period ordinal (ascending).
+    pub ordinals: Vec<i64>,
+    /// Each vintage's target, predictors and raw values, resolved as an
+    /// ordinary data file holding that vintage's rows only (its `n` is its
+    /// last target value; its `first_origins` are empty).
+    pub data: Vec<TargetData>,
+    /// The vintage seen at origin position p (index p − 1): the one
+    /// labelled with p's period, None where the file has none.
+    pub at_origin: Vec<Option<usize>>,
+    /// The outturn scored at position p (index p − 1): the transformed
+    /// value at p in the vintage of the chosen release, NaN when the file
+    /// holds no such release.
+    pub actual: Vec<f64>,
+    /// The vintage that release comes from, per position.
+    pub actual_release: Vec<Option<usize>>,
+}
+
+/// How the data file lays out its rows (docs/experiment-file.md).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Layout {
+    /// One row per period (the default).
+    Periods,
+    /// Rows (period, vintage): each vintage's data in rows of its own.
+    Vintages,
+    /// One row per period, one target column per vintage (`<target>@<vintage>`).
+    VintageColumns,
+}
+
+impl Layout {
+    pub const NAMES: [&'static str; 3] = ["periods", "vintages", "vintage_columns"];
+    pub fn parse(s: &str) -> Option<Layout> {
+        Some(match s {
+            "periods" => Layout::Periods,
+            "vintages" => Layout::Vintages,
+            "vintage_columns" => Layout::VintageColumns,
+            _ => return None,
+        })
+    }
+    pub fn name(self) -> &'static str {
+        Self::NAMES[self as usize]
+    }
+}
+
+/// Which release of a period counts as its outturn (`scoring.actual`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Release {
+    /// The period's value in the last vintage of the file.
+    Latest,
+    /// The k-th vintage (k ≥ 1) in which the period appears; 1 is `first`.
+    Nth(usize),
+}
+
+impl Release {
+    /// As the report and docs say it.
+    pub fn describe(self) -> String {
+        match self {
+            Release::Latest => "the latest release (the last vintage in the file)".into(),
+            Release::Nth(1) => "the first release (the first vintage holding the period)".into(),
+            Release::Nth(k) => format!(
+                "release {k} (counting the vintages that hold the period, the first being 1)"
+            ),
+        }
+    }
+}
+
+/// Real-time data: the layout, the vintage column and the outturn's release.
+#[derive(Debug, Clone, PartialEq)]
+pub struct VintageSpec {
+    /// `Vintages` or `VintageColumns`.
+    pub layout: Layout,
+    /// The column holding the vintage labels (long layout).
+    pub column: String,
+    pub actual: Release,
 }
 
 /// A target's values as read from the data file, before transforms: the
@@ -339,6 +436,9 @@ pub struct Declaration {
     /// `audit.origins`: the look-ahead audit's origins per cell, when the
     /// run is to audit itself.
     pub audit: Option<usize>,
+    /// Real-time data (`data.layout: vintages | vintage_columns`), None for
+    /// the ordinary layout.
+    pub vintages: Option<VintageSpec>,
     /// What the file asks that outturn does differently than it may seem
     /// (said by `check` and `run`, never an error), with the file and line.
     pub warnings: Vec<String>,

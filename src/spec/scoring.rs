@@ -4,7 +4,9 @@
 use super::decode::Ctx;
 use super::period::{self, Frequency};
 use super::yaml::{Kind, Node};
-use super::{ConfidenceSetSpec, IntervalLevel, Metric, PeriodSet, SnoopingSpec, TestsSpec};
+use super::{
+    ConfidenceSetSpec, IntervalLevel, Metric, PeriodSet, Release, SnoopingSpec, TestsSpec,
+};
 
 pub(super) struct Scoring {
     pub metrics: Vec<Metric>,
@@ -16,6 +18,8 @@ pub(super) struct Scoring {
     /// Where each period set is written, for messages.
     pub period_nodes: Vec<Node>,
     pub rolling_window: Option<usize>,
+    /// `actual`: which release of vintage data is the outturn, and where it is written.
+    pub actual: Option<(Release, Node)>,
 }
 
 impl Default for Scoring {
@@ -29,6 +33,7 @@ impl Default for Scoring {
             periods: Vec::new(),
             rolling_window: None,
             period_nodes: Vec::new(),
+            actual: None,
         }
     }
 }
@@ -77,6 +82,7 @@ pub(super) fn decode_scoring(ctx: &mut Ctx, node: &Node, frequency: Option<Frequ
             "tests",
             "periods",
             "rolling_window",
+            "actual",
         ],
         &[],
     ) else {
@@ -128,7 +134,30 @@ pub(super) fn decode_scoring(ctx: &mut Ctx, node: &Node, frequency: Option<Frequ
     if let Some(p) = view.get("periods") {
         decode_periods(ctx, p, &mut out, frequency);
     }
+    if let Some(a) = view.get("actual") {
+        out.actual = decode_actual(ctx, a).map(|r| (r, a.clone()));
+    }
     out
+}
+
+/// `scoring.actual`: `latest`, `first` or `{release: k}` (docs/experiment-file.md#scoring).
+fn decode_actual(ctx: &mut Ctx, a: &Node) -> Option<Release> {
+    if let Kind::Map(_) = &a.kind {
+        let view = ctx.map(a, "scoring.actual", &["release"], &[])?;
+        let Some(k) = view.get("release") else {
+            ctx.error(a, "scoring.actual as a mapping needs 'release': the count of the release that is the outturn, e.g. {release: 2} (1 is the first)");
+            return None;
+        };
+        let k = ctx.integer(k, "scoring.actual.release", 1)?;
+        return Some(Release::Nth(k as usize));
+    }
+    match ctx
+        .choice(a, "scoring.actual", &["latest", "first"])?
+        .as_str()
+    {
+        "first" => Some(Release::Nth(1)),
+        _ => Some(Release::Latest),
+    }
 }
 
 /// `scoring.intervals`: levels as fractions, ascending.

@@ -56,31 +56,32 @@ pub(in crate::spec) fn with_data(
             return None;
         }
     };
-    let resolved = resolve::resolve_data(
-        ctx,
-        &table,
-        resolve::DataRequest {
-            time: (time_col, time_node),
-            frequency,
-            start: d.data.start.as_ref().map(|(s, n)| (s.as_str(), n)),
-            end: d.data.end.as_ref().map(|(s, n)| (s.as_str(), n)),
-            targets: &d.targets,
-            transform,
-            predictors: &d.predictors.list,
-            predictor_nodes: &d.predictors.nodes,
-            schemes: &d
-                .schemes
-                .iter()
-                .map(|p| (&p.scheme, &p.node))
-                .collect::<Vec<_>>(),
-            horizons: &d.horizons,
-            positive_for: d
-                .candidates
-                .iter()
-                .find(|c| c.family.multiplicative_error())
-                .map(|c| c.id.as_str()),
-        },
-    );
+    let vintage_spec = d.vintage_spec();
+    let request = resolve::DataRequest {
+        time: (time_col, time_node),
+        frequency,
+        start: d.data.start.as_ref().map(|(s, n)| (s.as_str(), n)),
+        end: d.data.end.as_ref().map(|(s, n)| (s.as_str(), n)),
+        targets: &d.targets,
+        transform,
+        predictors: &d.predictors.list,
+        predictor_nodes: &d.predictors.nodes,
+        schemes: &d
+            .schemes
+            .iter()
+            .map(|p| (&p.scheme, &p.node))
+            .collect::<Vec<_>>(),
+        horizons: &d.horizons,
+        positive_for: d
+            .candidates
+            .iter()
+            .find(|c| c.family.multiplicative_error())
+            .map(|c| c.id.as_str()),
+    };
+    let resolved = match &vintage_spec {
+        Some(spec) => resolve::resolve_vintages(ctx, &table, request, spec),
+        None => resolve::resolve_data(ctx, &table, request),
+    };
     let resolved = resolved.filter(|_| d.name.is_some())?;
     if !ctx.diags.is_empty() {
         return None;

@@ -7,7 +7,7 @@ use crate::spec::limits;
 use crate::spec::period::Frequency;
 use crate::spec::schemes::{decode_schemes, PendingScheme};
 use crate::spec::yaml::{Kind, Node};
-use crate::spec::{MultiStep, ReportFormat};
+use crate::spec::{Layout, MultiStep, ReportFormat};
 
 /// `audit`: the look-ahead audit's origins per cell (docs/experiment-file.md#audit).
 pub(super) fn decode_audit(ctx: &mut Ctx, node: &Node) -> Option<usize> {
@@ -87,7 +87,15 @@ pub(super) fn decode_data_keys(ctx: &mut Ctx, d: &Node) -> DataKeys {
     let Some(view) = ctx.map(
         d,
         "data",
-        &["file", "time", "frequency", "start", "end"],
+        &[
+            "file",
+            "time",
+            "frequency",
+            "start",
+            "end",
+            "layout",
+            "vintage",
+        ],
         &[],
     ) else {
         return keys;
@@ -127,6 +135,21 @@ pub(super) fn decode_data_keys(ctx: &mut Ctx, d: &Node) -> DataKeys {
     keys.end = view
         .get("end")
         .and_then(|n| ctx.string(n, "data.end").map(|s| (s, n.clone())));
+    if let Some(n) = view.get("layout") {
+        keys.layout = ctx
+            .choice(n, "data.layout", &Layout::NAMES)
+            .and_then(|s| Layout::parse(&s));
+        keys.layout_node = Some(n.clone());
+    }
+    if let Some(n) = view.get("vintage") {
+        keys.vintage = ctx.string(n, "data.vintage").map(|s| (s, n.clone()));
+        if keys.layout != Some(Layout::Vintages) {
+            ctx.error(
+                n,
+                "data.vintage names the vintage column of 'layout: vintages'; set that layout, or remove the key (layout vintage_columns names each vintage in its column header, see docs/experiment-file.md#vintages)",
+            );
+        }
+    }
     keys
 }
 

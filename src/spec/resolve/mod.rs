@@ -6,6 +6,8 @@
 mod columns;
 mod periods;
 mod target;
+mod vintages;
+pub(in crate::spec) use vintages::resolve_vintages;
 
 use super::data::RawTable;
 use super::decode::Ctx;
@@ -14,6 +16,7 @@ use super::period::{Frequency, LabelStyle};
 use super::yaml::Node;
 use columns::{column_or_error, parse_columns};
 
+#[derive(Clone, Copy)]
 pub struct DataRequest<'a> {
     pub time: (&'a str, &'a Node),
     pub frequency: Frequency,

@@ -148,6 +148,7 @@ pub(super) fn resolve_target(
             target: raw[..=last].to_vec(),
             predictors: raw_predictors,
         },
+        vintages: None,
     })
 }
 

@@ -1,0 +1,511 @@
+//! Real-time data (docs/experiment-file.md#vintages) through the command line. No
+//! real-time data set ships with any registry package pinned here, so the
+//! vintage machinery is checked by properties that hold by construction,
+//! on vintage files made here from the demo's invented series (which
+//! supply no expected value, only the two runs compared):
+//! (a) vintages that all equal the final data (vintage T holding the rows
+//!     up to T) reproduce the ordinary run's forecasts.csv, and the wide
+//!     layout gives the long layout's bytes;
+//! (b) a value changed only in vintages after T moves no forecast from an
+//!     origin ≤ T;
+//! (c) `scoring.actual: first` against `latest` changes outturns and
+//!     errors only, never a forecast;
+//! and the refusals of docs/refusals.md#real-time-data, and the second
+//! demo experiment (invented revisions) runs, audits and verifies.
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+fn root() -> PathBuf {
+    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+}
+
+fn outturn(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_outturn"))
+        .args(args)
+        .output()
+        .expect("outturn runs")
+}
+
+fn text(bytes: &[u8]) -> String {
+    String::from_utf8_lossy(bytes).to_string()
+}
+
+fn path(p: &Path) -> &str {
+    p.to_str().unwrap()
+}
+
+fn scratch(tag: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("outturn-vint-{}-{tag}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).unwrap();
+    dir
+}
+
+/// The demo's data: header and rows (period, demand, rain deficit, school days).
+fn demo_rows() -> (String, Vec<Vec<String>>) {
+    let csv = std::fs::read_to_string(root().join("experiments/data/water_demand.csv")).unwrap();
+    let mut lines = csv.lines();
+    let header = lines.next().unwrap().to_string();
+    let rows = lines
+        .map(|l| l.split(',').map(String::from).collect())
+        .collect();
+    (header, rows)
+}
+
+/// The experiment: every family the property covers, three schemes,
+/// a release-lagged and a known-ahead predictor.
+fn experiment(data: &str, data_keys: &str, scoring: &str) -> String {
+    format!(
+        "version: 1
+experiment: vintages
+data:
+  file: {data}
+  time: period
+  frequency: monthly
+{data_keys}
+target: demand_ml
+transform: seasonal_diff
+predictors:
+  - column: rain_deficit_mm
+    transform: seasonal_diff
+    release_lag: 1
+  - column: school_holiday_days
+    transform: seasonal_diff
+    known_ahead: true
+candidates:
+  - family: naive
+  - family: ar
+    lags: [1, 2]
+  - family: ardl
+    lags: [1]
+    predictors: [rain_deficit_mm, school_holiday_days]
+    predictor_lags: [1]
+  - family: arima
+    p: [1]
+    d: [0]
+    q: [0]
+  - family: smoothing
+    trend: [none]
+  - family: combination
+    members: [\"ar(1)\", \"naive\"]
+    weights: equal
+backtest:
+  schemes:
+    - fixed: {{first_origin: 2019-12}}
+    - expanding: {{first_origin: 2019-12}}
+    - rolling: {{window: 96, first_origin: 2019-12}}
+  horizons: [1, 3]
+scoring:
+  metrics: [rmse, mae]
+  intervals: [0.8]
+{scoring}
+seed: 7
+"
+    )
+}
+
+/// Index of the first row whose period is `label`.
+fn row_of(rows: &[Vec<String>], label: &str) -> usize {
+    rows.iter().position(|r| r[0] == label).unwrap()
+}
+
+/// A long-layout file in which vintage v holds the final data up to v
+/// (the target and the release-lagged predictor; the known-ahead
+/// calendar on every row), for vintages from `first` on; `edit` may change
+/// a cell of a vintage (vintage index, row index, column) → value.
+fn long_file(first: &str, edit: &dyn Fn(usize, usize, usize, &str) -> String) -> String {
+    let (header, rows) = demo_rows();
+    let cols: Vec<&str> = header.split(',').collect();
+    let mut out = format!("period,vintage,{}\n", cols[1..].join(","));
+    let last = rows.iter().rposition(|r| !r[1].is_empty()).unwrap();
+    for v in row_of(&rows, first)..=last {
+        for (i, r) in rows.iter().enumerate() {
+            let mut cells: Vec<String> = r.clone();
+            if i > v {
+                cells[1].clear();
+                cells[2].clear();
+                if cells[3].is_empty() {
+                    continue;
+                }
+            }
+            for (c, cell) in cells.iter_mut().enumerate().skip(1) {
+                *cell = edit(v, i, c, cell);
+            }
+            out.push_str(&format!(
+                "{},{},{}\n",
+                r[0],
+                rows[v][0],
+                cells[1..].join(",")
+            ));
+        }
+    }
+    out
+}
+
+/// The same vintages in the wide layout: one target column per vintage,
+/// the predictors as final columns.
+fn wide_file(first: &str) -> String {
+    let (_, rows) = demo_rows();
+    let last = rows.iter().rposition(|r| !r[1].is_empty()).unwrap();
+    let vintages: Vec<usize> = (row_of(&rows, first)..=last).collect();
+    let mut out = String::from("period");
+    for &v in &vintages {
+        out.push_str(&format!(",demand_ml@{}", rows[v][0]));
+    }
+    out.push_str(",rain_deficit_mm,school_holiday_days\n");
+    for (i, r) in rows.iter().enumerate() {
+        out.push_str(&r[0]);
+        for &v in &vintages {
+            out.push(',');
+            if i <= v {
+                out.push_str(&r[1]);
+            }
+        }
+        out.push_str(&format!(",{},{}\n", r[2], r[3]));
+    }
+    out
+}
+
+/// Run an experiment in `dir`; the folder written.
+fn run(dir: &Path, name: &str, yaml: &str) -> PathBuf {
+    let exp = dir.join(format!("{name}.yaml"));
+    std::fs::write(&exp, yaml).unwrap();
+    let out_dir = dir.join(format!("out-{name}"));
+    let out = outturn(&[
+        "run",
+        path(&exp),
+        "--out",
+        path(&out_dir),
+        "--quiet",
+        "--no-cache",
+    ]);
+    assert_eq!(out.status.code(), Some(0), "{name}: {}", text(&out.stderr));
+    out_dir
+}
+
+/// forecasts.csv as rows of cells.
+fn forecasts(dir: &Path) -> Vec<Vec<String>> {
+    std::fs::read_to_string(dir.join("forecasts.csv"))
+        .unwrap()
+        .lines()
+        .map(|l| {
+            // Candidate ids with commas are quoted; none of these has one
+            // inside a field other than the id.
+            let mut cells = Vec::new();
+            let mut cur = String::new();
+            let mut quoted = false;
+            for ch in l.chars() {
+                match ch {
+                    '"' => quoted = !quoted,
+                    ',' if !quoted => cells.push(std::mem::take(&mut cur)),
+                    c => cur.push(c),
+                }
+            }
+            cells.push(cur);
+            cells
+        })
+        .collect()
+}
+
+fn is_likelihood(candidate: &str) -> bool {
+    candidate.starts_with("arima") || candidate.starts_with("smoothing")
+}
+
+#[test]
+fn vintages_equal_to_the_final_data_reproduce_the_ordinary_run() {
+    // Holds by construction: at origin T the vintage holds exactly what the
+    // ordinary run lets origin T see (plus values the rules hide anyway),
+    // and every origin is estimated from scratch, which for least squares
+    // and the benchmarks gives the incremental path's bits, and for every
+    // family under the fixed scheme the one estimation's. The ordinary run
+    // warm-starts arima and smoothing at each new estimation end
+    // (docs/arithmetic.md#vintages), so under expanding and rolling
+    // windows their forecasts agree to the optimiser's tolerance only.
+    let dir = scratch("equal");
+    let data = root().join("experiments/data/water_demand.csv");
+    let plain = run(&dir, "plain", &experiment(path(&data), "", ""));
+    std::fs::write(
+        dir.join("long.csv"),
+        long_file("2019-12", &|_, _, _, c| c.into()),
+    )
+    .unwrap();
+    std::fs::write(dir.join("wide.csv"), wide_file("2019-12")).unwrap();
+    let long = run(
+        &dir,
+        "long",
+        &experiment("long.csv", "  layout: vintages", ""),
+    );
+    let wide = run(
+        &dir,
+        "wide",
+        &experiment("wide.csv", "  layout: vintage_columns", ""),
+    );
+    let (a, b) = (forecasts(&plain), forecasts(&long));
+    assert_eq!(a.len(), b.len());
+    assert_eq!(&b[0][b[0].len() - 2..], ["vintage", "actual_release"]);
+    let (mut exact, mut close) = (0, 0);
+    for (x, y) in a.iter().zip(&b).skip(1) {
+        let y_cut = &y[..y.len() - 2];
+        assert_eq!(y[y.len() - 2], x[4], "the vintage used is the origin's");
+        if is_likelihood(&x[1]) && x[2] != "fixed" {
+            let (f, g): (f64, f64) = (x[6].parse().unwrap(), y[6].parse().unwrap());
+            assert!((f - g).abs() <= 1e-3 * (1.0 + f.abs()), "{x:?} {y:?}");
+            close += 1;
+        } else {
+            assert_eq!(x.as_slice(), y_cut, "byte for byte");
+            exact += 1;
+        }
+    }
+    assert!(exact > 1500 && close > 400, "{exact} {close}");
+    // The wide layout is the same data: the same table, byte for byte.
+    assert_eq!(
+        std::fs::read(long.join("forecasts.csv")).unwrap(),
+        std::fs::read(wide.join("forecasts.csv")).unwrap()
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn a_value_changed_only_in_later_vintages_moves_no_earlier_forecast() {
+    // Holds by construction: origin T sees vintage T only. Vintages after
+    // 2021-06 revise the demand of 2020-03 (and with it two seasonal
+    // differences) and the rain deficit of 2020-05.
+    let dir = scratch("later");
+    let (_, rows) = demo_rows();
+    let cut = row_of(&rows, "2021-06");
+    let (demand, rain) = (row_of(&rows, "2020-03"), row_of(&rows, "2020-05"));
+    std::fs::write(
+        dir.join("base.csv"),
+        long_file("2019-12", &|_, _, _, c| c.into()),
+    )
+    .unwrap();
+    let revised = long_file("2019-12", &|v, i, c, cell| {
+        if v > cut && ((i == demand && c == 1) || (i == rain && c == 2)) {
+            format!("{}", cell.parse::<f64>().unwrap() * 1.25 + 3.0)
+        } else {
+            cell.to_string()
+        }
+    });
+    std::fs::write(dir.join("revised.csv"), revised).unwrap();
+    let keys = "  layout: vintages";
+    let base = forecasts(&run(&dir, "base", &experiment("base.csv", keys, "")));
+    let changed = forecasts(&run(&dir, "revised", &experiment("revised.csv", keys, "")));
+    let (mut same, mut moved_later) = (0, 0);
+    for (x, y) in base.iter().zip(&changed).skip(1) {
+        // Everything the model made: forecast, in-sample MSE, intervals.
+        let made = |r: &[String]| -> Vec<String> { [&r[..7], &r[9..12]].concat() };
+        if x[4].as_str() <= "2021-06" {
+            assert_eq!(made(x), made(y), "origin {}", x[4]);
+            same += 1;
+        } else if made(x) != made(y) {
+            moved_later += 1;
+        }
+    }
+    assert!(same > 500, "{same}");
+    assert!(moved_later > 0, "the revision reaches the later origins");
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn the_release_scored_changes_outturns_and_errors_only() {
+    // Holds by construction: the release scored is not data any origin sees.
+    let dir = scratch("release");
+    let (_, rows) = demo_rows();
+    // Revisions: every vintage after a period's first revises it by +1 %.
+    let revised = long_file("2019-12", &|v, i, c, cell| {
+        if c == 1 && !cell.is_empty() && v > i {
+            format!("{}", cell.parse::<f64>().unwrap() * 1.01)
+        } else {
+            cell.to_string()
+        }
+    });
+    let _ = rows;
+    std::fs::write(dir.join("v.csv"), revised).unwrap();
+    let keys = "  layout: vintages";
+    let latest = forecasts(&run(
+        &dir,
+        "latest",
+        &experiment("v.csv", keys, "  actual: latest"),
+    ));
+    let first = forecasts(&run(
+        &dir,
+        "first",
+        &experiment("v.csv", keys, "  actual: first"),
+    ));
+    let second = forecasts(&run(
+        &dir,
+        "second",
+        &experiment("v.csv", keys, "  actual: {release: 2}"),
+    ));
+    assert_eq!(latest.len(), first.len());
+    let mut differ = 0;
+    for ((x, y), z) in latest.iter().zip(&first).zip(&second).skip(1) {
+        let made = |r: &[String]| -> Vec<String> { [&r[..7], &r[9..12]].concat() };
+        assert_eq!(made(x), made(y));
+        assert_eq!(made(x), made(z));
+        // First release: the vintage of the forecast period itself.
+        assert_eq!(y[13], y[5], "{y:?}");
+        differ += usize::from(x[7] != y[7]);
+        // The second release comes a period later; the last periods have
+        // none in the file and are left out of the scores.
+        if z[7].is_empty() {
+            assert!(z[8].is_empty() && z[13].is_empty());
+        }
+    }
+    assert!(differ > 100, "{differ}");
+    assert!(second.iter().any(|r| r[7].is_empty()));
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+/// A vintage file with one problem: exit 2, nothing written, the message.
+fn refused(tag: &str, csv: &str, data_keys: &str, scoring: &str, expect: &[&str]) {
+    let dir = scratch(tag);
+    std::fs::write(dir.join("v.csv"), csv).unwrap();
+    let exp = dir.join("exp.yaml");
+    std::fs::write(&exp, experiment("v.csv", data_keys, scoring)).unwrap();
+    let out_dir = dir.join("out");
+    let out = outturn(&["run", path(&exp), "--out", path(&out_dir), "--quiet"]);
+    let stderr = text(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{tag}: {stderr}");
+    for e in expect {
+        assert!(stderr.contains(e), "{tag}: {e} not in {stderr}");
+    }
+    assert!(!out_dir.exists());
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn bad_vintage_files_are_refused_by_file_row_and_column() {
+    let good = long_file("2019-12", &|_, _, _, c| c.into());
+    let lines: Vec<&str> = good.lines().collect();
+    let keys = "  layout: vintages";
+    refused(
+        "no-column",
+        &good.replacen("period,vintage,", "period,release,", 1),
+        keys,
+        "",
+        &["v.csv:1", "column 'vintage'", "data.vintage"],
+    );
+    // Line 3 of the file: its vintage label edited.
+    let mut bad = lines.clone();
+    let edited = lines[2].replacen(",2019-12,", ",2019-13,", 1);
+    bad[2] = &edited;
+    refused(
+        "label",
+        &(bad.join("\n") + "\n"),
+        keys,
+        "",
+        &["v.csv:3:2", "column 'vintage'", "month must be 01 to 12"],
+    );
+    let mut dup = lines.clone();
+    dup.insert(3, lines[2]);
+    refused(
+        "duplicate",
+        &(dup.join("\n") + "\n"),
+        keys,
+        "",
+        &[
+            "v.csv:4:1",
+            "appears twice in vintage '2019-12'",
+            "lines 3 and 4",
+        ],
+    );
+    // A vintage holding no value of the target.
+    let empty: String = lines
+        .iter()
+        .map(|l| {
+            let c: Vec<&str> = l.split(',').collect();
+            if c[1] == "2020-01" {
+                format!("{},{},,{},{}\n", c[0], c[1], c[3], c[4])
+            } else {
+                format!("{l}\n")
+            }
+        })
+        .collect();
+    refused(
+        "empty",
+        &empty,
+        keys,
+        "",
+        &[
+            "v.csv:",
+            "vintage '2020-01' holds no value of target 'demand_ml'",
+        ],
+    );
+    // Vintages from 2020-06 only: the origins from 2019-12 have none.
+    refused(
+        "before",
+        &long_file("2020-06", &|_, _, _, c| c.into()),
+        keys,
+        "",
+        &["scheme fixed", "comes before the first vintage '2020-06'"],
+    );
+    refused(
+        "actual-without-vintages",
+        &good,
+        "",
+        "  actual: first",
+        &["scoring.actual", "data.layout vintages"],
+    );
+    refused(
+        "wide-plain-column",
+        &good,
+        "  layout: vintage_columns",
+        "",
+        &["v.csv:1:3", "a plain column 'demand_ml'", "demand_ml@"],
+    );
+    refused(
+        "wide-without-columns",
+        &good.replacen(",demand_ml,", ",demand,", 1),
+        "  layout: vintage_columns",
+        "",
+        &["target 'demand_ml' has no vintage columns", "demand_ml@"],
+    );
+    let wide = wide_file("2019-12");
+    refused(
+        "wide-label",
+        &wide.replacen("demand_ml@2019-12", "demand_ml@2019Q4", 1),
+        "  layout: vintage_columns",
+        "",
+        &[
+            "v.csv:1:2",
+            "column 'demand_ml@2019Q4'",
+            "not a monthly period label",
+        ],
+    );
+}
+
+#[test]
+fn the_regional_output_demo_runs_audits_and_verifies() {
+    let dir = scratch("demo");
+    let exp = root().join("experiments/regional_output.yaml");
+    let out_dir = dir.join("out");
+    let out = outturn(&[
+        "run",
+        path(&exp),
+        "--out",
+        path(&out_dir),
+        "--quiet",
+        "--no-cache",
+    ]);
+    assert_eq!(out.status.code(), Some(0), "{}", text(&out.stderr));
+    let report = std::fs::read_to_string(out_dir.join("report.md")).unwrap();
+    assert!(
+        report.contains("the outturn scored is the first release"),
+        "the report says which release counts"
+    );
+    let rows = forecasts(&out_dir);
+    let header = &rows[0];
+    assert_eq!(&header[header.len() - 2..], ["vintage", "actual_release"]);
+    let verify = outturn(&["verify", path(&out_dir)]);
+    assert_eq!(verify.status.code(), Some(0), "{}", text(&verify.stdout));
+    let audit = outturn(&["audit", path(&exp), "--origins", "2"]);
+    let said = text(&audit.stdout);
+    assert_eq!(audit.status.code(), Some(0), "{said}");
+    assert!(
+        said.contains("checks across 33 cells, 0 forecasts moved"),
+        "{said}"
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}
