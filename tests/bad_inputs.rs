@@ -633,6 +633,21 @@ fn catalogue() -> Vec<Case> {
             &["exp.yaml:23:15", "write 0.8 for 80%"],
         ),
         case(
+            "quantile outside (0, 1)",
+            format!("{BASE}scoring:\n  quantiles: [0.05, 1]\n"),
+            &["exp.yaml:23:21", "strictly between 0 and 1", "'1'"],
+        ),
+        case(
+            "quantile listed twice",
+            format!("{BASE}scoring:\n  quantiles: [0.5, 0.1, 0.50]\n"),
+            &["exp.yaml:23:25", "quantile 0.5 is listed twice (column q50)"],
+        ),
+        case(
+            "quantile too close to 0 to name",
+            format!("{BASE}scoring:\n  quantiles: [0.000000001]\n"),
+            &["exp.yaml:23:15", "too close to 0 or 1", "(q0)"],
+        ),
+        case(
             "coverage without intervals",
             format!("{BASE}scoring:\n  metrics: [rmse, coverage]\n"),
             &["exp.yaml:23:19", "list the levels under scoring.intervals"],

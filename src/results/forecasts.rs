@@ -1,6 +1,6 @@
 //! forecasts.csv: every backtest forecast (SPEC §5), one row per target ×
 //! candidate × scheme × horizon × origin, with the outturn, the error, the
-//! in-sample MSE, the intervals and, when a candidate selects its order,
+//! in-sample MSE, the quantiles (interval bounds among them) and, when a candidate selects its order,
 //! the order chosen. The largest table by far: rows are written straight
 //! into one buffer, numbers without allocation.
 
@@ -15,7 +15,7 @@ use std::io::Read;
 pub const FILE: &str = "forecasts.csv";
 
 /// The leading columns (SPEC §5), which the report reads; `is_mse`, the
-/// intervals and `order` follow.
+/// quantile columns and `order` follow.
 pub const COLUMNS: [&str; 9] = [
     "target",
     "candidate",
@@ -28,16 +28,17 @@ pub const COLUMNS: [&str; 9] = [
     "error",
 ];
 
-/// `lower_<c>,upper_<c>` per interval level, ascending (SPEC §5).
-pub(super) fn interval_headers(exp: &Experiment) -> Vec<String> {
-    exp.intervals
+/// The quantile columns `q<100τ>`, ascending (SPEC §7.6): both bounds of
+/// every interval level and every `scoring.quantiles` entry.
+pub(super) fn quantile_headers(exp: &Experiment) -> Vec<String> {
+    exp.quantile_columns().into_iter().map(|q| q.name).collect()
+}
+
+/// Each quantile column's standard-normal multiplier, in column order.
+pub(super) fn quantile_multipliers(exp: &Experiment) -> Vec<f64> {
+    exp.quantile_columns()
         .iter()
-        .flat_map(|l| {
-            [
-                format!("lower_{}", l.percent),
-                format!("upper_{}", l.percent),
-            ]
-        })
+        .map(crate::score::quantile_multiplier)
         .collect()
 }
 
@@ -48,13 +49,14 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
         .chain(&["is_mse"])
         .map(|c| c.to_string())
         .collect();
-    header.extend(interval_headers(exp));
+    header.extend(quantile_headers(exp));
     let with_order = exp.candidates.iter().any(|c| c.family.selects());
     if with_order {
         header.push("order".into());
     }
     let rows: usize = outputs.iter().map(|o| o.forecasts.len()).sum();
-    let mut out = Vec::with_capacity(64 + rows * (96 + 40 * exp.intervals.len()));
+    let zs = quantile_multipliers(exp);
+    let mut out = Vec::with_capacity(64 + rows * (96 + 20 * zs.len()));
     for (i, h) in header.iter().enumerate() {
         if i > 0 {
             out.push(b',');
@@ -62,11 +64,6 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
         push_field(&mut out, h);
     }
     out.push(b'\n');
-    let zs: Vec<f64> = exp
-        .intervals
-        .iter()
-        .map(|l| crate::numerics::dist::normal_quantile((1.0 + l.level) / 2.0))
-        .collect();
     for (cell, o) in cells.iter().zip(outputs) {
         let target = &exp.targets[cell.target];
         // The row's fixed part: target, candidate, scheme.
@@ -96,16 +93,11 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
             if let Some(m) = r.is_mse {
                 push_num(&mut out, m);
             }
+            let sd = r.variance.filter(|v| *v >= 0.0).map(f64::sqrt);
             for &z in &zs {
                 out.push(b',');
-                match r.variance {
-                    Some(v) if v >= 0.0 => {
-                        let sd = v.sqrt();
-                        push_num(&mut out, r.forecast - z * sd);
-                        out.push(b',');
-                        push_num(&mut out, r.forecast + z * sd);
-                    }
-                    _ => out.push(b','),
+                if let Some(sd) = sd {
+                    push_num(&mut out, r.forecast + z * sd);
                 }
             }
             if with_order {
@@ -185,7 +177,7 @@ mod tests {
     }
 
     const HEADER: &str =
-        "target,candidate,scheme,horizon,origin,period,forecast,actual,error,is_mse,lower_80,upper_80\n";
+        "target,candidate,scheme,horizon,origin,period,forecast,actual,error,is_mse,q10,q90\n";
 
     #[test]
     fn rows_are_grouped_by_cell_and_horizon_in_table_order() {

@@ -16,7 +16,9 @@ mod reference_metrics_tests;
 use crate::backtest::CellOutput;
 use crate::numerics::dist::{normal_cdf, normal_pdf, normal_quantile};
 use crate::plan::Cell;
-use crate::spec::{Experiment, Family, Metric, MetricColumn, MultiStep, Scheme};
+use crate::spec::{
+    Experiment, Family, Metric, MetricColumn, MultiStep, QuantileColumn, Scheme,
+};
 
 /// Forecast errors of one candidate on one target × scheme × horizon.
 #[derive(Debug, Clone, Default)]
@@ -79,6 +81,13 @@ impl Errors {
 pub fn interval(forecast: f64, sd: f64, level: f64) -> (f64, f64) {
     let z = normal_quantile((1.0 + level) / 2.0);
     (forecast - z * sd, forecast + z * sd)
+}
+
+/// The standard-normal multiplier of a quantile column: sign·Φ⁻¹(tail), so
+/// that forecast + multiplier·σ̂_h is its Gaussian quantile (for an interval
+/// bound exactly the forecast ∓ z_{(1+c)/2}·σ̂_h of [`interval`]).
+pub fn quantile_multiplier(q: &QuantileColumn) -> f64 {
+    q.sign * normal_quantile(q.tail)
 }
 
 /// Share of outturns inside the level-c interval (ends included).

@@ -148,6 +148,34 @@ pub struct IntervalLevel {
     pub percent: String,
 }
 
+/// A quantile column of forecasts.csv and outlook.csv (SPEC §7.6): the
+/// probability τ, its header `q<100τ>` and how a Gaussian forecast gives it,
+/// forecast + sign·Φ⁻¹(tail)·σ̂_h. An interval level c gives two, tail
+/// (1 + c)/2 with sign −1 and +1, so that the bounds are exactly the
+/// forecast ∓ z_{(1+c)/2}·σ̂_h of SPEC §4; a listed quantile τ has tail
+/// max(τ, 1 − τ).
+#[derive(Debug, Clone, PartialEq)]
+pub struct QuantileColumn {
+    pub prob: f64,
+    /// `q10`, `q2.5`, `q97.5`.
+    pub name: String,
+    pub tail: f64,
+    /// The sign of Φ⁻¹(tail): −1 below the median, +1 from it on.
+    pub sign: f64,
+}
+
+/// `q10` for 0.1, `q2.5` for 0.025: the header of a quantile column.
+pub fn quantile_name(prob: f64) -> String {
+    format!("q{}", percent_text(prob))
+}
+
+/// `80` for 0.8, `97.5` for 0.975, `2.5` for 0.025: a share in percent,
+/// rounded to six decimals, without trailing zeros.
+pub fn percent_text(share: f64) -> String {
+    let p = format!("{:.6}", share * 100.0);
+    p.trim_end_matches('0').trim_end_matches('.').to_string()
+}
+
 /// Forecast-comparison tests requested under `scoring.tests` (SPEC §4).
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct TestsSpec {
@@ -323,6 +351,8 @@ pub struct Declaration {
     pub metrics: Vec<Metric>,
     /// Interval levels of `scoring.intervals`, ascending.
     pub intervals: Vec<IntervalLevel>,
+    /// Probabilities of `scoring.quantiles`, ascending (SPEC §7.6).
+    pub quantiles: Vec<f64>,
     pub tests: TestsSpec,
     /// Named sub-periods of `scoring.periods`, in file order.
     pub periods: Vec<PeriodSet>,
@@ -406,6 +436,37 @@ impl Declaration {
                 });
             }
         }
+        out
+    }
+
+    /// The quantile columns of forecasts.csv and outlook.csv, ascending:
+    /// both bounds of every interval level and every listed quantile, a
+    /// quantile that is also an interval bound once (as the bound).
+    pub fn quantile_columns(&self) -> Vec<QuantileColumn> {
+        let mut out: Vec<QuantileColumn> = Vec::new();
+        for l in &self.intervals {
+            let tail = (1.0 + l.level) / 2.0;
+            for (prob, sign) in [((1.0 - l.level) / 2.0, -1.0), (tail, 1.0)] {
+                out.push(QuantileColumn {
+                    prob,
+                    name: quantile_name(prob),
+                    tail,
+                    sign,
+                });
+            }
+        }
+        for &prob in &self.quantiles {
+            let name = quantile_name(prob);
+            if out.iter().all(|q| q.name != name) {
+                out.push(QuantileColumn {
+                    prob,
+                    name,
+                    tail: prob.max(1.0 - prob),
+                    sign: if prob < 0.5 { -1.0 } else { 1.0 },
+                });
+            }
+        }
+        out.sort_by(|a, b| a.prob.total_cmp(&b.prob));
         out
     }
 

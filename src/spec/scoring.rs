@@ -4,13 +4,16 @@
 use super::decode::Ctx;
 use super::period::{self, Frequency};
 use super::yaml::{Kind, Node};
-use super::{ConfidenceSetSpec, IntervalLevel, Metric, PeriodSet, SnoopingSpec, TestsSpec};
+use super::{
+    percent_text, ConfidenceSetSpec, IntervalLevel, Metric, PeriodSet, SnoopingSpec, TestsSpec,
+};
 
 pub(super) struct Scoring {
     pub metrics: Vec<Metric>,
     pub rank_by: Metric,
     pub benchmark: Option<(String, Node)>,
     pub intervals: Vec<IntervalLevel>,
+    pub quantiles: Vec<f64>,
     pub tests: TestsSpec,
     pub periods: Vec<PeriodSet>,
     /// Where each period set is written, for messages.
@@ -25,6 +28,7 @@ impl Default for Scoring {
             rank_by: Metric::Rmse,
             benchmark: None,
             intervals: Vec::new(),
+            quantiles: Vec::new(),
             tests: TestsSpec::default(),
             periods: Vec::new(),
             rolling_window: None,
@@ -58,12 +62,6 @@ fn share(ctx: &mut Ctx, node: &Node, what: &str) -> Option<f64> {
     }
 }
 
-/// `80` for 0.8, `97.5` for 0.975: the level in percent without trailing zeros.
-fn percent_text(level: f64) -> String {
-    let p = format!("{:.6}", level * 100.0);
-    p.trim_end_matches('0').trim_end_matches('.').to_string()
-}
-
 pub(super) fn decode_scoring(ctx: &mut Ctx, node: &Node, frequency: Option<Frequency>) -> Scoring {
     let mut out = Scoring::default();
     let Some(view) = ctx.map(
@@ -74,6 +72,7 @@ pub(super) fn decode_scoring(ctx: &mut Ctx, node: &Node, frequency: Option<Frequ
             "rank_by",
             "benchmark",
             "intervals",
+            "quantiles",
             "tests",
             "periods",
             "rolling_window",
@@ -84,6 +83,9 @@ pub(super) fn decode_scoring(ctx: &mut Ctx, node: &Node, frequency: Option<Frequ
     };
     if let Some(i) = view.get("intervals") {
         decode_intervals(ctx, i, &mut out);
+    }
+    if let Some(q) = view.get("quantiles") {
+        decode_quantiles(ctx, q, &mut out);
     }
     if let Some(m) = view.get("metrics") {
         decode_metrics(ctx, m, &mut out);
@@ -163,6 +165,33 @@ fn decode_intervals(ctx: &mut Ctx, i: &Node, out: &mut Scoring) {
         }
     }
     out.intervals.sort_by(|a, b| a.level.total_cmp(&b.level));
+}
+
+/// `scoring.quantiles`: probabilities strictly between 0 and 1, each once
+/// (by its column name, six decimals in percent), ascending.
+fn decode_quantiles(ctx: &mut Ctx, q: &Node, out: &mut Scoring) {
+    let mut names: Vec<String> = Vec::new();
+    for item in ctx.list(q) {
+        let Some(prob) = share(ctx, item, "scoring.quantiles") else {
+            continue;
+        };
+        let percent = percent_text(prob);
+        if percent == "0" || percent == "100" {
+            ctx.error(
+                item,
+                format!("quantile {prob} is too close to 0 or 1 to name a column (q{percent}); quantiles are named in percent with at most six decimals"),
+            );
+        } else if names.contains(&percent) {
+            ctx.error(
+                item,
+                format!("quantile {prob} is listed twice (column q{percent})"),
+            );
+        } else {
+            names.push(percent);
+            out.quantiles.push(prob);
+        }
+    }
+    out.quantiles.sort_by(f64::total_cmp);
 }
 
 /// `scoring.metrics`: each metric once; per-level ones need interval levels.
