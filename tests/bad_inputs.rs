@@ -648,6 +648,21 @@ fn catalogue() -> Vec<Case> {
             &["exp.yaml:23:15", "too close to 0 or 1", "(q0)"],
         ),
         case(
+            "diebold_mariano neither a boolean nor pairs",
+            format!("{BASE}scoring:\n  tests:\n    diebold_mariano: pair\n"),
+            &["exp.yaml:24:22", "must be true, false or pairs", "'pair'"],
+        ),
+        case(
+            "encompassing names no candidate",
+            format!("{BASE}scoring:\n  tests:\n    encompassing: ar(3)\n"),
+            &["exp.yaml:24:19", "encompassing 'ar(3)' names no candidate"],
+        ),
+        case(
+            "quantile_score without quantiles",
+            format!("{BASE}scoring:\n  metrics: [rmse, quantile_score]\n"),
+            &["exp.yaml:23:19", "list scoring.intervals", "or scoring.quantiles"],
+        ),
+        case(
             "coverage without intervals",
             format!("{BASE}scoring:\n  metrics: [rmse, coverage]\n"),
             &["exp.yaml:23:19", "list the levels under scoring.intervals"],

@@ -291,10 +291,7 @@ fn compare(name: &str) {
         // 80% Gaussian interval for ar / ardl (SPEC §4: σ̂_h of the h-step
         // regression, or ψ-weights for iterated ar); z from scipy.stats.norm.
         // The macro experiments ask for `intervals: [0.8]`.
-        for (ec, oc, what) in [
-            (e_lower, o_lower, "q10"),
-            (e_upper, o_upper, "q90"),
-        ] {
+        for (ec, oc, what) in [(e_lower, o_lower, "q10"), (e_upper, o_upper, "q90")] {
             if let Some(r) = parse(&row[ec]) {
                 match oc.map(|c| parse(&got[c])) {
                     Some(Some(g)) if close(g, r) => {}

@@ -6,9 +6,9 @@
 use super::forecasts::{quantile_headers, quantile_multipliers};
 use super::grid::Lookup;
 use super::text::{finish, num, opt, write_row, writer, ReadError, Reader};
-use crate::spec::percent_text;
 use crate::backtest::CellOutput;
 use crate::plan::Cell;
+use crate::spec::percent_text;
 use crate::spec::Experiment;
 
 pub const FILE: &str = "outlook.csv";
@@ -94,7 +94,10 @@ fn interval_columns(reader: &Reader<&[u8]>) -> Vec<(String, usize, usize)> {
         }
     }
     levels.sort_by(|a, b| a.0.total_cmp(&b.0));
-    levels.into_iter().map(|(_, l, lo, hi)| (l, lo, hi)).collect()
+    levels
+        .into_iter()
+        .map(|(_, l, lo, hi)| (l, lo, hi))
+        .collect()
 }
 
 /// Read the table; its intervals as [`interval_columns`] finds them.
@@ -153,7 +156,8 @@ mod tests {
             "{err}"
         );
         // A folder written before quantile columns: lower_<c>, upper_<c>.
-        let old = "target,candidate,horizon,origin,period,forecast,lower_80,upper_80,lower_95,upper_95\n\
+        let old =
+            "target,candidate,horizon,origin,period,forecast,lower_80,upper_80,lower_95,upper_95\n\
             y,naive,2,2024-12,2025-02,1.5,1,2,,\n";
         let rows_old = read(old.as_bytes(), &g.lookup()).unwrap();
         assert_eq!(rows_old[0].intervals, rows[0].intervals);

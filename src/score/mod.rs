@@ -3,11 +3,15 @@
 //! out-of-sample comparison.
 
 pub mod bootstrap;
+pub mod calibration;
 pub mod comparison;
 pub mod diagnostics;
+pub mod efficiency;
 pub mod pairwise;
 pub mod stability;
 
+#[cfg(test)]
+mod density_tests;
 #[cfg(test)]
 mod refdata;
 #[cfg(test)]
@@ -16,9 +20,7 @@ mod reference_metrics_tests;
 use crate::backtest::CellOutput;
 use crate::numerics::dist::{normal_cdf, normal_pdf, normal_quantile};
 use crate::plan::Cell;
-use crate::spec::{
-    Experiment, Family, Metric, MetricColumn, MultiStep, QuantileColumn, Scheme,
-};
+use crate::spec::{Experiment, Family, Metric, MetricColumn, MultiStep, QuantileColumn, Scheme};
 
 /// Forecast errors of one candidate on one target × scheme × horizon.
 #[derive(Debug, Clone, Default)]
@@ -134,6 +136,56 @@ pub fn crps(e: &Errors) -> Option<f64> {
         (0..e.len()).map(|i| crps_gaussian(e.forecast[i], sds[i], e.actual[i])),
         e.len(),
     )
+}
+
+/// Pinball (quantile) loss of quantile q at probability τ for outturn y:
+/// (y − q)(τ − 1{y < q}) (Koenker & Bassett 1978; the quantile score of
+/// Gneiting & Raftery 2007, section 6, up to their factor 2).
+pub fn pinball(y: f64, q: f64, tau: f64) -> f64 {
+    let indicator = if y < q { 1.0 } else { 0.0 };
+    (y - q) * (tau - indicator)
+}
+
+/// Mean pinball loss over every forecast and every quantile column, the
+/// Gaussian quantiles forecast + multiplier·σ̂_h; None without quantile
+/// columns or without a variance for every forecast.
+pub fn quantile_score(e: &Errors, quantiles: &[QuantileColumn]) -> Option<f64> {
+    let sds = e.sds()?;
+    if quantiles.is_empty() {
+        return None;
+    }
+    let zs: Vec<f64> = quantiles.iter().map(quantile_multiplier).collect();
+    mean(
+        (0..e.len()).flat_map(|i| {
+            let (f, sd, y) = (e.forecast[i], sds[i], e.actual[i]);
+            quantiles
+                .iter()
+                .zip(&zs)
+                .map(move |(q, z)| pinball(y, f + z * sd, q.prob))
+        }),
+        e.len() * quantiles.len(),
+    )
+}
+
+/// Log score of a Gaussian forecast N(μ, σ²) at outturn y: the negative
+/// log density, ½ln(2π) + ln σ + ½((y − μ)/σ)², so that lower is better and
+/// it ranks like a loss (common practice; Gneiting & Raftery 2007, section
+/// 4.1, with the sign turned). None for σ = 0.
+pub fn log_score_gaussian(mu: f64, sd: f64, y: f64) -> Option<f64> {
+    if !positive_finite(sd) {
+        return None;
+    }
+    let z = (y - mu) / sd;
+    Some(0.5 * (2.0 * std::f64::consts::PI).ln() + sd.ln() + 0.5 * z * z)
+}
+
+/// Mean Gaussian log score; None when a forecast has no positive variance.
+pub fn log_score(e: &Errors) -> Option<f64> {
+    let sds = e.sds()?;
+    let scores: Option<Vec<f64>> = (0..e.len())
+        .map(|i| log_score_gaussian(e.forecast[i], sds[i], e.actual[i]))
+        .collect();
+    mean(scores?.into_iter(), e.len())
 }
 
 /// rmse = sqrt(mean e²)
@@ -331,6 +383,8 @@ fn metric_value(
         Metric::Coverage => coverage(e, level()?),
         Metric::IntervalScore => interval_score(e, level()?),
         Metric::Crps => crps(e),
+        Metric::QuantileScore => quantile_score(e, &exp.quantile_columns()),
+        Metric::LogScore => log_score(e),
     }
 }
 

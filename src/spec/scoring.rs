@@ -15,6 +15,9 @@ pub(super) struct Scoring {
     pub intervals: Vec<IntervalLevel>,
     pub quantiles: Vec<f64>,
     pub tests: TestsSpec,
+    /// `scoring.tests.encompassing`: on, and the rival it names (none:
+    /// the benchmark), resolved to an index with the benchmark.
+    pub encompassing: Option<Option<(String, Node)>>,
     pub periods: Vec<PeriodSet>,
     /// Where each period set is written, for messages.
     pub period_nodes: Vec<Node>,
@@ -30,6 +33,7 @@ impl Default for Scoring {
             intervals: Vec::new(),
             quantiles: Vec::new(),
             tests: TestsSpec::default(),
+            encompassing: None,
             periods: Vec::new(),
             rolling_window: None,
             period_nodes: Vec::new(),
@@ -209,6 +213,11 @@ fn decode_metrics(ctx: &mut Ctx, m: &Node, out: &mut Scoring) {
                 ctx.error(item, format!("metric '{name}' is listed twice"));
             } else if metric.per_level() && out.intervals.is_empty() {
                 ctx.error(item, format!("metric '{name}' is scored per interval level; list the levels under scoring.intervals, e.g. [0.8, 0.95]"));
+            } else if metric == Metric::QuantileScore
+                && out.intervals.is_empty()
+                && out.quantiles.is_empty()
+            {
+                ctx.error(item, format!("metric '{name}' scores the quantile columns; list scoring.intervals (each level gives two) or scoring.quantiles, e.g. [0.1, 0.5, 0.9]"));
             } else {
                 metrics.push(metric);
             }
@@ -233,13 +242,38 @@ fn decode_tests(ctx: &mut Ctx, t: &Node, out: &mut Scoring) {
             "clark_west",
             "confidence_set",
             "snooping",
+            "calibration",
+            "efficiency",
+            "encompassing",
         ],
         &[],
     ) {
         if let Some(n) = tv.get("diebold_mariano") {
-            out.tests.diebold_mariano = ctx
-                .boolean(n, "scoring.tests.diebold_mariano")
-                .unwrap_or(false);
+            // true: each candidate against the benchmark; pairs: every pair.
+            match ctx.string(n, "scoring.tests.diebold_mariano").as_deref() {
+                Some("true") => out.tests.diebold_mariano = true,
+                Some("false") | None => {}
+                Some("pairs") => {
+                    out.tests.diebold_mariano = true;
+                    out.tests.diebold_mariano_pairs = true;
+                }
+                Some(other) => ctx.error(n, format!("scoring.tests.diebold_mariano must be true, false or pairs, found '{other}'")),
+            }
+        }
+        if let Some(n) = tv.get("calibration") {
+            out.tests.calibration = ctx.boolean(n, "scoring.tests.calibration").unwrap_or(false);
+        }
+        if let Some(n) = tv.get("efficiency") {
+            out.tests.efficiency = ctx.boolean(n, "scoring.tests.efficiency").unwrap_or(false);
+        }
+        if let Some(n) = tv.get("encompassing") {
+            // true: against the benchmark; a candidate id: against that rival.
+            match ctx.string(n, "scoring.tests.encompassing") {
+                Some(t) if t == "true" => out.encompassing = Some(None),
+                Some(t) if t == "false" => {}
+                Some(id) => out.encompassing = Some(Some((id, n.clone()))),
+                None => {}
+            }
         }
         if let Some(n) = tv.get("clark_west") {
             // true: pairs with the benchmark; all_pairs: every nested pair.
