@@ -663,6 +663,16 @@ fn catalogue() -> Vec<Case> {
             &["exp.yaml:23:19", "list scoring.intervals", "or scoring.quantiles"],
         ),
         case(
+            "past_errors with crps",
+            format!("{BASE}scoring:\n  metrics: [rmse, crps]\n  intervals: [0.8]\n  intervals_from: past_errors\n"),
+            &["exp.yaml:25:19", "not the Gaussian density that 'crps' scores"],
+        ),
+        case(
+            "past_errors without quantiles",
+            format!("{BASE}scoring:\n  intervals_from: past_errors\n"),
+            &["exp.yaml:23:19", "list scoring.intervals or scoring.quantiles"],
+        ),
+        case(
             "coverage without intervals",
             format!("{BASE}scoring:\n  metrics: [rmse, coverage]\n"),
             &["exp.yaml:23:19", "list the levels under scoring.intervals"],

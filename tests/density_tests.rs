@@ -16,7 +16,7 @@ fn root() -> PathBuf {
     PathBuf::from(env!("CARGO_MANIFEST_DIR"))
 }
 
-fn experiment(tests: &str) -> String {
+fn experiment(tests: &str, extra: &str) -> String {
     let data = root().join("tests/reference/data/macro.csv");
     format!(
         "version: 1
@@ -31,7 +31,7 @@ candidates:
   - family: mean
   - family: ar
     lags: [2]
-backtest:
+{extra}backtest:
   schemes:
     - expanding: {{first_origin: 1989Q1}}
   horizons: [1, 4]
@@ -44,16 +44,25 @@ scoring:
 report:
   formats: []
 ",
-        data.display()
+        data.display(),
     )
 }
 
 fn run(tag: &str, tests: &str) -> PathBuf {
+    run_with(tag, tests, "")
+}
+
+fn run_with(tag: &str, tests: &str, extra: &str) -> PathBuf {
     let dir = std::env::temp_dir().join(format!("outturn-density-{}-{tag}", std::process::id()));
     let _ = std::fs::remove_dir_all(&dir);
     std::fs::create_dir_all(&dir).unwrap();
     let file = dir.join("exp.yaml");
-    std::fs::write(&file, experiment(tests)).unwrap();
+    let mut text = experiment(tests, extra);
+    if tests.contains("past_errors") {
+        // past_errors gives no density for log_score (refused with it).
+        text = text.replace(", log_score]", "]");
+    }
+    std::fs::write(&file, text).unwrap();
     let out = dir.join("results");
     let o = Command::new(env!("CARGO_BIN_EXE_outturn"))
         .args([
@@ -316,4 +325,60 @@ fn a_named_rival_and_the_pairwise_matrix() {
             .all(|l| l.contains(",diebold_mariano,mean,ar(2),")),
         "{extra:?}"
     );
+}
+
+#[test]
+fn past_errors_give_every_candidate_empirical_quantiles() {
+    // numpy.quantile (type 7) of the ar(2) errors known at each origin
+    // (T′ + h ≤ T, at least 10), generate_density.py's `past` cases.
+    let r = reference();
+    let out = run_with(
+        "past",
+        "    calibration: true\n  intervals_from: past_errors",
+        "  - family: combination\n    members: [naive, \"ar(2)\"]\n",
+    );
+    let rows = table(&out.join("forecasts.csv"));
+    let taus = ["q2.5", "q5", "q10", "q50", "q90", "q95", "q97.5"];
+    for h in ["1", "4"] {
+        let want = r["past"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|c| c["name"] == format!("macrodata.infl ar(2) h={h}"))
+            .unwrap();
+        let ours: Vec<&Row> = rows
+            .iter()
+            .filter(|r| r["candidate"] == "ar(2)" && r["horizon"] == h)
+            .collect();
+        let quantiles = want["quantiles"].as_array().unwrap();
+        assert_eq!(ours.len(), quantiles.len());
+        for (row, q) in ours.iter().zip(quantiles) {
+            if q.is_null() {
+                assert!(taus.iter().all(|t| row[*t].is_empty()), "{row:?}");
+                continue;
+            }
+            for (t, v) in taus.iter().zip(q.as_array().unwrap()) {
+                let want = num(row, "forecast") + v.as_f64().unwrap();
+                close(num(row, t), want, 1e-9, t);
+            }
+        }
+        // The combination, which has no variance, gets them from its
+        // errors from the same origin on (h + 9 forecasts without).
+        let first = want["first"].as_u64().unwrap() as usize;
+        let comb: Vec<&Row> = rows
+            .iter()
+            .filter(|r| r["candidate"] == "combination(equal)" && r["horizon"] == h)
+            .collect();
+        assert!(comb[..first].iter().all(|r| r["q10"].is_empty()));
+        assert!(comb[first..]
+            .iter()
+            .all(|r| !r["q10"].is_empty() && !r["q97.5"].is_empty()));
+    }
+    let outlook = table(&out.join("outlook.csv"));
+    assert!(outlook.iter().all(|r| !r["q50"].is_empty()), "{outlook:?}");
+    let tests = table(&out.join("tests.csv"));
+    assert!(tests
+        .iter()
+        .any(|t| t["test"] == "calibration_uc_80" && t["candidate"] == "combination(equal)"));
+    assert!(!tests.iter().any(|t| t["test"] == "calibration_pit"));
 }

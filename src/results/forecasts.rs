@@ -8,7 +8,7 @@ use super::grid::Lookup;
 use super::text::{push_field, push_num, push_usize, ReadError, Reader};
 use crate::backtest::CellOutput;
 use crate::plan::Cell;
-use crate::spec::Experiment;
+use crate::spec::{Experiment, IntervalsFrom};
 use std::collections::HashMap;
 use std::io::Read;
 
@@ -42,6 +42,17 @@ pub(super) fn quantile_multipliers(exp: &Experiment) -> Vec<f64> {
         .collect()
 }
 
+/// Under past_errors: the forecast plus each past-error quantile, or
+/// `columns` empty cells.
+fn push_offsets(out: &mut Vec<u8>, forecast: f64, offsets: Option<&[f64]>, columns: usize) {
+    for j in 0..columns {
+        out.push(b',');
+        if let Some(o) = offsets {
+            push_num(out, forecast + o[j]);
+        }
+    }
+}
+
 /// The table of `outputs`, the cells' outputs in plan order.
 pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8> {
     let mut header: Vec<String> = COLUMNS
@@ -64,8 +75,13 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
         push_field(&mut out, h);
     }
     out.push(b'\n');
+    let past = exp.intervals_from == IntervalsFrom::PastErrors;
     for (cell, o) in cells.iter().zip(outputs) {
         let target = &exp.targets[cell.target];
+        let offsets = match past {
+            true => crate::score::past_errors::for_forecasts(exp, target, o),
+            false => Vec::new(),
+        };
         // The row's fixed part: target, candidate, scheme.
         let mut lead = Vec::new();
         push_field(&mut lead, &target.name);
@@ -74,7 +90,7 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
         lead.push(b',');
         push_field(&mut lead, &exp.schemes[cell.scheme].id);
         lead.push(b',');
-        for r in &o.forecasts {
+        for (k, r) in o.forecasts.iter().enumerate() {
             let pos = r.origin + r.horizon;
             let actual = target.y[pos - 1];
             out.extend_from_slice(&lead);
@@ -93,11 +109,15 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
             if let Some(m) = r.is_mse {
                 push_num(&mut out, m);
             }
-            let sd = r.variance.filter(|v| *v >= 0.0).map(f64::sqrt);
-            for &z in &zs {
-                out.push(b',');
-                if let Some(sd) = sd {
-                    push_num(&mut out, r.forecast + z * sd);
+            if past {
+                push_offsets(&mut out, r.forecast, offsets[k].as_deref(), zs.len());
+            } else {
+                let sd = r.variance.filter(|v| *v >= 0.0).map(f64::sqrt);
+                for &z in &zs {
+                    out.push(b',');
+                    if let Some(sd) = sd {
+                        push_num(&mut out, r.forecast + z * sd);
+                    }
                 }
             }
             if with_order {

@@ -9,7 +9,7 @@ use super::text::{finish, num, opt, write_row, writer, ReadError, Reader};
 use crate::backtest::CellOutput;
 use crate::plan::Cell;
 use crate::spec::percent_text;
-use crate::spec::Experiment;
+use crate::spec::{Experiment, IntervalsFrom};
 
 pub const FILE: &str = "outlook.csv";
 
@@ -40,9 +40,14 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
     header.extend(quantile_headers(exp));
     let _ = w.write_record(&header);
     let zs = quantile_multipliers(exp);
+    let past = exp.intervals_from == IntervalsFrom::PastErrors;
     for (cell, out) in cells.iter().zip(outputs) {
         let target = &exp.targets[cell.target];
-        for r in &out.outlook {
+        let offsets = match past {
+            true => crate::score::past_errors::for_outlook(exp, target, out),
+            false => Vec::new(),
+        };
+        for (k, r) in out.outlook.iter().enumerate() {
             let mut rec = vec![
                 target.name.clone(),
                 exp.candidates[cell.candidate].id.clone(),
@@ -51,7 +56,17 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
                 exp.period_label(target, target.n + r.horizon),
                 opt(r.forecast),
             ];
-            push_quantiles(&mut rec, &zs, r.forecast, r.variance);
+            if past {
+                let o = offsets[k].as_deref();
+                for j in 0..zs.len() {
+                    rec.push(match (r.forecast, o) {
+                        (Some(f), Some(o)) => num(f + o[j]),
+                        _ => String::new(),
+                    });
+                }
+            } else {
+                push_quantiles(&mut rec, &zs, r.forecast, r.variance);
+            }
             write_row(&mut w, &rec);
         }
     }

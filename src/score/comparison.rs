@@ -9,7 +9,7 @@ use super::bootstrap::{model_confidence_set, superior_predictive_ability};
 use super::calibration::{berkowitz, christoffersen};
 use super::efficiency::mincer_zarnowitz;
 use super::pairwise::{clark_west, diebold_mariano, encompassing, spearman, TestResult};
-use super::{group_errors, in_sample_comparable, in_sample_rmse, interval, rmse, Errors};
+use super::{group_errors, in_sample_comparable, in_sample_rmse, rmse, Errors};
 use crate::digest::sha256_hex;
 use crate::spec::{Candidate, Experiment, Family, Trend};
 use std::borrow::Cow;
@@ -200,14 +200,17 @@ impl Group<'_> {
     /// then Berkowitz's test of the transformed PITs (`calibration_pit`).
     fn calibration(&self, rows: &mut Vec<TestRow>) {
         for (c, e) in self.errs.iter().enumerate() {
-            let Some(sds) = e.sds().filter(|_| !e.is_empty()) else {
+            // Model intervals: every forecast has a variance, or the
+            // candidate has none; past errors: the forecasts from the first
+            // with enough known errors on.
+            if e.is_empty() || (!e.past() && e.sds().is_none()) {
                 continue;
-            };
+            }
             for level in &self.exp.intervals {
                 let misses: Vec<bool> = (0..e.len())
-                    .map(|i| {
-                        let (lo, hi) = interval(e.forecast[i], sds[i], level.level);
-                        !(lo..=hi).contains(&e.actual[i])
+                    .filter_map(|i| {
+                        let (lo, hi) = e.bounds(i, level.level)?;
+                        Some(!(lo..=hi).contains(&e.actual[i]))
                     })
                     .collect();
                 let r = christoffersen(&misses, level.level);
@@ -220,11 +223,13 @@ impl Group<'_> {
                     rows.push(self.row(test, Some(c), None, t));
                 }
             }
-            let z: Option<Vec<f64>> = (0..e.len())
-                .map(|i| (sds[i] > 0.0).then(|| e.error(i) / sds[i]))
-                .collect();
-            let r = z.and_then(|z| berkowitz(&z));
-            rows.push(self.row("calibration_pit", Some(c), None, r));
+            if let Some(sds) = e.sds().filter(|_| !e.past()) {
+                let z: Option<Vec<f64>> = (0..e.len())
+                    .map(|i| (sds[i] > 0.0).then(|| e.error(i) / sds[i]))
+                    .collect();
+                let r = z.and_then(|z| berkowitz(&z));
+                rows.push(self.row("calibration_pit", Some(c), None, r));
+            }
         }
     }
 

@@ -31,6 +31,7 @@ fn errors(c: &Value) -> Errors {
         is_var: vec![None; n],
         variance: floats(&c["sd"]).iter().map(|s| Some(s * s)).collect(),
         period: vec![0; n],
+        ..Errors::default()
     }
 }
 

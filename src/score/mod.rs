@@ -8,6 +8,7 @@ pub mod comparison;
 pub mod diagnostics;
 pub mod efficiency;
 pub mod pairwise;
+pub mod past_errors;
 pub mod stability;
 
 #[cfg(test)]
@@ -20,7 +21,9 @@ mod reference_metrics_tests;
 use crate::backtest::CellOutput;
 use crate::numerics::dist::{normal_cdf, normal_pdf, normal_quantile};
 use crate::plan::Cell;
-use crate::spec::{Experiment, Family, Metric, MetricColumn, MultiStep, QuantileColumn, Scheme};
+use crate::spec::{
+    Experiment, Family, IntervalsFrom, Metric, MetricColumn, MultiStep, QuantileColumn, Scheme,
+};
 
 /// Forecast errors of one candidate on one target × scheme × horizon.
 #[derive(Debug, Clone, Default)]
@@ -33,6 +36,12 @@ pub struct Errors {
     pub variance: Vec<Option<f64>>,
     /// Ordinal of the forecast's target period, for sub-period scores.
     pub period: Vec<i64>,
+    /// Under `intervals_from: past_errors`: the probabilities of the
+    /// quantile columns (empty otherwise) …
+    pub offset_probs: Vec<f64>,
+    /// … and per forecast the empirical quantiles of its past errors at
+    /// them (None before enough errors are known).
+    pub offsets: Vec<Option<Vec<f64>>>,
 }
 
 impl Errors {
@@ -52,11 +61,18 @@ impl Errors {
         self.is_var.extend_from_slice(&other.is_var);
         self.variance.extend_from_slice(&other.variance);
         self.period.extend_from_slice(&other.period);
+        self.offsets.extend_from_slice(&other.offsets);
+        if self.offset_probs.is_empty() {
+            self.offset_probs.clone_from(&other.offset_probs);
+        }
     }
 
     /// The forecasts whose target period lies in from..=to.
     pub fn within(&self, from: i64, to: i64) -> Errors {
-        let mut out = Errors::default();
+        let mut out = Errors {
+            offset_probs: self.offset_probs.clone(),
+            ..Errors::default()
+        };
         for i in 0..self.len() {
             if (from..=to).contains(&self.period[i]) {
                 out.actual.push(self.actual[i]);
@@ -65,9 +81,36 @@ impl Errors {
                 out.is_var.push(self.is_var[i]);
                 out.variance.push(self.variance[i]);
                 out.period.push(self.period[i]);
+                if self.past() {
+                    out.offsets.push(self.offsets[i].clone());
+                }
             }
         }
         out
+    }
+
+    /// Whether intervals come from past errors (`intervals_from: past_errors`).
+    pub fn past(&self) -> bool {
+        !self.offset_probs.is_empty()
+    }
+
+    /// Under past_errors, the bounds of forecast i's level-c interval:
+    /// the forecast plus the past errors' quantiles at (1 ∓ c)/2.
+    fn past_bounds(&self, i: usize, level: f64) -> Option<(f64, f64)> {
+        let o = self.offsets[i].as_ref()?;
+        let at = |p: f64| self.offset_probs.iter().position(|q| *q == p);
+        let (lo, hi) = (at((1.0 - level) / 2.0)?, at((1.0 + level) / 2.0)?);
+        Some((self.forecast[i] + o[lo], self.forecast[i] + o[hi]))
+    }
+
+    /// The bounds of forecast i's level-c interval: Gaussian from its
+    /// variance (SPEC §4), or from past errors.
+    pub fn bounds(&self, i: usize, level: f64) -> Option<(f64, f64)> {
+        if self.past() {
+            return self.past_bounds(i, level);
+        }
+        let sd = self.variance[i].filter(|v| *v >= 0.0)?.sqrt();
+        Some(interval(self.forecast[i], sd, level))
     }
 
     /// Forecast standard deviations, if every forecast has one.
@@ -94,6 +137,16 @@ pub fn quantile_multiplier(q: &QuantileColumn) -> f64 {
 
 /// Share of outturns inside the level-c interval (ends included).
 pub fn coverage(e: &Errors, level: f64) -> Option<f64> {
+    if e.past() {
+        let bounds: Vec<(usize, (f64, f64))> = (0..e.len())
+            .filter_map(|i| Some((i, e.past_bounds(i, level)?)))
+            .collect();
+        let inside = bounds
+            .iter()
+            .filter(|(i, (lo, hi))| (*lo..=*hi).contains(&e.actual[*i]))
+            .count();
+        return mean(std::iter::once(inside as f64), bounds.len());
+    }
     let sds = e.sds()?;
     let inside = (0..e.len())
         .filter(|&i| {
@@ -107,8 +160,20 @@ pub fn coverage(e: &Errors, level: f64) -> Option<f64> {
 /// Mean interval score of the central level-c interval (Gneiting & Raftery
 /// 2007, eq. 43): (u − l) + (2/α)(l − y)·1{y < l} + (2/α)(y − u)·1{y > u}, α = 1 − c.
 pub fn interval_score(e: &Errors, level: f64) -> Option<f64> {
-    let sds = e.sds()?;
     let alpha = 1.0 - level;
+    let score = |y: f64, lo: f64, hi: f64| {
+        (hi - lo) + (2.0 / alpha) * (lo - y).max(0.0) + (2.0 / alpha) * (y - hi).max(0.0)
+    };
+    if e.past() {
+        let scores: Vec<f64> = (0..e.len())
+            .filter_map(|i| {
+                let (lo, hi) = e.past_bounds(i, level)?;
+                Some(score(e.actual[i], lo, hi))
+            })
+            .collect();
+        return mean(scores.iter().copied(), scores.len());
+    }
+    let sds = e.sds()?;
     mean(
         (0..e.len()).map(|i| {
             let (lo, hi) = interval(e.forecast[i], sds[i], level);
@@ -129,8 +194,11 @@ pub fn crps_gaussian(mu: f64, sd: f64, y: f64) -> f64 {
     sd * (z * (2.0 * normal_cdf(z) - 1.0) + 2.0 * normal_pdf(z) - 1.0 / std::f64::consts::PI.sqrt())
 }
 
-/// Mean Gaussian CRPS.
+/// Mean Gaussian CRPS (none under past_errors: no density).
 pub fn crps(e: &Errors) -> Option<f64> {
+    if e.past() {
+        return None;
+    }
     let sds = e.sds()?;
     mean(
         (0..e.len()).map(|i| crps_gaussian(e.forecast[i], sds[i], e.actual[i])),
@@ -150,6 +218,16 @@ pub fn pinball(y: f64, q: f64, tau: f64) -> f64 {
 /// Gaussian quantiles forecast + multiplier·σ̂_h; None without quantile
 /// columns or without a variance for every forecast.
 pub fn quantile_score(e: &Errors, quantiles: &[QuantileColumn]) -> Option<f64> {
+    if e.past() {
+        let mut losses = Vec::new();
+        for (i, o) in e.offsets.iter().enumerate() {
+            let Some(o) = o else { continue };
+            for (p, off) in e.offset_probs.iter().zip(o) {
+                losses.push(pinball(e.actual[i], e.forecast[i] + off, *p));
+            }
+        }
+        return mean(losses.iter().copied(), losses.len());
+    }
     let sds = e.sds()?;
     if quantiles.is_empty() {
         return None;
@@ -181,6 +259,9 @@ pub fn log_score_gaussian(mu: f64, sd: f64, y: f64) -> Option<f64> {
 
 /// Mean Gaussian log score; None when a forecast has no positive variance.
 pub fn log_score(e: &Errors) -> Option<f64> {
+    if e.past() {
+        return None;
+    }
     let sds = e.sds()?;
     let scores: Option<Vec<f64>> = (0..e.len())
         .map(|i| log_score_gaussian(e.forecast[i], sds[i], e.actual[i]))
@@ -344,11 +425,32 @@ pub fn cell_errors(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> 
         .zip(outputs)
         .map(|(cell, out)| {
             let target = &exp.targets[cell.target];
+            let past = exp.intervals_from == IntervalsFrom::PastErrors;
+            let offsets = if past {
+                past_errors::for_forecasts(exp, target, out)
+            } else {
+                Vec::new()
+            };
+            let offset_probs: Vec<f64> = match past {
+                true => exp.quantile_columns().iter().map(|q| q.prob).collect(),
+                false => Vec::new(),
+            };
             exp.horizons
                 .iter()
                 .map(|&h| {
-                    let mut e = Errors::default();
-                    for r in out.forecasts.iter().filter(|r| r.horizon == h) {
+                    let mut e = Errors {
+                        offset_probs: offset_probs.clone(),
+                        ..Errors::default()
+                    };
+                    for (k, r) in out
+                        .forecasts
+                        .iter()
+                        .enumerate()
+                        .filter(|(_, r)| r.horizon == h)
+                    {
+                        if past {
+                            e.offsets.push(offsets[k].clone());
+                        }
                         let pos = r.origin + h;
                         e.actual.push(target.y[pos - 1]);
                         e.forecast.push(r.forecast);
@@ -533,6 +635,7 @@ mod tests {
             is_var: vec![None; actual.len()],
             variance: vec![None; actual.len()],
             period: vec![0; actual.len()],
+            ..Errors::default()
         }
     }
 

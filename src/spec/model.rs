@@ -170,6 +170,16 @@ pub struct QuantileColumn {
     pub sign: f64,
 }
 
+/// Where intervals and quantiles come from (`scoring.intervals_from`, SPEC §7.6).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum IntervalsFrom {
+    /// The model's Gaussian forecast distribution (its forecast variance).
+    #[default]
+    Model,
+    /// Empirical quantiles of the candidate's own earlier errors.
+    PastErrors,
+}
+
 /// The quantile columns of interval levels and listed quantiles,
 /// ascending (see [`Declaration::quantile_columns`]).
 pub fn quantile_columns(intervals: &[IntervalLevel], quantiles: &[f64]) -> Vec<QuantileColumn> {
@@ -401,6 +411,7 @@ pub struct Declaration {
     pub intervals: Vec<IntervalLevel>,
     /// Probabilities of `scoring.quantiles`, ascending (SPEC §7.6).
     pub quantiles: Vec<f64>,
+    pub intervals_from: IntervalsFrom,
     pub tests: TestsSpec,
     /// Named sub-periods of `scoring.periods`, in file order.
     pub periods: Vec<PeriodSet>,

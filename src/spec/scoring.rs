@@ -5,7 +5,8 @@ use super::decode::Ctx;
 use super::period::{self, Frequency};
 use super::yaml::{Kind, Node};
 use super::{
-    percent_text, ConfidenceSetSpec, IntervalLevel, Metric, PeriodSet, SnoopingSpec, TestsSpec,
+    percent_text, ConfidenceSetSpec, IntervalLevel, IntervalsFrom, Metric, PeriodSet, SnoopingSpec,
+    TestsSpec,
 };
 
 pub(super) struct Scoring {
@@ -14,6 +15,7 @@ pub(super) struct Scoring {
     pub benchmark: Option<(String, Node)>,
     pub intervals: Vec<IntervalLevel>,
     pub quantiles: Vec<f64>,
+    pub intervals_from: IntervalsFrom,
     pub tests: TestsSpec,
     /// `scoring.tests.encompassing`: on, and the rival it names (none:
     /// the benchmark), resolved to an index with the benchmark.
@@ -32,6 +34,7 @@ impl Default for Scoring {
             benchmark: None,
             intervals: Vec::new(),
             quantiles: Vec::new(),
+            intervals_from: IntervalsFrom::Model,
             tests: TestsSpec::default(),
             encompassing: None,
             periods: Vec::new(),
@@ -77,6 +80,7 @@ pub(super) fn decode_scoring(ctx: &mut Ctx, node: &Node, frequency: Option<Frequ
             "benchmark",
             "intervals",
             "quantiles",
+            "intervals_from",
             "tests",
             "periods",
             "rolling_window",
@@ -134,7 +138,30 @@ pub(super) fn decode_scoring(ctx: &mut Ctx, node: &Node, frequency: Option<Frequ
     if let Some(p) = view.get("periods") {
         decode_periods(ctx, p, &mut out, frequency);
     }
+    if let Some(n) = view.get("intervals_from") {
+        decode_intervals_from(ctx, n, &mut out);
+    }
     out
+}
+
+/// `scoring.intervals_from`: model (default) or past_errors, which needs
+/// quantile columns and gives no density for crps and log_score.
+fn decode_intervals_from(ctx: &mut Ctx, n: &Node, out: &mut Scoring) {
+    let Some(choice) = ctx.choice(n, "scoring.intervals_from", &["model", "past_errors"]) else {
+        return;
+    };
+    if choice != "past_errors" {
+        return;
+    }
+    out.intervals_from = IntervalsFrom::PastErrors;
+    if out.intervals.is_empty() && out.quantiles.is_empty() {
+        ctx.error(n, "intervals_from: past_errors makes interval bounds and quantiles; list scoring.intervals or scoring.quantiles");
+    }
+    for m in [Metric::Crps, Metric::LogScore] {
+        if out.metrics.contains(&m) {
+            ctx.error(n, format!("intervals_from: past_errors gives quantiles, not the Gaussian density that '{}' scores; leave '{}' out of scoring.metrics or use intervals_from: model", m.name(), m.name()));
+        }
+    }
 }
 
 /// `scoring.intervals`: levels as fractions, ascending.

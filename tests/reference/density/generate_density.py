@@ -36,6 +36,9 @@ Expected values:
     sigma against an AR(1), conditional on the first value: the AR(1) fitted
     by statsmodels OLS, log-likelihoods by scipy.stats.norm.logpdf, p-value
     scipy.stats.chi2.sf(LR, 3);
+  * empirical quantiles for intervals_from: past_errors: numpy.quantile
+    (default method 'linear', Hyndman & Fan 1996 type 7) of the errors, and
+    of the errors known at each origin (T' + h <= T), none before ten;
   * encompassing: Harvey, Leybourne & Newbold (1998) modified statistic on
     d_t = (e1_t - e2_t) e1_t written here from the paper (variance
     gamma_0 + 2 sum_{k<h} gamma_k of d with divisor n, the factor
@@ -244,9 +247,28 @@ def main():
                             "e_candidate": [float(v) for v in cand],
                             "e_versus": [float(v) for v in vers],
                             **encompassing(cand, vers, c["h"])})
+    # Empirical quantiles (numpy default method 'linear': Hyndman & Fan type 7)
+    # of forecast errors, whole and as known at each origin (T' + h <= T).
+    taus_all = taus_more + [0.0, 1.0, 0.333]
+    empirical, past = [], []
+    for c in all_cases:
+        if " ar(2) " not in c["name"]:
+            continue
+        e = np.asarray(c["actual"]) - np.asarray(c["forecast"])
+        empirical.append({"name": c["name"], "errors": [float(v) for v in e], "taus": taus_all,
+                          "quantiles": [float(np.quantile(e, t)) for t in taus_all]})
+        h = c["h"]
+        qs = []
+        for i in range(len(e)):
+            k = max(0, i - h + 1)  # origins j with j + h <= i
+            qs.append([float(np.quantile(e[:k], t)) for t in taus_more] if k >= 10 else None)
+        first = next(i for i, q in enumerate(qs) if q is not None)
+        past.append({"name": c["name"], "h": h, "errors": [float(v) for v in e],
+                     "taus": taus_more, "quantiles": qs, "first": first})
     obj = {"generator": "generate_density.py", "versions": VERSIONS,
            "taus_intervals": taus_intervals, "taus_more": taus_more,
-           "levels": [0.8, 0.95], "cases": out_cases, "encompassing": enc}
+           "levels": [0.8, 0.95], "cases": out_cases, "encompassing": enc,
+           "empirical": empirical, "past": past}
     with open(os.path.join(HERE, "density.json"), "w") as fh:
         json.dump(obj, fh, separators=(",", ":"))
         fh.write("\n")
