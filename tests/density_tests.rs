@@ -42,7 +42,7 @@ scoring:
   tests:
 {tests}
 report:
-  formats: []
+  formats: [markdown]
 ",
         data.display(),
     )
@@ -381,4 +381,40 @@ fn past_errors_give_every_candidate_empirical_quantiles() {
         .iter()
         .any(|t| t["test"] == "calibration_uc_80" && t["candidate"] == "combination(equal)"));
     assert!(!tests.iter().any(|t| t["test"] == "calibration_pit"));
+}
+
+#[test]
+fn the_report_shows_what_ran_and_the_verdict_reads_only_its_own_tests() {
+    // By construction: the verdict reads the benchmark's Diebold–Mariano,
+    // Clark–West and snooping rows only, so adding the pairs, calibration,
+    // efficiency and encompassing rows leaves its section byte for byte.
+    let plain = run("report-plain", "    diebold_mariano: true");
+    let all = run(
+        "report-all",
+        "    diebold_mariano: pairs\n    calibration: true\n    efficiency: true\n    encompassing: true",
+    );
+    let report = |p: &PathBuf| std::fs::read_to_string(p.join("report.md")).unwrap();
+    let (plain, all) = (report(&plain), report(&all));
+    let verdict = |r: &str| {
+        let from = r.find("## 1. Verdict").unwrap();
+        let to = r.find("## 2.").unwrap();
+        r[from..to].to_string()
+    };
+    assert_eq!(verdict(&plain), verdict(&all));
+    for (text, present) in [(&plain, false), (&all, true)] {
+        assert_eq!(
+            text.contains("Calibration: share of outturns inside"),
+            present
+        );
+        assert_eq!(text.contains("Every pair (Diebold–Mariano)"), present);
+    }
+    // The matrix holds both halves of a pair, the sign turned (2 rows,
+    // header and rule for 3 candidates: every off-diagonal cell filled).
+    let from = all.find("| row against column |").unwrap();
+    let matrix: Vec<&str> = all[from..]
+        .lines()
+        .filter(|l| l.trim_start().starts_with('|'))
+        .take(5)
+        .collect();
+    assert_eq!(matrix.len(), 5, "{matrix:?}");
 }

@@ -140,6 +140,8 @@ pub struct Row {
     pub forecast: Option<f64>,
     pub actual: Option<f64>,
     pub error: Option<f64>,
+    /// The quantile columns' values, in the order of [`quantile_probs`].
+    pub quantiles: Vec<Option<f64>>,
 }
 
 /// (target, candidate, scheme, horizon), as positions in the grid.
@@ -149,15 +151,30 @@ pub type Key = (usize, usize, usize, usize);
 /// table's (origin) order.
 pub type Forecasts = HashMap<Key, Vec<Row>>;
 
-/// Read the table, keeping the rows of the targets `keep` accepts.
+/// The quantile columns `q<p>` of a header: (probability p/100, column),
+/// in the header's (ascending) order.
+fn quantile_columns(header: &[String]) -> Vec<(f64, usize)> {
+    header
+        .iter()
+        .enumerate()
+        .filter_map(|(i, h)| {
+            let p = h.strip_prefix('q')?.parse::<f64>().ok()?;
+            (p > 0.0 && p < 100.0).then_some((p / 100.0, i))
+        })
+        .collect()
+}
+
+/// Read the table, keeping the rows of the targets `keep` accepts; with
+/// the probabilities of its quantile columns.
 pub fn read(
     source: impl Read,
     grid: &Lookup,
     keep: &dyn Fn(usize) -> bool,
-) -> Result<Forecasts, ReadError> {
+) -> Result<(Forecasts, Vec<f64>), ReadError> {
     let mut reader = Reader::new(FILE, source)?;
     let [target, candidate, scheme, horizon, origin, period, forecast, actual, error] =
         reader.columns(COLUMNS)?;
+    let quantiles = quantile_columns(reader.header());
     let mut out = Forecasts::new();
     while let Some(row) = reader.next_row()? {
         let t = row.id(target, &grid.targets)?;
@@ -176,9 +193,13 @@ pub fn read(
             forecast: row.number(forecast)?,
             actual: row.number(actual)?,
             error: row.number(error)?,
+            quantiles: quantiles
+                .iter()
+                .map(|(_, col)| row.number(*col))
+                .collect::<Result<_, _>>()?,
         });
     }
-    Ok(out)
+    Ok((out, quantiles.iter().map(|q| q.0).collect()))
 }
 
 #[cfg(test)]
@@ -205,14 +226,15 @@ mod tests {
             "{HEADER}y,ar(1),fixed,1,2001,2002,1.5,2,0.5,,,\ny,ar(1),fixed,1,2002,2003,,3,,,,\nz,naive,fixed,1,2001,2002,1,1,0,,,\n"
         );
         let g = grid();
-        let all = read(text.as_bytes(), &g.lookup(), &|_| true).unwrap();
+        let (all, probs) = read(text.as_bytes(), &g.lookup(), &|_| true).unwrap();
+        assert_eq!(probs, [0.1, 0.9]);
         let rows = &all[&(0, 1, 0, 1)];
         assert_eq!(rows.len(), 2);
         assert_eq!(rows[0].period, "2002");
         assert_eq!(rows[0].error, Some(0.5));
         assert_eq!(rows[1].forecast, None);
         // Rows of targets not kept are left out (their ids are still checked).
-        let first = read(text.as_bytes(), &g.lookup(), &|t| t == 0).unwrap();
+        let (first, _) = read(text.as_bytes(), &g.lookup(), &|t| t == 0).unwrap();
         assert!(!first.contains_key(&(1, 0, 0, 1)));
     }
 
