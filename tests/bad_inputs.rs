@@ -633,6 +633,46 @@ fn catalogue() -> Vec<Case> {
             &["exp.yaml:23:15", "write 0.8 for 80%"],
         ),
         case(
+            "quantile outside (0, 1)",
+            format!("{BASE}scoring:\n  quantiles: [0.05, 1]\n"),
+            &["exp.yaml:23:21", "strictly between 0 and 1", "'1'"],
+        ),
+        case(
+            "quantile listed twice",
+            format!("{BASE}scoring:\n  quantiles: [0.5, 0.1, 0.50]\n"),
+            &["exp.yaml:23:25", "quantile 0.5 is listed twice (column q50)"],
+        ),
+        case(
+            "quantile too close to 0 to name",
+            format!("{BASE}scoring:\n  quantiles: [0.000000001]\n"),
+            &["exp.yaml:23:15", "too close to 0 or 1", "(q0)"],
+        ),
+        case(
+            "diebold_mariano neither a boolean nor pairs",
+            format!("{BASE}scoring:\n  tests:\n    diebold_mariano: pair\n"),
+            &["exp.yaml:24:22", "must be true, false or pairs", "'pair'"],
+        ),
+        case(
+            "encompassing names no candidate",
+            format!("{BASE}scoring:\n  tests:\n    encompassing: ar(3)\n"),
+            &["exp.yaml:24:19", "encompassing 'ar(3)' names no candidate"],
+        ),
+        case(
+            "quantile_score without quantiles",
+            format!("{BASE}scoring:\n  metrics: [rmse, quantile_score]\n"),
+            &["exp.yaml:23:19", "list scoring.intervals", "or scoring.quantiles"],
+        ),
+        case(
+            "past_errors with crps",
+            format!("{BASE}scoring:\n  metrics: [rmse, crps]\n  intervals: [0.8]\n  intervals_from: past_errors\n"),
+            &["exp.yaml:25:19", "not the Gaussian density that 'crps' scores"],
+        ),
+        case(
+            "past_errors without quantiles",
+            format!("{BASE}scoring:\n  intervals_from: past_errors\n"),
+            &["exp.yaml:23:19", "list scoring.intervals or scoring.quantiles"],
+        ),
+        case(
             "coverage without intervals",
             format!("{BASE}scoring:\n  metrics: [rmse, coverage]\n"),
             &["exp.yaml:23:19", "list the levels under scoring.intervals"],

@@ -13,7 +13,7 @@
 //!
 //! Checks per experiment: every expected row is in `forecasts.csv` with
 //! |ours − ref| ≤ 1e-7·max(1, |ref|) for forecast, actual, is_mse (where the
-//! reference defines it), the 80% Gaussian interval `lower_80`/`upper_80`
+//! reference defines it), the 80% Gaussian interval `q10`/`q90`
 //! (ar and ardl), error = actual − forecast, and the row count of every
 //! (target, candidate, scheme, horizon) equals the reference's.
 
@@ -209,14 +209,14 @@ fn compare(name: &str) {
     let o_actual = ours.need("actual", "forecasts.csv");
     let o_error = ours.need("error", "forecasts.csv");
     let o_is_mse = ours.need("is_mse", "forecasts.csv");
-    let o_lower = ours.col("lower_80");
-    let o_upper = ours.col("upper_80");
+    let o_lower = ours.col("q10");
+    let o_upper = ours.col("q90");
     let e_period = expected.need("period", "expected");
     let e_forecast = expected.need("forecast", "expected");
     let e_actual = expected.need("actual", "expected");
     let e_is_mse = expected.need("is_mse", "expected");
-    let e_lower = expected.need("lower_80", "expected");
-    let e_upper = expected.need("upper_80", "expected");
+    let e_lower = expected.need("q10", "expected");
+    let e_upper = expected.need("q90", "expected");
 
     let mut ours_by_key: HashMap<Key, &Vec<String>> = HashMap::new();
     let mut ours_counts: BTreeMap<Group, usize> = BTreeMap::new();
@@ -291,10 +291,7 @@ fn compare(name: &str) {
         // 80% Gaussian interval for ar / ardl (SPEC §4: σ̂_h of the h-step
         // regression, or ψ-weights for iterated ar); z from scipy.stats.norm.
         // The macro experiments ask for `intervals: [0.8]`.
-        for (ec, oc, what) in [
-            (e_lower, o_lower, "lower_80"),
-            (e_upper, o_upper, "upper_80"),
-        ] {
+        for (ec, oc, what) in [(e_lower, o_lower, "q10"), (e_upper, o_upper, "q90")] {
             if let Some(r) = parse(&row[ec]) {
                 match oc.map(|c| parse(&got[c])) {
                     Some(Some(g)) if close(g, r) => {}

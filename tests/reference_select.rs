@@ -19,7 +19,7 @@
 //!   sigma2 (SSR/n).
 //!
 //! Checks: for every expected row, forecasts.csv has the row with the same
-//! `order` and `period`, and forecast, actual, is_mse, lower_80, upper_80
+//! `order` and `period`, and forecast, actual, is_mse, q10, q90 (the 80% interval)
 //! within 1e-8 relative; every (candidate, scheme, horizon) has as many rows
 //! as the reference. All mismatches are collected and reported together.
 
@@ -155,8 +155,8 @@ fn check(name: &str) {
             continue;
         }
         // forecast: AutoReg(hold_back=P) predict; actual: macrodata; is_mse: AutoReg sigma2;
-        // lower/upper_80: AutoReg conf_int(alpha=0.2) rescaled to SSR/(n − k) (generate_select.py).
-        for col in ["forecast", "actual", "is_mse", "lower_80", "upper_80"] {
+        // q10/q90 (the 80% interval): AutoReg conf_int(alpha=0.2) rescaled to SSR/(n − k) (generate_select.py).
+        for col in ["forecast", "actual", "is_mse", "q10", "q90"] {
             let (a, b) = (num(o, col), num(e, col));
             let rel = (a - b).abs() / b.abs().max(1.0);
             worst = worst.max(rel);

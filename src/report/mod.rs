@@ -4,12 +4,14 @@
 //! tables into typed rows, [`view`] holds them with the grid and the
 //! checked declaration's settings and indexes them, one module per section
 //! turns the view into that section's part of the report-data value
-//! ([`summary`] across targets, [`verdict`], [`rankings`], [`overfitting`], [`parameters`], [`significance`],
+//! ([`summary`] across targets, [`verdict`], [`rankings`], [`overfitting`], [`parameters`], [`significance`]
+//! with [`calibration`],
 //! [`over_time`], [`outlook`], [`data`], [`record`]), [`parts`] assembles
 //! the value target by target, and the minijinja templates in `templates/`
 //! lay it out ([`render`]). Charts are inline SVG built in [`charts`];
 //! numbers for people are formatted in [`format`].
 
+mod calibration;
 pub(crate) mod charts;
 mod claims;
 mod data;

@@ -541,6 +541,7 @@ mod span_tests {
                 forecast: None,
                 actual: None,
                 error: None,
+                quantiles: Vec::new(),
             })
             .collect();
         let span = |a: &str, b: &str| scored_span(&rows, &periods, a, b);

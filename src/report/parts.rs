@@ -220,7 +220,7 @@ fn target_part(ix: &Index, t: usize, draw: bool, shown: Shown) -> TargetPart {
         full["rankings"] = rankings_for(ix, t);
         full["overfitting"] = overfitting_for(ix, t, charts);
         full["parameters"] = parameters_for(ix, t, charts);
-        full["tests"] = tests_for(ix, t);
+        full["tests"] = tests_for(ix, t, charts);
         full["over_time"] = over_time_for(ix, t, series, charts);
         full["data"] = data_for(ix, t, series, charts);
         minijinja::Value::from_serialize(&full)

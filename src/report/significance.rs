@@ -3,6 +3,7 @@
 //! its model confidence set p-value and membership, its fluctuation test;
 //! the snooping test of the whole grid; and a summary in sentences.
 
+use super::calibration::calibration_panel;
 use super::claims::{self, Outcome, Search};
 use super::format::{pval, stat};
 use super::view::Index;
@@ -10,19 +11,90 @@ use crate::results::scores::Row as ScoreRow;
 use crate::results::tests::Row as TestRow;
 use serde_json::{json, Value};
 
-/// The test panels of target `t`, one per scheme × horizon with test rows.
-pub fn tests_for(ix: &Index, t: usize) -> Value {
+/// The test panels of target `t`, one per scheme × horizon with test rows;
+/// the first panel carries the PIT histograms when `charts` is set.
+pub fn tests_for(ix: &Index, t: usize, charts: bool) -> Value {
     let g = &ix.f.grid;
     let mut out = Vec::new();
     for s in 0..g.schemes.len() {
         for &h in &g.horizons {
             let here = ix.tests_of(t, s, h);
             if !here.is_empty() {
-                out.push(panel(ix, t, s, h, &here));
+                let mut p = panel(ix, t, s, h, &here);
+                let group = ix.group(t, s, Some(h));
+                let draw = charts && out.is_empty();
+                p["calibration"] = calibration_panel(ix, (t, s, h), &here, &group, draw);
+                p["matrix"] = dm_matrix(ix, (t, s, h), &here, &group);
+                out.push(p);
             }
         }
     }
     json!(out)
+}
+
+/// Candidates shown in the pairwise matrix: the first by rank.
+const MATRIX_CANDIDATES: usize = 12;
+
+/// The Diebold–Mariano matrix of `diebold_mariano: pairs` (null without
+/// pair rows): the first candidates by rank in rows and columns, each cell
+/// the row candidate against the column one (a stored row read with its
+/// sign turned when the pair is stored the other way round), shaded by
+/// the p-value and the side it favours.
+fn dm_matrix(
+    ix: &Index,
+    key: (usize, usize, usize),
+    here: &[&TestRow],
+    group: &[&ScoreRow],
+) -> Value {
+    let (t, s, h) = key;
+    let bench = ix.f.grid.benchmark;
+    let pairs = here
+        .iter()
+        .any(|r| r.test == "diebold_mariano" && r.versus != Some(bench));
+    if !pairs {
+        return Value::Null;
+    }
+    let shown: Vec<usize> = group
+        .iter()
+        .map(|r| r.candidate)
+        .take(MATRIX_CANDIDATES)
+        .collect();
+    let cell = |a: usize, b: usize| -> Value {
+        if a == b {
+            return json!({"text": "", "class": "self"});
+        }
+        let (row, sign) = match ix.test(t, s, h, "diebold_mariano", Some(a), Some(b)) {
+            Some(r) => (Some(r), 1.0),
+            None => (ix.test(t, s, h, "diebold_mariano", Some(b), Some(a)), -1.0),
+        };
+        let statistic = row.and_then(|r| r.statistic).map(|v| sign * v);
+        let p = row.and_then(|r| r.p_value);
+        let side = match statistic {
+            Some(v) if v > 0.0 => "better",
+            _ => "worse",
+        };
+        let class = match p {
+            Some(p) if p < 0.01 => format!("{side}-1"),
+            Some(p) if p < 0.05 => format!("{side}-5"),
+            Some(p) if p < 0.10 => format!("{side}-10"),
+            _ => String::new(),
+        };
+        json!({"text": stat(statistic), "p": pval(p), "class": class})
+    };
+    let rows: Vec<Value> = shown
+        .iter()
+        .map(|&a| {
+            json!({
+                "candidate": ix.f.grid.candidates[a],
+                "cells": shown.iter().map(|&b| cell(a, b)).collect::<Vec<_>>(),
+            })
+        })
+        .collect();
+    json!({
+        "columns": shown.iter().map(|&c| ix.f.grid.candidates[c].clone()).collect::<Vec<_>>(),
+        "rows": rows,
+        "omitted": group.len().saturating_sub(MATRIX_CANDIDATES),
+    })
 }
 
 /// How many candidates each test singles out.

@@ -1,6 +1,6 @@
 //! forecasts.csv: every backtest forecast (SPEC §5), one row per target ×
 //! candidate × scheme × horizon × origin, with the outturn, the error, the
-//! in-sample MSE, the intervals and, when a candidate selects its order,
+//! in-sample MSE, the quantiles (interval bounds among them) and, when a candidate selects its order,
 //! the order chosen. The largest table by far: rows are written straight
 //! into one buffer, numbers without allocation.
 
@@ -8,14 +8,14 @@ use super::grid::Lookup;
 use super::text::{push_field, push_num, push_usize, ReadError, Reader};
 use crate::backtest::CellOutput;
 use crate::plan::Cell;
-use crate::spec::Experiment;
+use crate::spec::{Experiment, IntervalsFrom};
 use std::collections::HashMap;
 use std::io::Read;
 
 pub const FILE: &str = "forecasts.csv";
 
 /// The leading columns (SPEC §5), which the report reads; `is_mse`, the
-/// intervals and `order` follow.
+/// quantile columns and `order` follow.
 pub const COLUMNS: [&str; 9] = [
     "target",
     "candidate",
@@ -33,17 +33,29 @@ pub const COLUMNS: [&str; 9] = [
 /// outturn scored (empty when the file holds no such release yet).
 pub const VINTAGE_COLUMNS: [&str; 2] = ["vintage", "actual_release"];
 
-/// `lower_<c>,upper_<c>` per interval level, ascending (SPEC §5).
-pub(super) fn interval_headers(exp: &Experiment) -> Vec<String> {
-    exp.intervals
+/// The quantile columns `q<100τ>`, ascending (SPEC §7.6): both bounds of
+/// every interval level and every `scoring.quantiles` entry.
+pub(super) fn quantile_headers(exp: &Experiment) -> Vec<String> {
+    exp.quantile_columns().into_iter().map(|q| q.name).collect()
+}
+
+/// Each quantile column's standard-normal multiplier, in column order.
+pub(super) fn quantile_multipliers(exp: &Experiment) -> Vec<f64> {
+    exp.quantile_columns()
         .iter()
-        .flat_map(|l| {
-            [
-                format!("lower_{}", l.percent),
-                format!("upper_{}", l.percent),
-            ]
-        })
+        .map(crate::score::quantile_multiplier)
         .collect()
+}
+
+/// Under past_errors: the forecast plus each past-error quantile, or
+/// `columns` empty cells.
+fn push_offsets(out: &mut Vec<u8>, forecast: f64, offsets: Option<&[f64]>, columns: usize) {
+    for j in 0..columns {
+        out.push(b',');
+        if let Some(o) = offsets {
+            push_num(out, forecast + o[j]);
+        }
+    }
 }
 
 /// The table of `outputs`, the cells' outputs in plan order.
@@ -53,7 +65,7 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
         .chain(&["is_mse"])
         .map(|c| c.to_string())
         .collect();
-    header.extend(interval_headers(exp));
+    header.extend(quantile_headers(exp));
     let with_order = exp.candidates.iter().any(|c| c.family.selects());
     if with_order {
         header.push("order".into());
@@ -63,7 +75,8 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
         header.extend(VINTAGE_COLUMNS.iter().map(|c| c.to_string()));
     }
     let rows: usize = outputs.iter().map(|o| o.forecasts.len()).sum();
-    let mut out = Vec::with_capacity(64 + rows * (96 + 40 * exp.intervals.len()));
+    let zs = quantile_multipliers(exp);
+    let mut out = Vec::with_capacity(64 + rows * (96 + 20 * zs.len()));
     for (i, h) in header.iter().enumerate() {
         if i > 0 {
             out.push(b',');
@@ -71,13 +84,13 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
         push_field(&mut out, h);
     }
     out.push(b'\n');
-    let zs: Vec<f64> = exp
-        .intervals
-        .iter()
-        .map(|l| crate::numerics::dist::normal_quantile((1.0 + l.level) / 2.0))
-        .collect();
+    let past = exp.intervals_from == IntervalsFrom::PastErrors;
     for (cell, o) in cells.iter().zip(outputs) {
         let target = &exp.targets[cell.target];
+        let offsets = match past {
+            true => crate::score::past_errors::for_forecasts(exp, target, o),
+            false => Vec::new(),
+        };
         // The row's fixed part: target, candidate, scheme.
         let mut lead = Vec::new();
         push_field(&mut lead, &target.name);
@@ -86,7 +99,7 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
         lead.push(b',');
         push_field(&mut lead, &exp.schemes[cell.scheme].id);
         lead.push(b',');
-        for r in &o.forecasts {
+        for (k, r) in o.forecasts.iter().enumerate() {
             let pos = r.origin + r.horizon;
             let actual = target.actual(pos);
             out.extend_from_slice(&lead);
@@ -105,16 +118,15 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
             if let Some(m) = r.is_mse {
                 push_num(&mut out, m);
             }
-            for &z in &zs {
-                out.push(b',');
-                match r.variance {
-                    Some(v) if v >= 0.0 => {
-                        let sd = v.sqrt();
-                        push_num(&mut out, r.forecast - z * sd);
-                        out.push(b',');
+            if past {
+                push_offsets(&mut out, r.forecast, offsets[k].as_deref(), zs.len());
+            } else {
+                let sd = r.variance.filter(|v| *v >= 0.0).map(f64::sqrt);
+                for &z in &zs {
+                    out.push(b',');
+                    if let Some(sd) = sd {
                         push_num(&mut out, r.forecast + z * sd);
                     }
-                    _ => out.push(b','),
                 }
             }
             if with_order {
@@ -147,6 +159,8 @@ pub struct Row {
     pub forecast: Option<f64>,
     pub actual: Option<f64>,
     pub error: Option<f64>,
+    /// The quantile columns' values, in the order of [`quantile_probs`].
+    pub quantiles: Vec<Option<f64>>,
 }
 
 /// (target, candidate, scheme, horizon), as positions in the grid.
@@ -156,15 +170,30 @@ pub type Key = (usize, usize, usize, usize);
 /// table's (origin) order.
 pub type Forecasts = HashMap<Key, Vec<Row>>;
 
-/// Read the table, keeping the rows of the targets `keep` accepts.
+/// The quantile columns `q<p>` of a header: (probability p/100, column),
+/// in the header's (ascending) order.
+fn quantile_columns(header: &[String]) -> Vec<(f64, usize)> {
+    header
+        .iter()
+        .enumerate()
+        .filter_map(|(i, h)| {
+            let p = h.strip_prefix('q')?.parse::<f64>().ok()?;
+            (p > 0.0 && p < 100.0).then_some((p / 100.0, i))
+        })
+        .collect()
+}
+
+/// Read the table, keeping the rows of the targets `keep` accepts; with
+/// the probabilities of its quantile columns.
 pub fn read(
     source: impl Read,
     grid: &Lookup,
     keep: &dyn Fn(usize) -> bool,
-) -> Result<Forecasts, ReadError> {
+) -> Result<(Forecasts, Vec<f64>), ReadError> {
     let mut reader = Reader::new(FILE, source)?;
     let [target, candidate, scheme, horizon, origin, period, forecast, actual, error] =
         reader.columns(COLUMNS)?;
+    let quantiles = quantile_columns(reader.header());
     let mut out = Forecasts::new();
     while let Some(row) = reader.next_row()? {
         let t = row.id(target, &grid.targets)?;
@@ -183,9 +212,13 @@ pub fn read(
             forecast: row.number(forecast)?,
             actual: row.number(actual)?,
             error: row.number(error)?,
+            quantiles: quantiles
+                .iter()
+                .map(|(_, col)| row.number(*col))
+                .collect::<Result<_, _>>()?,
         });
     }
-    Ok(out)
+    Ok((out, quantiles.iter().map(|q| q.0).collect()))
 }
 
 #[cfg(test)]
@@ -204,7 +237,7 @@ mod tests {
     }
 
     const HEADER: &str =
-        "target,candidate,scheme,horizon,origin,period,forecast,actual,error,is_mse,lower_80,upper_80\n";
+        "target,candidate,scheme,horizon,origin,period,forecast,actual,error,is_mse,q10,q90\n";
 
     #[test]
     fn rows_are_grouped_by_cell_and_horizon_in_table_order() {
@@ -212,14 +245,15 @@ mod tests {
             "{HEADER}y,ar(1),fixed,1,2001,2002,1.5,2,0.5,,,\ny,ar(1),fixed,1,2002,2003,,3,,,,\nz,naive,fixed,1,2001,2002,1,1,0,,,\n"
         );
         let g = grid();
-        let all = read(text.as_bytes(), &g.lookup(), &|_| true).unwrap();
+        let (all, probs) = read(text.as_bytes(), &g.lookup(), &|_| true).unwrap();
+        assert_eq!(probs, [0.1, 0.9]);
         let rows = &all[&(0, 1, 0, 1)];
         assert_eq!(rows.len(), 2);
         assert_eq!(rows[0].period, "2002");
         assert_eq!(rows[0].error, Some(0.5));
         assert_eq!(rows[1].forecast, None);
         // Rows of targets not kept are left out (their ids are still checked).
-        let first = read(text.as_bytes(), &g.lookup(), &|t| t == 0).unwrap();
+        let (first, _) = read(text.as_bytes(), &g.lookup(), &|t| t == 0).unwrap();
         assert!(!first.contains_key(&(1, 0, 0, 1)));
     }
 

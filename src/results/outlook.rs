@@ -3,33 +3,24 @@
 //! model estimated on all the data (E = N; the last `window` rows when every
 //! scheme is rolling), with their intervals.
 
-use super::forecasts::interval_headers;
+use super::forecasts::{quantile_headers, quantile_multipliers};
 use super::grid::Lookup;
 use super::text::{finish, num, opt, write_row, writer, ReadError, Reader};
 use crate::backtest::CellOutput;
 use crate::plan::Cell;
-use crate::spec::Experiment;
+use crate::spec::percent_text;
+use crate::spec::{Experiment, IntervalsFrom};
 
 pub const FILE: &str = "outlook.csv";
 
-fn push_intervals(
-    rec: &mut Vec<String>,
-    exp: &Experiment,
-    forecast: Option<f64>,
-    variance: Option<f64>,
-) {
-    for level in &exp.intervals {
-        match (forecast, variance) {
-            (Some(f), Some(v)) if v >= 0.0 => {
-                let (lo, hi) = crate::score::interval(f, v.sqrt(), level.level);
-                rec.push(num(lo));
-                rec.push(num(hi));
-            }
-            _ => {
-                rec.push(String::new());
-                rec.push(String::new());
-            }
-        }
+/// The quantile columns of one forecast (empty without a variance).
+fn push_quantiles(rec: &mut Vec<String>, zs: &[f64], forecast: Option<f64>, variance: Option<f64>) {
+    let sd = variance.filter(|v| *v >= 0.0).map(f64::sqrt);
+    for &z in zs {
+        rec.push(match (forecast, sd) {
+            (Some(f), Some(sd)) => num(f + z * sd),
+            _ => String::new(),
+        });
     }
 }
 
@@ -46,11 +37,17 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
     ]
     .map(String::from)
     .to_vec();
-    header.extend(interval_headers(exp));
+    header.extend(quantile_headers(exp));
     let _ = w.write_record(&header);
+    let zs = quantile_multipliers(exp);
+    let past = exp.intervals_from == IntervalsFrom::PastErrors;
     for (cell, out) in cells.iter().zip(outputs) {
         let target = &exp.targets[cell.target];
-        for r in &out.outlook {
+        let offsets = match past {
+            true => crate::score::past_errors::for_outlook(exp, target, out),
+            false => Vec::new(),
+        };
+        for (k, r) in out.outlook.iter().enumerate() {
             let mut rec = vec![
                 target.name.clone(),
                 exp.candidates[cell.candidate].id.clone(),
@@ -59,7 +56,17 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
                 exp.period_label(target, target.n + r.horizon),
                 opt(r.forecast),
             ];
-            push_intervals(&mut rec, exp, r.forecast, r.variance);
+            if past {
+                let o = offsets[k].as_deref();
+                for j in 0..zs.len() {
+                    rec.push(match (r.forecast, o) {
+                        (Some(f), Some(o)) => num(f + o[j]),
+                        _ => String::new(),
+                    });
+                }
+            } else {
+                push_quantiles(&mut rec, &zs, r.forecast, r.variance);
+            }
             write_row(&mut w, &rec);
         }
     }
@@ -79,22 +86,41 @@ pub struct Row {
     pub intervals: Vec<(String, Option<f64>, Option<f64>)>,
 }
 
-/// Read the table. Interval levels are the `lower_<c>` columns that have an
-/// `upper_<c>` beside them.
+/// The central intervals a header holds, ascending by level: each quantile
+/// column `q<p>` below 50 with its mirror `q<100 − p>` is the level
+/// 100 − 2p (`q10` and `q90`: 80); the `lower_<c>`, `upper_<c>` pairs of
+/// folders written before quantile columns are read too.
+fn interval_columns(reader: &Reader<&[u8]>) -> Vec<(String, usize, usize)> {
+    let mut levels: Vec<(f64, String, usize, usize)> = Vec::new();
+    for (i, h) in reader.header().iter().enumerate() {
+        if let Some(p) = h.strip_prefix('q').and_then(|p| p.parse::<f64>().ok()) {
+            if p > 0.0 && p < 50.0 {
+                let mirror = format!("q{}", percent_text((100.0 - p) / 100.0));
+                if let Some(upper) = reader.optional(&mirror) {
+                    let level = 100.0 - 2.0 * p;
+                    levels.push((level, percent_text(level / 100.0), i, upper));
+                }
+            }
+        } else if let Some(level) = h.strip_prefix("lower_") {
+            if let Some(upper) = reader.optional(&format!("upper_{level}")) {
+                let value = level.parse::<f64>().unwrap_or(f64::INFINITY);
+                levels.push((value, level.to_string(), i, upper));
+            }
+        }
+    }
+    levels.sort_by(|a, b| a.0.total_cmp(&b.0));
+    levels
+        .into_iter()
+        .map(|(_, l, lo, hi)| (l, lo, hi))
+        .collect()
+}
+
+/// Read the table; its intervals as [`interval_columns`] finds them.
 pub fn read(bytes: &[u8], grid: &Lookup) -> Result<Vec<Row>, ReadError> {
     let mut reader = Reader::new(FILE, bytes)?;
     let [target, candidate, horizon, period, forecast] =
         reader.columns(["target", "candidate", "horizon", "period", "forecast"])?;
-    let levels: Vec<(String, usize, usize)> = reader
-        .header()
-        .iter()
-        .enumerate()
-        .filter_map(|(i, h)| {
-            let level = h.strip_prefix("lower_")?;
-            let upper = reader.optional(&format!("upper_{level}"))?;
-            Some((level.to_string(), i, upper))
-        })
-        .collect();
+    let levels = interval_columns(&reader);
     let mut rows = Vec::new();
     while let Some(row) = reader.next_row()? {
         let mut intervals = Vec::with_capacity(levels.len());
@@ -127,9 +153,8 @@ mod tests {
             horizons: vec![1, 2],
             benchmark: 0,
         };
-        let text =
-            "target,candidate,horizon,origin,period,forecast,lower_80,upper_80,lower_95,upper_95\n\
-            y,naive,2,2024-12,2025-02,1.5,1,2,,\n";
+        let text = "target,candidate,horizon,origin,period,forecast,q2.5,q10,q50,q90,q97.5\n\
+            y,naive,2,2024-12,2025-02,1.5,,1,1.5,2,\n";
         let rows = read(text.as_bytes(), &g.lookup()).unwrap();
         assert_eq!(rows[0].horizon, 2);
         assert_eq!(
@@ -142,8 +167,14 @@ mod tests {
         let cut = &text.as_bytes()[..text.len() - 3];
         let err = read(cut, &g.lookup()).unwrap_err().to_string();
         assert!(
-            err.starts_with("outlook.csv, line 2: the row has 8 fields"),
+            err.starts_with("outlook.csv, line 2: the row has 10 fields"),
             "{err}"
         );
+        // A folder written before quantile columns: lower_<c>, upper_<c>.
+        let old =
+            "target,candidate,horizon,origin,period,forecast,lower_80,upper_80,lower_95,upper_95\n\
+            y,naive,2,2024-12,2025-02,1.5,1,2,,\n";
+        let rows_old = read(old.as_bytes(), &g.lookup()).unwrap();
+        assert_eq!(rows_old[0].intervals, rows[0].intervals);
     }
 }

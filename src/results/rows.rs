@@ -27,6 +27,8 @@ pub struct Rows {
     pub scores: Vec<scores::Row>,
     pub tests: Vec<tests::Row>,
     pub forecasts: forecasts::Forecasts,
+    /// The probabilities of forecasts.csv's quantile columns, ascending.
+    pub forecast_quantiles: Vec<f64>,
     pub outlook: Vec<outlook::Row>,
     /// parameters.csv's rows (of the targets kept).
     pub parameters: Vec<parameters::Row>,
@@ -121,7 +123,7 @@ impl Rows {
             rows.tests = tests::read(&bytes, &lookup)?;
         }
         if let Some(input) = source.stream(forecasts::FILE)? {
-            rows.forecasts = forecasts::read(input, &lookup, keep)?;
+            (rows.forecasts, rows.forecast_quantiles) = forecasts::read(input, &lookup, keep)?;
         }
         if let Some(bytes) = small(outlook::FILE)? {
             rows.outlook = outlook::read(&bytes, &lookup)?;
@@ -152,6 +154,9 @@ impl Rows {
         }
         self.scores.extend(next.scores);
         self.tests.extend(next.tests);
+        if self.forecast_quantiles.is_empty() {
+            self.forecast_quantiles = next.forecast_quantiles;
+        }
         for (k, v) in next.forecasts {
             self.forecasts.entry(k).or_default().extend(v);
         }

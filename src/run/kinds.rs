@@ -25,12 +25,17 @@ pub fn text() -> String {
         ("coverage", "share of outturns inside the Gaussian interval, per level"),
         ("interval_score", "width plus penalties for misses, per level (Gneiting & Raftery 2007)"),
         ("crps", "continuous ranked probability score of the Gaussian forecast (Gneiting & Raftery 2007)"),
+        ("quantile_score", "mean pinball loss over the quantile columns (Koenker & Bassett 1978; Gneiting & Raftery 2007)"),
+        ("log_score", "negative log density of the Gaussian forecast at the outturn; lower is better (Gneiting & Raftery 2007)"),
     ];
     let tests: &[(&str, &str)] = &[
-        ("diebold_mariano", "equal squared-error accuracy against the benchmark, HLN small-sample correction (Diebold & Mariano 1995; Harvey, Leybourne & Newbold 1997)"),
+        ("diebold_mariano", "equal squared-error accuracy against the benchmark (pairs: every pair), HLN small-sample correction (Diebold & Mariano 1995; Harvey, Leybourne & Newbold 1997)"),
         ("clark_west", "equal accuracy of nested models, adjusted for estimation noise (Clark & West 2007)"),
         ("confidence_set", "the set of candidates not significantly worse than the best (Hansen, Lunde & Nason 2011)"),
         ("snooping", "does the best of the whole grid beat the benchmark once the search is counted (Hansen 2005, SPA)"),
+        ("calibration", "interval misses: unconditional, independence and conditional coverage LR tests per level (Christoffersen 1998); the Gaussian PIT (Berkowitz 2001)"),
+        ("efficiency", "regression of outturns on forecasts, Newey-West errors, Wald test of intercept 0 and slope 1 (Mincer & Zarnowitz 1969; Newey & West 1987)"),
+        ("encompassing", "does the benchmark (or a named rival) already hold what a candidate's forecast knows (Harvey, Leybourne & Newbold 1998)"),
     ];
     // Run on every experiment: they are not keys of scoring.tests.
     let always: &[(&str, &str)] = &[

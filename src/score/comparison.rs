@@ -6,17 +6,22 @@
 //! seeded from `seed` and the group's name, never from thread scheduling.
 
 use super::bootstrap::{model_confidence_set, superior_predictive_ability};
-use super::pairwise::{clark_west, diebold_mariano, spearman, TestResult};
+use super::calibration::{berkowitz, christoffersen};
+use super::efficiency::mincer_zarnowitz;
+use super::pairwise::{clark_west, diebold_mariano, encompassing, spearman, TestResult};
 use super::{group_errors, in_sample_comparable, in_sample_rmse, rmse, Errors};
 use crate::digest::sha256_hex;
 use crate::spec::{Candidate, Experiment, Family, Trend};
+use std::borrow::Cow;
 
 #[derive(Debug, Clone, PartialEq)]
 pub struct TestRow {
     pub target: usize,
     pub scheme: usize,
     pub horizon: usize,
-    pub test: &'static str,
+    /// The test's name; calibration rows carry their interval level
+    /// (`calibration_uc_80`).
+    pub test: Cow<'static, str>,
     pub candidate: Option<usize>,
     pub versus: Option<usize>,
     pub statistic: Option<f64>,
@@ -102,7 +107,7 @@ struct Group<'a> {
 impl Group<'_> {
     fn row(
         &self,
-        test: &'static str,
+        test: impl Into<Cow<'static, str>>,
         candidate: Option<usize>,
         versus: Option<usize>,
         r: Option<TestResult>,
@@ -111,7 +116,7 @@ impl Group<'_> {
             target: self.target,
             scheme: self.scheme,
             horizon: self.horizon,
-            test,
+            test: test.into(),
             candidate,
             versus,
             statistic: r.map(|r| r.statistic),
@@ -130,6 +135,101 @@ impl Group<'_> {
         for c in (0..self.errs.len()).filter(|&c| c != bench) {
             let r = diebold_mariano(&errors_of(&self.errs[c]), &ev, self.horizon);
             rows.push(self.row("diebold_mariano", Some(c), Some(bench), r));
+        }
+    }
+
+    /// `diebold_mariano: pairs`: every pair that leaves the benchmark out
+    /// (its pairs are the rows of [`Self::diebold_mariano`]), the earlier
+    /// candidate of the file as `candidate`. Swapping a pair negates d_t,
+    /// so the statistic changes sign and the p-value stays: each entry of
+    /// the matrix is the single-pair test of SPEC §4 by construction.
+    fn diebold_mariano_pairs(&self, rows: &mut Vec<TestRow>) {
+        let bench = self.exp.benchmark;
+        let n_c = self.errs.len();
+        for c in (0..n_c).filter(|&c| c != bench) {
+            let ec = errors_of(&self.errs[c]);
+            for v in (c + 1..n_c).filter(|&v| v != bench) {
+                let r = diebold_mariano(&ec, &errors_of(&self.errs[v]), self.horizon);
+                rows.push(self.row("diebold_mariano", Some(c), Some(v), r));
+            }
+        }
+    }
+
+    /// Harvey, Leybourne & Newbold (1998): does `versus` encompass each
+    /// other candidate?
+    fn encompassing(&self, versus: usize, rows: &mut Vec<TestRow>) {
+        let ev = errors_of(&self.errs[versus]);
+        for c in (0..self.errs.len()).filter(|&c| c != versus) {
+            let r = encompassing(&errors_of(&self.errs[c]), &ev, self.horizon);
+            rows.push(self.row("encompassing", Some(c), Some(versus), r));
+        }
+    }
+
+    /// Mincer–Zarnowitz per candidate: the joint Wald test (`efficiency`),
+    /// then the intercept and the slope with their own p-values (a = 0,
+    /// b = 1) as `efficiency_intercept` and `efficiency_slope`, whose
+    /// statistic is the estimate.
+    fn efficiency(&self, rows: &mut Vec<TestRow>) {
+        for (c, e) in self.errs.iter().enumerate() {
+            let r = mincer_zarnowitz(&e.actual, &e.forecast, self.horizon);
+            let result = |statistic: f64, p_value: f64| TestResult { statistic, p_value };
+            rows.push(self.row(
+                "efficiency",
+                Some(c),
+                None,
+                r.map(|r| result(r.wald, r.p_wald)),
+            ));
+            rows.push(self.row(
+                "efficiency_intercept",
+                Some(c),
+                None,
+                r.map(|r| result(r.intercept, r.p_intercept)),
+            ));
+            rows.push(self.row(
+                "efficiency_slope",
+                Some(c),
+                None,
+                r.map(|r| result(r.slope, r.p_slope)),
+            ));
+        }
+    }
+
+    /// Calibration of the candidates with a forecast variance for every
+    /// forecast: Christoffersen's three tests per interval level
+    /// (`calibration_uc_<c>`, `calibration_ind_<c>`, `calibration_cc_<c>`),
+    /// then Berkowitz's test of the transformed PITs (`calibration_pit`).
+    fn calibration(&self, rows: &mut Vec<TestRow>) {
+        for (c, e) in self.errs.iter().enumerate() {
+            // Model intervals: every forecast has a variance, or the
+            // candidate has none; past errors: the forecasts from the first
+            // with enough known errors on.
+            if e.is_empty() || (!e.past() && e.sds().is_none()) {
+                continue;
+            }
+            for level in &self.exp.intervals {
+                let misses: Vec<bool> = (0..e.len())
+                    .filter_map(|i| {
+                        let (lo, hi) = e.bounds(i, level.level)?;
+                        Some(!(lo..=hi).contains(&e.actual[i]))
+                    })
+                    .collect();
+                let r = christoffersen(&misses, level.level);
+                for (name, t) in [
+                    ("uc", r.map(|r| r.unconditional)),
+                    ("ind", r.map(|r| r.independence)),
+                    ("cc", r.map(|r| r.conditional)),
+                ] {
+                    let test = format!("calibration_{name}_{}", level.percent);
+                    rows.push(self.row(test, Some(c), None, t));
+                }
+            }
+            if let Some(sds) = e.sds().filter(|_| !e.past()) {
+                let z: Option<Vec<f64>> = (0..e.len())
+                    .map(|i| (sds[i] > 0.0).then(|| e.error(i) / sds[i]))
+                    .collect();
+                let r = z.and_then(|z| berkowitz(&z));
+                rows.push(self.row("calibration_pit", Some(c), None, r));
+            }
         }
     }
 
@@ -261,6 +361,9 @@ pub fn run(exp: &Experiment, errors: &[Vec<Errors>]) -> Vec<TestRow> {
                 if exp.tests.diebold_mariano {
                     group.diebold_mariano(&mut rows);
                 }
+                if exp.tests.diebold_mariano_pairs {
+                    group.diebold_mariano_pairs(&mut rows);
+                }
                 if exp.tests.clark_west {
                     group.clark_west(&mut rows);
                 }
@@ -271,6 +374,15 @@ pub fn run(exp: &Experiment, errors: &[Vec<Errors>]) -> Vec<TestRow> {
                     rows.push(group.snooping(sn.resamples));
                 }
                 rows.extend(group.rank_correlation());
+                if let Some(versus) = exp.tests.encompassing {
+                    group.encompassing(versus, &mut rows);
+                }
+                if exp.tests.efficiency {
+                    group.efficiency(&mut rows);
+                }
+                if exp.tests.calibration {
+                    group.calibration(&mut rows);
+                }
             }
         }
     }

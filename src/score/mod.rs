@@ -3,12 +3,17 @@
 //! out-of-sample comparison.
 
 pub mod bootstrap;
+pub mod calibration;
 pub mod comparison;
 pub mod diagnostics;
+pub mod efficiency;
 pub mod pairwise;
+pub mod past_errors;
 pub mod stability;
 pub mod summary;
 
+#[cfg(test)]
+mod density_tests;
 #[cfg(test)]
 mod refdata;
 #[cfg(test)]
@@ -17,7 +22,9 @@ mod reference_metrics_tests;
 use crate::backtest::CellOutput;
 use crate::numerics::dist::{normal_cdf, normal_pdf, normal_quantile};
 use crate::plan::Cell;
-use crate::spec::{Experiment, Family, Metric, MetricColumn, MultiStep, Scheme};
+use crate::spec::{
+    Experiment, Family, IntervalsFrom, Metric, MetricColumn, MultiStep, QuantileColumn, Scheme,
+};
 
 /// Forecast errors of one candidate on one target × scheme × horizon.
 #[derive(Debug, Clone, Default)]
@@ -30,6 +37,12 @@ pub struct Errors {
     pub variance: Vec<Option<f64>>,
     /// Ordinal of the forecast's target period, for sub-period scores.
     pub period: Vec<i64>,
+    /// Under `intervals_from: past_errors`: the probabilities of the
+    /// quantile columns (empty otherwise) …
+    pub offset_probs: Vec<f64>,
+    /// … and per forecast the empirical quantiles of its past errors at
+    /// them (None before enough errors are known).
+    pub offsets: Vec<Option<Vec<f64>>>,
 }
 
 impl Errors {
@@ -49,11 +62,18 @@ impl Errors {
         self.is_var.extend_from_slice(&other.is_var);
         self.variance.extend_from_slice(&other.variance);
         self.period.extend_from_slice(&other.period);
+        self.offsets.extend_from_slice(&other.offsets);
+        if self.offset_probs.is_empty() {
+            self.offset_probs.clone_from(&other.offset_probs);
+        }
     }
 
     /// The forecasts whose target period lies in from..=to.
     pub fn within(&self, from: i64, to: i64) -> Errors {
-        let mut out = Errors::default();
+        let mut out = Errors {
+            offset_probs: self.offset_probs.clone(),
+            ..Errors::default()
+        };
         for i in 0..self.len() {
             if (from..=to).contains(&self.period[i]) {
                 out.actual.push(self.actual[i]);
@@ -62,9 +82,36 @@ impl Errors {
                 out.is_var.push(self.is_var[i]);
                 out.variance.push(self.variance[i]);
                 out.period.push(self.period[i]);
+                if self.past() {
+                    out.offsets.push(self.offsets[i].clone());
+                }
             }
         }
         out
+    }
+
+    /// Whether intervals come from past errors (`intervals_from: past_errors`).
+    pub fn past(&self) -> bool {
+        !self.offset_probs.is_empty()
+    }
+
+    /// Under past_errors, the bounds of forecast i's level-c interval:
+    /// the forecast plus the past errors' quantiles at (1 ∓ c)/2.
+    fn past_bounds(&self, i: usize, level: f64) -> Option<(f64, f64)> {
+        let o = self.offsets[i].as_ref()?;
+        let at = |p: f64| self.offset_probs.iter().position(|q| *q == p);
+        let (lo, hi) = (at((1.0 - level) / 2.0)?, at((1.0 + level) / 2.0)?);
+        Some((self.forecast[i] + o[lo], self.forecast[i] + o[hi]))
+    }
+
+    /// The bounds of forecast i's level-c interval: Gaussian from its
+    /// variance (SPEC §4), or from past errors.
+    pub fn bounds(&self, i: usize, level: f64) -> Option<(f64, f64)> {
+        if self.past() {
+            return self.past_bounds(i, level);
+        }
+        let sd = self.variance[i].filter(|v| *v >= 0.0)?.sqrt();
+        Some(interval(self.forecast[i], sd, level))
     }
 
     /// Forecast standard deviations, if every forecast has one.
@@ -82,8 +129,25 @@ pub fn interval(forecast: f64, sd: f64, level: f64) -> (f64, f64) {
     (forecast - z * sd, forecast + z * sd)
 }
 
+/// The standard-normal multiplier of a quantile column: sign·Φ⁻¹(tail), so
+/// that forecast + multiplier·σ̂_h is its Gaussian quantile (for an interval
+/// bound exactly the forecast ∓ z_{(1+c)/2}·σ̂_h of [`interval`]).
+pub fn quantile_multiplier(q: &QuantileColumn) -> f64 {
+    q.sign * normal_quantile(q.tail)
+}
+
 /// Share of outturns inside the level-c interval (ends included).
 pub fn coverage(e: &Errors, level: f64) -> Option<f64> {
+    if e.past() {
+        let bounds: Vec<(usize, (f64, f64))> = (0..e.len())
+            .filter_map(|i| Some((i, e.past_bounds(i, level)?)))
+            .collect();
+        let inside = bounds
+            .iter()
+            .filter(|(i, (lo, hi))| (*lo..=*hi).contains(&e.actual[*i]))
+            .count();
+        return mean(std::iter::once(inside as f64), bounds.len());
+    }
     let sds = e.sds()?;
     let inside = (0..e.len())
         .filter(|&i| {
@@ -97,8 +161,20 @@ pub fn coverage(e: &Errors, level: f64) -> Option<f64> {
 /// Mean interval score of the central level-c interval (Gneiting & Raftery
 /// 2007, eq. 43): (u − l) + (2/α)(l − y)·1{y < l} + (2/α)(y − u)·1{y > u}, α = 1 − c.
 pub fn interval_score(e: &Errors, level: f64) -> Option<f64> {
-    let sds = e.sds()?;
     let alpha = 1.0 - level;
+    let score = |y: f64, lo: f64, hi: f64| {
+        (hi - lo) + (2.0 / alpha) * (lo - y).max(0.0) + (2.0 / alpha) * (y - hi).max(0.0)
+    };
+    if e.past() {
+        let scores: Vec<f64> = (0..e.len())
+            .filter_map(|i| {
+                let (lo, hi) = e.past_bounds(i, level)?;
+                Some(score(e.actual[i], lo, hi))
+            })
+            .collect();
+        return mean(scores.iter().copied(), scores.len());
+    }
+    let sds = e.sds()?;
     mean(
         (0..e.len()).map(|i| {
             let (lo, hi) = interval(e.forecast[i], sds[i], level);
@@ -119,13 +195,79 @@ pub fn crps_gaussian(mu: f64, sd: f64, y: f64) -> f64 {
     sd * (z * (2.0 * normal_cdf(z) - 1.0) + 2.0 * normal_pdf(z) - 1.0 / std::f64::consts::PI.sqrt())
 }
 
-/// Mean Gaussian CRPS.
+/// Mean Gaussian CRPS (none under past_errors: no density).
 pub fn crps(e: &Errors) -> Option<f64> {
+    if e.past() {
+        return None;
+    }
     let sds = e.sds()?;
     mean(
         (0..e.len()).map(|i| crps_gaussian(e.forecast[i], sds[i], e.actual[i])),
         e.len(),
     )
+}
+
+/// Pinball (quantile) loss of quantile q at probability τ for outturn y:
+/// (y − q)(τ − 1{y < q}) (Koenker & Bassett 1978; the quantile score of
+/// Gneiting & Raftery 2007, section 6, up to their factor 2).
+pub fn pinball(y: f64, q: f64, tau: f64) -> f64 {
+    let indicator = if y < q { 1.0 } else { 0.0 };
+    (y - q) * (tau - indicator)
+}
+
+/// Mean pinball loss over every forecast and every quantile column, the
+/// Gaussian quantiles forecast + multiplier·σ̂_h; None without quantile
+/// columns or without a variance for every forecast.
+pub fn quantile_score(e: &Errors, quantiles: &[QuantileColumn]) -> Option<f64> {
+    if e.past() {
+        let mut losses = Vec::new();
+        for (i, o) in e.offsets.iter().enumerate() {
+            let Some(o) = o else { continue };
+            for (p, off) in e.offset_probs.iter().zip(o) {
+                losses.push(pinball(e.actual[i], e.forecast[i] + off, *p));
+            }
+        }
+        return mean(losses.iter().copied(), losses.len());
+    }
+    let sds = e.sds()?;
+    if quantiles.is_empty() {
+        return None;
+    }
+    let zs: Vec<f64> = quantiles.iter().map(quantile_multiplier).collect();
+    mean(
+        (0..e.len()).flat_map(|i| {
+            let (f, sd, y) = (e.forecast[i], sds[i], e.actual[i]);
+            quantiles
+                .iter()
+                .zip(&zs)
+                .map(move |(q, z)| pinball(y, f + z * sd, q.prob))
+        }),
+        e.len() * quantiles.len(),
+    )
+}
+
+/// Log score of a Gaussian forecast N(μ, σ²) at outturn y: the negative
+/// log density, ½ln(2π) + ln σ + ½((y − μ)/σ)², so that lower is better and
+/// it ranks like a loss (common practice; Gneiting & Raftery 2007, section
+/// 4.1, with the sign turned). None for σ = 0.
+pub fn log_score_gaussian(mu: f64, sd: f64, y: f64) -> Option<f64> {
+    if !positive_finite(sd) {
+        return None;
+    }
+    let z = (y - mu) / sd;
+    Some(0.5 * (2.0 * std::f64::consts::PI).ln() + sd.ln() + 0.5 * z * z)
+}
+
+/// Mean Gaussian log score; None when a forecast has no positive variance.
+pub fn log_score(e: &Errors) -> Option<f64> {
+    if e.past() {
+        return None;
+    }
+    let sds = e.sds()?;
+    let scores: Option<Vec<f64>> = (0..e.len())
+        .map(|i| log_score_gaussian(e.forecast[i], sds[i], e.actual[i]))
+        .collect();
+    mean(scores?.into_iter(), e.len())
 }
 
 /// rmse = sqrt(mean e²)
@@ -284,11 +426,32 @@ pub fn cell_errors(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> 
         .zip(outputs)
         .map(|(cell, out)| {
             let target = &exp.targets[cell.target];
+            let past = exp.intervals_from == IntervalsFrom::PastErrors;
+            let offsets = if past {
+                past_errors::for_forecasts(exp, target, out)
+            } else {
+                Vec::new()
+            };
+            let offset_probs: Vec<f64> = match past {
+                true => exp.quantile_columns().iter().map(|q| q.prob).collect(),
+                false => Vec::new(),
+            };
             exp.horizons
                 .iter()
                 .map(|&h| {
-                    let mut e = Errors::default();
-                    for r in out.forecasts.iter().filter(|r| r.horizon == h) {
+                    let mut e = Errors {
+                        offset_probs: offset_probs.clone(),
+                        ..Errors::default()
+                    };
+                    for (k, r) in out
+                        .forecasts
+                        .iter()
+                        .enumerate()
+                        .filter(|(_, r)| r.horizon == h)
+                    {
+                        if past {
+                            e.offsets.push(offsets[k].clone());
+                        }
                         let pos = r.origin + h;
                         let actual = target.actual(pos);
                         // No outturn yet (a release the vintages do not
@@ -329,6 +492,8 @@ fn metric_value(
         Metric::Coverage => coverage(e, level()?),
         Metric::IntervalScore => interval_score(e, level()?),
         Metric::Crps => crps(e),
+        Metric::QuantileScore => quantile_score(e, &exp.quantile_columns()),
+        Metric::LogScore => log_score(e),
     }
 }
 
@@ -477,6 +642,7 @@ mod tests {
             is_var: vec![None; actual.len()],
             variance: vec![None; actual.len()],
             period: vec![0; actual.len()],
+            ..Errors::default()
         }
     }
 

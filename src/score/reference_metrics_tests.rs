@@ -37,6 +37,7 @@ fn errors(cases: &[(f64, f64, f64)]) -> Errors {
         is_var: vec![None; cases.len()],
         variance: cases.iter().map(|c| Some(c.1 * c.1)).collect(),
         period: (0..cases.len() as i64).collect(),
+        ..Errors::default()
     }
 }
 

@@ -167,11 +167,18 @@ pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
         Some(c) => decode_candidates(ctx, c, &predictors, &dummies, data.frequency),
         None => Vec::new(),
     };
-    let scoring = match top.get("scoring") {
+    let mut scoring = match top.get("scoring") {
         Some(node) => decode_scoring(ctx, node, data.frequency),
         None => Scoring::default(),
     };
     let benchmark = resolve_benchmark(ctx, &scoring, &candidates);
+    scoring.tests.encompassing = match scoring.encompassing.take() {
+        None => None,
+        Some(None) => Some(benchmark),
+        Some(Some((name, node))) => {
+            resolve_candidate(ctx, "encompassing", &name, &node, &candidates)
+        }
+    };
     if let Some(c) = top.get("candidates") {
         limits::check_grid(ctx, c, targets.len(), candidates.len(), schemes.len());
     }
@@ -345,21 +352,32 @@ fn iterated_warning(
 }
 
 /// SPEC §4: the id named, else naive when it is a candidate, else the first candidate.
+/// The candidate a key names (`what` for messages), or an error naming it.
+fn resolve_candidate(
+    ctx: &mut Ctx,
+    what: &str,
+    name: &str,
+    node: &Node,
+    candidates: &[Candidate],
+) -> Option<usize> {
+    let found = candidates.iter().position(|c| c.id == name);
+    if found.is_none() {
+        ctx.error(
+            node,
+            format!(
+                "{what} '{name}' names no candidate; {}",
+                ids_hint(name, candidates)
+            ),
+        );
+    }
+    found
+}
+
 fn resolve_benchmark(ctx: &mut Ctx, scoring: &Scoring, candidates: &[Candidate]) -> usize {
     match &scoring.benchmark {
-        Some((name, node)) => match candidates.iter().position(|c| c.id == *name) {
-            Some(i) => i,
-            None => {
-                ctx.error(
-                    node,
-                    format!(
-                        "benchmark '{name}' names no candidate; {}",
-                        ids_hint(name, candidates)
-                    ),
-                );
-                0
-            }
-        },
+        Some((name, node)) => {
+            resolve_candidate(ctx, "benchmark", name, node, candidates).unwrap_or(0)
+        }
         None => candidates.iter().position(|c| c.id == "naive").unwrap_or(0),
     }
 }
@@ -480,6 +498,8 @@ impl Decoded {
             metrics,
             rank_by,
             intervals,
+            quantiles,
+            intervals_from,
             tests,
             periods,
             rolling_window,
@@ -502,6 +522,8 @@ impl Decoded {
             multi_step: self.multi_step,
             metrics,
             intervals,
+            quantiles,
+            intervals_from,
             tests,
             periods,
             rolling_window,

@@ -86,10 +86,12 @@ pub enum Metric {
     Coverage,
     IntervalScore,
     Crps,
+    QuantileScore,
+    LogScore,
 }
 
 impl Metric {
-    pub const ALL: [Metric; 10] = [
+    pub const ALL: [Metric; 12] = [
         Metric::Rmse,
         Metric::Mae,
         Metric::Bias,
@@ -100,8 +102,10 @@ impl Metric {
         Metric::Coverage,
         Metric::IntervalScore,
         Metric::Crps,
+        Metric::QuantileScore,
+        Metric::LogScore,
     ];
-    pub const NAMES: [&'static str; 10] = [
+    pub const NAMES: [&'static str; 12] = [
         "rmse",
         "mae",
         "bias",
@@ -112,6 +116,8 @@ impl Metric {
         "coverage",
         "interval_score",
         "crps",
+        "quantile_score",
+        "log_score",
     ];
     pub fn parse(s: &str) -> Option<Metric> {
         Self::NAMES
@@ -148,10 +154,90 @@ pub struct IntervalLevel {
     pub percent: String,
 }
 
+/// A quantile column of forecasts.csv and outlook.csv (SPEC §7.6): the
+/// probability τ, its header `q<100τ>` and how a Gaussian forecast gives it,
+/// forecast + sign·Φ⁻¹(tail)·σ̂_h. An interval level c gives two, tail
+/// (1 + c)/2 with sign −1 and +1, so that the bounds are exactly the
+/// forecast ∓ z_{(1+c)/2}·σ̂_h of SPEC §4; a listed quantile τ has tail
+/// max(τ, 1 − τ).
+#[derive(Debug, Clone, PartialEq)]
+pub struct QuantileColumn {
+    pub prob: f64,
+    /// `q10`, `q2.5`, `q97.5`.
+    pub name: String,
+    pub tail: f64,
+    /// The sign of Φ⁻¹(tail): −1 below the median, +1 from it on.
+    pub sign: f64,
+}
+
+/// Where intervals and quantiles come from (`scoring.intervals_from`, SPEC §7.6).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum IntervalsFrom {
+    /// The model's Gaussian forecast distribution (its forecast variance).
+    #[default]
+    Model,
+    /// Empirical quantiles of the candidate's own earlier errors.
+    PastErrors,
+}
+
+/// The quantile columns of interval levels and listed quantiles,
+/// ascending (see [`Declaration::quantile_columns`]).
+pub fn quantile_columns(intervals: &[IntervalLevel], quantiles: &[f64]) -> Vec<QuantileColumn> {
+    let mut out: Vec<QuantileColumn> = Vec::new();
+    for l in intervals {
+        let tail = (1.0 + l.level) / 2.0;
+        for (prob, sign) in [((1.0 - l.level) / 2.0, -1.0), (tail, 1.0)] {
+            out.push(QuantileColumn {
+                prob,
+                name: quantile_name(prob),
+                tail,
+                sign,
+            });
+        }
+    }
+    for &prob in quantiles {
+        let name = quantile_name(prob);
+        if out.iter().all(|q| q.name != name) {
+            out.push(QuantileColumn {
+                prob,
+                name,
+                tail: prob.max(1.0 - prob),
+                sign: if prob < 0.5 { -1.0 } else { 1.0 },
+            });
+        }
+    }
+    out.sort_by(|a, b| a.prob.total_cmp(&b.prob));
+    out
+}
+
+/// `q10` for 0.1, `q2.5` for 0.025: the header of a quantile column.
+pub fn quantile_name(prob: f64) -> String {
+    format!("q{}", percent_text(prob))
+}
+
+/// `80` for 0.8, `97.5` for 0.975, `2.5` for 0.025: a share in percent,
+/// rounded to six decimals, without trailing zeros.
+pub fn percent_text(share: f64) -> String {
+    let p = format!("{:.6}", share * 100.0);
+    p.trim_end_matches('0').trim_end_matches('.').to_string()
+}
+
 /// Forecast-comparison tests requested under `scoring.tests` (SPEC §4).
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct TestsSpec {
     pub diebold_mariano: bool,
+    /// `diebold_mariano: pairs`: every pair of candidates, not only each
+    /// against the benchmark (SPEC §7.6).
+    pub diebold_mariano_pairs: bool,
+    /// Christoffersen's coverage tests per interval level and Berkowitz's
+    /// density test (SPEC §7.6).
+    pub calibration: bool,
+    /// The Mincer–Zarnowitz regression and its Wald test (SPEC §7.6).
+    pub efficiency: bool,
+    /// Harvey, Leybourne & Newbold (1998): the candidate whose forecasts
+    /// are tested for encompassing every other's (the benchmark unless a
+    /// rival is named).
+    pub encompassing: Option<usize>,
     /// Clark-West for candidates in which the benchmark is nested.
     pub clark_west: bool,
     /// Clark-West for every nested pair, not only those with the benchmark.
@@ -420,6 +506,9 @@ pub struct Declaration {
     pub metrics: Vec<Metric>,
     /// Interval levels of `scoring.intervals`, ascending.
     pub intervals: Vec<IntervalLevel>,
+    /// Probabilities of `scoring.quantiles`, ascending (SPEC §7.6).
+    pub quantiles: Vec<f64>,
+    pub intervals_from: IntervalsFrom,
     pub tests: TestsSpec,
     /// Named sub-periods of `scoring.periods`, in file order.
     pub periods: Vec<PeriodSet>,
@@ -510,6 +599,13 @@ impl Declaration {
             }
         }
         out
+    }
+
+    /// The quantile columns of forecasts.csv and outlook.csv, ascending:
+    /// both bounds of every interval level and every listed quantile, a
+    /// quantile that is also an interval bound once (as the bound).
+    pub fn quantile_columns(&self) -> Vec<QuantileColumn> {
+        quantile_columns(&self.intervals, &self.quantiles)
     }
 
     pub fn metric_column_name(&self, col: &MetricColumn) -> String {

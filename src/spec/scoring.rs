@@ -5,7 +5,8 @@ use super::decode::Ctx;
 use super::period::{self, Frequency};
 use super::yaml::{Kind, Node};
 use super::{
-    ConfidenceSetSpec, IntervalLevel, Metric, PeriodSet, Release, SnoopingSpec, TestsSpec,
+    percent_text, ConfidenceSetSpec, IntervalLevel, IntervalsFrom, Metric, PeriodSet, Release,
+    SnoopingSpec, TestsSpec,
 };
 
 pub(super) struct Scoring {
@@ -13,7 +14,12 @@ pub(super) struct Scoring {
     pub rank_by: Metric,
     pub benchmark: Option<(String, Node)>,
     pub intervals: Vec<IntervalLevel>,
+    pub quantiles: Vec<f64>,
+    pub intervals_from: IntervalsFrom,
     pub tests: TestsSpec,
+    /// `scoring.tests.encompassing`: on, and the rival it names (none:
+    /// the benchmark), resolved to an index with the benchmark.
+    pub encompassing: Option<Option<(String, Node)>>,
     pub periods: Vec<PeriodSet>,
     /// Where each period set is written, for messages.
     pub period_nodes: Vec<Node>,
@@ -29,7 +35,10 @@ impl Default for Scoring {
             rank_by: Metric::Rmse,
             benchmark: None,
             intervals: Vec::new(),
+            quantiles: Vec::new(),
+            intervals_from: IntervalsFrom::Model,
             tests: TestsSpec::default(),
+            encompassing: None,
             periods: Vec::new(),
             rolling_window: None,
             period_nodes: Vec::new(),
@@ -63,12 +72,6 @@ fn share(ctx: &mut Ctx, node: &Node, what: &str) -> Option<f64> {
     }
 }
 
-/// `80` for 0.8, `97.5` for 0.975: the level in percent without trailing zeros.
-fn percent_text(level: f64) -> String {
-    let p = format!("{:.6}", level * 100.0);
-    p.trim_end_matches('0').trim_end_matches('.').to_string()
-}
-
 pub(super) fn decode_scoring(ctx: &mut Ctx, node: &Node, frequency: Option<Frequency>) -> Scoring {
     let mut out = Scoring::default();
     let Some(view) = ctx.map(
@@ -79,6 +82,8 @@ pub(super) fn decode_scoring(ctx: &mut Ctx, node: &Node, frequency: Option<Frequ
             "rank_by",
             "benchmark",
             "intervals",
+            "quantiles",
+            "intervals_from",
             "tests",
             "periods",
             "rolling_window",
@@ -90,6 +95,9 @@ pub(super) fn decode_scoring(ctx: &mut Ctx, node: &Node, frequency: Option<Frequ
     };
     if let Some(i) = view.get("intervals") {
         decode_intervals(ctx, i, &mut out);
+    }
+    if let Some(q) = view.get("quantiles") {
+        decode_quantiles(ctx, q, &mut out);
     }
     if let Some(m) = view.get("metrics") {
         decode_metrics(ctx, m, &mut out);
@@ -137,6 +145,9 @@ pub(super) fn decode_scoring(ctx: &mut Ctx, node: &Node, frequency: Option<Frequ
     if let Some(a) = view.get("actual") {
         out.actual = decode_actual(ctx, a).map(|r| (r, a.clone()));
     }
+    if let Some(n) = view.get("intervals_from") {
+        decode_intervals_from(ctx, n, &mut out);
+    }
     out
 }
 
@@ -157,6 +168,26 @@ fn decode_actual(ctx: &mut Ctx, a: &Node) -> Option<Release> {
     {
         "first" => Some(Release::Nth(1)),
         _ => Some(Release::Latest),
+    }
+}
+
+/// `scoring.intervals_from`: model (default) or past_errors, which needs
+/// quantile columns and gives no density for crps and log_score.
+fn decode_intervals_from(ctx: &mut Ctx, n: &Node, out: &mut Scoring) {
+    let Some(choice) = ctx.choice(n, "scoring.intervals_from", &["model", "past_errors"]) else {
+        return;
+    };
+    if choice != "past_errors" {
+        return;
+    }
+    out.intervals_from = IntervalsFrom::PastErrors;
+    if out.intervals.is_empty() && out.quantiles.is_empty() {
+        ctx.error(n, "intervals_from: past_errors makes interval bounds and quantiles; list scoring.intervals or scoring.quantiles");
+    }
+    for m in [Metric::Crps, Metric::LogScore] {
+        if out.metrics.contains(&m) {
+            ctx.error(n, format!("intervals_from: past_errors gives quantiles, not the Gaussian density that '{}' scores; leave '{}' out of scoring.metrics or use intervals_from: model", m.name(), m.name()));
+        }
     }
 }
 
@@ -194,6 +225,33 @@ fn decode_intervals(ctx: &mut Ctx, i: &Node, out: &mut Scoring) {
     out.intervals.sort_by(|a, b| a.level.total_cmp(&b.level));
 }
 
+/// `scoring.quantiles`: probabilities strictly between 0 and 1, each once
+/// (by its column name, six decimals in percent), ascending.
+fn decode_quantiles(ctx: &mut Ctx, q: &Node, out: &mut Scoring) {
+    let mut names: Vec<String> = Vec::new();
+    for item in ctx.list(q) {
+        let Some(prob) = share(ctx, item, "scoring.quantiles") else {
+            continue;
+        };
+        let percent = percent_text(prob);
+        if percent == "0" || percent == "100" {
+            ctx.error(
+                item,
+                format!("quantile {prob} is too close to 0 or 1 to name a column (q{percent}); quantiles are named in percent with at most six decimals"),
+            );
+        } else if names.contains(&percent) {
+            ctx.error(
+                item,
+                format!("quantile {prob} is listed twice (column q{percent})"),
+            );
+        } else {
+            names.push(percent);
+            out.quantiles.push(prob);
+        }
+    }
+    out.quantiles.sort_by(f64::total_cmp);
+}
+
 /// `scoring.metrics`: each metric once; per-level ones need interval levels.
 fn decode_metrics(ctx: &mut Ctx, m: &Node, out: &mut Scoring) {
     let mut metrics = Vec::new();
@@ -209,6 +267,11 @@ fn decode_metrics(ctx: &mut Ctx, m: &Node, out: &mut Scoring) {
                 ctx.error(item, format!("metric '{name}' is listed twice"));
             } else if metric.per_level() && out.intervals.is_empty() {
                 ctx.error(item, format!("metric '{name}' is scored per interval level; list the levels under scoring.intervals, e.g. [0.8, 0.95]"));
+            } else if metric == Metric::QuantileScore
+                && out.intervals.is_empty()
+                && out.quantiles.is_empty()
+            {
+                ctx.error(item, format!("metric '{name}' scores the quantile columns; list scoring.intervals (each level gives two) or scoring.quantiles, e.g. [0.1, 0.5, 0.9]"));
             } else {
                 metrics.push(metric);
             }
@@ -233,13 +296,38 @@ fn decode_tests(ctx: &mut Ctx, t: &Node, out: &mut Scoring) {
             "clark_west",
             "confidence_set",
             "snooping",
+            "calibration",
+            "efficiency",
+            "encompassing",
         ],
         &[],
     ) {
         if let Some(n) = tv.get("diebold_mariano") {
-            out.tests.diebold_mariano = ctx
-                .boolean(n, "scoring.tests.diebold_mariano")
-                .unwrap_or(false);
+            // true: each candidate against the benchmark; pairs: every pair.
+            match ctx.string(n, "scoring.tests.diebold_mariano").as_deref() {
+                Some("true") => out.tests.diebold_mariano = true,
+                Some("false") | None => {}
+                Some("pairs") => {
+                    out.tests.diebold_mariano = true;
+                    out.tests.diebold_mariano_pairs = true;
+                }
+                Some(other) => ctx.error(n, format!("scoring.tests.diebold_mariano must be true, false or pairs, found '{other}'")),
+            }
+        }
+        if let Some(n) = tv.get("calibration") {
+            out.tests.calibration = ctx.boolean(n, "scoring.tests.calibration").unwrap_or(false);
+        }
+        if let Some(n) = tv.get("efficiency") {
+            out.tests.efficiency = ctx.boolean(n, "scoring.tests.efficiency").unwrap_or(false);
+        }
+        if let Some(n) = tv.get("encompassing") {
+            // true: against the benchmark; a candidate id: against that rival.
+            match ctx.string(n, "scoring.tests.encompassing") {
+                Some(t) if t == "true" => out.encompassing = Some(None),
+                Some(t) if t == "false" => {}
+                Some(id) => out.encompassing = Some(Some((id, n.clone()))),
+                None => {}
+            }
         }
         if let Some(n) = tv.get("clark_west") {
             // true: pairs with the benchmark; all_pairs: every nested pair.

@@ -229,7 +229,7 @@ def reference(name, target, P, schemes, horizons, iterated, report):
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(["target", "candidate", "scheme", "horizon", "origin", "period", "order",
-                "forecast", "actual", "is_mse", "lower_80", "upper_80"])
+                "forecast", "actual", "is_mse", "q10", "q90"])
     w.writerows(rows)
     write_text(HERE / ("expected_%s.csv" % name), buf.getvalue())
     return rows
