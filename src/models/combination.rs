@@ -105,14 +105,17 @@ pub fn backtest(
     Ok(out)
 }
 
-/// Combined outlook from the members' outlook rows; inverse-MSE weights use
-/// every backtest forecast of the first scheme (all outturns are known at N).
+/// Combined outlook from the members' outlook rows at each of `horizons`
+/// (1..max of the `listed` ones); inverse-MSE weights use every backtest
+/// forecast of the first scheme (all outturns are known at N) at the
+/// horizon itself, or at an unlisted horizon, which has no scored errors,
+/// at the nearest listed horizon above it.
 pub fn outlook(
     kind: CombinationWeights,
     members: &[&[OutlookRow]],
     backtests: &[&[ForecastRow]],
     y: &[f64],
-    horizons: &[usize],
+    (horizons, listed): (&[usize], &[usize]),
 ) -> Vec<OutlookRow> {
     horizons
         .iter()
@@ -121,19 +124,27 @@ pub fn outlook(
                 .iter()
                 .map(|m| m.iter().find(|r| r.horizon == h).and_then(|r| r.forecast))
                 .collect();
+            let scored = listed
+                .iter()
+                .copied()
+                .filter(|&l| l >= h)
+                .min()
+                .unwrap_or(h);
             let weights = (kind == CombinationWeights::InverseMse).then(|| {
                 let track = Track {
                     errors: backtests
                         .iter()
                         .map(|rows| {
                             rows.iter()
-                                .filter(|f| f.horizon == h)
-                                .map(|f| (f.origin, (y[f.origin + h - 1] - f.forecast).powi(2)))
+                                .filter(|f| f.horizon == scored)
+                                .map(|f| {
+                                    (f.origin, (y[f.origin + scored - 1] - f.forecast).powi(2))
+                                })
                                 .collect()
                         })
                         .collect(),
                 };
-                track.weights_at(usize::MAX / 2, h)
+                track.weights_at(usize::MAX / 2, scored)
             });
             OutlookRow {
                 horizon: h,
