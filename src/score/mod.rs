@@ -14,7 +14,7 @@ mod refdata;
 mod reference_metrics_tests;
 
 use crate::backtest::CellOutput;
-use crate::numerics::dist::{normal_cdf, normal_pdf, normal_quantile};
+use crate::numerics::dist::{normal_cdf, normal_pdf};
 use crate::plan::Cell;
 use crate::spec::{Experiment, Family, Metric, MetricColumn, MultiStep, Scheme};
 
@@ -77,8 +77,7 @@ impl Errors {
 
 /// The Gaussian interval at level c: forecast ± z_{(1+c)/2}·σ̂_h (SPEC §4).
 pub fn interval(forecast: f64, sd: f64, level: f64) -> (f64, f64) {
-    let z = normal_quantile((1.0 + level) / 2.0);
-    (forecast - z * sd, forecast + z * sd)
+    crate::numerics::dist::normal_interval(forecast, sd, level)
 }
 
 /// Share of outturns inside the level-c interval (ends included).
