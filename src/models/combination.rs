@@ -201,6 +201,42 @@ mod tests {
     }
 
     #[test]
+    fn an_unlisted_outlook_horizon_takes_the_next_listed_horizons_weights() {
+        // Horizons [1, 3] listed; the outlook has 1, 2, 3. Hand-computed:
+        // at h = 3 member a's backtest error is 1 (mse 1), b's is 2 (mse 4),
+        // so weights 1 and 1/4; h = 2 has no backtest rows and uses them too.
+        let y = [0.0, 0.0, 0.0, 0.0, 0.0];
+        let at3 = |origin, forecast| ForecastRow {
+            horizon: 3,
+            ..row(origin, forecast)
+        };
+        let (ba, bb) = ([at3(1, -1.0)], [at3(1, 2.0)]);
+        let look = |f: [f64; 3]| -> Vec<OutlookRow> {
+            (1..=3)
+                .map(|h| OutlookRow {
+                    horizon: h,
+                    forecast: Some(f[h - 1]),
+                    variance: None,
+                })
+                .collect()
+        };
+        let (la, lb) = (look([10.0, 20.0, 30.0]), look([20.0, 40.0, 60.0]));
+        let out = outlook(
+            CombinationWeights::InverseMse,
+            &[&la, &lb],
+            &[&ba, &bb],
+            &y,
+            (&[1, 2, 3], &[1, 3]),
+        );
+        let w = |a: f64, b: f64| (a + 0.25 * b) / 1.25;
+        assert_eq!(out.iter().map(|r| r.horizon).collect::<Vec<_>>(), [1, 2, 3]);
+        // h = 1 has no backtest rows in this example: equal weights.
+        assert_eq!(out[0].forecast, Some(15.0));
+        assert!((out[1].forecast.unwrap() - w(20.0, 40.0)).abs() < 1e-12);
+        assert!((out[2].forecast.unwrap() - w(30.0, 60.0)).abs() < 1e-12);
+    }
+
+    #[test]
     fn changing_future_outturns_leaves_earlier_combinations_unchanged() {
         // No look-ahead, by construction: alter y after position 3 and the
         // combined forecasts from origins ≤ 2 (whose weights use outturns up to 2) stay equal.
