@@ -321,9 +321,13 @@ fn the_demo_report_claims_nothing_its_tests_do_not_show() {
     assert!(md.contains("`naive`'s RMSE: h = 1 "), "benchmark values");
     // Sub-period headers give the span actually scored.
     assert!(md.contains("before_programme (scored 2015-"), "scored span");
-    // Horizons 1 and 3: the outlook chart does not draw horizon 2.
+    // Horizons 1 and 3: the outlook holds horizon 2 too, so no gap is noted.
     let html = std::fs::read_to_string(out.join("report.html")).expect("html");
-    assert!(html.contains("Only the listed horizons were forecast"));
+    assert!(!html.contains("Only the listed horizons were forecast"));
+    assert!(
+        md.contains("| 2 | 2025-02 |"),
+        "the outlook table has horizon 2"
+    );
     let _ = std::fs::remove_dir_all(dir);
 }
 

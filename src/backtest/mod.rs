@@ -100,6 +100,8 @@ struct OriginLoop<'a> {
     horizons: &'a [usize],
     /// Some(window of the outlook estimation) when this cell gives the outlook.
     outlook: Option<Option<usize>>,
+    /// The outlook's horizons, 1..max(horizons).
+    outlook_horizons: Vec<usize>,
     n: usize,
 }
 
@@ -164,12 +166,12 @@ impl OriginLoop<'_> {
                 current.as_mut()
             }
         };
+        let horizons = &self.outlook_horizons;
         match fit {
             Some(fit) => {
-                let rows = self
-                    .horizons
+                let rows = horizons
                     .iter()
-                    .zip(model.forecast(fit, self.n, self.horizons))
+                    .zip(model.forecast(fit, self.n, horizons))
                     .map(|(&h, step)| OutlookRow {
                         horizon: h,
                         forecast: step.as_ref().ok().map(|s| s.forecast),
@@ -179,8 +181,7 @@ impl OriginLoop<'_> {
                 record_left_out(left_out, model.left_out(fit), self.n);
                 rows
             }
-            None => self
-                .horizons
+            None => horizons
                 .iter()
                 .map(|&h| OutlookRow {
                     horizon: h,
@@ -326,6 +327,7 @@ pub(crate) fn run_cell_in<R: Registry>(
         schedule,
         horizons: &exp.horizons,
         outlook: with_outlook.then(|| plan::outlook_window(exp)),
+        outlook_horizons: plan::outlook_horizons(exp),
         n: target.n,
     };
     registry
@@ -404,7 +406,11 @@ pub(crate) fn check_output(
         return Err("more forecasts than the plan has".into());
     }
     let outlook: Vec<usize> = out.outlook.iter().map(|r| r.horizon).collect();
-    let expected: &[usize] = if cell.scheme == 0 { &exp.horizons } else { &[] };
+    let expected = if cell.scheme == 0 {
+        plan::outlook_horizons(exp)
+    } else {
+        Vec::new()
+    };
     if outlook != expected {
         return Err(format!(
             "outlook rows for horizons {outlook:?} where the plan has {expected:?}"
@@ -507,7 +513,8 @@ pub(crate) fn combine(
                 .iter()
                 .map(|&j| outputs[j].outlook.as_slice())
                 .collect();
-            combination::outlook(*weights, &looks, &rows, y, &exp.horizons)
+            let horizons = plan::outlook_horizons(exp);
+            combination::outlook(*weights, &looks, &rows, y, (&horizons, &exp.horizons))
         } else {
             Vec::new()
         };

@@ -105,14 +105,17 @@ pub fn backtest(
     Ok(out)
 }
 
-/// Combined outlook from the members' outlook rows; inverse-MSE weights use
-/// every backtest forecast of the first scheme (all outturns are known at N).
+/// Combined outlook from the members' outlook rows at each of `horizons`
+/// (1..max of the `listed` ones); inverse-MSE weights use every backtest
+/// forecast of the first scheme (all outturns are known at N) at the
+/// horizon itself, or at an unlisted horizon, which has no scored errors,
+/// at the nearest listed horizon above it.
 pub fn outlook(
     kind: CombinationWeights,
     members: &[&[OutlookRow]],
     backtests: &[&[ForecastRow]],
     y: &[f64],
-    horizons: &[usize],
+    (horizons, listed): (&[usize], &[usize]),
 ) -> Vec<OutlookRow> {
     horizons
         .iter()
@@ -121,19 +124,27 @@ pub fn outlook(
                 .iter()
                 .map(|m| m.iter().find(|r| r.horizon == h).and_then(|r| r.forecast))
                 .collect();
+            let scored = listed
+                .iter()
+                .copied()
+                .filter(|&l| l >= h)
+                .min()
+                .unwrap_or(h);
             let weights = (kind == CombinationWeights::InverseMse).then(|| {
                 let track = Track {
                     errors: backtests
                         .iter()
                         .map(|rows| {
                             rows.iter()
-                                .filter(|f| f.horizon == h)
-                                .map(|f| (f.origin, (y[f.origin + h - 1] - f.forecast).powi(2)))
+                                .filter(|f| f.horizon == scored)
+                                .map(|f| {
+                                    (f.origin, (y[f.origin + scored - 1] - f.forecast).powi(2))
+                                })
                                 .collect()
                         })
                         .collect(),
                 };
-                track.weights_at(usize::MAX / 2, h)
+                track.weights_at(usize::MAX / 2, scored)
             });
             OutlookRow {
                 horizon: h,
@@ -187,6 +198,42 @@ mod tests {
         assert!((out[1].forecast - (2.0 * 1.0 + 3.0 * 0.25) / 1.25).abs() < 1e-15);
         // origin 3: mse a = (1 + 0)/2, b = (4 + 1)/2 → weights 2, 0.4
         assert!((out[2].forecast - (3.0 * 2.0 + 5.0 * 0.4) / 2.4).abs() < 1e-15);
+    }
+
+    #[test]
+    fn an_unlisted_outlook_horizon_takes_the_next_listed_horizons_weights() {
+        // Horizons [1, 3] listed; the outlook has 1, 2, 3. Hand-computed:
+        // at h = 3 member a's backtest error is 1 (mse 1), b's is 2 (mse 4),
+        // so weights 1 and 1/4; h = 2 has no backtest rows and uses them too.
+        let y = [0.0, 0.0, 0.0, 0.0, 0.0];
+        let at3 = |origin, forecast| ForecastRow {
+            horizon: 3,
+            ..row(origin, forecast)
+        };
+        let (ba, bb) = ([at3(1, -1.0)], [at3(1, 2.0)]);
+        let look = |f: [f64; 3]| -> Vec<OutlookRow> {
+            (1..=3)
+                .map(|h| OutlookRow {
+                    horizon: h,
+                    forecast: Some(f[h - 1]),
+                    variance: None,
+                })
+                .collect()
+        };
+        let (la, lb) = (look([10.0, 20.0, 30.0]), look([20.0, 40.0, 60.0]));
+        let out = outlook(
+            CombinationWeights::InverseMse,
+            &[&la, &lb],
+            &[&ba, &bb],
+            &y,
+            (&[1, 2, 3], &[1, 3]),
+        );
+        let w = |a: f64, b: f64| (a + 0.25 * b) / 1.25;
+        assert_eq!(out.iter().map(|r| r.horizon).collect::<Vec<_>>(), [1, 2, 3]);
+        // h = 1 has no backtest rows in this example: equal weights.
+        assert_eq!(out[0].forecast, Some(15.0));
+        assert!((out[1].forecast.unwrap() - w(20.0, 40.0)).abs() < 1e-12);
+        assert!((out[2].forecast.unwrap() - w(30.0, 60.0)).abs() < 1e-12);
     }
 
     #[test]

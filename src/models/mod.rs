@@ -15,6 +15,7 @@
 pub(crate) mod arima;
 pub(crate) mod benchmarks;
 pub(crate) mod combination;
+pub(crate) mod level;
 pub(crate) mod likelihood;
 pub(crate) mod linear;
 pub(crate) mod smoothing;

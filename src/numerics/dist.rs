@@ -11,6 +11,12 @@
 use statrs::distribution::{ChiSquared, Continuous, ContinuousCDF, Normal};
 use statrs::function::gamma::{checked_gamma_lr, checked_gamma_ur};
 
+/// The central level-c interval of N(mean, sd²): mean ± z_{(1+c)/2}·sd.
+pub(crate) fn normal_interval(mean: f64, sd: f64, level: f64) -> (f64, f64) {
+    let z = normal_quantile((1.0 + level) / 2.0);
+    (mean - z * sd, mean + z * sd)
+}
+
 /// Standard normal quantile Φ⁻¹(p) (statrs' `Normal::inverse_cdf`).
 pub(crate) fn normal_quantile(p: f64) -> f64 {
     Normal::standard().inverse_cdf(p)

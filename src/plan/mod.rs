@@ -157,6 +157,12 @@ pub(crate) fn check_size(exp: &Experiment) -> crate::error::Result<()> {
     ))
 }
 
+/// The outlook's horizons: every horizon 1..max(horizons), not only the
+/// listed ones (the path between them is forecast too).
+pub(crate) fn outlook_horizons(exp: &Experiment) -> Vec<usize> {
+    (1..=exp.horizons.iter().copied().max().unwrap_or(1)).collect()
+}
+
 /// The window of the outlook estimation (E = N): the last `window` rows when
 /// every scheme is rolling (the first scheme's window), else everything.
 pub(crate) fn outlook_window(exp: &Experiment) -> Option<usize> {

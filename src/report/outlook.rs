@@ -1,20 +1,24 @@
 //! The outlook of one target: the forecasts beyond the data of the three
 //! leaders of the setting the verdict leads with (its first row: the first
 //! scheme at the shortest horizon) and of the benchmark, with their
-//! intervals; charted after the last observed periods, one mark per listed
-//! horizon (a line joins consecutive horizons only: no path is drawn
-//! between horizons that were not forecast).
+//! intervals; charted after the recent history as each candidate's path
+//! over every horizon 1..max with its intervals as a fan (outlook.csv holds
+//! every horizon, so the path has no gaps; a horizon an edited folder left
+//! out lifts the pen rather than being bridged).
 
 use super::chart_value;
-use super::charts::{self, Chart, Line, Span, Whisker, XAxis, BENCHMARK, LEADERS, OUTTURN};
+use super::charts::{self, Band, Chart, Line, Span, XAxis, BENCHMARK, LEADERS, OUTTURN};
 use super::format::{horizon_text, interval_text, show, units};
 use super::view::Index;
 use crate::results::outlook::Row as OutlookRow;
 use crate::results::series::Series;
 use serde_json::{json, Value};
 
-/// Observed periods drawn before the outlook.
-const OUTLOOK_HISTORY: usize = 36;
+/// Observed periods drawn before the outlook: three times the furthest
+/// horizon, at least this many ...
+const MIN_HISTORY: usize = 12;
+/// ... and at most this many.
+const MAX_HISTORY: usize = 120;
 /// The outlook chart gives every period up to the last horizon a slot on
 /// its axis; beyond this horizon (which only an edited folder reaches) it
 /// is not drawn.
@@ -95,7 +99,7 @@ fn outlook_chart(ix: &Index, o: &Outlook, s: &Series, table: &[Value], origin_no
     let g = &ix.f.grid;
     let n = s.periods.len();
     let max_h = o.max_h;
-    let start = n.saturating_sub(max_h.saturating_mul(4).clamp(12, OUTLOOK_HISTORY));
+    let start = n.saturating_sub(max_h.saturating_mul(3).clamp(MIN_HISTORY, MAX_HISTORY));
     let mut labels: Vec<String> = s.periods[start..].to_vec();
     labels.extend(std::iter::repeat_n(String::new(), max_h));
     for r in o.rows {
@@ -139,15 +143,15 @@ fn outlook_chart(ix: &Index, o: &Outlook, s: &Series, table: &[Value], origin_no
     let widest = o.levels.len().saturating_sub(1);
     let interval_words = match o.levels.len() {
         0 => String::new(),
-        1 => format!(" Bars show the {}% interval.", o.levels[0]),
+        1 => format!(" The shaded fan around each path is its {}% interval.", o.levels[0]),
         _ => format!(
-            " Thick bars show the {}% interval, thin bars the {}% interval.",
+            " The darker fan around each path is its {}% interval, the lighter one its {}% interval.",
             o.levels[0], o.levels[widest]
         ),
     };
     chart_value(
         charts::svg(&ch),
-        format!("The last {} observed periods and the forecasts made at {origin_note}, estimated on all the data.{interval_words} Marks at the same horizon are set slightly apart so the bars do not overlap.{}", n - start, if gapped { " Only the listed horizons were forecast: a line joins consecutive horizons, never two further apart." } else { "" }),
+        format!("The last {} observed periods and the forecasts made at {origin_note} for every horizon up to {max_h}, estimated on all the data.{interval_words}{}", n - start, if gapped { " Some horizons have no row in outlook.csv: the path is broken there, not bridged." } else { "" }),
         columns,
         table_rows,
     )
@@ -182,13 +186,13 @@ fn number_table(table: &[Value], levels: &[String]) -> (Vec<String>, Vec<Vec<Str
     (columns, rows)
 }
 
-/// Each drawn candidate's path from the last observation `(x, y)` with
-/// its interval bars (thin: the widest level; thick: the narrowest), set
-/// slightly apart at each horizon.
+/// Each drawn candidate's path from the last observation `(x, y)`, and its
+/// intervals as a fan from that observation (zero width there): the
+/// narrowest level darker, the widest lighter, both under the paths. A
+/// horizon without a row lifts the pen and breaks the fan.
 fn paths(ix: &Index, ch: &mut Chart, o: &Outlook, (last_x, last_y): (f64, f64)) {
     let g = &ix.f.grid;
     let bench = g.benchmark;
-    let k = o.leaders.len() as f64;
     let widest = o.levels.len().saturating_sub(1);
     for (j, &c) in o.leaders.iter().enumerate() {
         let look = if c == bench {
@@ -196,45 +200,51 @@ fn paths(ix: &Index, ch: &mut Chart, o: &Outlook, (last_x, last_y): (f64, f64)) 
         } else {
             LEADERS[j.min(2)]
         };
-        let dodge = (j as f64 - (k - 1.0) / 2.0) * 0.16;
-        // From the last observation (horizon 0) the line joins consecutive
-        // horizons only; a gap in the horizons lifts the pen.
-        let mut pts = vec![(last_x, last_y)];
-        let mut previous = 0;
+        let mut by_h: Vec<Option<&OutlookRow>> = vec![None; o.max_h + 1];
         for r in o.rows.iter().filter(|r| r.candidate == c) {
-            let x = last_x + r.horizon as f64 + dodge;
-            if r.horizon != previous + 1 {
-                pts.push((x, f64::NAN));
-            }
-            previous = r.horizon;
-            pts.push((x, r.forecast.unwrap_or(f64::NAN)));
-            let narrowest = if widest > 0 {
-                r.intervals.first()
-            } else {
-                None
+            by_h[r.horizon] = Some(r);
+        }
+        let mut pts = vec![(last_x, last_y)];
+        pts.extend((1..=o.max_h).map(|h| {
+            let y = by_h[h].and_then(|r| r.forecast);
+            (last_x + h as f64, y.unwrap_or(f64::NAN))
+        }));
+        let name = if c == bench {
+            format!("{} (benchmark)", g.candidates[c])
+        } else {
+            g.candidates[c].clone()
+        };
+        let mut fans: Vec<(usize, f64)> = vec![(widest, 0.12)];
+        if widest > 0 {
+            fans.push((0, 0.22));
+        }
+        for (level, opacity) in fans {
+            let Some(label) = o.levels.get(level) else {
+                continue;
             };
-            for (interval, width) in [(r.intervals.get(widest), 1.2), (narrowest, 3.2)] {
-                if let Some((_, Some(lo), Some(hi))) = interval {
-                    ch.whiskers.push(Whisker {
-                        x,
-                        lo: *lo,
-                        hi: *hi,
-                        colour: look.colour,
-                        width,
-                    });
-                }
-            }
+            let mut points = vec![(last_x, last_y, last_y)];
+            points.extend((1..=o.max_h).map(|h| {
+                let band = by_h[h].and_then(|r| r.intervals.get(level));
+                let (lo, hi) = match band {
+                    Some((_, Some(lo), Some(hi))) => (*lo, *hi),
+                    _ => (f64::NAN, f64::NAN),
+                };
+                (last_x + h as f64, lo, hi)
+            }));
+            ch.bands.push(Band {
+                points,
+                colour: look.colour,
+                opacity,
+                label: format!("{name}: {label}% interval"),
+            });
         }
         ch.lines.push(Line {
-            name: if c == bench {
-                format!("{} (benchmark)", g.candidates[c])
-            } else {
-                g.candidates[c].clone()
-            },
+            name,
             look,
             points: pts,
             legend: true,
-            marker_every: 1,
+            // A mark per horizon, or about a dozen along a long path.
+            marker_every: o.max_h.div_ceil(12),
         });
     }
 }

@@ -1,5 +1,5 @@
 //! outlook.csv: forecasts beyond the data (SPEC §5), one row per target ×
-//! candidate × horizon, made at the last observed period N with every
+//! candidate × horizon 1..max(horizons), listed or not, made at the last observed period N with every
 //! model estimated on all the data (E = N; the last `window` rows when every
 //! scheme is rolling), with their intervals.
 
@@ -130,7 +130,7 @@ pub fn read(bytes: &[u8], grid: &Lookup) -> Result<Vec<Row>, ReadError> {
         rows.push(Row {
             target: row.id(target, &grid.targets)?,
             candidate: row.id(candidate, &grid.candidates)?,
-            horizon: row.horizon(horizon, grid.horizons)?,
+            horizon: row.outlook_horizon(horizon, grid.horizons)?,
             period: row.text(period).to_string(),
             forecast: row.number(forecast)?,
             intervals,

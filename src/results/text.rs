@@ -385,6 +385,20 @@ impl<'a> Row<'a> {
     }
 
     /// A horizon of the experiment.
+    /// A horizon of the outlook: 1..max(horizons), listed or not.
+    pub fn outlook_horizon(&self, col: usize, horizons: &[usize]) -> Result<usize, ReadError> {
+        let h = self.count(col)?;
+        let max = horizons.iter().copied().max().unwrap_or(0);
+        if (1..=max).contains(&h) {
+            Ok(h)
+        } else {
+            Err(self.invalid(format!(
+                "{} {h} is not a horizon of this experiment's outlook (1 to {max})",
+                self.name(col)
+            )))
+        }
+    }
+
     pub fn horizon(&self, col: usize, horizons: &[usize]) -> Result<usize, ReadError> {
         let h = self.count(col)?;
         if horizons.contains(&h) {

@@ -90,7 +90,7 @@ mod estimate;
 mod forecast;
 mod kalman;
 mod parameters;
-mod poly;
+pub(crate) mod poly;
 mod regression;
 mod reparam;
 #[cfg(test)]

@@ -44,7 +44,7 @@ fn product(a: &[f64], b: &[f64]) -> Vec<f64> {
 /// `count` of them: the level's h-step forecast error is
 /// Σ_{k=0}^{h−1} ψ*_k e_w(h − k), e_w the differenced series' errors.
 /// ψ*_0 = 1, ψ*_j = −Σ_{i=1}^{min(j, deg δ)} δ_i ψ*_{j−i}.
-pub(super) fn integration_weights(d: usize, m: usize, seasonal_d: usize, count: usize) -> Vec<f64> {
+pub(crate) fn integration_weights(d: usize, m: usize, seasonal_d: usize, count: usize) -> Vec<f64> {
     let mut delta = vec![1.0];
     for _ in 0..d {
         delta = product(&delta, &[1.0, -1.0]);

@@ -73,12 +73,19 @@ pub(crate) struct Linear<'a> {
     subs: Vec<Submodel>,
     criterion: Option<Criterion>,
     iterated: bool,
-    /// The experiment's horizons; direct models hold one set of rows per horizon.
+    /// The experiment's horizons (the backtest forecasts these).
     horizons: &'a [usize],
-    rows: Vec<Rows>,
-    /// The one-step regression's rows of a direct model whose horizons do
-    /// not include 1: its residuals are the ones Ljung–Box reads.
-    one_step: Option<Rows>,
+    /// The horizons a direct model has a regression for: 1..max(horizons),
+    /// because the outlook forecasts every horizon up to the furthest
+    /// listed one; an iterated model's single regression is horizon 1.
+    all: Vec<usize>,
+    /// Each regression's rows (of `all`), built when first used: a horizon
+    /// that is not listed is only estimated for the outlook.
+    rows: Vec<std::cell::OnceCell<Rows>>,
+    /// Whether a direct model's horizons leave 1 out: its residuals (the
+    /// ones Ljung–Box reads) then come from an h = 1 regression estimated
+    /// for them alone.
+    one_step_unlisted: bool,
     /// The design's column names, then `sigma2`, for parameters.csv.
     names: Vec<std::sync::Arc<str>>,
 }
@@ -96,12 +103,13 @@ impl<'a> Linear<'a> {
             Design::new(cell.exp, cell.family, cell.target).ok_or("not a least-squares family")?;
         let (subs, criterion) = submodels(cell.family, &design);
         let horizons = cell.exp.horizons.as_slice();
-        let rows = if iterated {
-            vec![Rows::build(&design, 1)]
+        let all: Vec<usize> = if iterated {
+            vec![1]
         } else {
-            horizons.iter().map(|&h| Rows::build(&design, h)).collect()
+            (1..=horizons.iter().copied().max().unwrap_or(1)).collect()
         };
-        let one_step = (!iterated && !horizons.contains(&1)).then(|| Rows::build(&design, 1));
+        let rows = all.iter().map(|_| std::cell::OnceCell::new()).collect();
+        let one_step_unlisted = !iterated && !horizons.contains(&1);
         let mut names: Vec<std::sync::Arc<str>> =
             design.column_names().into_iter().map(Into::into).collect();
         names.push("sigma2".into());
@@ -112,14 +120,20 @@ impl<'a> Linear<'a> {
             criterion,
             iterated,
             horizons,
+            all,
             rows,
-            one_step,
+            one_step_unlisted,
         })
+    }
+
+    /// The rows of regression `i` (of `all`).
+    fn rows(&self, i: usize) -> &Rows {
+        self.rows[i].get_or_init(|| Rows::build(&self.design, self.all[i]))
     }
 
     fn inputs(&self, i: usize) -> Inputs<'_> {
         Inputs {
-            rows: &self.rows[i],
+            rows: self.rows(i),
             y: self.design.y,
             subs: &self.subs,
             criterion: self.criterion,
@@ -150,7 +164,7 @@ impl Model for Linear<'_> {
         let estimators = if self.iterated {
             vec![Estimator::new(k, 1, window, &self.subs)]
         } else {
-            self.horizons
+            self.all
                 .iter()
                 .map(|&h| Estimator::new(k, h, window, &self.subs))
                 .collect()
@@ -200,11 +214,10 @@ impl Model for Linear<'_> {
         horizons
             .iter()
             .map(|&h| {
-                let i = self
-                    .horizons
-                    .iter()
-                    .position(|&x| x == h)
-                    .ok_or_else(|| problem(h, "not a horizon of the experiment"))?;
+                let i =
+                    self.all.iter().position(|&x| x == h).ok_or_else(|| {
+                        problem(h, "beyond the furthest horizon of the experiment")
+                    })?;
                 let inputs = self.inputs(i);
                 let chosen = fit.estimators[i]
                     .at(&inputs, end)
@@ -235,7 +248,7 @@ impl Model for Linear<'_> {
             let Some((chosen, diag)) = est.solved_at(fit.end) else {
                 continue;
             };
-            let horizon = (!self.iterated).then(|| self.horizons[i]);
+            let horizon = (!self.iterated).then(|| self.all[i]);
             let s2 = chosen.solution.sigma2();
             let columns = &self.subs[chosen.index].columns;
             let rows = chosen
@@ -268,24 +281,14 @@ impl Model for Linear<'_> {
             };
             est.residuals(inputs, end, &c)
         };
-        if let Some(rows) = &self.one_step {
-            let inputs = Inputs {
-                rows,
-                y: self.design.y,
-                subs: &self.subs,
-                criterion: self.criterion,
-            };
+        // Horizon 1 is the first regression of `all` either way.
+        let inputs = self.inputs(0);
+        if self.one_step_unlisted {
             let window = fit.estimators.first().and_then(|e| e.window);
             let mut est = Estimator::new(self.design.coefficients(), 1, window, &self.subs);
             return one_step(&mut est, &inputs);
         }
-        let i = if self.iterated {
-            0
-        } else {
-            self.horizons.iter().position(|&h| h == 1).unwrap_or(0)
-        };
-        let inputs = self.inputs(i);
-        one_step(&mut fit.estimators[i], &inputs)
+        one_step(&mut fit.estimators[0], &inputs)
     }
 }
 

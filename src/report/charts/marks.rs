@@ -1,5 +1,6 @@
-//! The marks: shaded spans under everything, the lines (clipped at the
-//! frame, with markers every so many points), interval whiskers, and dots
+//! The marks: shaded spans under everything, bands under the lines, the
+//! lines (clipped at the frame, with markers every so many points),
+//! interval whiskers, and dots
 //! with labels placed where they do not overlap an earlier one.
 
 use super::layout::{Layout, RIGHT};
@@ -151,6 +152,43 @@ pub fn lines(out: &mut String, chart: &Chart, plot: &Plot) {
                     marker_svg(out, l.look.marker, px, py, l.look.colour, false, 3.0);
                 }
             }
+        }
+    }
+    out.push_str("</g>");
+}
+
+/// Bands as filled polygons (upper edge forward, lower edge back), one
+/// per run of finite edges, clipped at the frame.
+pub fn bands(out: &mut String, chart: &Chart, plot: &Plot) {
+    if chart.bands.is_empty() {
+        return;
+    }
+    let (sx, sy) = (&plot.sx, &plot.sy);
+    let _ = write!(out, r#"<g clip-path="url(#{}-clip)">"#, esc(&chart.id));
+    for b in &chart.bands {
+        let broken = |p: &(f64, f64, f64)| !(p.1.is_finite() && p.2.is_finite());
+        for run in b.points.split(broken).filter(|r| r.len() > 1) {
+            let mut d = String::new();
+            for (i, &(x, _, hi)) in run.iter().enumerate() {
+                let _ = write!(
+                    d,
+                    "{}{} {} ",
+                    if i == 0 { "M" } else { "L" },
+                    c(sx.at(x)),
+                    c(sy.at(hi))
+                );
+            }
+            for &(x, lo, _) in run.iter().rev() {
+                let _ = write!(d, "L{} {} ", c(sx.at(x)), c(sy.at(lo)));
+            }
+            let _ = write!(
+                out,
+                r#"<path d="{}Z" fill="{}" fill-opacity="{}" stroke="none"><title>{}</title></path>"#,
+                d,
+                b.colour,
+                b.opacity,
+                esc(&b.label)
+            );
         }
     }
     out.push_str("</g>");

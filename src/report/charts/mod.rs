@@ -150,6 +150,17 @@ pub struct Whisker {
 }
 
 /// A shaded vertical span of the plot area.
+/// A shaded band between a lower and an upper edge, drawn under the lines:
+/// (x, lower, upper) in x order; a non-finite edge breaks the band.
+pub struct Band {
+    pub points: Vec<(f64, f64, f64)>,
+    pub colour: &'static str,
+    /// Fill opacity, 0..1 (bands of several series overlap).
+    pub opacity: f64,
+    /// Hover text.
+    pub label: String,
+}
+
 pub struct Span {
     pub x0: f64,
     pub x1: f64,
@@ -194,6 +205,7 @@ pub struct Chart {
     pub lines: Vec<Line>,
     pub dots: Vec<Dot>,
     pub whiskers: Vec<Whisker>,
+    pub bands: Vec<Band>,
     pub spans: Vec<Span>,
     pub rules: Vec<Rule>,
     pub lanes: Vec<Lane>,
@@ -222,6 +234,7 @@ impl Chart {
             lines: Vec::new(),
             dots: Vec::new(),
             whiskers: Vec::new(),
+            bands: Vec::new(),
             spans: Vec::new(),
             rules: Vec::new(),
             lanes: Vec::new(),
@@ -290,6 +303,7 @@ pub fn svg(chart: &Chart) -> String {
     axes::x_ticks(&mut out, chart, &layout, &plot);
     axes::frame(&mut out, chart, &layout, &plot);
     axes::rules(&mut out, chart, &layout, &plot);
+    marks::bands(&mut out, chart, &plot);
     marks::lines(&mut out, chart, &plot);
     marks::whiskers(&mut out, chart, &plot);
     marks::dots(&mut out, chart, &layout, &plot);
@@ -346,5 +360,33 @@ mod tests {
         assert!(s.contains("a &lt;b&gt; &amp; c"));
         assert!(!s.contains("<script"));
         assert!(!s.contains("NaN"));
+    }
+
+    #[test]
+    fn a_band_is_a_closed_polygon_broken_where_an_edge_is_missing() {
+        let mut ch = Chart::new("b", "band", XAxis::Numeric { integer: true });
+        let nan = f64::NAN;
+        ch.bands.push(Band {
+            points: vec![
+                (0.0, 1.0, 1.0),
+                (1.0, 0.0, 2.0),
+                (2.0, nan, nan),
+                (3.0, -1.0, 4.0),
+                (4.0, -2.0, 5.0),
+            ],
+            colour: "#123456",
+            opacity: 0.2,
+            label: "fan".into(),
+        });
+        let s = svg(&ch);
+        // Two runs of finite edges: two polygons, each closed.
+        assert_eq!(
+            s.matches(r##"fill="#123456" fill-opacity="0.2""##).count(),
+            2
+        );
+        assert_eq!(s.matches("Z\" fill=").count(), 2, "{s}");
+        assert!(!s.contains("NaN"));
+        // The band's edges widen the y axis: 5 is inside it.
+        assert!(s.contains(">5<") || s.contains(">6<"), "{s}");
     }
 }

@@ -154,6 +154,15 @@ fn ranges(chart: &Chart) -> (Range, Range) {
         extend(&mut yr, w.lo);
         extend(&mut yr, w.hi);
     }
+    for b in &chart.bands {
+        for &(x, lo, hi) in &b.points {
+            if lo.is_finite() && hi.is_finite() {
+                extend(&mut xr, x);
+                extend(&mut yr, lo);
+                extend(&mut yr, hi);
+            }
+        }
+    }
     for r in &chart.rules {
         extend(&mut yr, r.y);
     }
