@@ -375,7 +375,12 @@ fn past_errors_give_every_candidate_empirical_quantiles() {
             .all(|r| !r["q10"].is_empty() && !r["q97.5"].is_empty()));
     }
     let outlook = table(&out.join("outlook.csv"));
-    assert!(outlook.iter().all(|r| !r["q50"].is_empty()), "{outlook:?}");
+    // Listed horizons have past errors; the outlook's unlisted ones (2, 3)
+    // were never backtested and have none.
+    for r in &outlook {
+        let listed = r["horizon"] == "1" || r["horizon"] == "4";
+        assert_eq!(!r["q50"].is_empty(), listed, "{r:?}");
+    }
     let tests = table(&out.join("tests.csv"));
     assert!(tests
         .iter()

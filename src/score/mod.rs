@@ -20,7 +20,7 @@ mod refdata;
 mod reference_metrics_tests;
 
 use crate::backtest::CellOutput;
-use crate::numerics::dist::{normal_cdf, normal_pdf};
+use crate::numerics::dist::{normal_cdf, normal_pdf, normal_quantile};
 use crate::plan::Cell;
 use crate::spec::{
     Experiment, Family, IntervalsFrom, Metric, MetricColumn, MultiStep, QuantileColumn, Scheme,
