@@ -52,6 +52,24 @@ fn num(row: &BTreeMap<String, String>, key: &str) -> f64 {
     row[key].parse().unwrap_or(f64::NAN)
 }
 
+/// `outturn run YAML --out OUT --quiet EXTRA…`, which must succeed.
+fn run_ok(yaml: &Path, out: &Path, extra: &[&str]) {
+    let mut args = vec![
+        "run",
+        yaml.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--quiet",
+    ];
+    args.extend_from_slice(extra);
+    let run = outturn(&args);
+    assert!(
+        run.status.success(),
+        "{}",
+        String::from_utf8_lossy(&run.stderr)
+    );
+}
+
 fn close(a: f64, b: f64) -> bool {
     (a - b).abs() <= 1e-12 * b.abs().max(1.0)
 }
@@ -60,18 +78,7 @@ fn close(a: f64, b: f64) -> bool {
 fn summary_matches_the_scores_it_sums_up() {
     let out = scratch("macro");
     let yaml = here("tests/summary/macro_panel.yaml");
-    let run = outturn(&[
-        "run",
-        yaml.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-        "--quiet",
-    ]);
-    assert!(
-        run.status.success(),
-        "{}",
-        String::from_utf8_lossy(&run.stderr)
-    );
+    run_ok(&yaml, &out, &[]);
     let scores = table(&out.join("scores.csv"));
     let summary = table(&out.join("summary.csv"));
     let candidates = ["naive", "mean", "drift", "ar(1)", "ar(2)"];
@@ -206,18 +213,7 @@ fn summary_matches_the_scores_it_sums_up() {
 fn one_target_has_no_summary() {
     let out = scratch("one");
     let yaml = here("tests/reference/data/theta_beer.yaml");
-    let run = outturn(&[
-        "run",
-        yaml.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-        "--quiet",
-    ]);
-    assert!(
-        run.status.success(),
-        "{}",
-        String::from_utf8_lossy(&run.stderr)
-    );
+    run_ok(&yaml, &out, &[]);
     assert!(out.join("scores.csv").exists());
     assert!(!out.join("summary.csv").exists());
     assert!(!std::fs::read_to_string(out.join("report.md"))
@@ -250,20 +246,7 @@ fn the_targets_with_the_largest_gain_are_shown_in_detail() {
     let mut reports = Vec::new();
     for jobs in ["1", "2"] {
         let out = dir.join(format!("out{jobs}"));
-        let run = outturn(&[
-            "run",
-            yaml.to_str().unwrap(),
-            "--out",
-            out.to_str().unwrap(),
-            "--quiet",
-            "--jobs",
-            jobs,
-        ]);
-        assert!(
-            run.status.success(),
-            "{}",
-            String::from_utf8_lossy(&run.stderr)
-        );
+        run_ok(&yaml, &out, &["--jobs", jobs]);
         reports.push(std::fs::read(out.join("report.md")).unwrap());
         reports.push(std::fs::read(out.join("report.html")).unwrap());
     }

@@ -71,7 +71,7 @@ impl Folder {
     /// that target (other targets' rows may be absent), and the predictors'
     /// unit-root rows.
     pub fn target_part(&self, t: usize, draw: bool, shown: Shown) -> TargetPart {
-        target_part(&Index::new(self), t, draw, shown)
+        target_part(&Index::new(self), t, draw, shown, false)
     }
 }
 
@@ -179,7 +179,9 @@ impl PartContext {
     }
 }
 
-fn target_part(ix: &Index, t: usize, draw: bool, shown: Shown) -> TargetPart {
+/// `fin`: the choice of detailed targets is final (no chart-less copy is
+/// kept for a target that may lose its charts later).
+fn target_part(ix: &Index, t: usize, draw: bool, shown: Shown, fin: bool) -> TargetPart {
     let f = ix.f;
     let g = &f.grid;
     let target = &g.targets[t];
@@ -226,7 +228,7 @@ fn target_part(ix: &Index, t: usize, draw: bool, shown: Shown) -> TargetPart {
         minijinja::Value::from_serialize(&full)
     };
     let full = shown.detail.then(|| full_with(charts));
-    let plain = (shown.detail && charts).then(|| full_with(false));
+    let plain = (shown.detail && charts && !fin).then(|| full_with(false));
     entry["detail"] = json!(shown.detail);
     TargetPart {
         entry,
@@ -261,7 +263,7 @@ pub fn report_data(
         let chosen = selection::choose(&f.grid, &f.rows.metric_names, &f.rows.scores, quota);
         (0..g.targets.len())
             .into_par_iter()
-            .map(|t| target_part(&ix, t, draw, chosen.shown(t)))
+            .map(|t| target_part(&ix, t, draw, chosen.shown(t), true))
             .collect()
     });
     let mut targets = Vec::with_capacity(parts.len());

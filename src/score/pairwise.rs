@@ -44,18 +44,32 @@ pub fn hln_factor(n: usize, h: usize) -> f64 {
 /// `None` when the lengths differ, n < 2, h = 0, an input is not finite, or
 /// both variances are not positive.
 pub fn diebold_mariano(e_candidate: &[f64], e_versus: &[f64], h: usize) -> Option<TestResult> {
+    let d = differential(e_candidate, e_versus, h, |v, c| v * v - c * c)?;
+    let n = d.len();
+    let statistic = hln_mean_statistic(&d, h)?;
+    let p_value = student_t_two_sided(statistic.abs(), (n - 1) as f64)?;
+    Some(TestResult { statistic, p_value })
+}
+
+/// The loss differential d_t = f(e_versus,t, e_candidate,t); `None` when
+/// the lengths differ, n < 2, h = 0 or an input is not finite.
+fn differential(
+    e_candidate: &[f64],
+    e_versus: &[f64],
+    h: usize,
+    f: impl Fn(f64, f64) -> f64,
+) -> Option<Vec<f64>> {
     let n = e_candidate.len();
     if n < 2 || e_versus.len() != n || h == 0 || !all_finite(e_candidate) || !all_finite(e_versus) {
         return None;
     }
-    let d: Vec<f64> = e_versus
-        .iter()
-        .zip(e_candidate)
-        .map(|(v, c)| v * v - c * c)
-        .collect();
-    let statistic = hln_mean_statistic(&d, h)?;
-    let p_value = student_t_two_sided(statistic.abs(), (n - 1) as f64)?;
-    Some(TestResult { statistic, p_value })
+    Some(
+        e_versus
+            .iter()
+            .zip(e_candidate)
+            .map(|(v, c)| f(*v, *c))
+            .collect(),
+    )
 }
 
 /// The studentised mean of a loss differential d with the Harvey,
@@ -89,15 +103,8 @@ fn hln_mean_statistic(d: &[f64], h: usize) -> Option<f64> {
 ///
 /// `None` as for [`diebold_mariano`].
 pub fn encompassing(e_candidate: &[f64], e_versus: &[f64], h: usize) -> Option<TestResult> {
-    let n = e_candidate.len();
-    if n < 2 || e_versus.len() != n || h == 0 || !all_finite(e_candidate) || !all_finite(e_versus) {
-        return None;
-    }
-    let d: Vec<f64> = e_versus
-        .iter()
-        .zip(e_candidate)
-        .map(|(v, c)| (v - c) * v)
-        .collect();
+    let d = differential(e_candidate, e_versus, h, |v, c| (v - c) * v)?;
+    let n = d.len();
     let statistic = hln_mean_statistic(&d, h)?;
     let two_sided = student_t_two_sided(statistic.abs(), (n - 1) as f64)?;
     let p_value = if statistic >= 0.0 {
