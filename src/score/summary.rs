@@ -102,6 +102,8 @@ pub fn summarise(exp: &Experiment, entries: &[Entry]) -> Vec<SummaryRow> {
     let mut horizons: Vec<Option<usize>> = exp.horizons.iter().map(|&h| Some(h)).collect();
     horizons.push(None);
     let mut out = Vec::new();
+    // The range quantile depends on k alone: found once for every group.
+    let mut range = None;
     for s in 0..exp.schemes.len() {
         for &h in &horizons {
             // [target][candidate]
@@ -109,18 +111,19 @@ pub fn summarise(exp: &Experiment, entries: &[Entry]) -> Vec<SummaryRow> {
             for e in entries.iter().filter(|e| e.scheme == s && e.horizon == h) {
                 grid[e.target][e.candidate] = Some(*e);
             }
-            out.extend(group(exp, s, h, &grid));
+            out.extend(group(exp, (s, h), &grid, &mut range));
         }
     }
     out
 }
 
 /// The rows of one scheme and horizon from its [target][candidate] entries.
+/// `range` caches the range quantile of the critical difference.
 fn group(
     exp: &Experiment,
-    s: usize,
-    h: Option<usize>,
+    (s, h): (usize, Option<usize>),
     grid: &[Vec<Option<Entry>>],
+    range: &mut Option<f64>,
 ) -> Vec<SummaryRow> {
     let k = exp.candidates.len();
     let b = exp.benchmark;
@@ -144,7 +147,10 @@ fn group(
         }
     }
     let friedman = friedman(&rank_sum, blocks, ties);
-    let cd = (k >= 2 && blocks >= 2).then(|| critical_difference(k, blocks, ALPHA));
+    let cd = (k >= 2 && blocks >= 2).then(|| {
+        let q = *range.get_or_insert_with(|| range_quantile(k, 1.0 - ALPHA));
+        scaled_difference(q, k, blocks)
+    });
     (0..k)
         .map(|c| {
             let ratio = |f: fn(&Entry) -> Option<f64>| {
@@ -224,38 +230,74 @@ pub fn friedman(rank_sum: &[f64], n: usize, ties: f64) -> Option<(f64, Option<f6
 }
 
 /// The Nemenyi critical difference for `k` candidates over `n` blocks.
-pub fn critical_difference(k: usize, n: usize, alpha: f64) -> f64 {
-    let kf = k as f64;
-    range_quantile(k, 1.0 - alpha) / std::f64::consts::SQRT_2
-        * (kf * (kf + 1.0) / (6.0 * n as f64)).sqrt()
+#[cfg(test)]
+fn critical_difference(k: usize, n: usize, alpha: f64) -> f64 {
+    scaled_difference(range_quantile(k, 1.0 - alpha), k, n)
 }
 
-/// P(range of k standard normals ≤ q) = k ∫ φ(z) [Φ(z) − Φ(z − q)]^{k−1} dz,
-/// by Simpson's rule on [−9, 9] (the integrand is below 1e-17 beyond).
-fn range_cdf(k: usize, q: f64) -> f64 {
+/// q / √2 · √(k (k+1) / (6 n)) for the range quantile q.
+fn scaled_difference(q: f64, k: usize, n: usize) -> f64 {
+    let kf = k as f64;
+    q / std::f64::consts::SQRT_2 * (kf * (kf + 1.0) / (6.0 * n as f64)).sqrt()
+}
+
+/// Simpson's rule on [−9, 9] for the range's distribution (the integrand is
+/// below 1e-17 beyond): the nodes' density φ(z) and Φ(z), computed once
+/// for every q the bisection tries.
+struct RangeGrid {
+    pdf: Vec<f64>,
+    cdf: Vec<f64>,
+}
+
+impl RangeGrid {
     const STEPS: usize = 2000;
-    let (a, b) = (-9.0, 9.0);
-    let h = (b - a) / STEPS as f64;
-    let f = |z: f64| {
-        normal_pdf(z)
-            * (normal_cdf(z) - normal_cdf(z - q))
-                .max(0.0)
-                .powi(k as i32 - 1)
-    };
-    let mut sum = f(a) + f(b);
-    for i in 1..STEPS {
-        let w = if i % 2 == 1 { 4.0 } else { 2.0 };
-        sum += w * f(a + i as f64 * h);
+    const A: f64 = -9.0;
+    const B: f64 = 9.0;
+
+    fn step() -> f64 {
+        (Self::B - Self::A) / Self::STEPS as f64
     }
-    k as f64 * sum * h / 3.0
+
+    fn node(i: usize) -> f64 {
+        if i == Self::STEPS {
+            Self::B
+        } else {
+            Self::A + i as f64 * Self::step()
+        }
+    }
+
+    fn new() -> RangeGrid {
+        let z: Vec<f64> = (0..=Self::STEPS).map(Self::node).collect();
+        RangeGrid {
+            pdf: z.iter().map(|&z| normal_pdf(z)).collect(),
+            cdf: z.iter().map(|&z| normal_cdf(z)).collect(),
+        }
+    }
+
+    /// P(range of k standard normals ≤ q) = k ∫ φ(z) [Φ(z) − Φ(z − q)]^{k−1} dz.
+    fn range_cdf(&self, k: usize, q: f64) -> f64 {
+        let f = |i: usize| {
+            self.pdf[i]
+                * (self.cdf[i] - normal_cdf(Self::node(i) - q))
+                    .max(0.0)
+                    .powi(k as i32 - 1)
+        };
+        let mut sum = f(0) + f(Self::STEPS);
+        for i in 1..Self::STEPS {
+            let w = if i % 2 == 1 { 4.0 } else { 2.0 };
+            sum += w * f(i);
+        }
+        k as f64 * sum * Self::step() / 3.0
+    }
 }
 
 /// The p quantile of the range of k standard normals, by bisection.
 fn range_quantile(k: usize, p: f64) -> f64 {
+    let grid = RangeGrid::new();
     let (mut lo, mut hi) = (0.0, 20.0);
     for _ in 0..60 {
         let mid = 0.5 * (lo + hi);
-        if range_cdf(k, mid) < p {
+        if grid.range_cdf(k, mid) < p {
             lo = mid;
         } else {
             hi = mid;
