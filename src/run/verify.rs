@@ -23,32 +23,46 @@ pub struct Verdict {
     pub files: usize,
 }
 
-fn first_difference(name: &str, ours: &[u8], theirs: &[u8]) -> Option<String> {
-    if ours == theirs {
-        return None;
-    }
-    let a: Vec<&[u8]> = ours.split(|b| *b == b'\n').collect();
-    let b: Vec<&[u8]> = theirs.split(|b| *b == b'\n').collect();
-    for i in 0..a.len().max(b.len()) {
-        if a.get(i) != b.get(i) {
-            let show = |l: Option<&&[u8]>| {
-                l.map(|l| {
-                    String::from_utf8_lossy(l)
-                        .chars()
-                        .take(160)
-                        .collect::<String>()
-                })
-                .unwrap_or_else(|| "(missing)".into())
+/// The first line where `ours` and `theirs` differ, in words (None when
+/// they are the same bytes). Read line by line, so that a table of
+/// gigabytes is compared in the memory of its longest line.
+fn first_difference(
+    name: &str,
+    mut ours: impl std::io::BufRead,
+    mut theirs: impl std::io::BufRead,
+) -> std::io::Result<Option<String>> {
+    let (mut a, mut b) = (Vec::new(), Vec::new());
+    for line in 1.. {
+        a.clear();
+        b.clear();
+        let (na, nb) = (
+            ours.read_until(b'\n', &mut a)?,
+            theirs.read_until(b'\n', &mut b)?,
+        );
+        if a != b {
+            let show = |l: &[u8], n: usize| {
+                if n == 0 {
+                    return "(missing)".to_string();
+                }
+                let l = l.strip_suffix(b"\n").unwrap_or(l);
+                String::from_utf8_lossy(l).chars().take(160).collect()
             };
-            return Some(format!(
-                "{name} differs first at line {}:\n  recorded: {}\n  rerun:    {}",
-                i + 1,
-                show(b.get(i)),
-                show(a.get(i))
-            ));
+            return Ok(Some(format!(
+                "{name} differs first at line {line}:\n  recorded: {}\n  rerun:    {}",
+                show(&b, nb),
+                show(&a, na)
+            )));
+        }
+        if na == 0 {
+            break;
         }
     }
-    Some(format!("{name} differs"))
+    Ok(None)
+}
+
+/// [`first_difference`] of two byte strings.
+fn first_difference_of(name: &str, ours: &[u8], theirs: &[u8]) -> Option<String> {
+    first_difference(name, ours, theirs).unwrap_or_else(|e| Some(format!("{name}: {e}")))
 }
 
 fn without_run(mut v: Value) -> Value {
@@ -244,28 +258,45 @@ fn rerun(exp: &Experiment, jobs: Option<usize>, templates: &Templates) -> Result
     Ok(scratch)
 }
 
-/// The first difference between a rerun's file and the folder's, in words.
-fn difference(name: &str, ours: &[u8], theirs: &[u8]) -> Option<String> {
+/// The first difference between a rerun's file and the folder's, in words:
+/// the tables line by line as they are read; the manifest as JSON without
+/// its `run` section.
+fn difference(name: &str, ours: &Path, theirs: &Path) -> Result<Option<String>> {
+    let open = |p: &Path, whose: &str| {
+        std::fs::File::open(p)
+            .map(std::io::BufReader::new)
+            .map_err(|e| Error::io(format!("cannot read {whose} {name}"), e))
+    };
     if name != "manifest.json" {
-        return first_difference(name, ours, theirs);
+        return first_difference(
+            name,
+            open(ours, "the rerun's")?,
+            open(theirs, "the folder's")?,
+        )
+        .map_err(|e| Error::io(format!("cannot compare {name}"), e));
     }
-    let a = serde_json::from_slice::<Value>(ours).map(without_run).ok();
-    let b = serde_json::from_slice::<Value>(theirs)
+    let read = |p: &Path, whose: &str| {
+        std::fs::read(p).map_err(|e| Error::io(format!("cannot read {whose} {name}"), e))
+    };
+    let a = serde_json::from_slice::<Value>(&read(ours, "the rerun's")?)
+        .map(without_run)
+        .ok();
+    let b = serde_json::from_slice::<Value>(&read(theirs, "the folder's")?)
         .map(without_run)
         .ok();
     if a.is_some() && a == b {
-        return None;
+        return Ok(None);
     }
     let pretty = |v: Option<Value>| {
         v.map(|v| serde_json::to_vec_pretty(&v).unwrap_or_default())
             .unwrap_or_default()
     };
-    first_difference(
+    Ok(first_difference_of(
         "manifest.json (outside its run section)",
         &pretty(a),
         &pretty(b),
     )
-    .or_else(|| Some("manifest.json differs".into()))
+    .or_else(|| Some("manifest.json differs".into())))
 }
 
 /// The names of the files in a folder, sorted.
@@ -288,11 +319,10 @@ pub fn verify(dir: &Path, jobs: Option<usize>, inputs: &Inputs) -> Result<Verdic
     let present = listing(dir)?;
     let mut differences = Vec::new();
     for name in &files {
-        let ours = std::fs::read(scratch.0.join(name))
-            .map_err(|e| Error::io(format!("cannot read the rerun's {name}"), e))?;
-        match std::fs::read(dir.join(name)) {
-            Ok(theirs) => differences.extend(difference(name, &ours, &theirs)),
-            Err(_) => differences.push(format!("{name} is missing from the folder")),
+        if present.contains(name) {
+            differences.extend(difference(name, &scratch.0.join(name), &dir.join(name))?);
+        } else {
+            differences.push(format!("{name} is missing from the folder"));
         }
     }
     for name in present.iter().filter(|n| !files.contains(n)) {
@@ -304,4 +334,30 @@ pub fn verify(dir: &Path, jobs: Option<usize>, inputs: &Inputs) -> Result<Verdic
         differences,
         files: files.len(),
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::first_difference_of as diff;
+
+    #[test]
+    fn the_first_differing_line_is_named() {
+        assert_eq!(diff("t.csv", b"a\nb\nc\n", b"a\nb\nc\n"), None);
+        let said = diff("t.csv", b"a\nx\nc\n", b"a\nb\nc\n").unwrap();
+        assert!(said.starts_with("t.csv differs first at line 2:"), "{said}");
+        assert!(
+            said.contains("recorded: b\n") && said.ends_with("rerun:    x"),
+            "{said}"
+        );
+        // A rerun with a line fewer: the recorded line has no partner.
+        let said = diff("t.csv", b"a\n", b"a\nb\n").unwrap();
+        assert!(
+            said.contains("line 2") && said.ends_with("rerun:    (missing)"),
+            "{said}"
+        );
+        // Only the last newline differs.
+        assert!(diff("t.csv", b"a\nb", b"a\nb\n")
+            .unwrap()
+            .contains("line 2"));
+    }
 }
