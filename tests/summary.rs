@@ -307,7 +307,14 @@ fn the_targets_with_the_largest_gain_are_shown_in_detail() {
         }
     }
     assert_eq!(shown, want);
-    assert!(md.contains("the other 3 have their verdict above"));
+    assert!(md.contains("the other 3 count in the overall reading"));
+    // The verdict goes into each detailed target alone: one subsection each.
+    let verdict = &md[md.find("## 1. Verdict").unwrap()..md.find("## 2.").unwrap()];
+    let said: Vec<&str> = verdict
+        .lines()
+        .filter_map(|l| l.strip_prefix("### "))
+        .collect();
+    assert_eq!(said, want);
     let _ = std::fs::remove_dir_all(&dir);
 }
 

@@ -38,6 +38,9 @@ pub struct TargetPart {
 impl TargetPart {
     /// The part as the final choice shows it.
     pub fn settle(mut self, shown: Shown) -> TargetPart {
+        if !shown.detail {
+            forget_verdict(&mut self.entry, &mut self.rows);
+        }
         self.entry["detail"] = json!(shown.detail);
         self.entry["charts"] = json!(shown.charts);
         self.full = match (shown.detail, shown.charts) {
@@ -230,16 +233,32 @@ fn target_part(ix: &Index, t: usize, draw: bool, shown: Shown, fin: bool) -> Tar
     let full = shown.detail.then(|| full_with(charts));
     let plain = (shown.detail && charts && !fin).then(|| full_with(false));
     entry["detail"] = json!(shown.detail);
+    let statuses = rows
+        .iter()
+        .map(|v| v["status"].as_str().unwrap_or("").to_string())
+        .collect();
+    let mut rows = rows.iter().map(minijinja::Value::from_serialize).collect();
+    if !shown.detail {
+        forget_verdict(&mut entry, &mut rows);
+    }
     TargetPart {
         entry,
         full,
         plain,
-        statuses: rows
-            .iter()
-            .map(|v| v["status"].as_str().unwrap_or("").to_string())
-            .collect(),
-        rows: rows.iter().map(minijinja::Value::from_serialize).collect(),
+        statuses,
+        rows,
     }
+}
+
+/// A target without detail keeps its name and its verdict's readings (the
+/// overall count); the verdict itself is left to the tables, so that the
+/// report and its memory do not grow with every target beyond the
+/// detailed ones.
+fn forget_verdict(entry: &mut Value, rows: &mut Vec<minijinja::Value>) {
+    if let Some(map) = entry.as_object_mut() {
+        map.remove("verdict");
+    }
+    rows.clear();
 }
 
 /// The data the report templates read, as template values (see

@@ -116,12 +116,8 @@ impl Folder {
     }
 
     pub fn new(grid: Grid, rows: Rows, settings: Settings, record: Record) -> Folder {
-        let forecast_count = rows
-            .scores
-            .iter()
-            .filter(|r| r.horizon.is_some() && r.period_set.is_none())
-            .map(|r| r.n)
-            .sum();
+        let forecast_count =
+            crate::results::rows::forecasts_counted(&rows.scores) + rows.forecasts_let_go;
         Folder {
             grid,
             rows,

@@ -37,6 +37,19 @@ pub struct Rows {
     pub diagnostics: Vec<diagnostics::Row>,
     /// summary.csv's rows (runs with two or more targets).
     pub summary: Vec<crate::score::summary::SummaryRow>,
+    /// Backtest forecasts of the targets whose score rows were let go
+    /// ([`Rows::without_target_rows`], [`Rows::forget`]), still counted.
+    pub forecasts_let_go: usize,
+}
+
+/// The backtest forecasts the score rows count: each listed horizon's
+/// count over the whole evaluation sample.
+pub fn forecasts_counted(scores: &[scores::Row]) -> usize {
+    scores
+        .iter()
+        .filter(|r| r.horizon.is_some() && r.period_set.is_none())
+        .map(|r| r.n)
+        .sum()
 }
 
 /// Where the tables come from.
@@ -177,5 +190,36 @@ impl Rows {
         }
         self.diagnostics.extend(next.diagnostics);
         self.summary.extend(next.summary);
+        self.forecasts_let_go += next.forecasts_let_go;
+    }
+
+    /// What a target shown without detail leaves for the whole report: the
+    /// tables' column facts and the diagnostics (predictors' rows come with
+    /// the first target); its own rows are dropped.
+    pub fn without_target_rows(self) -> Rows {
+        Rows {
+            forecasts_let_go: self.forecasts_let_go + forecasts_counted(&self.scores),
+            metric_names: self.metric_names,
+            forecast_quantiles: self.forecast_quantiles,
+            diagnostics: self.diagnostics,
+            ..Rows::default()
+        }
+    }
+
+    /// Drop target `t`'s rows (named `name`) from every table but the
+    /// diagnostics: for a target that lost its detail.
+    pub fn forget(&mut self, t: usize, name: &str) {
+        let (gone, kept): (Vec<_>, Vec<_>) = std::mem::take(&mut self.scores)
+            .into_iter()
+            .partition(|r| r.target == t);
+        self.forecasts_let_go += forecasts_counted(&gone);
+        self.scores = kept;
+        self.tests.retain(|r| r.target != t);
+        self.forecasts.retain(|k, _| k.0 != t);
+        self.outlook.retain(|r| r.target != t);
+        self.parameters.retain(|r| r.target != t);
+        self.stability.retain(|k, _| k.0 != t);
+        self.series
+            .retain(|x| !(x.role == "target" && x.name == name));
     }
 }

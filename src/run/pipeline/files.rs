@@ -118,8 +118,18 @@ impl Written {
                 ));
             }
             self.report_parts.push(part);
-            Ok(rows)
+            // A target without detail is in the report through its part
+            // alone: its rows are let go (memory stays that of the
+            // detailed targets, however many there are).
+            Ok(if admitted.shown.detail {
+                rows
+            } else {
+                rows.without_target_rows()
+            })
         });
+        if let (Some(l), Some(Ok(rows))) = (admitted.dropped, self.report_rows.as_mut()) {
+            rows.forget(l, &parts.grid().targets[l]);
+        }
         // A target that lost its detail or its charts to this one lets go
         // of what it no longer shows.
         for (lost, shown) in [
