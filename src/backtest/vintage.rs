@@ -258,10 +258,6 @@ fn step<R: Registry>(
         .ok_or("the target has no vintages")?;
     let before = carried.take();
     let reuse = before.as_ref().is_some_and(|c| c.same_sample(vintages, &p));
-    let (previous, sample) = match before {
-        Some(c) => (Some(c.fit), Some((c.index, c.start, c.end, c.gap))),
-        None => (None, None),
-    };
     let model = CellModel {
         exp: &p.exp,
         family: &exp.candidates[cell.candidate].family,
@@ -272,28 +268,21 @@ fn step<R: Registry>(
         at: p.at,
         horizons: &p.asked,
         want,
-        previous,
+        previous: before.map(|c| c.fit),
         reuse,
     };
     let (mut out, fit, path) = registry.visit(&model, chained)??;
-    // The sample of the estimate carried on: this origin's when estimated
-    // here, else the one it was made on.
-    let here = (
-        p.index,
-        plan::window_start(p.at.end, p.at.window),
-        p.at.end,
-        p.gap,
-    );
-    let (index, start, end, gap) = match path {
-        Path::Fresh | Path::Warm => here,
-        Path::Reused | Path::Kept => sample.unwrap_or(here),
-    };
+    // The estimate carried on is the one this origin's sample gave (made,
+    // used again on the same values, or kept when the re-estimation
+    // failed): the next origin uses it again when its sample holds the
+    // same values, as the ordinary loop keeps its estimate, kept or not,
+    // until the estimation end moves.
     *carried = fit.map(|fit| Carried {
         fit,
-        index,
-        start,
-        end,
-        gap,
+        index: p.index,
+        start: plan::window_start(p.at.end, p.at.window),
+        end: p.at.end,
+        gap: p.gap,
     });
     relabel(&mut out, origin, horizons, p.gap);
     Ok((out, path))
@@ -311,8 +300,8 @@ fn end_at(exp: &Experiment, cell: &Cell, origin: usize) -> usize {
 }
 
 /// A cell on real-time data: every origin on its vintage as the module
-/// comment says, the parameters of each new estimation end and the
-/// residuals of the last, then (first scheme) the outlook from the last
+/// comment says, the parameters of every origin's estimate (with its
+/// vintage) and the residuals of the last, then (first scheme) the outlook from the last
 /// vintage. A strict model's problem makes the experiment invalid as in
 /// the ordinary loop; a likelihood model whose first estimation or any
 /// forecast fails fails the cell, one whose warm re-estimation fails keeps
@@ -324,6 +313,7 @@ pub(crate) fn run<R: Registry>(
     strict: bool,
     progress: &dyn Progress,
 ) -> std::result::Result<CellOutput, EstimationProblem> {
+    let target = &exp.targets[cell.target];
     let schedule = schedule_of(exp, cell);
     let horizons = &exp.horizons;
     let mut out = CellOutput::default();
@@ -342,7 +332,7 @@ pub(crate) fn run<R: Registry>(
         let end = end_at(exp, cell, origin);
         let new_end = last_end != Some(end);
         let want = Want {
-            parameters: new_end,
+            parameters: true,
             residuals: origin == last,
         };
         progress.forecasts_done(asked.len());
@@ -377,12 +367,18 @@ pub(crate) fn run<R: Registry>(
         }
         if new_end {
             record_left_out(&mut out.left_out, scratch.left_out, end);
-            out.parameters.push(Estimation {
-                end,
-                parameters: scratch.parameters,
-            });
             last_end = Some(end);
         }
+        // Every origin's estimate, on its vintage (the same estimate used
+        // again is listed again, with the vintage that used it).
+        out.parameters.push(Estimation {
+            end,
+            vintage: target
+                .vintages
+                .as_ref()
+                .and_then(|v| v.at_origin[origin - 1]),
+            parameters: scratch.parameters,
+        });
         if origin == last {
             out.residuals = scratch.residuals;
         }
