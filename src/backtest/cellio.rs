@@ -10,6 +10,7 @@
 //! f <h> <origin> <forecast> <is_mse> <is_var> <variance> <order>
 //! o <h> <forecast> <variance>
 //! p <end> <h> <estimate> <std_error> <name>   (a parameter of the estimation ending at <end>)
+//! pv <vintage> <end> <h> <estimate> <std_error> <name>   (the same, of an estimation on vintage <vintage>)
 //! r <residual> <residual> …
 //! end
 //! ```
@@ -168,11 +169,15 @@ pub fn write_cell(id: &str, out: &CellOutput, buf: &mut String) {
         );
     }
     for e in &out.parameters {
+        let tag = match e.vintage {
+            Some(v) => format!("pv {v}"),
+            None => "p".to_string(),
+        };
         for p in &e.parameters {
             let h = p.horizon.map_or_else(|| "-".to_string(), |h| h.to_string());
             let _ = writeln!(
                 buf,
-                "p {} {h} {} {} {}",
+                "{tag} {} {h} {} {} {}",
                 e.end,
                 num(p.estimate),
                 opt(p.std_error),
@@ -316,9 +321,16 @@ fn read_line(out: &mut CellOutput, tag: &str, rest: &str, line: &str) -> Result<
             forecast: parse_opt(f[1])?,
             variance: parse_opt(f[2])?,
         }),
-        "p" => {
-            let parts: Vec<&str> = rest.splitn(5, ' ').collect();
+        "p" | "pv" => {
             let bad = || format!("bad parameter line '{line}'");
+            let (vintage, rest) = match tag {
+                "pv" => {
+                    let (v, rest) = rest.split_once(' ').ok_or_else(bad)?;
+                    (Some(v.parse::<usize>().map_err(|_| bad())?), rest)
+                }
+                _ => (None, rest),
+            };
+            let parts: Vec<&str> = rest.splitn(5, ' ').collect();
             let [end, h, estimate, std_error, name] = parts[..] else {
                 return Err(bad());
             };
@@ -333,9 +345,10 @@ fn read_line(out: &mut CellOutput, tag: &str, rest: &str, line: &str) -> Result<
                 std_error: parse_opt(std_error)?,
             };
             match out.parameters.last_mut() {
-                Some(e) if e.end == end => e.parameters.push(parameter),
+                Some(e) if e.end == end && e.vintage == vintage => e.parameters.push(parameter),
                 _ => out.parameters.push(Estimation {
                     end,
+                    vintage,
                     parameters: vec![parameter],
                 }),
             }
@@ -382,6 +395,7 @@ mod tests {
             parameters: vec![
                 Estimation {
                     end: 12,
+                    vintage: None,
                     parameters: vec![
                         Parameter::new("rain fall_1", 0.1 + 0.7, Some(1.0 / 3.0)),
                         Parameter {
@@ -392,7 +406,19 @@ mod tests {
                 },
                 Estimation {
                     end: 13,
+                    vintage: None,
                     parameters: vec![Parameter::new("ar1", -0.0, None)],
+                },
+                // Two estimations over the same end on two vintages.
+                Estimation {
+                    end: 13,
+                    vintage: Some(0),
+                    parameters: vec![Parameter::new("ar1", 0.25, None)],
+                },
+                Estimation {
+                    end: 13,
+                    vintage: Some(1),
+                    parameters: vec![Parameter::new("ar1", 0.5, Some(0.125))],
                 },
             ],
             seconds: 0.0,

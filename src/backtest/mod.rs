@@ -48,10 +48,13 @@ pub(crate) struct CellOutput {
     pub cached: bool,
 }
 
-/// The parameters of one estimation, ending at position `end`.
+/// The parameters of one estimation, ending at position `end`; under
+/// vintages, made at the origin that sees vintage `vintage` (its index in
+/// the target's vintages), one per origin.
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) struct Estimation {
     pub end: usize,
+    pub vintage: Option<usize>,
     pub parameters: Vec<Parameter>,
 }
 
@@ -267,6 +270,7 @@ impl models::Visitor for OriginLoop<'_> {
                 record_left_out(&mut out.left_out, model.left_out(fit), end);
                 out.parameters.push(Estimation {
                     end,
+                    vintage: None,
                     parameters: model.parameters(fit),
                 });
             }
@@ -419,12 +423,22 @@ pub(crate) fn check_output(
     if out.residuals.len() > target.n {
         return Err("more residuals than observations".into());
     }
+    let vintages = target.vintages.as_ref().map_or(0, |v| v.labels.len());
     for e in &out.parameters {
         if e.end == 0 || e.end > target.n {
             return Err(format!(
                 "parameters of an estimation ending at position {}",
                 e.end
             ));
+        }
+        match e.vintage {
+            Some(i) if i >= vintages => {
+                return Err(format!("parameters of an estimation on vintage {}", i + 1))
+            }
+            None if vintages > 0 => {
+                return Err("parameters of an estimation without its vintage".into())
+            }
+            _ => {}
         }
         if let Some(h) = e
             .parameters

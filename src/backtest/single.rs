@@ -51,42 +51,55 @@ pub(crate) struct Scratch {
 impl models::Visitor for FromScratch<'_> {
     type Out = std::result::Result<Scratch, String>;
     fn visit<M: Model>(self, model: &M) -> Self::Out {
-        let Estimate {
-            end,
-            window,
-            origin,
-        } = self.at;
-        let mut fit = model.fit(end, window)?;
-        let rows = self
-            .horizons
-            .iter()
-            .zip(model.forecast(&mut fit, origin, self.horizons))
-            .map(|(&horizon, step)| {
-                step.map(|step| ForecastRow {
-                    horizon,
-                    origin,
-                    forecast: step.forecast,
-                    is_mse: step.is_mse,
-                    is_var: step.is_var,
-                    variance: step.variance,
-                    order: step.order,
-                })
-                .map_err(|p| p.message)
-            })
-            .collect();
-        let mut out = Scratch {
-            rows,
-            ..Scratch::default()
-        };
-        if self.want.parameters {
-            out.parameters = model.parameters(&mut fit);
-            out.left_out = model.left_out(&mut fit);
-        }
-        if self.want.residuals {
-            out.residuals = model.residuals(&mut fit, end);
-        }
-        Ok(out)
+        let mut fit = model.fit(self.at.end, self.at.window)?;
+        Ok(forecast_with(
+            model,
+            &mut fit,
+            self.at,
+            self.horizons,
+            self.want,
+        ))
     }
+}
+
+/// The forecasts of an estimate `fit` of `model` from `at.origin` at
+/// `horizons`, with the parameters and residuals `want` asks for.
+pub(crate) fn forecast_with<M: Model>(
+    model: &M,
+    fit: &mut M::Fit,
+    at: Estimate,
+    horizons: &[usize],
+    want: Want,
+) -> Scratch {
+    let origin = at.origin;
+    let rows = horizons
+        .iter()
+        .zip(model.forecast(fit, origin, horizons))
+        .map(|(&horizon, step)| {
+            step.map(|step| ForecastRow {
+                horizon,
+                origin,
+                forecast: step.forecast,
+                is_mse: step.is_mse,
+                is_var: step.is_var,
+                variance: step.variance,
+                order: step.order,
+            })
+            .map_err(|p| p.message)
+        })
+        .collect();
+    let mut out = Scratch {
+        rows,
+        ..Scratch::default()
+    };
+    if want.parameters {
+        out.parameters = model.parameters(fit);
+        out.left_out = model.left_out(fit);
+    }
+    if want.residuals {
+        out.residuals = model.residuals(fit, at.end);
+    }
+    out
 }
 
 /// The forecasts of `cell` from `origin` at `horizons` (ascending), its

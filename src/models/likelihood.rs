@@ -13,7 +13,7 @@ use crate::numerics::ic::Smallest;
 
 /// A model estimated by maximum likelihood on a sample of observations.
 pub(crate) trait Likelihood {
-    type Fit: Clone;
+    type Fit: Clone + 'static;
     /// Estimate on `y` (the estimation sample, its first value at position
     /// `start`), optionally warm-started.
     fn estimate(
@@ -74,6 +74,7 @@ pub(crate) struct SampleFit<F> {
 impl<L: Likelihood> Model for OnSeries<'_, L> {
     type Fit = SampleFit<L::Fit>;
     const STRICT: bool = false;
+    const WARM_STARTS: bool = true;
 
     fn fit(&self, end: usize, window: Option<usize>) -> Result<Self::Fit, String> {
         let start = crate::plan::window_start(end, window);

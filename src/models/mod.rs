@@ -182,8 +182,10 @@ pub(crate) struct EstimationProblem {
 /// SPEC §4). `window` is the scheme's rolling window (regression rows for
 /// least squares, observations otherwise; see `plan`), `None` for all.
 pub(crate) trait Model {
-    /// An estimate, and whatever it needs to forecast (factorisations, filter states).
-    type Fit;
+    /// An estimate, and whatever it needs to forecast (factorisations, filter
+    /// states); owned, so a run on vintages can carry it from one vintage's
+    /// model to the next (`backtest::vintage`).
+    type Fit: 'static;
     /// Whether a failed estimation makes the experiment invalid (SPEC §4:
     /// least squares and the benchmarks, found by `check`), rather than
     /// being recorded in the cell (likelihood families keep their previous
@@ -192,6 +194,12 @@ pub(crate) trait Model {
     /// Whether [`Model::update`] to E = N carries the backtest's estimate
     /// on to the outlook exactly as a fresh fit would give it (cheaper).
     const CARRIES: bool = false;
+    /// Whether [`Model::update`] re-estimates over its whole sample from the
+    /// model's own data and takes nothing from the previous estimate but
+    /// its starting point (a warm start), so that it may move an estimate
+    /// made on one vintage's data to another's. Least squares folds rows
+    /// into a factorisation instead: false.
+    const WARM_STARTS: bool = false;
 
     /// Estimate with estimation end `end`, from scratch.
     fn fit(&self, end: usize, window: Option<usize>) -> Result<Self::Fit, String>;

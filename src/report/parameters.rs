@@ -36,6 +36,21 @@ fn chart_order(name: &str) -> usize {
     usize::from(own || matches!(name, "constant" | "trend" | "drift"))
 }
 
+/// Which estimation a row belongs to: its end, or under vintages (where
+/// several estimations share an end) the vintage it was made on.
+fn estimation(r: &Row) -> &str {
+    r.vintage.as_deref().unwrap_or(&r.origin)
+}
+
+/// What tells one estimation from the next in the charts: the end it
+/// reaches, or the vintage.
+fn estimations_are(x: &Fitted) -> &'static str {
+    match x.rows.first().is_some_and(|r| r.vintage.is_some()) {
+        true => "vintage",
+        false => "estimation ending",
+    }
+}
+
 /// One leader's estimations at one horizon (None: its estimate serves all).
 struct Fitted<'a> {
     scheme: usize,
@@ -102,15 +117,19 @@ pub fn parameters_for(ix: &Index, t: usize, charts: bool) -> Value {
             // estimation's rows are consecutive.
             let mut origins: Vec<&str> = Vec::new();
             for r in &x.rows {
-                if origins.last() != Some(&r.origin.as_str()) {
-                    origins.push(&r.origin);
+                if origins.last() != Some(&estimation(r)) {
+                    origins.push(estimation(r));
                 }
             }
             let last = origins.last().copied().unwrap_or("");
-            let table: Vec<Value> = x
-                .rows
-                .iter()
-                .filter(|r| r.origin == last)
+            let last_rows: Vec<&&Row> = x.rows.iter().filter(|r| estimation(r) == last).collect();
+            // Under vintages: the end of the last estimation and its vintage.
+            let data_up_to = match last_rows.first() {
+                Some(r) if r.vintage.is_some() => format!("{}, as vintage {last} publishes them", r.origin),
+                _ => last.to_string(),
+            };
+            let table: Vec<Value> = last_rows
+                .into_iter()
                 .map(|r| {
                     json!({
                         "parameter": r.parameter,
@@ -129,7 +148,7 @@ pub fn parameters_for(ix: &Index, t: usize, charts: bool) -> Value {
                 "candidate": g.candidates[x.candidate],
                 "leads_at": x.leads_at.iter().map(|h| horizon_text(Some(*h))).collect::<Vec<_>>().join(", "),
                 "regression": x.horizon.map(|h| format!("its horizon-{h} regression")),
-                "origin": last,
+                "origin": data_up_to,
                 "rows": table,
                 "charts": drawn,
             })
@@ -165,7 +184,7 @@ fn coefficient_charts(ix: &Index, t: usize, i: usize, x: &Fitted, origins: &[&st
         .map(|(j, name)| {
             let index: std::collections::HashMap<&str, usize> =
                 origins.iter().enumerate().map(|(i, o)| (*o, i)).collect();
-            let at = |r: &&Row| index.get(r.origin.as_str()).copied();
+            let at = |r: &&Row| index.get(estimation(r)).copied();
             let mine: Vec<&&Row> = x.rows.iter().filter(|r| r.parameter == *name).collect();
             let point = |f: &dyn Fn(&Row) -> Option<f64>| -> Vec<(f64, f64)> {
                 mine.iter()
@@ -181,7 +200,7 @@ fn coefficient_charts(ix: &Index, t: usize, i: usize, x: &Fitted, origins: &[&st
                 ),
                 XAxis::Periods(origins.iter().map(|o| o.to_string()).collect()),
             );
-            ch.x_title = "estimation ending".into();
+            ch.x_title = estimations_are(x).into();
             ch.y_title = name.to_string();
             ch.plot_height = 150.0;
             ch.rules.push(Rule {
@@ -210,16 +229,20 @@ fn coefficient_charts(ix: &Index, t: usize, i: usize, x: &Fitted, origins: &[&st
             }
             let rows = mine
                 .iter()
-                .map(|r| vec![r.origin.clone(), show(r.estimate), show(r.std_error)])
+                .map(|r| vec![estimation(r).to_string(), show(r.estimate), show(r.std_error)])
                 .collect();
+            let each = match estimations_are(x) {
+                "vintage" => "vintages",
+                _ => "estimation ends",
+            };
             chart_value(
                 charts::svg(&ch),
                 format!(
-                    "{name} of {} estimated at each of {} estimation ends, with a band of two standard errors either side; where the band holds zero the coefficient is not distinguishable from zero at about 5 %.",
+                    "{name} of {} estimated at each of {} {each}, with a band of two standard errors either side; where the band holds zero the coefficient is not distinguishable from zero at about 5 %.",
                     g.candidates[x.candidate],
                     origins.len()
                 ),
-                vec!["estimation ending".into(), "estimate".into(), "standard error".into()],
+                vec![estimations_are(x).into(), "estimate".into(), "standard error".into()],
                 rows,
             )
         })

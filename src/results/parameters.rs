@@ -6,6 +6,12 @@
 //! first), each estimation in time order, each parameter in the model's
 //! order. Written row by row into one buffer (it is as long as forecasts.csv
 //! or longer).
+//!
+//! Under a vintage layout every origin estimates on its own vintage, so
+//! several estimations share an end E: each is listed, in origin order,
+//! and a last column `vintage` names the vintage it was made on (an
+//! estimate used again on an unchanged sample is listed again with the
+//! vintage that used it). Without vintages the column is not written.
 
 use super::grid::Lookup;
 use super::text::{push_field, push_num, push_usize, ReadError, Reader};
@@ -28,6 +34,10 @@ pub const COLUMNS: [&str; 8] = [
     "std_error",
 ];
 
+/// The last column under a vintage layout: the vintage an estimation was
+/// made on.
+pub const VINTAGE_COLUMN: &str = "vintage";
+
 /// The table of `outputs`, the cells' outputs in plan order; a failed
 /// cell's estimations are not written (it has no forecasts either).
 pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8> {
@@ -38,6 +48,11 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
         .sum();
     let mut out = Vec::with_capacity(64 + rows * 72);
     out.extend_from_slice(COLUMNS.join(",").as_bytes());
+    let vintages = exp.vintages.is_some();
+    if vintages {
+        out.push(b',');
+        out.extend_from_slice(VINTAGE_COLUMN.as_bytes());
+    }
     out.push(b'\n');
     let mut lead = Vec::new();
     for (cell, o) in cells.iter().zip(outputs) {
@@ -77,6 +92,13 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
                     if let Some(se) = p.std_error {
                         push_num(&mut out, se);
                     }
+                    if vintages {
+                        out.push(b',');
+                        let label = target.vintages.as_ref().zip(e.vintage);
+                        if let Some(label) = label.and_then(|(v, i)| v.labels.get(i)) {
+                            push_field(&mut out, label);
+                        }
+                    }
                     out.push(b'\n');
                 }
             }
@@ -98,6 +120,8 @@ pub struct Row {
     pub parameter: String,
     pub estimate: Option<f64>,
     pub std_error: Option<f64>,
+    /// The vintage the estimation was made on (a vintage layout only).
+    pub vintage: Option<String>,
 }
 
 /// Read the table, keeping the rows that `keep(target, candidate)` accepts.
@@ -109,6 +133,7 @@ pub fn read(
     let mut reader = Reader::new(FILE, source)?;
     let [target, candidate, scheme, horizon, origin, parameter, estimate, std_error] =
         reader.columns(COLUMNS)?;
+    let vintage = reader.optional(VINTAGE_COLUMN);
     let mut rows = Vec::new();
     while let Some(row) = reader.next_row()? {
         let t = row.id(target, &grid.targets)?;
@@ -133,6 +158,11 @@ pub fn read(
             parameter: name.to_string(),
             estimate: row.number(estimate)?,
             std_error: row.number(std_error)?,
+            vintage: match vintage.map(|v| row.text(v)) {
+                None => None,
+                Some("") => return Err(row.invalid("an estimation without its vintage")),
+                Some(v) => Some(v.to_string()),
+            },
         });
     }
     Ok(rows)
@@ -177,6 +207,19 @@ mod tests {
             .unwrap_err()
             .to_string();
         assert!(err.starts_with("parameters.csv, line 2"), "{err}");
+        assert_eq!(rows[0].vintage, None);
+        let with = text
+            .replace("std_error\n", "std_error,vintage\n")
+            .replace("0.1\n", "0.1,2020Q2\n")
+            .replace("2.25,\n", "2.25,,2020Q3\n");
+        let rows = read(with.as_bytes(), &g.lookup(), &|_, _| true).unwrap();
+        assert_eq!(rows[0].vintage.as_deref(), Some("2020Q2"));
+        assert_eq!(rows[1].vintage.as_deref(), Some("2020Q3"));
+        let without = with.replace(",2020Q3", ",");
+        let err = read(without.as_bytes(), &g.lookup(), &|_, _| true)
+            .unwrap_err()
+            .to_string();
+        assert!(err.starts_with("parameters.csv, line 3"), "{err}");
         let cut = &text.as_bytes()[..text.len() - 4];
         let err = read(cut, &g.lookup(), &|_, _| true)
             .unwrap_err()

@@ -20,9 +20,16 @@
 //! optimum) whose last bits may legitimately differ for the likelihood
 //! families — counted as a path difference for them, except where the run
 //! itself estimated from scratch (the cell's first estimation end, so every
-//! origin of a fixed scheme); for least squares and the benchmarks, and at
-//! those origins, it is a moved forecast (state carried from one estimation
-//! to the next that should not be there).
+//! origin of a fixed scheme; under vintages the cell's first origin); for
+//! least squares and the benchmarks, and at those origins, it is a moved
+//! forecast (state carried from one estimation to the next that should not
+//! be there).
+//!
+//! Nothing passes between the run and the audit's estimations, nor from
+//! one of them to another: each is made from scratch on its own copy of
+//! the data (under vintages, `backtest::on_vintage`), so an estimate
+//! warm-started or used again by a run on vintages never carries a changed
+//! value into an unchanged estimation or back.
 
 use crate::backtest::{self, CellOutput, Recomputed};
 use crate::error::{Error, Result};
@@ -486,13 +493,20 @@ impl CellAudit<'_> {
         let schedule = self.schedule();
         // Where the run's own path must give the same bits as an estimation
         // from scratch: where it estimated from scratch itself (the first
-        // estimation end), and for least squares and the benchmarks, whose
-        // rows folded in or refactored give the bits a fresh fit gives; only
-        // the likelihood families' warm starts may stop elsewhere.
-        // Under vintages the run estimates every origin from scratch.
-        let exact_path = !crate::models::is_likelihood(&exp.candidates[cell.candidate].family)
-            || target.vintages.is_some()
-            || schedule.estimation_end(origin) == schedule.estimation_end(schedule.first_origin);
+        // estimation end; under vintages the first origin, after which a
+        // likelihood model is warm-started or its estimate used again), and
+        // for least squares and the benchmarks, whose rows folded in or
+        // refactored give the bits a fresh fit gives (under vintages they
+        // estimate every origin from scratch); only the likelihood
+        // families' warm starts may stop elsewhere.
+        let from_scratch = match target.vintages {
+            Some(_) => origin == schedule.first_origin,
+            None => {
+                schedule.estimation_end(origin) == schedule.estimation_end(schedule.first_origin)
+            }
+        };
+        let exact_path =
+            !crate::models::is_likelihood(&exp.candidates[cell.candidate].family) || from_scratch;
         for (j, &h) in horizons.iter().enumerate() {
             let Some(own) = self.own(h, origin) else {
                 continue;

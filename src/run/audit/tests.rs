@@ -392,7 +392,10 @@ fn on_vintages_the_families_pass_and_a_run_that_reads_the_next_vintage_is_caught
     let (outcome, checks) = vintage_audit(&exp);
     assert!(checks >= 20, "{checks}");
     assert!(outcome.moved.is_empty(), "{:?}", outcome.moved);
-    assert_eq!(outcome.path_differences, 0, "every origin is from scratch");
+    // arima and smoothing are warm-started after a cell's first origin (or
+    // use the previous estimate again), so their last bits may differ from
+    // an estimation from scratch (path differences); least squares and the
+    // benchmarks may not (they would be moved forecasts).
     let mut leaky = exp.clone();
     let target = &mut leaky.targets[0];
     let v = std::sync::Arc::make_mut(target.vintages.as_mut().expect("vintages"));

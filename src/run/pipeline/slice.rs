@@ -306,6 +306,7 @@ fn last_estimations(all: &[backtest::Estimation]) -> Vec<backtest::Estimation> {
         }
         kept.push(backtest::Estimation {
             end: e.end,
+            vintage: e.vintage,
             parameters: e
                 .parameters
                 .iter()
