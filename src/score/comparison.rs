@@ -398,6 +398,7 @@ mod tests {
             id: id.into(),
             family,
             line: 1,
+            transform: None,
         }
     }
 

@@ -104,12 +104,16 @@ pub(in crate::spec) fn with_data(
     if period_problems {
         return None;
     }
+    let mut targets = resolved.targets;
+    for t in &mut targets {
+        t.in_levels = declared.units == super::super::Units::Original;
+    }
     Some(Experiment {
         declared,
         data_path,
         data_bytes_sha256: crate::digest::sha256_hex(&bytes),
         label_style: resolved.label_style,
-        targets: resolved.targets,
+        targets,
     })
 }
 

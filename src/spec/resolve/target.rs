@@ -149,6 +149,8 @@ pub(super) fn resolve_target(
             predictors: raw_predictors,
         },
         vintages: None,
+        in_levels: false,
+        alternates: Vec::new(),
     })
 }
 
