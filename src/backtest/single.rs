@@ -15,6 +15,7 @@ struct FromScratch<'a> {
     at: Estimate,
     horizons: &'a [usize],
     want: Want,
+    scale: super::levels::Scale<'a>,
 }
 
 /// Where an estimation from scratch ends, its window, and the origin it
@@ -60,7 +61,7 @@ impl models::Visitor for FromScratch<'_> {
         let rows = self
             .horizons
             .iter()
-            .zip(model.forecast(&mut fit, origin, self.horizons))
+            .zip(self.scale.forecast(model, &mut fit, origin, self.horizons))
             .map(|(&horizon, step)| {
                 step.map(|step| ForecastRow {
                     horizon,
@@ -128,7 +129,16 @@ pub(crate) fn estimate_once<R: Registry>(
         target,
         seed: models::cell_seed(exp.seed, &cell.id),
     };
-    registry.visit(&model, FromScratch { at, horizons, want })?
+    let scale = super::levels::Scale::of(exp, target, cell.candidate);
+    registry.visit(
+        &model,
+        FromScratch {
+            at,
+            horizons,
+            want,
+            scale,
+        },
+    )?
 }
 
 /// Times one estimation of a cell's model at its first estimation end.

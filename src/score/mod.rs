@@ -560,7 +560,7 @@ pub fn scores(exp: &Experiment, errors: &[Vec<Errors>]) -> Vec<ScoreRow> {
     for (t, target) in exp.targets.iter().enumerate() {
         for (s, scheme) in exp.schemes.iter().enumerate() {
             let scale = mase_scale(
-                &target.y,
+                target.scored(),
                 scheme,
                 target.first_origins[s],
                 exp.season_length(),
