@@ -69,6 +69,24 @@ impl<'a> Scale<'a> {
     }
 }
 
+/// The target as candidate `c`'s model sees it: under its own transform,
+/// that transform's series in place of the experiment's (the positions,
+/// predictors and first origins are common to all candidates).
+pub(crate) fn seen_by<'t>(
+    exp: &Experiment,
+    target: &'t TargetData,
+    c: usize,
+) -> std::borrow::Cow<'t, TargetData> {
+    match exp.candidates[c].transform {
+        Some(t) if t != exp.transform => {
+            let mut own = target.clone();
+            own.y = target.series(Some(t)).to_vec();
+            std::borrow::Cow::Owned(own)
+        }
+        _ => std::borrow::Cow::Borrowed(target),
+    }
+}
+
 impl Levels<'_> {
     /// Steps 1..=H in the data's units from the transformed steps 1..=H;
     /// a step whose transformed forecasts up to it are not all there fails

@@ -324,10 +324,11 @@ pub(crate) fn run_cell_in<R: Registry>(
         n: target.n,
     };
     let with_outlook = cell.scheme == 0;
+    let seen = levels::seen_by(exp, target, cell.candidate);
     let model = CellModel {
         exp,
         family: &candidate.family,
-        target,
+        target: &seen,
         seed: models::cell_seed(exp.seed, &cell.id),
     };
     let origin_loop = OriginLoop {

@@ -123,10 +123,11 @@ pub(crate) fn estimate_once<R: Registry>(
     horizons: &[usize],
     want: Want,
 ) -> std::result::Result<Scratch, String> {
+    let seen = super::levels::seen_by(exp, target, cell.candidate);
     let model = CellModel {
         exp,
         family: &exp.candidates[cell.candidate].family,
-        target,
+        target: &seen,
         seed: models::cell_seed(exp.seed, &cell.id),
     };
     let scale = super::levels::Scale::of(exp, target, cell.candidate);
@@ -165,10 +166,11 @@ pub(crate) fn time_one_estimation(
     cell: &Cell,
 ) -> std::result::Result<std::result::Result<f64, String>, Diagnostic> {
     let schedule = schedule_of(exp, cell);
+    let seen = super::levels::seen_by(exp, &exp.targets[cell.target], cell.candidate);
     let model = CellModel {
         exp,
         family: &exp.candidates[cell.candidate].family,
-        target: &exp.targets[cell.target],
+        target: &seen,
         seed: models::cell_seed(exp.seed, &cell.id),
     };
     let timer = TimeOneFit {
