@@ -8,11 +8,11 @@
 //! forecast errors where the model has one (`Model::error_covariance`);
 //! otherwise it is known only where the level adds a single forecast to
 //! known values (every horizon for `none` and `log`, h = 1 for `diff`,
-//! `log_diff` and `pct_change`, h ≤ m for `seasonal_diff`). Rows carry a
-//! Gaussian variance only where the level is Gaussian (`none`, `diff`,
-//! `seasonal_diff`, `pct_change` at h = 1); a logged level (`log`,
-//! `log_diff`) is log-normal, and its rows have no variance, so no
-//! model quantiles (docs/arithmetic.md says so).
+//! `log_diff` and `pct_change`, h ≤ m for `seasonal_diff`). A row's
+//! variance is the level's where the level is Gaussian (`none`, `diff`,
+//! `seasonal_diff`, `pct_change` at h = 1, y_T²·var ẑ); a logged level
+//! (`log`, `log_diff`) is log-normal and its row carries the variance of
+//! the log level, which `score::Shape` reads (quantiles through exp).
 
 use crate::models::level::{self, Centre};
 use crate::models::{Model, Problem, Step};
@@ -131,10 +131,13 @@ impl Levels<'_> {
                         t.name()
                     ),
                 })?;
+                // Gaussian levels carry their variance; a logged level
+                // carries its log's (the rows are log-normal, see
+                // score::Shape); pct_change beyond one step has none.
                 let variance = match t {
-                    Transform::None | Transform::Diff | Transform::SeasonalDiff => v,
                     Transform::PctChange if h == 1 => v.map(|v| v * last * last),
-                    _ => None,
+                    Transform::PctChange => None,
+                    _ => v,
                 };
                 // In-sample errors are in the transformed units: comparable
                 // with the levels' only when nothing was transformed.
