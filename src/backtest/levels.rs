@@ -104,7 +104,8 @@ impl Levels<'_> {
             .collect();
         let known = self.target.levels_through(origin);
         let u = level::integrate(t, &known, self.season, &z).unwrap_or_default();
-        let from_cov = cov.map(|c| level::level_variances_from_covariance(t, self.season, c, steps.len()));
+        let from_cov =
+            cov.map(|c| level::level_variances_from_covariance(t, self.season, c, steps.len()));
         let last = known.last().copied().unwrap_or(f64::NAN);
         steps
             .iter()

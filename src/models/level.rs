@@ -154,7 +154,8 @@ pub(crate) fn covariance_from_psi(psi: &[f64], sigma2: f64, horizons: usize) -> 
     let mut c = vec![0.0; horizons * horizons];
     for j in 0..horizons {
         for k in 0..horizons {
-            c[j * horizons + k] = sigma2 * (0..=j.min(k)).map(|i| psi[j - i] * psi[k - i]).sum::<f64>();
+            c[j * horizons + k] =
+                sigma2 * (0..=j.min(k)).map(|i| psi[j - i] * psi[k - i]).sum::<f64>();
         }
     }
     c

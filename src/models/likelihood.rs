@@ -152,7 +152,12 @@ impl<L: Likelihood> Model for OnSeries<'_, L> {
         self.model.left_out(&fit.fit)
     }
 
-    fn error_covariance(&self, fit: &mut Self::Fit, origin: usize, count: usize) -> Option<Vec<f64>> {
+    fn error_covariance(
+        &self,
+        fit: &mut Self::Fit,
+        origin: usize,
+        count: usize,
+    ) -> Option<Vec<f64>> {
         self.model
             .error_covariance(&fit.fit, &self.y[fit.start - 1..origin], count)
     }

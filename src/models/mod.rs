@@ -230,7 +230,12 @@ pub(crate) trait Model {
     /// included) of the errors of the forecasts from `origin` at horizons
     /// 1..=count, for the variance of a cumulated level (`models::level`);
     /// None where the family has no such closed form.
-    fn error_covariance(&self, _fit: &mut Self::Fit, _origin: usize, _count: usize) -> Option<Vec<f64>> {
+    fn error_covariance(
+        &self,
+        _fit: &mut Self::Fit,
+        _origin: usize,
+        _count: usize,
+    ) -> Option<Vec<f64>> {
         None
     }
 

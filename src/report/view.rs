@@ -53,11 +53,16 @@ fn units_words(d: &crate::spec::Declaration) -> Option<String> {
     let centre = match (logged, d.back_transform) {
         (false, _) => String::new(),
         (true, BackTransform::Median) => " (a log level by its median, exp of the forecast)".into(),
-        (true, BackTransform::Mean) => " (a log level by its mean, with the log-normal correction)".into(),
+        (true, BackTransform::Mean) => {
+            " (a log level by its mean, with the log-normal correction)".into()
+        }
     };
     let own = match own.len() {
         0 => String::new(),
-        _ => format!("; candidates with a transform of their own: {}", own.join(", ")),
+        _ => format!(
+            "; candidates with a transform of their own: {}",
+            own.join(", ")
+        ),
     };
     Some(format!(
         "; every forecast is then turned back into the data file's own units{centre}, in which forecasts, intervals, errors, scores and the outlook are given{own}"

@@ -187,7 +187,8 @@ impl Errors {
 
     /// Φ⁻¹ of forecast i's PIT, for Berkowitz's test.
     pub fn standardised(&self, i: usize, sd: f64) -> f64 {
-        self.shape.standardised(self.forecast[i], sd, self.actual[i])
+        self.shape
+            .standardised(self.forecast[i], sd, self.actual[i])
     }
 
     /// Forecast standard deviations, if every forecast has one.

@@ -240,7 +240,12 @@ impl Model for Linear<'_> {
     /// the one-step regression's ψ-weights and σ̂² (SPEC §4's iterated
     /// variances are the diagonal); a direct model's h-step regressions
     /// have no joint error model, so none.
-    fn error_covariance(&self, fit: &mut LinearFit, _origin: usize, count: usize) -> Option<Vec<f64>> {
+    fn error_covariance(
+        &self,
+        fit: &mut LinearFit,
+        _origin: usize,
+        count: usize,
+    ) -> Option<Vec<f64>> {
         if !self.iterated {
             return None;
         }

@@ -151,8 +151,8 @@ pub fn remade(
     let mut out = target.clone();
     let n = target.n;
     for (t, series) in &mut out.alternates {
-        let z = columns::apply_transform(*t, &raw_target, season)
-            .map_err(|e| why("the target", e))?;
+        let z =
+            columns::apply_transform(*t, &raw_target, season).map_err(|e| why("the target", e))?;
         *series = z[src.lag..src.lag + n]
             .iter()
             .map(|v| v.unwrap_or(f64::NAN))

@@ -179,10 +179,7 @@ fn other_series(
     let mut out = Vec::new();
     for (t, candidate) in req.other_transforms {
         match apply_transform(*t, raw, season) {
-            Ok(z) => out.push((
-                *t,
-                z[lag..].iter().map(|v| v.unwrap_or(f64::NAN)).collect(),
-            )),
+            Ok(z) => out.push((*t, z[lag..].iter().map(|v| v.unwrap_or(f64::NAN)).collect())),
             Err((i, m)) => {
                 ctx.diags.push(cell_error(
                     sel.table,
