@@ -330,6 +330,33 @@ fn a_transform_the_data_cannot_take_is_refused_naming_the_candidate() {
 }
 
 #[test]
+fn a_mean_centre_without_a_log_level_variance_is_refused() {
+    // A direct ar on log_diff has no joint error model, so no variance of
+    // the cumulated log level beyond one step: the mean is refused at the
+    // candidate's line (an arima on the same transform is accepted).
+    let dir = scratch("refuse-mean");
+    air_csv(&dir);
+    let (code, err) = run(
+        &dir,
+        "version: 1\nexperiment: air\ndata: {file: air.csv, time: period, frequency: monthly}\n\
+         target: passengers\ntransform: log_diff\ncandidates:\n  - family: arima\n    p: [1]\n    d: [0]\n    q: [0]\n  - family: ar\n    lags: [1]\n\
+         backtest: {schemes: [expanding], horizons: [1, 3]}\nscoring: {units: original, back_transform: mean}\n",
+    );
+    assert_eq!(code, 2, "{err}");
+    assert!(err.contains("exp.yaml:11"), "names the line: {err}");
+    assert!(
+        err.contains("candidate ar(1): back_transform: mean"),
+        "{err}"
+    );
+    assert!(
+        !err.contains("candidate arima"),
+        "the arima is not refused: {err}"
+    );
+    assert!(!dir.join("res").exists(), "nothing written");
+    std::fs::remove_dir_all(&dir).ok();
+}
+
+#[test]
 fn original_units_are_refused_with_vintages() {
     let dir = scratch("refuse-vintages");
     std::fs::write(

@@ -469,7 +469,7 @@ pub(crate) fn problem_diagnostic(
     } else {
         String::new()
     };
-    let hint = if cand.family.coefficients().is_some() {
+    let hint = if cand.family.coefficients().is_some() && !p.message.starts_with("back_transform") {
         " — start the scheme later, widen the window, or use fewer lags"
     } else {
         ""

@@ -15,8 +15,8 @@ use super::schemes::PendingScheme;
 use super::scoring::{decode_scoring, Scoring};
 use super::yaml::{Kind, Node};
 use super::{
-    Candidate, CombinationWeights, Declaration, Family, Layout, MultiStep, Release, ReportFormat,
-    Transform, Units, VintageSpec,
+    BackTransform, Candidate, CombinationWeights, Declaration, Family, Layout, MultiStep, Release,
+    ReportFormat, Transform, Units, VintageSpec,
 };
 use crate::error::nearest;
 use std::path::Path;
@@ -476,12 +476,45 @@ fn check_units(ctx: &mut Ctx, d: &Decoded, transforms: &[Node]) {
             ctx.error(node, "a candidate's own transform needs scoring.units: original: forecasts of differently transformed targets are in different units (a level, a change, a growth rate) and cannot be scored against each other; add units: original under scoring, or drop this transform (see docs/experiment-file.md#units)");
         }
     }
+    if original && d.scoring.back_transform == BackTransform::Mean {
+        check_mean_centre(ctx, d);
+    }
     if let (true, Some((_, node)), true) = (
         original,
         &d.scoring.units,
         d.data.layout() != Layout::Periods,
     ) {
         ctx.error(node, format!("scoring.units: original is not available with data.layout {}: this version does not back-transform forecasts made on real-time vintages; use units: transformed (see docs/experiment-file.md#units)", d.data.layout().name()));
+    }
+}
+
+/// `back_transform: mean` needs the variance of every log level: under
+/// `log_diff` beyond one step only models with a joint error model have
+/// it (arima, iterated ar, additive-error smoothing without a
+/// multiplicative season).
+fn check_mean_centre(ctx: &mut Ctx, d: &Decoded) {
+    use super::{SmoothingError as E, SmoothingSeason as S};
+    if d.horizons.iter().all(|&h| h <= 1) {
+        return;
+    }
+    let linear = |e: E, s: S| e == E::Additive && s != S::Multiplicative;
+    for c in &d.candidates {
+        if c.transform
+            .unwrap_or(d.transform.unwrap_or(Transform::None))
+            != Transform::LogDiff
+        {
+            continue;
+        }
+        let has = match &c.family {
+            Family::Arima { .. } | Family::ArimaSelect { .. } => true,
+            Family::Ar { .. } | Family::ArSelect { .. } => d.multi_step == MultiStep::Iterated,
+            Family::Smoothing { error, season, .. } => linear(*error, *season),
+            Family::SmoothingSelect { forms } => forms.iter().all(|f| linear(f.0, f.2)),
+            _ => false,
+        };
+        if !has {
+            ctx.error(&line_node(c.line), format!("candidate {}: back_transform: mean needs the variance of each log level, and under log_diff beyond one step this model has none (only arima, iterated ar and additive-error smoothing do); use back_transform: median, or another transform for this candidate (see docs/experiment-file.md#units)", c.id));
+        }
     }
 }
 
