@@ -71,6 +71,16 @@ impl Cache {
             cell.scheme == 0,
             outlook_window(exp),
         );
+        // Only under units: original, so that every other key stays.
+        let content = match exp.units {
+            crate::spec::Units::Original => format!(
+                "{content}units original {:?} {:?} lag={}\n",
+                exp.transform_of(cell.candidate),
+                exp.back_transform,
+                target.source.lag
+            ),
+            crate::spec::Units::Transformed => content,
+        };
         sha256_hex(content.as_bytes())
     }
 

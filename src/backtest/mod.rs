@@ -7,6 +7,7 @@
 
 pub(crate) mod cache;
 pub(crate) mod cellio;
+mod levels;
 mod single;
 mod vintage;
 pub(crate) use single::{from_scratch, time_one_estimation, Recomputed, Want};
@@ -106,6 +107,8 @@ struct OriginLoop<'a> {
     /// The outlook's horizons, 1..max(horizons).
     outlook_horizons: Vec<usize>,
     n: usize,
+    /// The units the rows are in.
+    scale: levels::Scale<'a>,
 }
 
 /// What the loop does when an estimation fails.
@@ -174,7 +177,7 @@ impl OriginLoop<'_> {
             Some(fit) => {
                 let rows = horizons
                     .iter()
-                    .zip(model.forecast(fit, self.n, horizons))
+                    .zip(self.scale.forecast(model, fit, self.n, horizons))
                     .map(|(&h, step)| OutlookRow {
                         horizon: h,
                         forecast: step.as_ref().ok().map(|s| s.forecast),
@@ -240,7 +243,10 @@ impl models::Visitor for OriginLoop<'_> {
             asked.clear();
             asked.extend(wanted.iter().map(|&i| horizons[i]));
             self.progress.forecasts_done(asked.len());
-            for (&i, step) in wanted.iter().zip(model.forecast(fit, origin, &asked)) {
+            for (&i, step) in wanted
+                .iter()
+                .zip(self.scale.forecast(model, fit, origin, &asked))
+            {
                 match step {
                     Ok(step) => per_h[i].push(ForecastRow {
                         horizon: horizons[i],
@@ -268,10 +274,15 @@ impl models::Visitor for OriginLoop<'_> {
             }
             if new_end {
                 record_left_out(&mut out.left_out, model.left_out(fit), end);
+                // Under units: original a direct model also estimates the
+                // unlisted horizons a cumulated level needs; parameters.csv
+                // keeps to the listed ones.
+                let mut parameters = model.parameters(fit);
+                parameters.retain(|p| p.horizon.is_none_or(|h| horizons.contains(&h)));
                 out.parameters.push(Estimation {
                     end,
                     vintage: None,
-                    parameters: model.parameters(fit),
+                    parameters,
                 });
             }
         }
@@ -320,10 +331,11 @@ pub(crate) fn run_cell_in<R: Registry>(
         n: target.n,
     };
     let with_outlook = cell.scheme == 0;
+    let seen = levels::seen_by(exp, target, cell.candidate);
     let model = CellModel {
         exp,
         family: &candidate.family,
-        target,
+        target: &seen,
         seed: models::cell_seed(exp.seed, &cell.id),
     };
     let origin_loop = OriginLoop {
@@ -333,6 +345,7 @@ pub(crate) fn run_cell_in<R: Registry>(
         outlook: with_outlook.then(|| plan::outlook_window(exp)),
         outlook_horizons: plan::outlook_horizons(exp),
         n: target.n,
+        scale: levels::Scale::of(exp, target, cell.candidate),
     };
     registry
         .visit(&model, origin_loop)
@@ -473,7 +486,7 @@ pub(crate) fn problem_diagnostic(
     } else {
         String::new()
     };
-    let hint = if cand.family.coefficients().is_some() {
+    let hint = if cand.family.coefficients().is_some() && !p.message.starts_with("back_transform") {
         " — start the scheme later, widen the window, or use fewer lags"
     } else {
         ""

@@ -15,6 +15,7 @@ struct FromScratch<'a> {
     at: Estimate,
     horizons: &'a [usize],
     want: Want,
+    scale: super::levels::Scale<'a>,
 }
 
 /// Where an estimation from scratch ends, its window, and the origin it
@@ -55,7 +56,7 @@ impl models::Visitor for FromScratch<'_> {
         Ok(forecast_with(
             model,
             &mut fit,
-            self.at,
+            (self.at, &self.scale),
             self.horizons,
             self.want,
         ))
@@ -63,18 +64,19 @@ impl models::Visitor for FromScratch<'_> {
 }
 
 /// The forecasts of an estimate `fit` of `model` from `at.origin` at
-/// `horizons`, with the parameters and residuals `want` asks for.
+/// `horizons` in the units `scale` gives, with the parameters and
+/// residuals `want` asks for.
 pub(crate) fn forecast_with<M: Model>(
     model: &M,
     fit: &mut M::Fit,
-    at: Estimate,
+    (at, scale): (Estimate, &super::levels::Scale),
     horizons: &[usize],
     want: Want,
 ) -> Scratch {
     let origin = at.origin;
     let rows = horizons
         .iter()
-        .zip(model.forecast(fit, origin, horizons))
+        .zip(scale.forecast(model, fit, origin, horizons))
         .map(|(&horizon, step)| {
             step.map(|step| ForecastRow {
                 horizon,
@@ -135,13 +137,23 @@ pub(crate) fn estimate_once<R: Registry>(
     horizons: &[usize],
     want: Want,
 ) -> std::result::Result<Scratch, String> {
+    let seen = super::levels::seen_by(exp, target, cell.candidate);
     let model = CellModel {
         exp,
         family: &exp.candidates[cell.candidate].family,
-        target,
+        target: &seen,
         seed: models::cell_seed(exp.seed, &cell.id),
     };
-    registry.visit(&model, FromScratch { at, horizons, want })?
+    let scale = super::levels::Scale::of(exp, target, cell.candidate);
+    registry.visit(
+        &model,
+        FromScratch {
+            at,
+            horizons,
+            want,
+            scale,
+        },
+    )?
 }
 
 /// Times one estimation of a cell's model at its first estimation end.
@@ -168,10 +180,11 @@ pub(crate) fn time_one_estimation(
     cell: &Cell,
 ) -> std::result::Result<std::result::Result<f64, String>, Diagnostic> {
     let schedule = schedule_of(exp, cell);
+    let seen = super::levels::seen_by(exp, &exp.targets[cell.target], cell.candidate);
     let model = CellModel {
         exp,
         family: &exp.candidates[cell.candidate].family,
-        target: &exp.targets[cell.target],
+        target: &seen,
         seed: models::cell_seed(exp.seed, &cell.id),
     };
     let timer = TimeOneFit {

@@ -207,6 +207,9 @@ struct Chained<'a> {
     previous: Option<Box<dyn Any>>,
     /// Whether its sample is this origin's, bit for bit.
     reuse: bool,
+    /// The forecasts' units (the model's own: vintages refuse
+    /// `units: original`).
+    scale: super::levels::Scale<'a>,
 }
 
 /// An origin's outcome, the estimate to carry on (models that warm-start)
@@ -229,7 +232,13 @@ impl models::Visitor for Chained<'_> {
                 Err(_) => (fit, Path::Kept),
             },
         };
-        let out = forecast_with(model, &mut fit, self.at, self.horizons, self.want);
+        let out = forecast_with(
+            model,
+            &mut fit,
+            (self.at, &self.scale),
+            self.horizons,
+            self.want,
+        );
         let carried: Option<Box<dyn Any>> = match M::WARM_STARTS {
             true => Some(fit),
             false => None,
@@ -270,6 +279,7 @@ fn step<R: Registry>(
         want,
         previous: before.map(|c| c.fit),
         reuse,
+        scale: super::levels::Scale::of(exp, p.data, cell.candidate),
     };
     let (mut out, fit, path) = registry.visit(&model, chained)??;
     // The estimate carried on is the one this origin's sample gave (made,

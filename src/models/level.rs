@@ -23,11 +23,8 @@
 //! carries over exactly (y_T(1 + z) is monotone in z); beyond one step
 //! there is no closed form and no interval is given.
 //!
-//! Not yet called by the pipeline: `scoring.units: original` (scoring and
-//! the outlook in these units) is still to be wired through spec, the
-//! cells, scores and reports; the arithmetic is here, tested against
-//! statsmodels, for that step.
-#![cfg_attr(not(test), allow(dead_code))]
+//! `backtest::levels` calls this for every forecast of a cell under
+//! `scoring.units: original`.
 
 use crate::numerics::dist::normal_interval as interval;
 use crate::spec::Transform;
@@ -49,7 +46,7 @@ pub(crate) fn logged(t: Transform) -> bool {
 /// The lag a differencing transform integrates over: 1 for `diff`,
 /// `log_diff` and `pct_change`, the season m for `seasonal_diff`; None for
 /// the transforms that difference nothing.
-fn span(t: Transform, season: usize) -> Option<usize> {
+pub(crate) fn span(t: Transform, season: usize) -> Option<usize> {
     match t {
         Transform::None | Transform::Log => None,
         Transform::Diff | Transform::LogDiff | Transform::PctChange => Some(1),
@@ -84,6 +81,8 @@ pub(crate) fn integrate(t: Transform, known: &[f64], season: usize, z: &[f64]) -
 /// from the transformed model's ψ-weights ψ_0 = 1, ψ_1, … (at least H of
 /// them) and its innovation variance σ²; None at the horizons where no
 /// closed form exists (`pct_change` beyond one step).
+// The ψ form: what the covariance route below is checked against.
+#[cfg_attr(not(test), allow(dead_code))]
 pub(crate) fn level_variances(
     t: Transform,
     season: usize,
@@ -112,6 +111,56 @@ pub(crate) fn level_variances(
         .collect()
 }
 
+/// The same variances from the full covariance `cov` (row-major H × H,
+/// innovation variance included) of the transformed model's h-step
+/// forecast errors: the level's error at h is Σ_j ι_{h−j} e_j, ι the
+/// integration weights of the transform, so its variance is ι′ C ι over
+/// steps 1..h. With C_jk = σ² Σ_i ψ_{j−1−i} ψ_{k−1−i} this is
+/// [`level_variances`]; a Kalman filter's exact C (arima) gives the exact
+/// variance of a finite sample.
+pub(crate) fn level_variances_from_covariance(
+    t: Transform,
+    season: usize,
+    cov: &[f64],
+    horizons: usize,
+) -> Vec<Option<f64>> {
+    let iota = match span(t, season) {
+        Some(s) if t != Transform::PctChange => {
+            let (d, seasonal_d) = if s == 1 { (1, 0) } else { (0, 1) };
+            super::arima::poly::integration_weights(d, s, seasonal_d, horizons)
+        }
+        _ => (0..horizons).map(|j| f64::from(u8::from(j == 0))).collect(),
+    };
+    (0..horizons)
+        .map(|h| {
+            if t == Transform::PctChange && h > 0 {
+                return None;
+            }
+            let mut v = 0.0;
+            for j in 0..=h {
+                for k in 0..=h {
+                    v += iota[h - j] * iota[h - k] * cov[j * horizons + k];
+                }
+            }
+            Some(v)
+        })
+        .collect()
+}
+
+/// The covariance (row-major H × H) of h-step forecast errors Σ_{k<h}
+/// ψ_k ε_{T+h−k} with innovation variance σ²: C_jk = σ² Σ_{i≤min(j,k)}
+/// ψ_{j−i} ψ_{k−i} (0-based steps).
+pub(crate) fn covariance_from_psi(psi: &[f64], sigma2: f64, horizons: usize) -> Vec<f64> {
+    let mut c = vec![0.0; horizons * horizons];
+    for j in 0..horizons {
+        for k in 0..horizons {
+            c[j * horizons + k] =
+                sigma2 * (0..=j.min(k)).map(|i| psi[j - i] * psi[k - i]).sum::<f64>();
+        }
+    }
+    c
+}
+
 /// The point forecast in the data's units of a model-scale level `u` whose
 /// error variance is `variance`: u itself, or for a logged level the
 /// median exp(u) or the mean exp(u + v/2) (None without a variance).
@@ -129,6 +178,9 @@ pub(crate) fn point(t: Transform, u: f64, variance: Option<f64>, centre: Centre)
 /// model-scale level û with variance v, carried through exp for a logged
 /// level. For `pct_change` (one step only) `z` and `z_variance` are the
 /// transformed forecast and its variance and `last` is y_T.
+// Rows carry pct_change's one-step level as Gaussian with variance
+// y_T²·v (the same interval); this form is kept as its check.
+#[cfg_attr(not(test), allow(dead_code))]
 pub(crate) fn bounds(
     t: Transform,
     (u, v): (f64, f64),

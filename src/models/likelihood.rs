@@ -55,6 +55,12 @@ pub(crate) trait Likelihood {
     fn left_out(&self, _fit: &Self::Fit) -> Vec<String> {
         Vec::new()
     }
+    /// The covariance of the forecast errors at steps 1..=max_h beyond
+    /// the end of `y` (see `Model::error_covariance`), where the family
+    /// has a closed form.
+    fn error_covariance(&self, _fit: &Self::Fit, _y: &[f64], _max_h: usize) -> Option<Vec<f64>> {
+        None
+    }
 }
 
 /// A likelihood model on one target's series.
@@ -147,6 +153,16 @@ impl<L: Likelihood> Model for OnSeries<'_, L> {
         self.model.left_out(&fit.fit)
     }
 
+    fn error_covariance(
+        &self,
+        fit: &mut Self::Fit,
+        origin: usize,
+        count: usize,
+    ) -> Option<Vec<f64>> {
+        self.model
+            .error_covariance(&fit.fit, &self.y[fit.start - 1..origin], count)
+    }
+
     fn parameters(&self, fit: &mut Self::Fit) -> Vec<Parameter> {
         self.model
             .parameters(&fit.fit, &self.y[fit.start - 1..fit.end], fit.start)
@@ -185,6 +201,10 @@ impl Likelihood for Smoothing {
     }
     fn residuals(&self, fit: &Self::Fit, y: &[f64], _start: usize) -> Vec<f64> {
         super::smoothing::one_step_errors(&fit.spec, &fit.params, y).unwrap_or_default()
+    }
+    fn error_covariance(&self, fit: &Self::Fit, _y: &[f64], max_h: usize) -> Option<Vec<f64>> {
+        let psi = super::smoothing::psi_weights(fit, max_h)?;
+        Some(super::level::covariance_from_psi(&psi, fit.sigma2, max_h))
     }
     fn parameters(&self, fit: &Self::Fit, y: &[f64], _start: usize) -> Vec<Parameter> {
         super::smoothing::parameters(fit, y)
@@ -382,6 +402,9 @@ impl Likelihood for Arima {
     fn parameters(&self, fit: &Self::Fit, y: &[f64], start: usize) -> Vec<Parameter> {
         arima_parameters(&self.regressors, &fit.fit, (y, start, fit.skip))
     }
+    fn error_covariance(&self, fit: &Self::Fit, y: &[f64], max_h: usize) -> Option<Vec<f64>> {
+        super::arima::forecast::error_covariance(&fit.fit, y.get(fit.skip..)?, max_h).ok()
+    }
 }
 
 /// arima with (p, q) — and (P, Q) — chosen by a criterion inside every
@@ -527,5 +550,9 @@ impl Likelihood for ArimaSelect {
         fit.fits[fit.chosen].as_ref().map_or_else(Vec::new, |f| {
             arima_parameters(&self.regressors, f, (y, start, fit.skip))
         })
+    }
+    fn error_covariance(&self, fit: &Self::Fit, y: &[f64], max_h: usize) -> Option<Vec<f64>> {
+        let chosen = fit.fits[fit.chosen].as_ref()?;
+        super::arima::forecast::error_covariance(chosen, y.get(fit.skip..)?, max_h).ok()
     }
 }

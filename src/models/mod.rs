@@ -234,6 +234,19 @@ pub(crate) trait Model {
         Vec::new()
     }
 
+    /// The covariance (row-major `count` × `count`, innovation variance
+    /// included) of the errors of the forecasts from `origin` at horizons
+    /// 1..=count, for the variance of a cumulated level (`models::level`);
+    /// None where the family has no such closed form.
+    fn error_covariance(
+        &self,
+        _fit: &mut Self::Fit,
+        _origin: usize,
+        _count: usize,
+    ) -> Option<Vec<f64>> {
+        None
+    }
+
     /// The parameters of the current estimate (SPEC §7.4), asked after the
     /// forecasts of each estimation end: for a model that selects its
     /// order, the chosen order's; a direct model only the horizons it

@@ -115,7 +115,10 @@ fn outlook_chart(ix: &Index, o: &Outlook, s: &Series, table: &[Value], origin_no
         XAxis::Periods(labels),
     );
     ch.x_title = "period".into();
-    ch.y_title = units(&s.name, &s.transform);
+    let original = ix.f.settings.original_units;
+    ch.y_title = units(&s.name, if original { "none" } else { &s.transform });
+    // Under units: original the paths are levels: so is the history.
+    let history = if original { &s.raw } else { &s.values };
     ch.spans.push(Span {
         x0: last_x + 0.5,
         x1: last_x + max_h as f64 + 0.5,
@@ -125,7 +128,7 @@ fn outlook_chart(ix: &Index, o: &Outlook, s: &Series, table: &[Value], origin_no
     ch.lines.push(Line {
         name: "observed".into(),
         look: OUTTURN,
-        points: s.values[start..]
+        points: history[start..]
             .iter()
             .enumerate()
             .map(|(i, v)| (i as f64, v.unwrap_or(f64::NAN)))
@@ -133,7 +136,7 @@ fn outlook_chart(ix: &Index, o: &Outlook, s: &Series, table: &[Value], origin_no
         legend: true,
         marker_every: 0,
     });
-    let last_y = s.values.last().copied().flatten();
+    let last_y = history.last().copied().flatten();
     paths(ix, &mut ch, o, (last_x, last_y.unwrap_or(f64::NAN)));
     let (columns, table_rows) = number_table(table, o.levels);
     let mut listed: Vec<usize> = o.rows.iter().map(|r| r.horizon).collect();

@@ -26,7 +26,10 @@ pub fn over_time_for(ix: &Index, t: usize, series: Option<&Series>, charts: bool
     let transform = series
         .map(|s| s.transform.clone())
         .unwrap_or_else(|| f.settings.transform.clone());
-    let unit = units(&g.targets[t], &transform);
+    let unit = match f.settings.original_units {
+        true => g.targets[t].clone(),
+        false => units(&g.targets[t], &transform),
+    };
     let mut out = Vec::new();
     for s in 0..g.schemes.len() {
         // A single-origin holdout has one forecast per horizon: one path

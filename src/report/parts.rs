@@ -380,7 +380,11 @@ fn run_data(ix: &Index, manifest: &Value, statuses: &[String]) -> Value {
             "failed": record::failures(&cells).len(),
             "frequency": settings.frequency,
             "transform": settings.transform,
-            "transform_words": transform_words(&settings.transform),
+            "transform_words": format!(
+                "{}{}",
+                transform_words(&settings.transform),
+                settings.units_words.as_deref().unwrap_or("")
+            ),
             "multi_step": settings.multi_step,
             "vintages": settings.vintages,
         },

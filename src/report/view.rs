@@ -28,6 +28,45 @@ pub struct Settings {
     pub report_targets: usize,
     /// Under a vintage layout, what each origin sees and which release is the outturn.
     pub vintages: Option<String>,
+    /// `scoring.units: original`: forecasts and scores in the data file's units.
+    pub original_units: bool,
+    /// Under `units: original`, the words that follow the transform's.
+    pub units_words: Option<String>,
+}
+
+/// Under `units: original`: that every forecast is turned back into the
+/// data file's units, with which centre, and the candidates' own
+/// transforms.
+fn units_words(d: &crate::spec::Declaration) -> Option<String> {
+    use crate::spec::{BackTransform, Transform, Units};
+    if d.units != Units::Original {
+        return None;
+    }
+    let own: Vec<String> = d
+        .candidates
+        .iter()
+        .filter_map(|c| c.transform.map(|t| format!("{} {}", c.id, t.name())))
+        .collect();
+    let logged = std::iter::once(d.transform)
+        .chain(d.candidates.iter().filter_map(|c| c.transform))
+        .any(|t| matches!(t, Transform::Log | Transform::LogDiff));
+    let centre = match (logged, d.back_transform) {
+        (false, _) => String::new(),
+        (true, BackTransform::Median) => " (a log level by its median, exp of the forecast)".into(),
+        (true, BackTransform::Mean) => {
+            " (a log level by its mean, with the log-normal correction)".into()
+        }
+    };
+    let own = match own.len() {
+        0 => String::new(),
+        _ => format!(
+            "; candidates with a transform of their own: {}",
+            own.join(", ")
+        ),
+    };
+    Some(format!(
+        "; every forecast is then turned back into the data file's own units{centre}, in which forecasts, intervals, errors, scores and the outlook are given{own}"
+    ))
 }
 
 #[derive(Clone)]
@@ -47,6 +86,8 @@ impl Settings {
             transform: d.transform.name().to_string(),
             rank_by: d.rank_by.name().to_string(),
             report_targets: d.report_targets,
+            original_units: d.units == crate::spec::Units::Original,
+            units_words: units_words(d),
             vintages: d.vintages.as_ref().map(|v| {
                 format!(
                     "Real-time data (layout {}): at each origin every candidate sees only the vintage published in that period, and the outturn scored is {}.",

@@ -91,6 +91,7 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
             true => crate::score::past_errors::for_forecasts(exp, target, o),
             false => Vec::new(),
         };
+        let shape = crate::score::Shape::of(exp, cell.candidate);
         // The row's fixed part: target, candidate, scheme.
         let mut lead = Vec::new();
         push_field(&mut lead, &target.name);
@@ -125,7 +126,7 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
                 for &z in &zs {
                     out.push(b',');
                     if let Some(sd) = sd {
-                        push_num(&mut out, r.forecast + z * sd);
+                        push_num(&mut out, shape.quantile(r.forecast, sd, z));
                     }
                 }
             }

@@ -31,6 +31,50 @@ pub(crate) struct Manifest {
     pub seed: u64,
     pub templates: Vec<TemplateRecord>,
     pub tool: ToolRecord,
+    /// Under `scoring.units: original`: the units and centre scored.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub units: Option<UnitsRecord>,
+}
+
+/// What the forecasts are scored in (docs/results-folder.md#manifestjson):
+/// `original` units, the centre of a log-based level, and the candidates
+/// whose model sees a transform of its own.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(crate) struct UnitsRecord {
+    pub back_transform: String,
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub candidate_transforms: Vec<CandidateTransform>,
+    pub transform: String,
+    pub units: String,
+}
+
+/// A candidate and the transform its model sees.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(crate) struct CandidateTransform {
+    pub candidate: String,
+    pub transform: String,
+}
+
+impl UnitsRecord {
+    fn of(exp: &Experiment) -> Option<UnitsRecord> {
+        (exp.units == crate::spec::Units::Original).then(|| UnitsRecord {
+            back_transform: exp.back_transform.name().into(),
+            candidate_transforms: exp
+                .candidates
+                .iter()
+                .filter_map(|c| {
+                    c.transform.map(|t| CandidateTransform {
+                        candidate: c.id.clone(),
+                        transform: t.name().into(),
+                    })
+                })
+                .collect(),
+            transform: exp.transform.name().into(),
+            units: exp.units.name().into(),
+        })
+    }
 }
 
 /// The look-ahead audit of a run (docs/results-folder.md#manifestjson).
@@ -220,6 +264,7 @@ impl Manifest {
     ) -> Manifest {
         Manifest {
             audit: None,
+            units: UnitsRecord::of(exp),
             tool: ToolRecord::this(),
             experiment: ExperimentRecord {
                 name: exp.name.clone(),
@@ -377,6 +422,7 @@ mod tests {
             seed: 3,
             templates: vec![],
             tool: ToolRecord::this(),
+            units: None,
         }
     }
 

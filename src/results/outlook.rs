@@ -14,11 +14,16 @@ use crate::spec::{Experiment, IntervalsFrom};
 pub const FILE: &str = "outlook.csv";
 
 /// The quantile columns of one forecast (empty without a variance).
-fn push_quantiles(rec: &mut Vec<String>, zs: &[f64], forecast: Option<f64>, variance: Option<f64>) {
+fn push_quantiles(
+    rec: &mut Vec<String>,
+    (zs, shape): (&[f64], crate::score::Shape),
+    forecast: Option<f64>,
+    variance: Option<f64>,
+) {
     let sd = variance.filter(|v| *v >= 0.0).map(f64::sqrt);
     for &z in zs {
         rec.push(match (forecast, sd) {
-            (Some(f), Some(sd)) => num(f + z * sd),
+            (Some(f), Some(sd)) => num(shape.quantile(f, sd, z)),
             _ => String::new(),
         });
     }
@@ -65,7 +70,8 @@ pub fn write(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> Vec<u8
                     });
                 }
             } else {
-                push_quantiles(&mut rec, &zs, r.forecast, r.variance);
+                let shape = crate::score::Shape::of(exp, cell.candidate);
+                push_quantiles(&mut rec, (&zs, shape), r.forecast, r.variance);
             }
             write_row(&mut w, &rec);
         }

@@ -225,7 +225,7 @@ impl Group<'_> {
             }
             if let Some(sds) = e.sds().filter(|_| !e.past()) {
                 let z: Option<Vec<f64>> = (0..e.len())
-                    .map(|i| (sds[i] > 0.0).then(|| e.error(i) / sds[i]))
+                    .map(|i| (sds[i] > 0.0).then(|| e.standardised(i, sds[i])))
                     .collect();
                 let r = z.and_then(|z| berkowitz(&z));
                 rows.push(self.row("calibration_pit", Some(c), None, r));
@@ -398,6 +398,7 @@ mod tests {
             id: id.into(),
             family,
             line: 1,
+            transform: None,
         }
     }
 

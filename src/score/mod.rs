@@ -43,6 +43,61 @@ pub struct Errors {
     /// … and per forecast the empirical quantiles of its past errors at
     /// them (None before enough errors are known).
     pub offsets: Vec<Option<Vec<f64>>>,
+    /// Under `units: original` with a log-based transform: the forecast
+    /// distribution is log-normal (its variance that of the log level).
+    pub shape: Shape,
+}
+
+/// The forecast distribution a forecast and its variance describe.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum Shape {
+    /// N(forecast, variance).
+    #[default]
+    Gaussian,
+    /// A log-normal level whose log has variance v, the forecast being its
+    /// median exp(μ) …
+    LogMedian,
+    /// … or its mean exp(μ + v/2).
+    LogMean,
+}
+
+impl Shape {
+    /// The shape of candidate `c`'s forecasts.
+    pub fn of(exp: &Experiment, c: usize) -> Shape {
+        use crate::spec::{BackTransform, Units};
+        if exp.units != Units::Original || !crate::models::level::logged(exp.transform_of(c)) {
+            return Shape::Gaussian;
+        }
+        match exp.back_transform {
+            BackTransform::Median => Shape::LogMedian,
+            BackTransform::Mean => Shape::LogMean,
+        }
+    }
+
+    /// μ of a log-normal forecast with standard deviation `sd` of its log.
+    fn log_location(self, forecast: f64, sd: f64) -> f64 {
+        match self {
+            Shape::LogMean => forecast.ln() - sd * sd / 2.0,
+            _ => forecast.ln(),
+        }
+    }
+
+    /// The quantile forecast + z·sd of a Gaussian forecast, or
+    /// exp(μ + z·sd) of a log-normal one (z a standard-normal quantile).
+    pub fn quantile(self, forecast: f64, sd: f64, z: f64) -> f64 {
+        match self {
+            Shape::Gaussian => forecast + z * sd,
+            _ => (self.log_location(forecast, sd) + z * sd).exp(),
+        }
+    }
+
+    /// The standardised outturn Φ⁻¹(PIT): (y − f)/sd, or (ln y − μ)/sd.
+    fn standardised(self, forecast: f64, sd: f64, y: f64) -> f64 {
+        match self {
+            Shape::Gaussian => (y - forecast) / sd,
+            _ => (y.ln() - self.log_location(forecast, sd)) / sd,
+        }
+    }
 }
 
 impl Errors {
@@ -63,6 +118,7 @@ impl Errors {
         self.variance.extend_from_slice(&other.variance);
         self.period.extend_from_slice(&other.period);
         self.offsets.extend_from_slice(&other.offsets);
+        self.shape = other.shape;
         if self.offset_probs.is_empty() {
             self.offset_probs.clone_from(&other.offset_probs);
         }
@@ -72,6 +128,7 @@ impl Errors {
     pub fn within(&self, from: i64, to: i64) -> Errors {
         let mut out = Errors {
             offset_probs: self.offset_probs.clone(),
+            shape: self.shape,
             ..Errors::default()
         };
         for i in 0..self.len() {
@@ -111,7 +168,27 @@ impl Errors {
             return self.past_bounds(i, level);
         }
         let sd = self.variance[i].filter(|v| *v >= 0.0)?.sqrt();
-        Some(interval(self.forecast[i], sd, level))
+        Some(self.model_bounds(i, sd, level))
+    }
+
+    /// The level-c interval of forecast i with standard deviation `sd`:
+    /// Gaussian (SPEC §4), or the Gaussian interval of the log level
+    /// carried through exp.
+    fn model_bounds(&self, i: usize, sd: f64, level: f64) -> (f64, f64) {
+        match self.shape {
+            Shape::Gaussian => interval(self.forecast[i], sd, level),
+            shape => {
+                let mu = shape.log_location(self.forecast[i], sd);
+                let (lo, hi) = interval(mu, sd, level);
+                (lo.exp(), hi.exp())
+            }
+        }
+    }
+
+    /// Φ⁻¹ of forecast i's PIT, for Berkowitz's test.
+    pub fn standardised(&self, i: usize, sd: f64) -> f64 {
+        self.shape
+            .standardised(self.forecast[i], sd, self.actual[i])
     }
 
     /// Forecast standard deviations, if every forecast has one.
@@ -150,7 +227,7 @@ pub fn coverage(e: &Errors, level: f64) -> Option<f64> {
     let sds = e.sds()?;
     let inside = (0..e.len())
         .filter(|&i| {
-            let (lo, hi) = interval(e.forecast[i], sds[i], level);
+            let (lo, hi) = e.model_bounds(i, sds[i], level);
             (lo..=hi).contains(&e.actual[i])
         })
         .count();
@@ -176,7 +253,7 @@ pub fn interval_score(e: &Errors, level: f64) -> Option<f64> {
     let sds = e.sds()?;
     mean(
         (0..e.len()).map(|i| {
-            let (lo, hi) = interval(e.forecast[i], sds[i], level);
+            let (lo, hi) = e.model_bounds(i, sds[i], level);
             let y = e.actual[i];
             (hi - lo) + (2.0 / alpha) * (lo - y).max(0.0) + (2.0 / alpha) * (y - hi).max(0.0)
         }),
@@ -201,9 +278,33 @@ pub fn crps(e: &Errors) -> Option<f64> {
     }
     let sds = e.sds()?;
     mean(
-        (0..e.len()).map(|i| crps_gaussian(e.forecast[i], sds[i], e.actual[i])),
+        (0..e.len()).map(|i| match e.shape {
+            Shape::Gaussian => crps_gaussian(e.forecast[i], sds[i], e.actual[i]),
+            shape => crps_log_normal(
+                shape.log_location(e.forecast[i], sds[i]),
+                sds[i],
+                e.actual[i],
+            ),
+        }),
         e.len(),
     )
+}
+
+/// CRPS of a log-normal forecast (ln X ~ N(μ, σ²)) at outturn y > 0, in
+/// closed form (Baran & Lerch 2015, eq. 5): y(2Φ(w) − 1) −
+/// 2e^{μ+σ²/2}(Φ(w − σ) + Φ(σ/√2) − 1), w = (ln y − μ)/σ; for y ≤ 0 the
+/// distance to the whole distribution, e^{μ+σ²/2} − y.
+pub fn crps_log_normal(mu: f64, sd: f64, y: f64) -> f64 {
+    let mean = (mu + sd * sd / 2.0).exp();
+    if y <= 0.0 {
+        return mean - y;
+    }
+    if sd <= 0.0 {
+        return (y - mu.exp()).abs();
+    }
+    let w = (y.ln() - mu) / sd;
+    y * (2.0 * normal_cdf(w) - 1.0)
+        - 2.0 * mean * (normal_cdf(w - sd) + normal_cdf(sd / std::f64::consts::SQRT_2) - 1.0)
 }
 
 /// Pinball (quantile) loss of quantile q at probability τ for outturn y:
@@ -235,11 +336,11 @@ pub fn quantile_score(e: &Errors, quantiles: &[QuantileColumn]) -> Option<f64> {
     let zs: Vec<f64> = quantiles.iter().map(quantile_multiplier).collect();
     mean(
         (0..e.len()).flat_map(|i| {
-            let (f, sd, y) = (e.forecast[i], sds[i], e.actual[i]);
+            let (f, sd, y, shape) = (e.forecast[i], sds[i], e.actual[i], e.shape);
             quantiles
                 .iter()
                 .zip(&zs)
-                .map(move |(q, z)| pinball(y, f + z * sd, q.prob))
+                .map(move |(q, z)| pinball(y, shape.quantile(f, sd, *z), q.prob))
         }),
         e.len() * quantiles.len(),
     )
@@ -264,7 +365,16 @@ pub fn log_score(e: &Errors) -> Option<f64> {
     }
     let sds = e.sds()?;
     let scores: Option<Vec<f64>> = (0..e.len())
-        .map(|i| log_score_gaussian(e.forecast[i], sds[i], e.actual[i]))
+        .map(|i| match e.shape {
+            Shape::Gaussian => log_score_gaussian(e.forecast[i], sds[i], e.actual[i]),
+            // The density of y is that of ln y over y.
+            shape => (e.actual[i] > 0.0)
+                .then(|| {
+                    let (y, mu) = (e.actual[i], shape.log_location(e.forecast[i], sds[i]));
+                    log_score_gaussian(mu, sds[i], y.ln()).map(|s| s + y.ln())
+                })
+                .flatten(),
+        })
         .collect();
     mean(scores?.into_iter(), e.len())
 }
@@ -440,6 +550,7 @@ pub fn cell_errors(exp: &Experiment, cells: &[Cell], outputs: &[CellOutput]) -> 
                 .map(|&h| {
                     let mut e = Errors {
                         offset_probs: offset_probs.clone(),
+                        shape: Shape::of(exp, cell.candidate),
                         ..Errors::default()
                     };
                     for (k, r) in out
@@ -560,7 +671,7 @@ pub fn scores(exp: &Experiment, errors: &[Vec<Errors>]) -> Vec<ScoreRow> {
     for (t, target) in exp.targets.iter().enumerate() {
         for (s, scheme) in exp.schemes.iter().enumerate() {
             let scale = mase_scale(
-                &target.y,
+                target.scored(),
                 scheme,
                 target.first_origins[s],
                 exp.season_length(),

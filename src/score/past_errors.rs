@@ -81,7 +81,7 @@ fn horizon_errors(
     {
         index.push(i);
         origins.push(r.origin);
-        errors.push(target.y[r.origin + h - 1] - r.forecast);
+        errors.push(target.scored()[r.origin + h - 1] - r.forecast);
     }
     (index, origins, errors)
 }

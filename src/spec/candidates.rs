@@ -4,7 +4,7 @@
 
 use super::decode::{Ctx, MapView};
 use super::yaml::{Kind, Node};
-use super::{Candidate, Criterion, Dummy, DummyColumn, Family, Predictor, Trend};
+use super::{Candidate, Criterion, Dummy, DummyColumn, Family, Predictor, Transform, Trend};
 use crate::error::nearest;
 
 pub(super) const FAMILIES: &[&str] = &[
@@ -30,6 +30,7 @@ pub(super) fn decode_candidate(
     predictors: &PredictorNames,
     out: &mut Vec<Candidate>,
     pending: &mut PendingMembers,
+    transforms: &mut Vec<Node>,
 ) {
     let path = format!("candidates[{index}]");
     let family_name = match &item.kind {
@@ -64,6 +65,9 @@ pub(super) fn decode_candidate(
     let Some(family) = ctx.choice(&family_node, &format!("{path}.family"), FAMILIES) else {
         return;
     };
+    let (item, transform) = split_transform(item);
+    let item = &item;
+    let first = out.len();
     match family.as_str() {
         "arima" => super::families::decode_arima(ctx, item, &path, predictors, out),
         "smoothing" => super::families::decode_smoothing(ctx, item, &path, out),
@@ -71,6 +75,40 @@ pub(super) fn decode_candidate(
         "combination" => super::families::decode_combination(ctx, item, &path, out, pending),
         _ => decode_lag_family(ctx, item, &path, &family, predictors, out),
     }
+    let Some(node) = transform else {
+        return;
+    };
+    if family == "combination" {
+        ctx.error(&node, format!("{path}.transform: a combination is formed from its members' forecasts in the data's units; give the members their transforms instead (see docs/experiment-file.md#units)"));
+        return;
+    }
+    let Some(t) = ctx
+        .choice(&node, &format!("{path}.transform"), &Transform::NAMES)
+        .and_then(|s| Transform::parse(&s))
+    else {
+        return;
+    };
+    for c in &mut out[first..] {
+        c.transform = Some(t);
+    }
+    transforms.push(node);
+}
+
+/// The entry without its `transform` key (which every family accepts),
+/// and that key's value.
+fn split_transform(item: &Node) -> (Node, Option<Node>) {
+    let mut rest = item.clone();
+    let mut found = None;
+    if let Kind::Map(entries) = &mut rest.kind {
+        entries.retain(|(k, v)| {
+            let is = matches!(&k.kind, Kind::Scalar(s, _) if s == "transform");
+            if is {
+                found = Some(v.clone());
+            }
+            !is
+        });
+    }
+    (rest, found)
 }
 
 /// The benchmarks, ar and ardl: lags or an order chosen by `select`, and a trend.
@@ -128,6 +166,7 @@ fn decode_lag_family(
                 trend,
             },
             line,
+            transform: None,
         });
         return;
     }
@@ -143,6 +182,7 @@ fn decode_lag_family(
             id: base,
             family,
             line,
+            transform: None,
         });
         return;
     }
@@ -221,6 +261,7 @@ fn expand_ar(
                 trend: e.trend,
             },
             line: e.line,
+            transform: None,
         });
     }
 }
@@ -256,6 +297,7 @@ fn expand_ardl(
                 trend: e.trend,
             },
             line: e.line,
+            transform: None,
         });
         return;
     }
@@ -298,6 +340,7 @@ fn expand_ardl(
                     trend: e.trend,
                 },
                 line: e.line,
+                transform: None,
             });
         }
     }

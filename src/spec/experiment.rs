@@ -15,8 +15,8 @@ use super::schemes::PendingScheme;
 use super::scoring::{decode_scoring, Scoring};
 use super::yaml::{Kind, Node};
 use super::{
-    Candidate, CombinationWeights, Declaration, Family, Layout, MultiStep, Release, ReportFormat,
-    Transform, VintageSpec,
+    BackTransform, Candidate, CombinationWeights, Declaration, Family, Layout, MultiStep, Release,
+    ReportFormat, Transform, Units, VintageSpec,
 };
 use crate::error::nearest;
 use std::path::Path;
@@ -163,8 +163,17 @@ pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
             .map(|(k, _)| k.line),
         _ => None,
     });
+    // Where candidates give their own transform (checked against
+    // scoring.units once that is read).
+    let mut transform_nodes = Vec::new();
     let candidates = match need(ctx, "candidates") {
-        Some(c) => decode_candidates(ctx, c, &predictors, &dummies, data.frequency),
+        Some(c) => decode_candidates(
+            ctx,
+            c,
+            (&predictors, &dummies),
+            data.frequency,
+            &mut transform_nodes,
+        ),
         None => Vec::new(),
     };
     let mut scoring = match top.get("scoring") {
@@ -205,6 +214,7 @@ pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
     };
     check_seasons(ctx, &decoded, &top);
     check_vintage_keys(ctx, &decoded);
+    check_units(ctx, &decoded, &transform_nodes);
     Some(decoded)
 }
 
@@ -213,9 +223,9 @@ pub(super) fn decode(ctx: &mut Ctx, root: &Node) -> Option<Decoded> {
 fn decode_candidates(
     ctx: &mut Ctx,
     c: &Node,
-    predictors: &Predictors,
-    dummies: &Dummies,
+    (predictors, dummies): (&Predictors, &Dummies),
     frequency: Option<Frequency>,
+    transforms: &mut Vec<Node>,
 ) -> Vec<Candidate> {
     let mut candidates: Vec<Candidate> = Vec::new();
     let mut pending: PendingMembers = Vec::new();
@@ -233,7 +243,15 @@ fn decode_candidates(
                 frequency_name: frequency.map_or("", Frequency::name),
             };
             for (i, item) in items.iter().enumerate() {
-                decode_candidate(ctx, item, i + 1, &names, &mut candidates, &mut pending);
+                decode_candidate(
+                    ctx,
+                    item,
+                    i + 1,
+                    &names,
+                    &mut candidates,
+                    &mut pending,
+                    transforms,
+                );
             }
         }
         _ => ctx.error(
@@ -448,6 +466,58 @@ fn check_vintage_keys(ctx: &mut Ctx, d: &Decoded) {
     }
 }
 
+/// `scoring.units: original` is what lets candidates differ in transform
+/// (forecasts of different transforms are not comparable in transformed
+/// units), and this version does not back-transform real-time data.
+fn check_units(ctx: &mut Ctx, d: &Decoded, transforms: &[Node]) {
+    let original = matches!(d.scoring.units, Some((Units::Original, _)));
+    if !original {
+        for node in transforms {
+            ctx.error(node, "a candidate's own transform needs scoring.units: original: forecasts of differently transformed targets are in different units (a level, a change, a growth rate) and cannot be scored against each other; add units: original under scoring, or drop this transform (see docs/experiment-file.md#units)");
+        }
+    }
+    if original && d.scoring.back_transform == BackTransform::Mean {
+        check_mean_centre(ctx, d);
+    }
+    if let (true, Some((_, node)), true) = (
+        original,
+        &d.scoring.units,
+        d.data.layout() != Layout::Periods,
+    ) {
+        ctx.error(node, format!("scoring.units: original is not available with data.layout {}: this version does not back-transform forecasts made on real-time vintages; use units: transformed (see docs/experiment-file.md#units)", d.data.layout().name()));
+    }
+}
+
+/// `back_transform: mean` needs the variance of every log level: under
+/// `log_diff` beyond one step only models with a joint error model have
+/// it (arima, iterated ar, additive-error smoothing without a
+/// multiplicative season).
+fn check_mean_centre(ctx: &mut Ctx, d: &Decoded) {
+    use super::{SmoothingError as E, SmoothingSeason as S};
+    if d.horizons.iter().all(|&h| h <= 1) {
+        return;
+    }
+    let linear = |e: E, s: S| e == E::Additive && s != S::Multiplicative;
+    for c in &d.candidates {
+        if c.transform
+            .unwrap_or(d.transform.unwrap_or(Transform::None))
+            != Transform::LogDiff
+        {
+            continue;
+        }
+        let has = match &c.family {
+            Family::Arima { .. } | Family::ArimaSelect { .. } => true,
+            Family::Ar { .. } | Family::ArSelect { .. } => d.multi_step == MultiStep::Iterated,
+            Family::Smoothing { error, season, .. } => linear(*error, *season),
+            Family::SmoothingSelect { forms } => forms.iter().all(|f| linear(f.0, f.2)),
+            _ => false,
+        };
+        if !has {
+            ctx.error(&line_node(c.line), format!("candidate {}: back_transform: mean needs the variance of each log level, and under log_diff beyond one step this model has none (only arima, iterated ar and additive-error smoothing do); use back_transform: median, or another transform for this candidate (see docs/experiment-file.md#units)", c.id));
+        }
+    }
+}
+
 impl Decoded {
     /// Real-time data as declared, None for the ordinary layout.
     fn vintage_spec(&self) -> Option<VintageSpec> {
@@ -500,6 +570,8 @@ impl Decoded {
             intervals,
             quantiles,
             intervals_from,
+            units,
+            back_transform,
             tests,
             periods,
             rolling_window,
@@ -524,6 +596,8 @@ impl Decoded {
             intervals,
             quantiles,
             intervals_from,
+            units: units.map_or(Units::Transformed, |(u, _)| u),
+            back_transform,
             tests,
             periods,
             rolling_window,

@@ -254,6 +254,7 @@ fn expand_arima(
                             regressors: e.regressors.clone(),
                         },
                         line: e.line,
+                        transform: None,
                     });
                 }
             }
@@ -286,6 +287,7 @@ fn expand_select(
                 regressors: e.regressors,
             },
             line: e.line,
+            transform: None,
         });
         return;
     }
@@ -326,6 +328,7 @@ fn expand_select(
                     regressors: e.regressors.clone(),
                 },
                 line: e.line,
+                transform: None,
             });
         }
     }
@@ -404,6 +407,7 @@ pub(super) fn decode_smoothing(ctx: &mut Ctx, item: &Node, path: &str, out: &mut
             id: format!("{base}(aicc)"),
             family: Family::SmoothingSelect { forms },
             line,
+            transform: None,
         });
         return;
     }
@@ -421,6 +425,7 @@ pub(super) fn decode_smoothing(ctx: &mut Ctx, item: &Node, path: &str, out: &mut
                 season,
             },
             line,
+            transform: None,
         });
     }
 }
@@ -491,5 +496,6 @@ pub(super) fn decode_combination(
             weights,
         },
         line,
+        transform: None,
     });
 }

@@ -170,6 +170,55 @@ pub struct QuantileColumn {
     pub sign: f64,
 }
 
+/// The units forecasts are scored in (`scoring.units`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum Units {
+    /// The target's transformed units (the default).
+    #[default]
+    Transformed,
+    /// The data file's units: forecasts back-transformed to levels.
+    Original,
+}
+
+impl Units {
+    pub const NAMES: [&'static str; 2] = ["transformed", "original"];
+    pub fn parse(s: &str) -> Option<Units> {
+        Some(match s {
+            "transformed" => Units::Transformed,
+            "original" => Units::Original,
+            _ => return None,
+        })
+    }
+    pub fn name(self) -> &'static str {
+        Self::NAMES[self as usize]
+    }
+}
+
+/// Which point of a log-normal level a back-transformed forecast reports
+/// (`scoring.back_transform`; only log and log_diff are affected).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum BackTransform {
+    /// exp(û): the median.
+    #[default]
+    Median,
+    /// exp(û + v/2): the mean.
+    Mean,
+}
+
+impl BackTransform {
+    pub const NAMES: [&'static str; 2] = ["median", "mean"];
+    pub fn parse(s: &str) -> Option<BackTransform> {
+        Some(match s {
+            "median" => BackTransform::Median,
+            "mean" => BackTransform::Mean,
+            _ => return None,
+        })
+    }
+    pub fn name(self) -> &'static str {
+        Self::NAMES[self as usize]
+    }
+}
+
 /// Where intervals and quantiles come from (`scoring.intervals_from`, SPEC §7.6).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
 pub enum IntervalsFrom {
@@ -375,17 +424,51 @@ pub struct TargetData {
     /// vintage of this target and the outturns scored; None for the
     /// ordinary layout. The fields above then hold the last vintage.
     pub vintages: Option<std::sync::Arc<Vintages>>,
+    /// `scoring.units: original`: forecasts are scored against the data
+    /// file's values (`raw`), not the transformed target.
+    pub in_levels: bool,
+    /// The transformed target of each other transform the candidates ask
+    /// for (`transform:` on a candidate), at the same positions 1..N.
+    pub alternates: Vec<(Transform, Vec<f64>)>,
 }
 
 impl TargetData {
-    /// The outturn scored at position `pos` (1-based): the chosen release
-    /// under vintages (NaN where the file has no such release yet), else
-    /// the target itself.
+    /// The outturn scored at position `pos` (1-based): the data file's
+    /// value under `units: original`, the chosen release under vintages
+    /// (NaN where the file has no such release yet), else the target itself.
     pub fn actual(&self, pos: usize) -> f64 {
         match &self.vintages {
+            _ if self.in_levels => self.raw[pos - 1],
             Some(v) => v.actual[pos - 1],
             None => self.y[pos - 1],
         }
+    }
+
+    /// The series forecasts are scored in, positions 1..N: the data file's
+    /// values under `units: original`, else the transformed target.
+    pub fn scored(&self) -> &[f64] {
+        if self.in_levels {
+            &self.raw
+        } else {
+            &self.y
+        }
+    }
+
+    /// The data file's values at positions up to `pos` and the rows before
+    /// position 1 (what a transform lost): the levels a back-transform
+    /// starts from (NaN for an empty cell).
+    pub fn levels_through(&self, pos: usize) -> Vec<f64> {
+        self.source.target[..self.source.lag + pos]
+            .iter()
+            .map(|v| v.unwrap_or(f64::NAN))
+            .collect()
+    }
+
+    /// The transformed target a model with transform `t` sees (`None`: the
+    /// experiment's).
+    pub fn series(&self, t: Option<Transform>) -> &[f64] {
+        t.and_then(|t| self.alternates.iter().find(|(a, _)| *a == t))
+            .map_or(&self.y, |(_, v)| v)
     }
 }
 
@@ -509,6 +592,10 @@ pub struct Declaration {
     /// Probabilities of `scoring.quantiles`, ascending (SPEC §7.6).
     pub quantiles: Vec<f64>,
     pub intervals_from: IntervalsFrom,
+    /// `scoring.units`: transformed (default) or the data file's.
+    pub units: Units,
+    /// `scoring.back_transform`: the centre of a log-based level.
+    pub back_transform: BackTransform,
     pub tests: TestsSpec,
     /// Named sub-periods of `scoring.periods`, in file order.
     pub periods: Vec<PeriodSet>,
@@ -613,6 +700,11 @@ impl Declaration {
             Some(l) => format!("{}_{}", col.metric.name(), self.intervals[l].percent),
             None => col.metric.name().to_string(),
         }
+    }
+
+    /// The transform candidate `c`'s model sees: its own, else the experiment's.
+    pub fn transform_of(&self, c: usize) -> Transform {
+        self.candidates[c].transform.unwrap_or(self.transform)
     }
 
     pub fn season_length(&self) -> Option<usize> {

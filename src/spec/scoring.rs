@@ -5,8 +5,8 @@ use super::decode::Ctx;
 use super::period::{self, Frequency};
 use super::yaml::{Kind, Node};
 use super::{
-    percent_text, ConfidenceSetSpec, IntervalLevel, IntervalsFrom, Metric, PeriodSet, Release,
-    SnoopingSpec, TestsSpec,
+    percent_text, BackTransform, ConfidenceSetSpec, IntervalLevel, IntervalsFrom, Metric,
+    PeriodSet, Release, SnoopingSpec, TestsSpec, Units,
 };
 
 pub(super) struct Scoring {
@@ -16,6 +16,9 @@ pub(super) struct Scoring {
     pub intervals: Vec<IntervalLevel>,
     pub quantiles: Vec<f64>,
     pub intervals_from: IntervalsFrom,
+    /// `units` and where it is written (None: not given, transformed).
+    pub units: Option<(Units, Node)>,
+    pub back_transform: BackTransform,
     pub tests: TestsSpec,
     /// `scoring.tests.encompassing`: on, and the rival it names (none:
     /// the benchmark), resolved to an index with the benchmark.
@@ -37,6 +40,8 @@ impl Default for Scoring {
             intervals: Vec::new(),
             quantiles: Vec::new(),
             intervals_from: IntervalsFrom::Model,
+            units: None,
+            back_transform: BackTransform::Median,
             tests: TestsSpec::default(),
             encompassing: None,
             periods: Vec::new(),
@@ -88,6 +93,8 @@ pub(super) fn decode_scoring(ctx: &mut Ctx, node: &Node, frequency: Option<Frequ
             "periods",
             "rolling_window",
             "actual",
+            "units",
+            "back_transform",
         ],
         &[],
     ) else {
@@ -144,6 +151,20 @@ pub(super) fn decode_scoring(ctx: &mut Ctx, node: &Node, frequency: Option<Frequ
     }
     if let Some(a) = view.get("actual") {
         out.actual = decode_actual(ctx, a).map(|r| (r, a.clone()));
+    }
+    if let Some(u) = view.get("units") {
+        out.units = ctx
+            .choice(u, "scoring.units", &Units::NAMES)
+            .and_then(|s| Units::parse(&s))
+            .map(|units| (units, u.clone()));
+    }
+    if let Some(b) = view.get("back_transform") {
+        if let Some(c) = ctx
+            .choice(b, "scoring.back_transform", &BackTransform::NAMES)
+            .and_then(|s| BackTransform::parse(&s))
+        {
+            out.back_transform = c;
+        }
     }
     if let Some(n) = view.get("intervals_from") {
         decode_intervals_from(ctx, n, &mut out);

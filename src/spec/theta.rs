@@ -36,6 +36,7 @@ pub(super) fn decode_theta(ctx: &mut Ctx, item: &Node, path: &str, out: &mut Vec
             },
             family: Family::Theta { multiplicative },
             line,
+            transform: None,
         });
     }
 }

@@ -18,6 +18,39 @@ pub(crate) fn forecast(
     regressors: &[Vec<f64>],
     max_h: usize,
 ) -> Result<Vec<(f64, f64)>, ArimaError> {
+    forecast_with(fit, y, regressors, max_h, None)
+}
+
+/// The covariance (row-major `max_h` × `max_h`, σ² included) of the level
+/// forecast errors at steps 1..=max_h from the end of `y`: Ψ C Ψ′ σ² with C
+/// the filter's covariance of the differenced series' errors and Ψ the
+/// integration weights (its diagonal is [`forecast`]'s variances). The
+/// regressors move the mean only, so they are not needed.
+pub(crate) fn error_covariance(
+    fit: &ArimaFit,
+    y: &[f64],
+    max_h: usize,
+) -> Result<Vec<f64>, ArimaError> {
+    let mut full = Vec::new();
+    let no_regressors = ArimaFit {
+        params: super::ArimaParams {
+            beta: Vec::new(),
+            ..fit.params.clone()
+        },
+        left_out: Vec::new(),
+        ..fit.clone()
+    };
+    forecast_with(&no_regressors, y, &[], max_h, Some(&mut full))?;
+    Ok(full)
+}
+
+fn forecast_with(
+    fit: &ArimaFit,
+    y: &[f64],
+    regressors: &[Vec<f64>],
+    max_h: usize,
+    full: Option<&mut Vec<f64>>,
+) -> Result<Vec<(f64, f64)>, ArimaError> {
     let order = &fit.order;
     check_order(order)?;
     check_params(&fit.params, order)?;
@@ -64,8 +97,8 @@ pub(crate) fn forecast(
         &eta
     };
     let mut out = match order.seasonal {
-        None => error_forecast(fit, errors, max_h)?,
-        Some(_) => seasonal_error_forecast(fit, errors, max_h)?,
+        None => error_forecast(fit, errors, max_h, full)?,
+        Some(_) => seasonal_error_forecast(fit, errors, max_h, full)?,
     };
     for (h, step) in out.iter_mut().enumerate() {
         step.0 += active.iter().map(|(b, x)| b * x[n + h]).sum::<f64>();
@@ -79,7 +112,12 @@ pub(crate) fn forecast(
 }
 
 /// The non-seasonal model's level forecasts, computed as they always were.
-fn error_forecast(fit: &ArimaFit, y: &[f64], max_h: usize) -> Result<Vec<(f64, f64)>, ArimaError> {
+fn error_forecast(
+    fit: &ArimaFit,
+    y: &[f64],
+    max_h: usize,
+    full: Option<&mut Vec<f64>>,
+) -> Result<Vec<(f64, f64)>, ArimaError> {
     let order = &fit.order;
     let d = order.d;
     let mu = if order.has_mean() {
@@ -95,7 +133,27 @@ fn error_forecast(fit: &ArimaFit, y: &[f64], max_h: usize) -> Result<Vec<(f64, f
     let (wf, cov) = differenced_forecasts(&ss, &fo, mu, max_h);
     let psi = integration_weights(d, max_h);
     let levels = undifference(y, d, wf)?;
+    if let Some(full) = full {
+        *full = level_covariance(&cov, &psi, s2, max_h);
+    }
     collect(&levels, &cov, &psi, s2, max_h)
+}
+
+/// Ψ C Ψ′ σ², Ψ the lower-triangular Toeplitz matrix of `psi`.
+fn level_covariance(cov: &[f64], psi: &[f64], s2: f64, max_h: usize) -> Vec<f64> {
+    let mut m = vec![0.0; max_h * max_h];
+    for h in 0..max_h {
+        for l in 0..max_h {
+            m[h * max_h + l] = (0..=h).map(|k| psi[h - k] * cov[k * max_h + l]).sum();
+        }
+    }
+    let mut out = vec![0.0; max_h * max_h];
+    for h in 0..max_h {
+        for g in 0..max_h {
+            out[h * max_h + g] = s2 * (0..=g).map(|l| m[h * max_h + l] * psi[g - l]).sum::<f64>();
+        }
+    }
+    out
 }
 
 /// The seasonal model's level forecasts: the differenced series w = Δ^d
@@ -109,6 +167,7 @@ fn seasonal_error_forecast(
     fit: &ArimaFit,
     y: &[f64],
     max_h: usize,
+    full: Option<&mut Vec<f64>>,
 ) -> Result<Vec<(f64, f64)>, ArimaError> {
     let order = &fit.order;
     let s = order.season();
@@ -150,6 +209,9 @@ fn seasonal_error_forecast(
             up.push(v + prev);
         }
         levels = up;
+    }
+    if let Some(full) = full {
+        *full = level_covariance(&cov, &psi, fit.params.sigma2, max_h);
     }
     collect(&levels, &cov, &psi, fit.params.sigma2, max_h)
 }

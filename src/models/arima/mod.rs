@@ -87,7 +87,7 @@
 
 mod covariance;
 mod estimate;
-mod forecast;
+pub(crate) mod forecast;
 mod kalman;
 mod parameters;
 pub(crate) mod poly;

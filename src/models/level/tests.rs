@@ -193,3 +193,83 @@ fn seasonal_and_percentage_levels_by_hand() {
     assert!((lo - 110.0).abs() < 1e-9 && (hi - 110.0).abs() < 1e-9);
     assert_eq!(bounds(Transform::PctChange, (0.0, 1.0), 0.95, None), None);
 }
+
+#[test]
+fn the_covariance_route_is_the_psi_route() {
+    // By construction: with C_jk = σ²Σ_i ψ_{j−i}ψ_{k−i}, ι′Cι is
+    // σ²Σψ*², for every differencing transform; ψ of the OLS AR(2) on
+    // Δ realgdp (units_reference.json), whose level variances the test
+    // above checks against statsmodels.
+    let r = reference("units/units_reference.json");
+    let ols = &r["differenced_ar"]["ols"];
+    let phi = [ols["ar1"].as_f64().unwrap(), ols["ar2"].as_f64().unwrap()];
+    let h = 12;
+    let psi = crate::models::linear::psi_weights(&phi, h);
+    let s2 = ols["sigma2"].as_f64().unwrap();
+    let cov = covariance_from_psi(&psi, s2, h);
+    for (t, m) in [
+        (Transform::Diff, 1),
+        (Transform::LogDiff, 1),
+        (Transform::SeasonalDiff, 4),
+        (Transform::PctChange, 1),
+        (Transform::None, 1),
+    ] {
+        let a = level_variances(t, m, &psi, s2, h);
+        let b = level_variances_from_covariance(t, m, &cov, h);
+        for j in 0..h {
+            match (a[j], b[j]) {
+                (Some(x), Some(y)) => assert!(rel(y, x) < 1e-12, "{t:?} h={}: {y} vs {x}", j + 1),
+                (x, y) => assert_eq!(x, y, "{t:?} h={}", j + 1),
+            }
+        }
+    }
+}
+
+#[test]
+fn arima_error_covariance_has_the_forecast_variances_on_its_diagonal() {
+    // The airline model on ln AirPassengers at the reference's parameters
+    // (its forecast variances are statsmodels' to 1e-8,
+    // arima/sarima_tests.rs): the full covariance's diagonal is them, and
+    // it is symmetric.
+    let r = reference("sarima/sarima_reference.json");
+    let path = airline_log_path();
+    let c = &r["cases"][0];
+    let fit = ArimaFit {
+        order: ArimaOrder {
+            p: 0,
+            d: 1,
+            q: 1,
+            drift: false,
+            seasonal: Some(SeasonalOrder {
+                p: 0,
+                d: 1,
+                q: 1,
+                m: 12,
+            }),
+        },
+        params: ArimaParams {
+            ar: Vec::new(),
+            ma: floats(&c["ma"]),
+            sar: Vec::new(),
+            sma: floats(&c["sma"]),
+            mean_or_drift: 0.0,
+            beta: Vec::new(),
+            sigma2: c["sigma2"].as_f64().unwrap(),
+        },
+        loglik: 0.0,
+        sigma2: c["sigma2"].as_f64().unwrap(),
+        is_mse: 0.0,
+        n_params: 3,
+        nobs: 131,
+        iterations: 0,
+        left_out: Vec::new(),
+    };
+    let h = 24;
+    let cov = forecast::error_covariance(&fit, &floats(&r["series"]["air"]["y"]), h).unwrap();
+    for j in 0..h {
+        assert!(rel(cov[j * h + j], path[j].1) < 1e-12, "h={}", j + 1);
+        for k in 0..h {
+            assert!(rel(cov[j * h + k], cov[k * h + j]) < 1e-12);
+        }
+    }
+}

@@ -236,6 +236,31 @@ impl Model for Linear<'_> {
             .collect()
     }
 
+    /// An iterated model's forecast errors are Σ_{k<h} ψ_k ε_{T+h−k} with
+    /// the one-step regression's ψ-weights and σ̂² (SPEC §4's iterated
+    /// variances are the diagonal); a direct model's h-step regressions
+    /// have no joint error model, so none.
+    fn error_covariance(
+        &self,
+        fit: &mut LinearFit,
+        _origin: usize,
+        count: usize,
+    ) -> Option<Vec<f64>> {
+        if !self.iterated {
+            return None;
+        }
+        let inputs = self.inputs(0);
+        let chosen = fit.estimators[0].at(&inputs, fit.end).ok()?;
+        let sub = &self.subs[chosen.index];
+        let t = self.design.trend.terms();
+        let psi = psi_weights(&chosen.solution.coef[t..t + sub.lags], count);
+        Some(super::level::covariance_from_psi(
+            &psi,
+            chosen.solution.sigma2(),
+            count,
+        ))
+    }
+
     /// The coefficients of each regression solved at the current end with
     /// their classical standard errors s·√((X′X)⁻¹)_jj, s² = SSR/(n − k),
     /// and `sigma2` = s² (no standard error); a direct model's rows carry

@@ -62,6 +62,37 @@ pub(crate) fn forecast(
     Ok(out)
 }
 
+/// The ψ-weights of an additive-error model without a multiplicative
+/// season, ψ_0 = 1 and ψ_j = c_j = α + β φ_j + γ d_{j,m} (class 1 of
+/// Hyndman, Koehler, Ord & Snyder 2008, Table 6.2; φ_j = φ + … + φ^j,
+/// d_{j,m} = 1 when m divides j): the h-step error is Σ_{j<h} c_j ε_{T+h−j},
+/// whose variances the state propagation of [`forecast`] gives. None for
+/// the nonlinear forms (a multiplicative error or season).
+pub(crate) fn psi_weights(fit: &EtsFit, count: usize) -> Option<Vec<f64>> {
+    let spec = &fit.spec;
+    if spec.mult_error() || spec.multiplicative() {
+        return None;
+    }
+    let sm = Smooth::of(&fit.params, spec);
+    let mut out = Vec::with_capacity(count);
+    let (mut phi_j, mut power) = (0.0, 1.0);
+    for j in 0..count {
+        if j == 0 {
+            out.push(1.0);
+            continue;
+        }
+        power *= sm.phi;
+        phi_j += power;
+        let season = if spec.has_season() && j % spec.period.max(1) == 0 {
+            sm.gamma
+        } else {
+            0.0
+        };
+        out.push(sm.alpha + sm.beta * phi_j + season);
+    }
+    Some(out)
+}
+
 /// Forecast variances of ETS(M,N,N), (M,A,N) and (M,Ad,N), class 2 of
 /// Hyndman, Koehler, Ord & Snyder (2008, §6.3):
 /// v_h = (1 + σ²) θ_h − μ_h², θ_1 = μ_1², θ_h = μ_h² + σ² Σ_{j=1}^{h−1} c_j² θ_{h−j},

@@ -106,7 +106,7 @@ mod tests;
 
 pub(crate) use estimate::estimate;
 pub(crate) use filter::one_step_errors;
-pub(crate) use forecast::forecast;
+pub(crate) use forecast::{forecast, psi_weights};
 pub(crate) use parameters::parameters;
 
 use crate::spec::{SmoothingError, SmoothingSeason, SmoothingTrend};

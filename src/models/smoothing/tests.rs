@@ -401,3 +401,55 @@ fn parameter_rows_match_statsmodels_at_a_sharp_optimum() {
     );
     assert!(compared >= 20, "too few sharp cases compared: {compared}");
 }
+
+/// The class-1 ψ-weights behind a cumulated level's variance: for every
+/// linear (additive-error, no multiplicative season) case of the
+/// statsmodels reference, σ²Σ_{j<h}ψ_j² equals the forecast variances,
+/// which `forecast_matches_statsmodels_at_its_parameters` checks against
+/// ETSModel to 1e-8; the nonlinear forms have none.
+#[test]
+fn psi_weights_give_the_linear_forms_forecast_variances() {
+    let r = load();
+    let mut checked = 0;
+    for case in r["cases"].as_array().unwrap() {
+        let spec = spec_of(case);
+        let y = floats(&case["y"]);
+        let start = &case["starts"][0];
+        let mse = start["mse"].as_f64().unwrap();
+        let fit = EtsFit {
+            spec,
+            params: ref_params(start),
+            sse: mse * y.len() as f64,
+            is_mse: mse,
+            sigma2: mse,
+            loglik: 0.0,
+            n_params: spec.n_params(),
+            nobs: y.len(),
+            evaluations: 0,
+        };
+        let Some(psi) = super::psi_weights(&fit, 8) else {
+            assert!(
+                spec.mult_error() || spec.multiplicative(),
+                "{}",
+                case["name"]
+            );
+            continue;
+        };
+        let fc = forecast(&fit, &y, 8, 0, 1).unwrap();
+        let mut acc = 0.0;
+        for h in 0..8 {
+            acc += psi[h] * psi[h];
+            let rel = (mse * acc - fc[h].1).abs() / fc[h].1;
+            assert!(
+                rel < 1e-10,
+                "{} h={}: {} vs {}",
+                case["name"],
+                h + 1,
+                mse * acc,
+                fc[h].1
+            );
+        }
+        checked += 1;
+    }
+    assert!(checked >= 3, "linear cases checked: {checked}");
+}

@@ -57,6 +57,14 @@ pub(in crate::spec) fn with_data(
         }
     };
     let vintage_spec = d.vintage_spec();
+    let mut other_transforms: Vec<(super::super::Transform, String)> = Vec::new();
+    for c in &d.candidates {
+        if let Some(t) = c.transform.filter(|t| *t != transform) {
+            if other_transforms.iter().all(|(o, _)| *o != t) {
+                other_transforms.push((t, c.id.clone()));
+            }
+        }
+    }
     let request = resolve::DataRequest {
         time: (time_col, time_node),
         frequency,
@@ -76,7 +84,8 @@ pub(in crate::spec) fn with_data(
             .candidates
             .iter()
             .find(|c| c.family.multiplicative_error())
-            .map(|c| c.id.as_str()),
+            .map(|c| (c.id.as_str(), c.transform.unwrap_or(transform))),
+        other_transforms: &other_transforms,
     };
     let resolved = match &vintage_spec {
         Some(spec) => resolve::resolve_vintages(ctx, &table, request, spec),
@@ -104,12 +113,16 @@ pub(in crate::spec) fn with_data(
     if period_problems {
         return None;
     }
+    let mut targets = resolved.targets;
+    for t in &mut targets {
+        t.in_levels = declared.units == super::super::Units::Original;
+    }
     Some(Experiment {
         declared,
         data_path,
         data_bytes_sha256: crate::digest::sha256_hex(&bytes),
         label_style: resolved.label_style,
-        targets: resolved.targets,
+        targets,
     })
 }
 

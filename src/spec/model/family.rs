@@ -359,4 +359,7 @@ pub struct Candidate {
     pub family: Family,
     /// Line of the candidate entry in the experiment file.
     pub line: usize,
+    /// The candidate's own `transform` (only with `scoring.units:
+    /// original`); None: the experiment's.
+    pub transform: Option<super::Transform>,
 }

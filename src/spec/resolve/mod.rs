@@ -29,8 +29,12 @@ pub struct DataRequest<'a> {
     pub schemes: &'a [(&'a Scheme, &'a Node)],
     pub horizons: &'a [usize],
     /// The first candidate whose model needs every target value above 0
-    /// (a multiplicative error), if any.
-    pub positive_for: Option<&'a str>,
+    /// (a multiplicative error), if any, and the transform its model sees.
+    pub positive_for: Option<(&'a str, Transform)>,
+    /// The other transforms candidates ask for (`transform:` on a
+    /// candidate, with `scoring.units: original`), each once, with the
+    /// first candidate that asks for it.
+    pub other_transforms: &'a [(Transform, String)],
 }
 
 pub struct Resolved {
@@ -146,6 +150,14 @@ pub fn remade(
         .map_err(|e| why("the target", e))?;
     let mut out = target.clone();
     let n = target.n;
+    for (t, series) in &mut out.alternates {
+        let z =
+            columns::apply_transform(*t, &raw_target, season).map_err(|e| why("the target", e))?;
+        *series = z[src.lag..src.lag + n]
+            .iter()
+            .map(|v| v.unwrap_or(f64::NAN))
+            .collect();
+    }
     out.y = y[src.lag..src.lag + n]
         .iter()
         .map(|v| v.unwrap_or(f64::NAN))

@@ -5,7 +5,7 @@
 
 use super::super::data::{RawRow, RawTable};
 use super::super::decode::Ctx;
-use super::super::model::{RawSource, SchemeStart, TargetData};
+use super::super::model::{RawSource, SchemeStart, TargetData, Transform};
 use super::super::period::{parse_label, Frequency};
 use super::super::yaml::Node;
 use super::columns::{
@@ -63,7 +63,13 @@ pub(super) fn resolve_target(
     let rows = sel.rows;
     let season = sel.freq.season_length();
     let (raw, last) = target_values(ctx, sel, req, (name, node, col))?;
-    let lag = transform_lag(req.transform, season);
+    // Positions are where every candidate's transformed target exists:
+    // the largest lag of the transforms asked for.
+    let lag = req
+        .other_transforms
+        .iter()
+        .map(|(t, _)| transform_lag(*t, season))
+        .fold(transform_lag(req.transform, season), usize::max);
     let transformed = match apply_transform(req.transform, &raw[..=last], season) {
         Ok(t) => t,
         Err((i, m)) => {
@@ -99,7 +105,12 @@ pub(super) fn resolve_target(
         .iter()
         .map(|v| v.unwrap_or(f64::NAN))
         .collect();
-    if let Some(candidate) = req.positive_for {
+    let alternates = other_series(ctx, sel, req, (col, &raw[..=last]), lag)?;
+    if let Some((candidate, seen)) = req.positive_for {
+        let y = alternates
+            .iter()
+            .find(|(t, _)| *t == seen)
+            .map_or(&y, |(_, v)| v);
         if let Some(i) = y.iter().position(|&v| v <= 0.0) {
             ctx.diags.push(cell_error(
                 sel.table,
@@ -107,8 +118,8 @@ pub(super) fn resolve_target(
                 col,
                 format!(
                     "{}{} is not above 0, and candidate '{candidate}' has a multiplicative error, which needs every target value above 0; remove the candidate's multiplicative error, or transform or select the data so the series stays positive (see docs/refusals.md)",
-                    if req.transform != super::super::model::Transform::None {
-                        format!("after the transform {}, the value ", req.transform.name())
+                    if seen != super::super::model::Transform::None {
+                        format!("after the transform {}, the value ", seen.name())
                     } else {
                         "the value ".to_string()
                     },
@@ -149,7 +160,38 @@ pub(super) fn resolve_target(
             predictors: raw_predictors,
         },
         vintages: None,
+        in_levels: false,
+        alternates,
     })
+}
+
+/// The target under each other transform candidates ask for, at the
+/// positions 1..N that start `lag` rows in; None when the data cannot take
+/// one (reported at the cell, naming the candidate).
+fn other_series(
+    ctx: &mut Ctx,
+    sel: &Selection,
+    req: &DataRequest,
+    (col, raw): (usize, &[Option<f64>]),
+    lag: usize,
+) -> Option<Vec<(Transform, Vec<f64>)>> {
+    let season = sel.freq.season_length();
+    let mut out = Vec::new();
+    for (t, candidate) in req.other_transforms {
+        match apply_transform(*t, raw, season) {
+            Ok(z) => out.push((*t, z[lag..].iter().map(|v| v.unwrap_or(f64::NAN)).collect())),
+            Err((i, m)) => {
+                ctx.diags.push(cell_error(
+                    sel.table,
+                    sel.rows[i].line,
+                    col,
+                    format!("candidate '{candidate}' asks for transform {}: {m}; give it another transform or select rows the transform can take (see docs/experiment-file.md#units)", t.name()),
+                ));
+                return None;
+            }
+        }
+    }
+    Some(out)
 }
 
 /// The target column's values and the index of its last value; None when a
