@@ -248,15 +248,7 @@ impl models::Visitor for OriginLoop<'_> {
                 .zip(self.scale.forecast(model, fit, origin, &asked))
             {
                 match step {
-                    Ok(step) => per_h[i].push(ForecastRow {
-                        horizon: horizons[i],
-                        origin,
-                        forecast: step.forecast,
-                        is_mse: step.is_mse,
-                        is_var: step.is_var,
-                        variance: step.variance,
-                        order: step.order,
-                    }),
+                    Ok(step) => per_h[i].push(ForecastRow::of(horizons[i], origin, step)),
                     Err(Problem { horizon, message }) if M::STRICT => {
                         problems[i] = Some(EstimationProblem {
                             horizon,

@@ -78,16 +78,8 @@ pub(crate) fn forecast_with<M: Model>(
         .iter()
         .zip(scale.forecast(model, fit, origin, horizons))
         .map(|(&horizon, step)| {
-            step.map(|step| ForecastRow {
-                horizon,
-                origin,
-                forecast: step.forecast,
-                is_mse: step.is_mse,
-                is_var: step.is_var,
-                variance: step.variance,
-                order: step.order,
-            })
-            .map_err(|p| p.message)
+            step.map(|step| ForecastRow::of(horizon, origin, step))
+                .map_err(|p| p.message)
         })
         .collect();
     let mut out = Scratch {

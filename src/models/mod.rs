@@ -41,6 +41,21 @@ pub(crate) struct ForecastRow {
     pub order: Option<Order>,
 }
 
+impl ForecastRow {
+    /// The row of a model's forecast `step` at `horizon` from `origin`.
+    pub(crate) fn of(horizon: usize, origin: usize, step: Step) -> ForecastRow {
+        ForecastRow {
+            horizon,
+            origin,
+            forecast: step.forecast,
+            is_mse: step.is_mse,
+            is_var: step.is_var,
+            variance: step.variance,
+            order: step.order,
+        }
+    }
+}
+
 /// The order chosen by a candidate with `select`, written like its id's
 /// brackets: `3` for ar(3), `2,1` for ardl(2,1), `1,1,0` for arima(1,1,0),
 /// `(0,1,1)(0,1,1)12` for a seasonal arima.

@@ -28,14 +28,10 @@ fn rel(a: f64, b: f64) -> f64 {
     (a - b).abs() / b.abs().max(1e-300)
 }
 
-/// Our airline forecasts of ln AirPassengers at the parameters the
-/// seasonal arima reference recorded (that path is checked against
-/// statsmodels to 1e-8 in arima/sarima_tests.rs).
-fn airline_log_path() -> Vec<(f64, f64)> {
-    let r = reference("sarima/sarima_reference.json");
-    let c = &r["cases"][0];
-    assert_eq!(c["name"], "air airline");
-    let fit = ArimaFit {
+/// The airline model of the seasonal arima reference's first case at its
+/// recorded parameters.
+fn airline_fit(c: &Value) -> ArimaFit {
+    ArimaFit {
         order: ArimaOrder {
             p: 0,
             d: 1,
@@ -64,7 +60,17 @@ fn airline_log_path() -> Vec<(f64, f64)> {
         nobs: c["nobs"].as_u64().unwrap() as usize,
         iterations: 0,
         left_out: Vec::new(),
-    };
+    }
+}
+
+/// Our airline forecasts of ln AirPassengers at the parameters the
+/// seasonal arima reference recorded (that path is checked against
+/// statsmodels to 1e-8 in arima/sarima_tests.rs).
+fn airline_log_path() -> Vec<(f64, f64)> {
+    let r = reference("sarima/sarima_reference.json");
+    let c = &r["cases"][0];
+    assert_eq!(c["name"], "air airline");
+    let fit = airline_fit(c);
     forecast(&fit, &floats(&r["series"]["air"]["y"]), &[], 24).unwrap()
 }
 
@@ -234,36 +240,7 @@ fn arima_error_covariance_has_the_forecast_variances_on_its_diagonal() {
     let r = reference("sarima/sarima_reference.json");
     let path = airline_log_path();
     let c = &r["cases"][0];
-    let fit = ArimaFit {
-        order: ArimaOrder {
-            p: 0,
-            d: 1,
-            q: 1,
-            drift: false,
-            seasonal: Some(SeasonalOrder {
-                p: 0,
-                d: 1,
-                q: 1,
-                m: 12,
-            }),
-        },
-        params: ArimaParams {
-            ar: Vec::new(),
-            ma: floats(&c["ma"]),
-            sar: Vec::new(),
-            sma: floats(&c["sma"]),
-            mean_or_drift: 0.0,
-            beta: Vec::new(),
-            sigma2: c["sigma2"].as_f64().unwrap(),
-        },
-        loglik: 0.0,
-        sigma2: c["sigma2"].as_f64().unwrap(),
-        is_mse: 0.0,
-        n_params: 3,
-        nobs: 131,
-        iterations: 0,
-        left_out: Vec::new(),
-    };
+    let fit = airline_fit(c);
     let h = 24;
     let cov = forecast::error_covariance(&fit, &floats(&r["series"]["air"]["y"]), h).unwrap();
     for j in 0..h {
