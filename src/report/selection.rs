@@ -170,6 +170,32 @@ impl Chooser {
 }
 
 /// The choice over every target from the whole scores.csv (in target
+/// The (target, candidate) pairs whose parameters the report shows: in
+/// each target, scheme and listed horizon the candidate ranked first other
+/// than the benchmark (the first on ties), over the whole sample: the rule
+/// a run applies to each target's slice, so that `render` reads no
+/// parameters beyond them.
+pub fn parameter_leaders(
+    grid: &Grid,
+    scores: &[ScoreRow],
+) -> std::collections::HashSet<(usize, usize)> {
+    let mut best: std::collections::HashMap<(usize, usize, usize), (usize, usize)> =
+        Default::default();
+    for r in scores {
+        let (None, Some(h)) = (&r.period_set, r.horizon) else {
+            continue;
+        };
+        if r.candidate == grid.benchmark {
+            continue;
+        }
+        let value = (r.rank, r.candidate);
+        best.entry((r.target, r.scheme, h))
+            .and_modify(|b| *b = (*b).min(value))
+            .or_insert(value);
+    }
+    best.iter().map(|(&(t, _, _), &(_, c))| (t, c)).collect()
+}
+
 /// order).
 pub fn choose(grid: &Grid, metric_names: &[String], scores: &[ScoreRow], quota: usize) -> Chooser {
     let mut start = 0;

@@ -90,27 +90,38 @@ impl Source<'_> {
 impl Rows {
     /// The rows of `tables` (`scores.csv` required) against `grid`.
     pub fn read(tables: &Tables, grid: &Grid) -> Result<Rows, ReadError> {
-        Rows::read_from(&Source::Memory(tables), None, grid, &|_| true)
+        Rows::read_from(
+            &Source::Memory(tables),
+            None,
+            grid,
+            (&|_| true, &|_, _| true),
+        )
     }
 
     /// The rows of the folder `dir` against `grid`, given its scores.csv
-    /// (read already, for the grid). Of forecasts.csv, parameters.csv,
-    /// stability.csv and series.csv only the targets `keep` accepts are kept (every
-    /// predictor series is).
+    /// (read already, for the grid). Of forecasts.csv, stability.csv and
+    /// series.csv only the targets `keep` accepts are kept (every predictor
+    /// series is), of parameters.csv only the (target, candidate) pairs
+    /// `keep_parameters` accepts.
     pub fn read_folder(
         dir: &Path,
         scores: &[u8],
         grid: &Grid,
-        keep: &dyn Fn(usize) -> bool,
+        (keep, keep_parameters): (&dyn Fn(usize) -> bool, &dyn Fn(usize, usize) -> bool),
     ) -> Result<Rows, ReadError> {
-        Rows::read_from(&Source::Folder(dir), Some(scores), grid, keep)
+        Rows::read_from(
+            &Source::Folder(dir),
+            Some(scores),
+            grid,
+            (keep, keep_parameters),
+        )
     }
 
     fn read_from(
         source: &Source,
         scores: Option<&[u8]>,
         grid: &Grid,
-        keep: &dyn Fn(usize) -> bool,
+        (keep, keep_parameters): (&dyn Fn(usize) -> bool, &dyn Fn(usize, usize) -> bool),
     ) -> Result<Rows, ReadError> {
         let lookup = grid.lookup();
         let scores = match scores {
@@ -142,7 +153,7 @@ impl Rows {
             rows.outlook = outlook::read(&bytes, &lookup)?;
         }
         if let Some(input) = source.stream(parameters::FILE)? {
-            rows.parameters = parameters::read(input, &lookup, &|t, _| keep(t))?;
+            rows.parameters = parameters::read(input, &lookup, keep_parameters)?;
         }
         if let Some(input) = source.stream(stability::FILE)? {
             rows.stability = stability::read(input, &lookup, keep)?;

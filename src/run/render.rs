@@ -94,13 +94,22 @@ pub fn render_folder(dir: &Path, templates: Option<&Path>) -> Result<()> {
     // The large tables are read row by row, keeping the rows of the targets
     // the report shows in detail (a 1000-series folder holds gigabytes).
     let grid = Grid::read(&manifest.core_value(), &scores).map_err(|e| e.into_error(dir))?;
-    let chosen = {
+    let (chosen, leaders) = {
         let s =
             crate::results::scores::read(&scores, &grid.lookup()).map_err(|e| e.into_error(dir))?;
-        selection::choose(&grid, &s.metric_names, &s.rows, declared.report_targets)
+        (
+            selection::choose(&grid, &s.metric_names, &s.rows, declared.report_targets),
+            selection::parameter_leaders(&grid, &s.rows),
+        )
     };
-    let rows = Rows::read_folder(dir, &scores, &grid, &|t| chosen.shown(t).detail)
-        .map_err(|e| e.into_error(dir))?;
+    let detail = |t| chosen.shown(t).detail;
+    let rows = Rows::read_folder(
+        dir,
+        &scores,
+        &grid,
+        (&detail, &|t, c| detail(t) && leaders.contains(&(t, c))),
+    )
+    .map_err(|e| e.into_error(dir))?;
     let used = used_templates(&templates, &declared.formats);
     manifest.templates = used
         .iter()
