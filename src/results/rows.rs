@@ -87,6 +87,10 @@ impl Source<'_> {
     }
 }
 
+/// Which rows a folder's reading keeps: the targets of the large tables,
+/// and the (target, candidate) pairs of parameters.csv.
+pub type Keep<'a> = (&'a dyn Fn(usize) -> bool, &'a dyn Fn(usize, usize) -> bool);
+
 impl Rows {
     /// The rows of `tables` (`scores.csv` required) against `grid`.
     pub fn read(tables: &Tables, grid: &Grid) -> Result<Rows, ReadError> {
@@ -107,7 +111,7 @@ impl Rows {
         dir: &Path,
         scores: &[u8],
         grid: &Grid,
-        (keep, keep_parameters): (&dyn Fn(usize) -> bool, &dyn Fn(usize, usize) -> bool),
+        (keep, keep_parameters): Keep<'_>,
     ) -> Result<Rows, ReadError> {
         Rows::read_from(
             &Source::Folder(dir),
@@ -121,7 +125,7 @@ impl Rows {
         source: &Source,
         scores: Option<&[u8]>,
         grid: &Grid,
-        (keep, keep_parameters): (&dyn Fn(usize) -> bool, &dyn Fn(usize, usize) -> bool),
+        (keep, keep_parameters): Keep<'_>,
     ) -> Result<Rows, ReadError> {
         let lookup = grid.lookup();
         let scores = match scores {
