@@ -95,95 +95,176 @@ pub struct SummaryRow {
 /// The significance level of the critical difference.
 pub const ALPHA: f64 = 0.05;
 
-/// The summary rows, scheme by scheme, horizon by horizon (the listed ones
-/// then the pooled one), candidate by candidate; `entries` of every target.
-pub fn summarise(exp: &Experiment, entries: &[Entry]) -> Vec<SummaryRow> {
-    let k = exp.candidates.len();
-    let mut horizons: Vec<Option<usize>> = exp.horizons.iter().map(|&h| Some(h)).collect();
-    horizons.push(None);
-    let mut out = Vec::new();
-    // The range quantile depends on k alone: found once for every group.
-    let mut range = None;
-    for s in 0..exp.schemes.len() {
-        for &h in &horizons {
-            // [target][candidate]
-            let mut grid: Vec<Vec<Option<Entry>>> = vec![vec![None; k]; exp.targets.len()];
-            for e in entries.iter().filter(|e| e.scheme == s && e.horizon == h) {
-                grid[e.target][e.candidate] = Some(*e);
-            }
-            out.extend(group(exp, (s, h), &grid, &mut range));
-        }
-    }
-    out
+/// The summary built target by target as each target's entries arrive (in
+/// target order), so that a run keeps a few sums per scheme, horizon and
+/// candidate, not every target's entries: the sums are added in the order
+/// a whole-table computation adds them, so the rows are the same bits.
+pub struct Accumulator {
+    k: usize,
+    benchmark: usize,
+    /// Per scheme, the listed horizons then the pooled one.
+    horizons: Vec<Option<usize>>,
+    schemes: usize,
+    groups: Vec<Group>,
 }
 
-/// The rows of one scheme and horizon from its [target][candidate] entries.
-/// `range` caches the range quantile of the critical difference.
-fn group(
-    exp: &Experiment,
-    (s, h): (usize, Option<usize>),
-    grid: &[Vec<Option<Entry>>],
-    range: &mut Option<f64>,
-) -> Vec<SummaryRow> {
-    let k = exp.candidates.len();
-    let b = exp.benchmark;
-    let mut rank_sum = vec![0.0; k];
-    let mut wins = vec![0.0; k];
-    let mut blocks = 0;
-    let mut ties = 0.0;
-    for row in grid {
-        let keys: Option<Vec<f64>> = row.iter().map(|e| e.and_then(|e| e.key)).collect();
-        let Some(keys) = keys else { continue };
-        let (ranks, tie_sum) = mid_ranks(&keys);
-        blocks += 1;
-        ties += tie_sum;
-        let min = keys.iter().copied().fold(f64::INFINITY, f64::min);
-        let best = keys.iter().filter(|v| **v == min).count() as f64;
-        for (c, r) in ranks.iter().enumerate() {
-            rank_sum[c] += r;
-            if keys[c] == min {
-                wins[c] += 1.0 / best;
+/// The running sums of one scheme and horizon.
+#[derive(Clone)]
+struct Group {
+    rank_sum: Vec<f64>,
+    wins: Vec<f64>,
+    blocks: usize,
+    ties: f64,
+    /// Per candidate: targets with a ranking value.
+    targets: Vec<usize>,
+    /// Per candidate: Σ ln(RMSE_c / RMSE_b) and its count; the same of MAE.
+    rmse_logs: Vec<(f64, usize)>,
+    mae_logs: Vec<(f64, usize)>,
+    /// Per candidate: Σ MASE and its count.
+    mase: Vec<(f64, usize)>,
+}
+
+/// The empty sum, as `Iterator::sum` starts it.
+fn zero() -> f64 {
+    std::iter::empty::<f64>().sum()
+}
+
+impl Accumulator {
+    pub fn new(exp: &Experiment) -> Accumulator {
+        let k = exp.candidates.len();
+        let mut horizons: Vec<Option<usize>> = exp.horizons.iter().map(|&h| Some(h)).collect();
+        horizons.push(None);
+        let group = Group {
+            rank_sum: vec![0.0; k],
+            wins: vec![0.0; k],
+            blocks: 0,
+            ties: 0.0,
+            targets: vec![0; k],
+            rmse_logs: vec![(zero(), 0); k],
+            mae_logs: vec![(zero(), 0); k],
+            mase: vec![(zero(), 0); k],
+        };
+        Accumulator {
+            k,
+            benchmark: exp.benchmark,
+            groups: vec![group; exp.schemes.len() * horizons.len()],
+            schemes: exp.schemes.len(),
+            horizons,
+        }
+    }
+
+    /// Add the next target's entries (targets in order).
+    pub fn add(&mut self, entries: &[Entry]) {
+        let k = self.k;
+        let b = self.benchmark;
+        let per = self.horizons.len();
+        for s in 0..self.schemes {
+            for (hi, &h) in self.horizons.iter().enumerate() {
+                let mut row: Vec<Option<Entry>> = vec![None; k];
+                for e in entries.iter().filter(|e| e.scheme == s && e.horizon == h) {
+                    row[e.candidate] = Some(*e);
+                }
+                self.groups[s * per + hi].add(&row, b);
             }
         }
     }
-    let friedman = friedman(&rank_sum, blocks, ties);
-    let cd = (k >= 2 && blocks >= 2).then(|| {
-        let q = *range.get_or_insert_with(|| range_quantile(k, 1.0 - ALPHA));
-        scaled_difference(q, k, blocks)
-    });
-    (0..k)
-        .map(|c| {
-            let ratio = |f: fn(&Entry) -> Option<f64>| {
-                geometric_ratio(
-                    grid.iter()
-                        .map(|row| (row[c].as_ref().and_then(f), row[b].as_ref().and_then(f))),
-                )
+
+    /// The summary rows, scheme by scheme, horizon by horizon (the listed
+    /// ones then the pooled one), candidate by candidate.
+    pub fn finish(self) -> Vec<SummaryRow> {
+        let k = self.k;
+        let per = self.horizons.len();
+        // The range quantile depends on k alone: found once for every group.
+        let mut range = None;
+        let mut out = Vec::new();
+        for (i, g) in self.groups.iter().enumerate() {
+            let (s, h) = (i / per, self.horizons[i % per]);
+            out.extend(g.rows(k, (s, h), &mut range));
+        }
+        out
+    }
+}
+
+impl Group {
+    /// One target's row of entries, by candidate.
+    fn add(&mut self, row: &[Option<Entry>], b: usize) {
+        let keys: Option<Vec<f64>> = row.iter().map(|e| e.and_then(|e| e.key)).collect();
+        if let Some(keys) = keys {
+            let (ranks, tie_sum) = mid_ranks(&keys);
+            self.blocks += 1;
+            self.ties += tie_sum;
+            let min = keys.iter().copied().fold(f64::INFINITY, f64::min);
+            let best = keys.iter().filter(|v| **v == min).count() as f64;
+            for (c, r) in ranks.iter().enumerate() {
+                self.rank_sum[c] += r;
+                if keys[c] == min {
+                    self.wins[c] += 1.0 / best;
+                }
+            }
+        }
+        for (c, e) in row.iter().enumerate() {
+            if e.and_then(|e| e.key).is_some() {
+                self.targets[c] += 1;
+            }
+            let log = |f: fn(&Entry) -> Option<f64>| {
+                log_ratio(e.as_ref().and_then(f), row[b].as_ref().and_then(f))
             };
-            let mase: Vec<f64> = grid
-                .iter()
-                .filter_map(|row| row[c].and_then(|e| e.mase))
-                .filter(|v| v.is_finite())
-                .collect();
-            SummaryRow {
+            add_to(&mut self.rmse_logs[c], log(|e| e.rmse));
+            add_to(&mut self.mae_logs[c], log(|e| e.mae));
+            add_to(
+                &mut self.mase[c],
+                e.and_then(|e| e.mase).filter(|v| v.is_finite()),
+            );
+        }
+    }
+
+    fn rows(
+        &self,
+        k: usize,
+        (s, h): (usize, Option<usize>),
+        range: &mut Option<f64>,
+    ) -> Vec<SummaryRow> {
+        let friedman = friedman(&self.rank_sum, self.blocks, self.ties);
+        let cd = (k >= 2 && self.blocks >= 2).then(|| {
+            let q = *range.get_or_insert_with(|| range_quantile(k, 1.0 - ALPHA));
+            scaled_difference(q, k, self.blocks)
+        });
+        let mean = |&(sum, n): &(f64, usize)| (n > 0).then(|| sum / n as f64);
+        (0..k)
+            .map(|c| SummaryRow {
                 scheme: s,
                 horizon: h,
                 candidate: c,
-                targets: grid
-                    .iter()
-                    .filter(|row| row[c].and_then(|e| e.key).is_some())
-                    .count(),
-                wins: wins[c],
-                relative_rmse: ratio(|e| e.rmse),
-                relative_mae: ratio(|e| e.mae),
-                mase: (!mase.is_empty()).then(|| mase.iter().sum::<f64>() / mase.len() as f64),
-                mean_rank: (blocks > 0).then(|| rank_sum[c] / blocks as f64),
+                targets: self.targets[c],
+                wins: self.wins[c],
+                relative_rmse: mean(&self.rmse_logs[c]).map(f64::exp),
+                relative_mae: mean(&self.mae_logs[c]).map(f64::exp),
+                mase: mean(&self.mase[c]),
+                mean_rank: (self.blocks > 0).then(|| self.rank_sum[c] / self.blocks as f64),
                 friedman: friedman.map(|f| f.0),
                 friedman_p_value: friedman.and_then(|f| f.1),
                 critical_difference: cd,
-                blocks,
-            }
-        })
-        .collect()
+                blocks: self.blocks,
+            })
+            .collect()
+    }
+}
+
+fn add_to(acc: &mut (f64, usize), v: Option<f64>) {
+    if let Some(v) = v {
+        acc.0 += v;
+        acc.1 += 1;
+    }
+}
+
+/// ln(a / b) where both are positive and finite.
+fn log_ratio(a: Option<f64>, b: Option<f64>) -> Option<f64> {
+    match (a, b) {
+        (Some(a), Some(b)) if a > 0.0 && b > 0.0 && a.is_finite() && b.is_finite() => {
+            Some((a / b).ln())
+        }
+        _ => None,
+    }
 }
 
 /// Ranks 1.. of `keys` (lower is better), ties given their mean rank, and
@@ -307,16 +388,13 @@ fn range_quantile(k: usize, p: f64) -> f64 {
 }
 
 /// exp(mean ln(a/b)) over the pairs where both are positive and finite.
+#[cfg(test)]
 fn geometric_ratio(pairs: impl Iterator<Item = (Option<f64>, Option<f64>)>) -> Option<f64> {
-    let logs: Vec<f64> = pairs
-        .filter_map(|(a, b)| match (a, b) {
-            (Some(a), Some(b)) if a > 0.0 && b > 0.0 && a.is_finite() && b.is_finite() => {
-                Some((a / b).ln())
-            }
-            _ => None,
-        })
-        .collect();
-    (!logs.is_empty()).then(|| (logs.iter().sum::<f64>() / logs.len() as f64).exp())
+    let mut acc = (zero(), 0);
+    for (a, b) in pairs {
+        add_to(&mut acc, log_ratio(a, b));
+    }
+    (acc.1 > 0).then(|| (acc.0 / acc.1 as f64).exp())
 }
 
 #[cfg(test)]

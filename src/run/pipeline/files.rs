@@ -87,8 +87,8 @@ pub(super) struct Written {
     pub failed: usize,
     /// The look-ahead audit of the targets appended so far, when asked for.
     pub audit: Option<crate::run::audit::AuditOutcome>,
-    /// The summary's entries of the targets appended so far.
-    pub summary: Vec<crate::score::summary::Entry>,
+    /// The summary across the targets appended so far.
+    pub summary: crate::score::summary::Accumulator,
 }
 
 impl Written {
@@ -156,7 +156,7 @@ impl Written {
             (Some(Err(e)), _) | (_, Err(e)) => Err(e),
         });
         self.failed += s.failed;
-        self.summary.extend(s.summary);
+        self.summary.add(&s.summary);
         self.cell_facts.extend(s.cells);
         if let Some(audit) = s.audit {
             match self.audit.as_mut() {

@@ -192,7 +192,7 @@ pub fn produce(
         cell_facts: Vec::new(),
         failed: 0,
         audit: None,
-        summary: Vec::new(),
+        summary: score::summary::Accumulator::new(exp),
     };
     if ctx.threads <= 1 {
         // One thread of work means one: compute and write in turn.
@@ -235,7 +235,7 @@ pub fn produce(
     // The summary across targets, with two or more of them.
     let mut report_rows = report_rows;
     if exp.targets.len() >= 2 {
-        let rows = score::summary::summarise(exp, &summary);
+        let rows = summary.finish();
         let bytes = crate::results::summary::write(exp, &rows);
         outputs.push(write_file(
             dir,
