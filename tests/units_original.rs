@@ -298,6 +298,25 @@ fn a_candidate_transform_without_original_units_is_refused() {
 }
 
 #[test]
+fn unknown_units_and_centres_are_refused_at_their_lines() {
+    let dir = scratch("refuse-values");
+    gdp_csv(&dir);
+    let (code, err) = run(
+        &dir,
+        "version: 1\nexperiment: gdp\ndata: {file: gdp.csv, time: period, frequency: quarterly}\n\
+         target: gdp\ntransform: diff\ncandidates:\n  - family: naive\n\
+         backtest: {schemes: [expanding], horizons: [1]}\nscoring:\n  units: levels\n  back_transform: average\n",
+    );
+    assert_eq!(code, 2, "{err}");
+    assert!(err.contains("exp.yaml:10:10: scoring.units 'levels'"), "{err}");
+    assert!(err.contains("choose one of: transformed, original"), "{err}");
+    assert!(err.contains("exp.yaml:11:19: scoring.back_transform 'average'"), "{err}");
+    assert!(err.contains("choose one of: median, mean"), "{err}");
+    assert!(!dir.join("res").exists(), "nothing written");
+    std::fs::remove_dir_all(&dir).ok();
+}
+
+#[test]
 fn a_transform_the_data_cannot_take_is_refused_naming_the_candidate() {
     // The quarterly changes of real GDP (statsmodels macrodata) fall below
     // 0 in recessions: their log does not exist.
