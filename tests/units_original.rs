@@ -308,9 +308,18 @@ fn unknown_units_and_centres_are_refused_at_their_lines() {
          backtest: {schemes: [expanding], horizons: [1]}\nscoring:\n  units: levels\n  back_transform: average\n",
     );
     assert_eq!(code, 2, "{err}");
-    assert!(err.contains("exp.yaml:10:10: scoring.units 'levels'"), "{err}");
-    assert!(err.contains("choose one of: transformed, original"), "{err}");
-    assert!(err.contains("exp.yaml:11:19: scoring.back_transform 'average'"), "{err}");
+    assert!(
+        err.contains("exp.yaml:10:10: scoring.units 'levels'"),
+        "{err}"
+    );
+    assert!(
+        err.contains("choose one of: transformed, original"),
+        "{err}"
+    );
+    assert!(
+        err.contains("exp.yaml:11:19: scoring.back_transform 'average'"),
+        "{err}"
+    );
     assert!(err.contains("choose one of: median, mean"), "{err}");
     assert!(!dir.join("res").exists(), "nothing written");
     std::fs::remove_dir_all(&dir).ok();

@@ -102,7 +102,9 @@ impl Levels<'_> {
             .iter()
             .map_while(|s| s.as_ref().ok().map(|s| s.forecast))
             .collect();
-        let known = self.target.levels_through(origin);
+        // The cumulation reads the last `span` levels, the last one at least.
+        let span = level::span(t, self.season).unwrap_or(1);
+        let known = self.target.levels_through(origin, span);
         let u = level::integrate(t, &known, self.season, &z).unwrap_or_default();
         let from_cov =
             cov.map(|c| level::level_variances_from_covariance(t, self.season, c, steps.len()));

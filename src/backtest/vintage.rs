@@ -161,18 +161,20 @@ impl Carried {
         }
         let (was, now) = (&vintages.data[self.index], p.data);
         let window = start - 1..self.end;
-        let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
+        // Bit for bit (NaN equal to NaN), compared in place.
         let same_y = match (was.y.get(window.clone()), now.y.get(window.clone())) {
-            (Some(a), Some(b)) => bits(a) == bits(b),
+            (Some(a), Some(b)) => a.iter().zip(b).all(|(x, y)| x.to_bits() == y.to_bits()),
             _ => false,
         };
-        let same_column = |a: &Vec<Option<f64>>, b: &Vec<Option<f64>>| {
-            let bits =
-                |v: &[Option<f64>]| v.iter().map(|x| x.map(f64::to_bits)).collect::<Vec<_>>();
-            match (a.get(window.clone()), b.get(window.clone())) {
-                (Some(a), Some(b)) => bits(a) == bits(b),
-                _ => false,
-            }
+        let same_column = |a: &Vec<Option<f64>>, b: &Vec<Option<f64>>| match (
+            a.get(window.clone()),
+            b.get(window.clone()),
+        ) {
+            (Some(a), Some(b)) => a
+                .iter()
+                .zip(b)
+                .all(|(x, y)| x.map(f64::to_bits) == y.map(f64::to_bits)),
+            _ => false,
         };
         same_y
             && was.predictors.len() == now.predictors.len()

@@ -203,8 +203,7 @@ impl Likelihood for Smoothing {
         super::smoothing::one_step_errors(&fit.spec, &fit.params, y).unwrap_or_default()
     }
     fn error_covariance(&self, fit: &Self::Fit, _y: &[f64], max_h: usize) -> Option<Vec<f64>> {
-        let psi = super::smoothing::psi_weights(fit, max_h)?;
-        Some(super::level::covariance_from_psi(&psi, fit.sigma2, max_h))
+        super::smoothing::error_covariance(fit, max_h)
     }
     fn parameters(&self, fit: &Self::Fit, y: &[f64], _start: usize) -> Vec<Parameter> {
         super::smoothing::parameters(fit, y)

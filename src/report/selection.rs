@@ -169,7 +169,6 @@ impl Chooser {
     }
 }
 
-/// The choice over every target from the whole scores.csv (in target
 /// The (target, candidate) pairs whose parameters the report shows: in
 /// each target, scheme and listed horizon the candidate ranked first other
 /// than the benchmark (the first on ties), over the whole sample: the rule
@@ -196,6 +195,7 @@ pub fn parameter_leaders(
     best.iter().map(|(&(t, _, _), &(_, c))| (t, c)).collect()
 }
 
+/// The choice over every target from the whole scores.csv (in target
 /// order).
 pub fn choose(grid: &Grid, metric_names: &[String], scores: &[ScoreRow], quota: usize) -> Chooser {
     let mut start = 0;

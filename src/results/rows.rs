@@ -111,14 +111,9 @@ impl Rows {
         dir: &Path,
         scores: &[u8],
         grid: &Grid,
-        (keep, keep_parameters): Keep<'_>,
+        keep: Keep<'_>,
     ) -> Result<Rows, ReadError> {
-        Rows::read_from(
-            &Source::Folder(dir),
-            Some(scores),
-            grid,
-            (keep, keep_parameters),
-        )
+        Rows::read_from(&Source::Folder(dir), Some(scores), grid, keep)
     }
 
     fn read_from(

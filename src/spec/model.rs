@@ -454,11 +454,13 @@ impl TargetData {
         }
     }
 
-    /// The data file's values at positions up to `pos` and the rows before
-    /// position 1 (what a transform lost): the levels a back-transform
-    /// starts from (NaN for an empty cell).
-    pub fn levels_through(&self, pos: usize) -> Vec<f64> {
-        self.source.target[..self.source.lag + pos]
+    /// The last `count` (or as many as there are) of the data file's
+    /// values at positions up to `pos` and the rows before position 1 (what
+    /// a transform lost): the levels a back-transform starts from (NaN for
+    /// an empty cell).
+    pub fn levels_through(&self, pos: usize, count: usize) -> Vec<f64> {
+        let known = &self.source.target[..self.source.lag + pos];
+        known[known.len().saturating_sub(count)..]
             .iter()
             .map(|v| v.unwrap_or(f64::NAN))
             .collect()

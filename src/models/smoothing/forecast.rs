@@ -74,23 +74,40 @@ pub(crate) fn psi_weights(fit: &EtsFit, count: usize) -> Option<Vec<f64>> {
         return None;
     }
     let sm = Smooth::of(&fit.params, spec);
+    let season = spec.has_season().then(|| (spec.period.max(1), sm.gamma));
     let mut out = Vec::with_capacity(count);
-    let (mut phi_j, mut power) = (0.0, 1.0);
-    for j in 0..count {
-        if j == 0 {
-            out.push(1.0);
-            continue;
-        }
-        power *= sm.phi;
-        phi_j += power;
-        let season = if spec.has_season() && j % spec.period.max(1) == 0 {
-            sm.gamma
-        } else {
-            0.0
-        };
-        out.push(sm.alpha + sm.beta * phi_j + season);
+    if count > 0 {
+        out.push(1.0);
+        out.extend(class1_weights(&sm, count - 1, season));
     }
     Some(out)
+}
+
+/// The covariance of the h-step errors, h = 1..=max_h, of the linear
+/// forms from their ψ-weights; None for the nonlinear ones.
+pub(crate) fn error_covariance(fit: &EtsFit, max_h: usize) -> Option<Vec<f64>> {
+    let psi = psi_weights(fit, max_h)?;
+    Some(crate::models::level::covariance_from_psi(
+        &psi, fit.sigma2, max_h,
+    ))
+}
+
+/// The class-1 weights c_1..c_count, c_j = α + β φ_j (+ γ when the season
+/// `(m, γ)` is given and m divides j), φ_j = φ + … + φ^j.
+fn class1_weights(sm: &Smooth, count: usize, season: Option<(usize, f64)>) -> Vec<f64> {
+    let (mut phi_j, mut power) = (0.0, 1.0);
+    (1..=count)
+        .map(|j| {
+            power *= sm.phi;
+            phi_j += power;
+            let c = sm.alpha + sm.beta * phi_j;
+            match season {
+                Some((m, gamma)) if j % m == 0 => c + gamma,
+                Some(_) => c + 0.0,
+                None => c,
+            }
+        })
+        .collect()
 }
 
 /// Forecast variances of ETS(M,N,N), (M,A,N) and (M,Ad,N), class 2 of
@@ -100,14 +117,7 @@ pub(crate) fn psi_weights(fit: &EtsFit, count: usize) -> Option<Vec<f64>> {
 /// without a trend, φ = 1 without damping) and μ_h the point forecasts.
 fn class2_variances(sm: &Smooth, sigma2: f64, means: &[f64]) -> Vec<f64> {
     let h_max = means.len();
-    let mut c = Vec::with_capacity(h_max);
-    let mut phi_j = 0.0;
-    let mut power = 1.0;
-    for _ in 1..h_max {
-        power *= sm.phi;
-        phi_j += power;
-        c.push(sm.alpha + sm.beta * phi_j);
-    }
+    let c = class1_weights(sm, h_max.saturating_sub(1), None);
     let mut theta: Vec<f64> = Vec::with_capacity(h_max);
     for (h, &mu) in means.iter().enumerate() {
         let lagged: f64 = (1..=h).map(|j| c[j - 1] * c[j - 1] * theta[h - j]).sum();

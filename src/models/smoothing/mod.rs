@@ -106,7 +106,9 @@ mod tests;
 
 pub(crate) use estimate::estimate;
 pub(crate) use filter::one_step_errors;
-pub(crate) use forecast::{forecast, psi_weights};
+#[cfg(test)]
+pub(crate) use forecast::psi_weights;
+pub(crate) use forecast::{error_covariance, forecast};
 pub(crate) use parameters::parameters;
 
 use crate::spec::{SmoothingError, SmoothingSeason, SmoothingTrend};

@@ -72,13 +72,7 @@ impl Likelihood for SmoothingSelect {
         fit.fits[fit.chosen].as_ref().map_or(f64::NAN, |f| f.is_mse)
     }
     fn error_covariance(&self, fit: &Self::Fit, _y: &[f64], max_h: usize) -> Option<Vec<f64>> {
-        let chosen = fit.fits[fit.chosen].as_ref()?;
-        let psi = super::psi_weights(chosen, max_h)?;
-        Some(crate::models::level::covariance_from_psi(
-            &psi,
-            chosen.sigma2,
-            max_h,
-        ))
+        super::error_covariance(fit.fits[fit.chosen].as_ref()?, max_h)
     }
     fn residuals(&self, fit: &Self::Fit, y: &[f64], _start: usize) -> Vec<f64> {
         fit.fits[fit.chosen]

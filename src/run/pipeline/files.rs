@@ -127,11 +127,11 @@ impl Written {
                 rows.without_target_rows()
             })
         });
+        // A target that lost its detail or its charts to this one lets go
+        // of what it no longer shows (its rows too when it lost its detail).
         if let (Some(l), Some(Ok(rows))) = (admitted.dropped, self.report_rows.as_mut()) {
             rows.forget(l, &parts.grid().targets[l]);
         }
-        // A target that lost its detail or its charts to this one lets go
-        // of what it no longer shows.
         for (lost, shown) in [
             (admitted.dropped, report::Shown::default()),
             (
