@@ -376,7 +376,7 @@ fn run_data(ix: &Index, manifest: &Value, statuses: &[String]) -> Value {
             "schemes": g.schemes,
             "horizons": g.horizons,
             "forecasts": f.forecast_count,
-            "cells": cells.len(),
+            "cells": record::cell_count(manifest),
             "failed": record::failures(&cells).len(),
             "frequency": settings.frequency,
             "transform": settings.transform,

@@ -28,7 +28,16 @@ pub fn table_hashes(manifest: &Value) -> Vec<(String, String, usize)> {
     hashes
 }
 
-/// The manifest's cells.
+/// How many cells the manifest's grid has (`cell_count` where the cells
+/// listed are only those of note).
+pub fn cell_count(manifest: &Value) -> usize {
+    manifest
+        .pointer("/grid/cell_count")
+        .and_then(Value::as_u64)
+        .map_or_else(|| cells(manifest).len(), |n| n as usize)
+}
+
+/// The manifest's cells (of note, when `cell_count` counts them all).
 pub fn cells(manifest: &Value) -> Vec<&Value> {
     manifest
         .pointer("/grid/cells")
@@ -70,7 +79,7 @@ pub fn record(f: &Folder, manifest: &Value) -> Value {
         "data": manifest.get("data"),
         "templates": manifest.get("templates"),
         "tables": f.record.table_hashes.iter().map(|(n, h, b)| json!({"file": n, "sha256": h, "bytes": b})).collect::<Vec<_>>(),
-        "cells": cells.len(),
+        "cells": cell_count(manifest),
         "failures": failures(&cells),
         "fallbacks": fallbacks,
         // The look-ahead audit's outcome, when the run audited itself.

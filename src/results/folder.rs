@@ -146,11 +146,14 @@ fn our_files(target: &Path) -> std::result::Result<Vec<String>, String> {
     if !meta.is_file() || meta.len() > MAX_MANIFEST_BYTES {
         return Err("its manifest.json is not a manifest outturn writes".into());
     }
-    let bytes =
-        std::fs::read(&path).map_err(|e| format!("its manifest.json cannot be read: {e}"))?;
-    let mut files: Vec<String> = match super::manifest::Manifest::from_bytes(&bytes) {
+    let open =
+        || std::fs::File::open(&path).map_err(|e| format!("its manifest.json cannot be read: {e}"));
+    let mut files: Vec<String> = match super::manifest::Digest::from_reader(open()?) {
         Ok(m) => m.outputs.into_iter().map(|o| o.file).collect(),
-        Err(results) => match super::shard::ShardManifest::from_bytes(&bytes) {
+        Err(results) => match std::fs::read(&path)
+            .map_err(|e| e.to_string())
+            .and_then(|bytes| super::shard::ShardManifest::from_bytes(&bytes))
+        {
             Ok(m) => m.outputs.into_iter().map(|o| o.file).collect(),
             Err(_) => {
                 return Err(format!(

@@ -7,6 +7,7 @@
 //! together. The manifest is a typed value; `folder` writes a results
 //! folder whole or not at all; `shard` is a shard folder's files.
 
+pub(crate) mod cell_log;
 pub(crate) mod diagnostics;
 pub(crate) mod folder;
 pub(crate) mod forecasts;

@@ -211,14 +211,33 @@ impl Rows {
             forecasts_let_go: self.forecasts_let_go + forecasts_counted(&self.scores),
             metric_names: self.metric_names,
             forecast_quantiles: self.forecast_quantiles,
-            diagnostics: self.diagnostics,
+            // The report reads a target's own diagnostics only in its
+            // detail; the predictors' rows serve every target.
+            diagnostics: self
+                .diagnostics
+                .into_iter()
+                .filter(|d| d.kind == "predictor")
+                .collect(),
             ..Rows::default()
         }
     }
 
-    /// Drop target `t`'s rows (named `name`) from every table but the
-    /// diagnostics: for a target that lost its detail.
-    pub fn forget(&mut self, t: usize, name: &str) {
+    /// Drop target `t`'s rows from every table: for a target that lost its
+    /// detail (the predictors' diagnostics stay; they serve every target).
+    pub fn forget(&mut self, t: usize, grid: &Grid) {
+        let name = grid.targets[t].as_str();
+        let own = |subject: &str| {
+            subject == name
+                || subject.strip_prefix(name).is_some_and(|cell| {
+                    grid.candidates.iter().any(|c| {
+                        grid.schemes.iter().any(|s| {
+                            cell.len() == c.len() + s.len() + 2 && cell == format!("/{c}/{s}")
+                        })
+                    })
+                })
+        };
+        self.diagnostics
+            .retain(|d| d.kind == "predictor" || !own(&d.subject));
         let (gone, kept): (Vec<_>, Vec<_>) = std::mem::take(&mut self.scores)
             .into_iter()
             .partition(|r| r.target == t);

@@ -493,7 +493,7 @@ proptest! {
         let _ = crate::backtest::cellio::read_cells(&text);
         let mut reader = crate::backtest::cellio::CellReader::new(&bytes[..]);
         while let Ok(Some(_)) = reader.next_cell() {}
-        let _ = crate::results::manifest::Manifest::from_bytes(&bytes);
+        let _ = crate::results::manifest::Digest::from_bytes(&bytes);
         let _ = crate::results::shard::ShardManifest::from_bytes(&bytes);
     }
 
@@ -517,7 +517,7 @@ proptest! {
             prop_assert!(m.shard_of.shard >= 1 && m.shard_of.shard <= m.shard_of.count);
             prop_assert!(m.shard_of.count <= crate::results::shard::MAX_SHARDS);
         }
-        if let Ok(m) = crate::results::manifest::Manifest::from_bytes(&results) {
+        if let Ok(m) = crate::results::manifest::Digest::from_bytes(&results) {
             prop_assert_eq!(m.tool.name, "outturn");
         }
     }

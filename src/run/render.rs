@@ -6,7 +6,7 @@ use crate::digest::sha256_hex;
 use crate::error::{Error, Result};
 use crate::report::render::{default_templates, load_templates, reports_of, used_templates};
 use crate::report::{selection, Folder};
-use crate::results::manifest::{Manifest, OutputFile, TemplateRecord};
+use crate::results::manifest::{rewrite, Digest, OutputFile, TemplateRecord};
 use crate::results::{Grid, Rows};
 use serde_json::Value;
 use std::path::Path;
@@ -44,23 +44,40 @@ fn read_stored(path: &Path, missing: impl FnOnce() -> String) -> Result<Vec<u8>>
 /// in this order and share the manifest as it is checked.
 pub fn render_folder(dir: &Path, templates: Option<&Path>) -> Result<()> {
     let manifest_path = dir.join("manifest.json");
-    let manifest_bytes = read_stored(&manifest_path, || {
-        format!(
-            "{} is not an outturn results folder (no manifest.json)",
-            dir.display()
-        )
-    })?;
-    if serde_json::from_slice::<Value>(&manifest_bytes).is_ok_and(|v| v.get("shard_of").is_some()) {
-        return Err(Error::invalid(
-            None,
+    // Read as it streams: its cells are counted, not held.
+    let file = match std::fs::File::open(&manifest_path) {
+        Ok(f) => f,
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
+            return Err(Error::invalid(
+                None,
+                format!(
+                    "{} is not an outturn results folder (no manifest.json)",
+                    dir.display()
+                ),
+            ))
+        }
+        Err(e) => {
+            return Err(Error::io(
+                format!("cannot read {}", manifest_path.display()),
+                e,
+            ))
+        }
+    };
+    let mut manifest = Digest::from_reader(file).map_err(|e| {
+        let shard = std::fs::File::open(&manifest_path)
+            .ok()
+            .and_then(|f| serde_json::from_reader::<_, Value>(std::io::BufReader::new(f)).ok())
+            .is_some_and(|v| v.get("shard_of").is_some());
+        let message = if shard {
             format!(
                 "{} is a shard folder: it has no reports; merge the shards first",
                 dir.display()
-            ),
-        ));
-    }
-    let mut manifest = Manifest::from_bytes(&manifest_bytes)
-        .map_err(|e| Error::invalid(None, format!("{}: {e}", manifest_path.display())))?;
+            )
+        } else {
+            format!("{}: {e}", manifest_path.display())
+        };
+        Error::invalid(None, message)
+    })?;
     // Every stored table as outturn wrote it, before anything is read.
     manifest
         .check_tables(dir)
@@ -142,9 +159,7 @@ pub fn render_folder(dir: &Path, templates: Option<&Path>) -> Result<()> {
         write_atomic(dir, name, bytes)?;
         manifest.set_output(OutputFile::of(name, bytes));
     }
-    let bytes = manifest.to_bytes();
-    if bytes != manifest_bytes {
-        write_atomic(dir, "manifest.json", &bytes)?;
-    }
+    rewrite(&manifest_path, &manifest.outputs, &manifest.templates)
+        .map_err(|e| Error::io(format!("cannot replace {}", manifest_path.display()), e))?;
     Ok(())
 }

@@ -11,7 +11,7 @@ use crate::digest::sha256_hex;
 use crate::error::{Error, Location, Result};
 use crate::plan;
 use crate::report::render::{default_templates, load_templates, used_templates, Templates};
-use crate::results::manifest::Manifest;
+use crate::results::manifest::{Digest, OutsideRun};
 use crate::spec::{Experiment, ReportFormat};
 use serde_json::Value;
 use std::path::{Path, PathBuf};
@@ -61,17 +61,6 @@ fn first_difference(
 }
 
 /// [`first_difference`] of two byte strings.
-fn first_difference_of(name: &str, ours: &[u8], theirs: &[u8]) -> Option<String> {
-    first_difference(name, ours, theirs).unwrap_or_else(|e| Some(format!("{name}: {e}")))
-}
-
-fn without_run(mut v: Value) -> Value {
-    if let Some(map) = v.as_object_mut() {
-        map.remove("run");
-    }
-    v
-}
-
 /// Where `verify` looks for what a results folder was made from.
 pub struct Inputs<'a> {
     /// A folder holding the data file (at the experiment's relative path, or
@@ -83,7 +72,7 @@ pub struct Inputs<'a> {
 }
 
 /// The results folder's manifest.
-fn read_manifest(dir: &Path) -> Result<Manifest> {
+fn read_manifest(dir: &Path) -> Result<Digest> {
     let mpath = dir.join("manifest.json");
     let at = |message: String| {
         Error::invalid(
@@ -95,14 +84,19 @@ fn read_manifest(dir: &Path) -> Result<Manifest> {
             message,
         )
     };
-    let bytes = std::fs::read(&mpath).map_err(|e| at(format!("cannot read: {e}")))?;
-    if serde_json::from_slice::<Value>(&bytes).is_ok_and(|v| v.get("shard_of").is_some()) {
-        return Err(at(
-            "this is a shard folder; merge the shards (outturn merge) and verify the merged folder"
-                .into(),
-        ));
-    }
-    Manifest::from_bytes(&bytes).map_err(at)
+    let open = || std::fs::File::open(&mpath).map_err(|e| at(format!("cannot read: {e}")));
+    // Read as it streams: its cells are counted, not held.
+    Digest::from_reader(open()?).map_err(|e| {
+        let shard = open()
+            .ok()
+            .and_then(|f| serde_json::from_reader::<_, Value>(std::io::BufReader::new(f)).ok())
+            .is_some_and(|v| v.get("shard_of").is_some());
+        if shard {
+            at("this is a shard folder; merge the shards (outturn merge) and verify the merged folder".into())
+        } else {
+            at(e)
+        }
+    })
 }
 
 fn invalid(message: String) -> Error {
@@ -115,7 +109,7 @@ fn invalid(message: String) -> Error {
 /// (`experiment.yaml`); the data file is looked for in `--data`, beside the
 /// recorded experiment file, then in and beside the results folder. Every
 /// place looked is named when none holds the recorded data.
-fn recorded_experiment(dir: &Path, manifest: &Manifest, data: Option<&Path>) -> Result<Experiment> {
+fn recorded_experiment(dir: &Path, manifest: &Digest, data: Option<&Path>) -> Result<Experiment> {
     let recorded = manifest
         .run
         .as_ref()
@@ -193,7 +187,7 @@ fn recorded_experiment(dir: &Path, manifest: &Manifest, data: Option<&Path>) -> 
 
 /// The templates to rerun the reports with: the built-in ones, or the
 /// folder given with `--templates`; either must be what the manifest recorded.
-fn recorded_templates(manifest: &Manifest, dir: Option<&Path>) -> Result<Templates> {
+fn recorded_templates(manifest: &Digest, dir: Option<&Path>) -> Result<Templates> {
     let templates = match dir {
         Some(d) => load_templates(d)?,
         None => default_templates(),
@@ -275,28 +269,13 @@ fn difference(name: &str, ours: &Path, theirs: &Path) -> Result<Option<String>> 
         )
         .map_err(|e| Error::io(format!("cannot compare {name}"), e));
     }
-    let read = |p: &Path, whose: &str| {
-        std::fs::read(p).map_err(|e| Error::io(format!("cannot read {whose} {name}"), e))
-    };
-    let a = serde_json::from_slice::<Value>(&read(ours, "the rerun's")?)
-        .map(without_run)
-        .ok();
-    let b = serde_json::from_slice::<Value>(&read(theirs, "the folder's")?)
-        .map(without_run)
-        .ok();
-    if a.is_some() && a == b {
-        return Ok(None);
-    }
-    let pretty = |v: Option<Value>| {
-        v.map(|v| serde_json::to_vec_pretty(&v).unwrap_or_default())
-            .unwrap_or_default()
-    };
-    Ok(first_difference_of(
+    // Line by line outside the run section, as both stream.
+    first_difference(
         "manifest.json (outside its run section)",
-        &pretty(a),
-        &pretty(b),
+        OutsideRun::new(open(ours, "the rerun's")?),
+        OutsideRun::new(open(theirs, "the folder's")?),
     )
-    .or_else(|| Some("manifest.json differs".into())))
+    .map_err(|e| Error::io(format!("cannot compare {name}"), e))
 }
 
 /// The names of the files in a folder, sorted.
@@ -338,7 +317,9 @@ pub fn verify(dir: &Path, jobs: Option<usize>, inputs: &Inputs) -> Result<Verdic
 
 #[cfg(test)]
 mod tests {
-    use super::first_difference_of as diff;
+    fn diff(name: &str, ours: &[u8], theirs: &[u8]) -> Option<String> {
+        super::first_difference(name, ours, theirs).unwrap()
+    }
 
     #[test]
     fn the_first_differing_line_is_named() {

@@ -83,7 +83,8 @@ pub(super) struct Written {
     /// The report's parts of the targets appended so far.
     pub report_parts: Vec<report::TargetPart>,
     pub experiment_text: String,
-    pub cell_facts: Vec<manifest::CellFacts>,
+    /// The cells appended so far, logged beside the tables.
+    pub cells: manifest::CellLog,
     pub failed: usize,
     /// The look-ahead audit of the targets appended so far, when asked for.
     pub audit: Option<crate::run::audit::AuditOutcome>,
@@ -130,7 +131,7 @@ impl Written {
         // A target that lost its detail or its charts to this one lets go
         // of what it no longer shows (its rows too when it lost its detail).
         if let (Some(l), Some(Ok(rows))) = (admitted.dropped, self.report_rows.as_mut()) {
-            rows.forget(l, &parts.grid().targets[l]);
+            rows.forget(l, parts.grid());
         }
         for (lost, shown) in [
             (admitted.dropped, report::Shown::default()),
@@ -157,7 +158,11 @@ impl Written {
         });
         self.failed += s.failed;
         self.summary.add(&s.summary);
-        self.cell_facts.extend(s.cells);
+        for cell in s.cells {
+            self.cells
+                .add(cell)
+                .map_err(|e| Error::io("cannot write the cell log".to_string(), e))?;
+        }
         if let Some(audit) = s.audit {
             match self.audit.as_mut() {
                 Some(total) => total.add(audit),

@@ -92,7 +92,7 @@ struct Assembled {
     report_rows: Option<std::result::Result<Rows, String>>,
     report_parts: Vec<report::TargetPart>,
     experiment_text: String,
-    cell_facts: Vec<manifest::CellFacts>,
+    cells: manifest::CellLog,
     outputs: Vec<OutputFile>,
     audit: Option<crate::run::audit::AuditOutcome>,
 }
@@ -111,7 +111,7 @@ fn write_reports_and_manifest(
         report_rows,
         report_parts,
         experiment_text,
-        cell_facts,
+        mut cells,
         outputs,
         audit,
     } = a;
@@ -130,7 +130,8 @@ fn write_reports_and_manifest(
     // The manifest is built once: without its run section it is what the
     // report reads (outputs so far hold only the tables); the run section
     // and the reports' entries are added before it is written.
-    let mut manifest = manifest::Manifest::of(exp, &cell_facts, &templates_used, outputs, &facts);
+    let mut manifest = manifest::Manifest::of(exp, &mut cells, &templates_used, outputs, &facts)
+        .map_err(|e| Error::io("cannot read the cell log back".to_string(), e))?;
     manifest.audit = audit.map(|a| a.record());
     let core = manifest.core_value();
     let rows = match report_rows {
@@ -150,7 +151,11 @@ fn write_reports_and_manifest(
             .push(write_file(dir, name, bytes, ctx.durable)?);
     }
     ctx.step("reports written");
-    write_file(dir, "manifest.json", &manifest.to_bytes(), ctx.durable)?;
+    manifest
+        .write(&dir.join("manifest.json"), ctx.durable)
+        .map_err(|e| Error::io("cannot write manifest.json".to_string(), e))?;
+    drop(manifest);
+    drop(cells);
     ctx.step("manifest written");
     Ok(())
 }
@@ -189,7 +194,8 @@ pub fn produce(
         report_rows: None,
         report_parts: Vec::new(),
         experiment_text: String::new(),
-        cell_facts: Vec::new(),
+        cells: manifest::CellLog::create(dir)
+            .map_err(|e| Error::io(format!("cannot create a cell log in {}", dir.display()), e))?,
         failed: 0,
         audit: None,
         summary: score::summary::Accumulator::new(exp),
@@ -211,7 +217,7 @@ pub fn produce(
         report_rows,
         report_parts,
         experiment_text,
-        cell_facts,
+        cells,
         failed,
         audit,
         summary,
@@ -223,14 +229,8 @@ pub fn produce(
         .enumerate()
         .map(|(t, p)| p.settle(parts.shown(t)))
         .collect();
-    debug_assert_eq!(
-        failed,
-        cell_facts.iter().filter(|c| c.failure.is_some()).count()
-    );
-    let failed_cells: Vec<(String, String)> = cell_facts
-        .iter()
-        .filter_map(|c| Some((c.id.clone(), c.failure.clone()?)))
-        .collect();
+    let failed_cells = cells.failed();
+    debug_assert_eq!(failed, failed_cells.len());
     let (mut outputs, files) = close_streams(streams)?;
     // The summary across targets, with two or more of them.
     let mut report_rows = report_rows;
@@ -265,7 +265,7 @@ pub fn produce(
             report_rows,
             report_parts,
             experiment_text,
-            cell_facts,
+            cells,
             outputs,
             audit,
         },
