@@ -704,8 +704,8 @@ mod tests {
     }
 
     fn streamed(m: &Manifest) -> Manifest<Streamed<CellRecord>, Streamed<CellSeconds>> {
-        fn items<T: Clone + 'static>(v: &[T]) -> Box<dyn Iterator<Item = std::io::Result<T>>> {
-            Box::new(v.to_vec().into_iter().map(Ok))
+        fn items<T: 'static>(v: Vec<T>) -> Box<dyn Iterator<Item = std::io::Result<T>>> {
+            Box::new(v.into_iter().map(Ok))
         }
         let run = m.run.as_ref().unwrap();
         Manifest {
@@ -715,14 +715,14 @@ mod tests {
             grid: GridRecord {
                 benchmark: m.grid.benchmark.clone(),
                 candidates: m.grid.candidates.clone(),
-                cells: Streamed::new(items(&m.grid.cells), CellDigest::default()),
+                cells: Streamed::new(items(m.grid.cells.clone()), CellDigest::default()),
                 horizons: m.grid.horizons.clone(),
                 schemes: m.grid.schemes.clone(),
                 targets: m.grid.targets.clone(),
             },
             outputs: m.outputs.clone(),
             run: Some(RunRecord {
-                cell_seconds: Streamed::new(items(&run.cell_seconds), CellDigest::default()),
+                cell_seconds: Streamed::new(items(run.cell_seconds.clone()), CellDigest::default()),
                 cells_from_cache: run.cells_from_cache,
                 experiment_path: run.experiment_path.clone(),
                 host: run.host.clone(),
@@ -759,7 +759,10 @@ mod tests {
         let d = Digest::from_bytes(&m.to_bytes()).unwrap();
         assert_eq!(d.grid.cells.count, 9);
         let ids: Vec<&str> = d.grid.cells.notable.iter().map(|c| c.id.as_str()).collect();
-        assert_eq!(ids, ["y/c1/fixed", "y/c3/fixed", "y/c5/fixed", "y/c7/fixed"]);
+        assert_eq!(
+            ids,
+            ["y/c1/fixed", "y/c3/fixed", "y/c5/fixed", "y/c7/fixed"]
+        );
         assert_eq!(d.run.as_ref().unwrap().cell_seconds, Counted(9));
         // The report sees the same cells of note and the full count either way.
         let (full, digest) = (m.core_value(), d.core_value());
