@@ -28,21 +28,89 @@ use std::collections::BTreeMap;
 /// its detail but loses its charts to later targets: see
 /// [`super::selection`]) and its verdict rows.
 pub struct TargetPart {
+    /// Its entry; for a target without detail made again when the list is
+    /// read (see [`TargetList`]), so a part of such a target holds nothing
+    /// that grows with the grid.
     entry: Value,
+    shown: Shown,
     full: Option<minijinja::Value>,
     plain: Option<minijinja::Value>,
     rows: Vec<minijinja::Value>,
-    statuses: Vec<String>,
+    statuses: Tally,
+}
+
+/// The verdict's settings of a target counted by status, in the order of
+/// the legend, and those of no status last.
+type Tally = [usize; super::claims::LEGEND.len() + 1];
+
+fn tally(statuses: impl Iterator<Item = String>) -> Tally {
+    let mut tally = [0; super::claims::LEGEND.len() + 1];
+    for status in statuses {
+        let at = super::claims::LEGEND
+            .iter()
+            .position(|s| s.key == status)
+            .unwrap_or(super::claims::LEGEND.len());
+        tally[at] += 1;
+    }
+    tally
+}
+
+/// A target's entry in the list of targets.
+fn entry_of(g: &Grid, t: usize, shown: Shown) -> Value {
+    let many = g.targets.len() > 3;
+    json!({
+        "name": g.targets[t],
+        "anchor": format!("t-{}", slug(&g.targets[t])),
+        "index": t + 1,
+        "charts": shown.charts,
+        "detail": shown.detail,
+        "open": !many || t == 0,
+        "panels_open": g.schemes.len() * g.horizons.len() <= 8 && !many,
+    })
+}
+
+/// The list of targets as the templates read it: the entries of the
+/// targets in detail as built, the others made when read.
+#[derive(Debug)]
+struct TargetList {
+    grid: Grid,
+    held: Vec<Option<minijinja::Value>>,
+    shown: Vec<Shown>,
+}
+
+impl minijinja::value::Object for TargetList {
+    fn repr(self: &std::sync::Arc<Self>) -> minijinja::value::ObjectRepr {
+        minijinja::value::ObjectRepr::Seq
+    }
+
+    fn get_value(self: &std::sync::Arc<Self>, key: &minijinja::Value) -> Option<minijinja::Value> {
+        let t = key.as_usize()?;
+        match self.held.get(t)? {
+            Some(entry) => Some(entry.clone()),
+            None => Some(minijinja::Value::from_serialize(entry_of(
+                &self.grid,
+                t,
+                self.shown[t],
+            ))),
+        }
+    }
+
+    fn enumerate(self: &std::sync::Arc<Self>) -> minijinja::value::Enumerator {
+        minijinja::value::Enumerator::Seq(self.held.len())
+    }
 }
 
 impl TargetPart {
     /// The part as the final choice shows it.
     pub fn settle(mut self, shown: Shown) -> TargetPart {
+        self.shown = shown;
         if !shown.detail {
-            forget_verdict(&mut self.entry, &mut self.rows);
+            self.entry = Value::Null;
+            self.rows.clear();
+        } else {
+            self.entry["detail"] = json!(shown.detail);
+            self.entry["charts"] = json!(shown.charts);
         }
-        self.entry["detail"] = json!(shown.detail);
-        self.entry["charts"] = json!(shown.charts);
         self.full = match (shown.detail, shown.charts) {
             (false, _) => None,
             (true, true) => self.full,
@@ -56,10 +124,11 @@ impl TargetPart {
     pub fn empty() -> TargetPart {
         TargetPart {
             entry: Value::Null,
+            shown: Shown::default(),
             full: None,
             plain: None,
             rows: Vec::new(),
-            statuses: Vec::new(),
+            statuses: Tally::default(),
         }
     }
 
@@ -188,7 +257,6 @@ fn target_part(ix: &Index, t: usize, draw: bool, shown: Shown, fin: bool) -> Tar
     let f = ix.f;
     let g = &f.grid;
     let target = &g.targets[t];
-    let many = g.targets.len() > 3;
     let charts = draw && shown.charts;
     let verdict = verdict_for(ix, t);
     let rows: Vec<Value> = verdict["rows"]
@@ -206,15 +274,7 @@ fn target_part(ix: &Index, t: usize, draw: bool, shown: Shown, fin: bool) -> Tar
         .series
         .iter()
         .find(|s| s.role == "target" && s.name == *target);
-    let panels_open = g.schemes.len() * g.horizons.len() <= 8 && !many;
-    let mut entry = json!({
-        "name": target,
-        "anchor": format!("t-{}", slug(target)),
-        "index": t + 1,
-        "charts": charts,
-        "open": !many || t == 0,
-        "panels_open": panels_open,
-    });
+    let mut entry = entry_of(g, t, Shown { charts, ..shown });
     entry["verdict"] = verdict;
     // Every target gets its verdict; the sections after it go into detail
     // for the targets chosen (the tables hold the rest).
@@ -232,33 +292,33 @@ fn target_part(ix: &Index, t: usize, draw: bool, shown: Shown, fin: bool) -> Tar
     };
     let full = shown.detail.then(|| full_with(charts));
     let plain = (shown.detail && charts && !fin).then(|| full_with(false));
-    entry["detail"] = json!(shown.detail);
-    let statuses = rows
-        .iter()
-        .map(|v| v["status"].as_str().unwrap_or("").to_string())
-        .collect();
-    let mut rows = rows.iter().map(minijinja::Value::from_serialize).collect();
-    if !shown.detail {
-        forget_verdict(&mut entry, &mut rows);
-    }
+    let statuses = tally(
+        rows.iter()
+            .map(|v| v["status"].as_str().unwrap_or("").to_string()),
+    );
+    let rows = rows.iter().map(minijinja::Value::from_serialize).collect();
     TargetPart {
         entry,
+        shown,
         full,
         plain,
         statuses,
         rows,
     }
+    .settle_detail()
 }
 
-/// A target without detail keeps its name and its verdict's readings (the
-/// overall count); the verdict itself is left to the tables, so that the
-/// report and its memory do not grow with every target beyond the
-/// detailed ones.
-fn forget_verdict(entry: &mut Value, rows: &mut Vec<minijinja::Value>) {
-    if let Some(map) = entry.as_object_mut() {
-        map.remove("verdict");
+impl TargetPart {
+    /// A target without detail keeps its verdict's readings (the overall
+    /// count); the verdict itself is left to the tables, so that the report
+    /// and its memory do not grow with every target beyond the detailed ones.
+    fn settle_detail(mut self) -> TargetPart {
+        if !self.shown.detail {
+            self.entry = Value::Null;
+            self.rows.clear();
+        }
+        self
     }
-    rows.clear();
 }
 
 /// The data the report templates read, as template values (see
@@ -285,15 +345,24 @@ pub fn report_data(
             .map(|t| target_part(&ix, t, draw, chosen.shown(t), true))
             .collect()
     });
-    let mut targets = Vec::with_capacity(parts.len());
+    let mut targets = TargetList {
+        grid: g.clone(),
+        held: Vec::with_capacity(parts.len()),
+        shown: Vec::with_capacity(parts.len()),
+    };
     let mut detailed = Vec::new();
     let mut verdict_rows = Vec::new();
-    let mut statuses = Vec::new();
+    let mut statuses = Tally::default();
     for part in parts {
-        targets.push(minijinja::Value::from_serialize(&part.entry));
+        targets
+            .held
+            .push((!part.entry.is_null()).then(|| minijinja::Value::from_serialize(&part.entry)));
+        targets.shown.push(part.shown);
         detailed.extend(part.full);
         verdict_rows.extend(part.rows);
-        statuses.extend(part.statuses);
+        for (total, n) in statuses.iter_mut().zip(part.statuses) {
+            *total += n;
+        }
     }
     let mut data = run_data(&ix, manifest, &statuses);
     data["summary"] = super::summary::summary_for(&ix, draw);
@@ -306,15 +375,20 @@ pub fn report_data(
         .map(|(k, v)| (k, minijinja::Value::from_serialize(&v)))
         .collect();
     values.insert("verdict_rows".into(), minijinja::Value::from(verdict_rows));
-    values.insert("targets".into(), minijinja::Value::from(targets));
+    values.insert("targets".into(), minijinja::Value::from_object(targets));
     values.insert("detailed_targets".into(), minijinja::Value::from(detailed));
     values.into_iter().collect()
 }
 
 /// Across targets: how many settings fall in each reading.
-fn overall(g: &Grid, statuses: &[String]) -> String {
+fn overall(g: &Grid, statuses: &Tally) -> String {
     let bench_id = g.candidates.get(g.benchmark).cloned().unwrap_or_default();
-    let tally = |key: &str| statuses.iter().filter(|s| *s == key).count();
+    let tally = |key: &str| {
+        super::claims::LEGEND
+            .iter()
+            .position(|s| s.key == key)
+            .map_or(0, |at| statuses[at])
+    };
     let extra = |key: &str, words: &str| match tally(key) {
         0 => String::new(),
         n => format!(", {n} {words}"),
@@ -323,7 +397,7 @@ fn overall(g: &Grid, statuses: &[String]) -> String {
         "Over {} targets × {} scheme × horizon settings ({} in all): in {} the snooping test rejects and the leader drives it (holds after the search), {} are significant alone, {} are ahead but not significant, {} leave {} unbeaten{}{}.",
         g.targets.len(),
         g.schemes.len() * g.horizons.len(),
-        statuses.len(),
+        statuses.iter().sum::<usize>(),
         tally("holds"),
         tally("alone"),
         tally("ahead"),
@@ -335,7 +409,7 @@ fn overall(g: &Grid, statuses: &[String]) -> String {
 }
 
 /// Everything in the report data but the targets' parts.
-fn run_data(ix: &Index, manifest: &Value, statuses: &[String]) -> Value {
+fn run_data(ix: &Index, manifest: &Value, statuses: &Tally) -> Value {
     let f = ix.f;
     let g = &f.grid;
     let rows = &f.rows;
