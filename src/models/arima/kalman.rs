@@ -36,6 +36,26 @@ impl StateSpace {
         }
     }
 
+    /// a ← T a + k v, in place (each a[i + 1] is read before it is written).
+    fn update(&self, a: &mut [f64], k: &[f64], v: f64) {
+        let r = self.r;
+        let a0 = a[0];
+        for i in 0..r - 1 {
+            a[i] = (self.phi[i] * a0 + a[i + 1]) + k[i] * v;
+        }
+        a[r - 1] = self.phi[r - 1] * a0 + k[r - 1] * v;
+    }
+
+    /// x ← T x, in place.
+    fn advance(&self, x: &mut [f64]) {
+        let r = self.r;
+        let x0 = x[0];
+        for i in 0..r - 1 {
+            x[i] = self.phi[i] * x0 + x[i + 1];
+        }
+        x[r - 1] = self.phi[r - 1] * x0;
+    }
+
     /// out = T P T' + R R' (row-major r×r), using `m` as scratch for T P.
     pub(super) fn propagate(&self, p: &[f64], m: &mut [f64], out: &mut [f64]) {
         let r = self.r;
@@ -180,7 +200,6 @@ struct Gain {
     kbar: Vec<f64>,
     w: Vec<f64>,
     m: f64,
-    u: Vec<f64>,
     /// F_1, the scale of the steady-state test
     scale: f64,
     /// P_t in full, when asked for
@@ -205,7 +224,6 @@ impl Gain {
             w: kbar.clone(),
             kbar,
             m: -1.0 / f,
-            u: vec![0.0; r],
             scale: f.max(1.0),
             p,
             steady: false,
@@ -244,13 +262,14 @@ impl Gain {
             }
         }
         let wmax = self.w.iter().fold(0.0f64, |a, wi| a.max(wi * wi));
-        ss.transition(&self.w, &mut self.u);
+        ss.advance(&mut self.w);
         let f_next = self.f + m * g * g;
         let kg = g / self.f;
-        for i in 0..r {
-            let ui = self.u[i];
-            self.w[i] = ui - self.kbar[i] * kg;
-            self.kbar[i] += m * g * ui;
+        let mg = m * g;
+        for (w, kbar) in self.w.iter_mut().zip(self.kbar.iter_mut()) {
+            let u = *w;
+            *w = u - *kbar * kg;
+            *kbar += mg * u;
         }
         self.m = m * self.f / f_next;
         self.f = f_next;
@@ -260,6 +279,40 @@ impl Gain {
             self.steady = true;
         }
         Ok(())
+    }
+}
+
+/// Σ ln F_t as the logarithm of running products (one logarithm per
+/// stretch of the product within 1e±150, not one per step).
+struct LogSum {
+    sum: f64,
+    product: f64,
+}
+
+impl Default for LogSum {
+    fn default() -> Self {
+        LogSum {
+            sum: 0.0,
+            product: 1.0,
+        }
+    }
+}
+
+impl LogSum {
+    fn add(&mut self, f: f64) {
+        if (1e-100..1e100).contains(&f) {
+            self.product *= f;
+            if !(1e-150..1e150).contains(&self.product) {
+                self.sum += self.product.ln();
+                self.product = 1.0;
+            }
+        } else {
+            self.sum += f.ln();
+        }
+    }
+
+    fn total(&self) -> f64 {
+        self.sum + self.product.ln()
     }
 }
 
@@ -283,7 +336,6 @@ pub(super) fn run_filter(
     let mut a_y = vec![0.0; r];
     let mut a_x = vec![vec![0.0; r]; kc];
     let mut v = vec![0.0; kc];
-    let mut tmp = vec![0.0; r];
     let mut out = FilterOut {
         wxy: vec![0.0; kc],
         wxx: vec![0.0; kc * kc],
@@ -291,29 +343,20 @@ pub(super) fn run_filter(
         uxx: vec![0.0; kc * kc],
         ..FilterOut::default()
     };
-    let mut log_f = (gain.f.ln(), gain.f);
+    let mut log_f = LogSum::default();
     for (t, &xt) in x.iter().enumerate() {
         let f = gain.f;
-        if log_f.1 != f {
-            log_f = (f.ln(), f);
-        }
-        out.sum_log_f += log_f.0;
+        log_f.add(f);
         let vy = xt - a_y[0];
         out.wyy += vy * vy / f;
         out.uyy += vy * vy;
-        ss.transition(&a_y, &mut tmp);
-        for i in 0..r {
-            a_y[i] = tmp[i] + gain.k[i] * vy;
-        }
+        ss.update(&mut a_y, &gain.k, vy);
         for (j, (col, a)) in columns.iter().zip(a_x.iter_mut()).enumerate() {
             let vj = col[t] - a[0];
             v[j] = vj;
             out.wxy[j] += vy * vj / f;
             out.uxy[j] += vy * vj;
-            ss.transition(a, &mut tmp);
-            for i in 0..r {
-                a[i] = tmp[i] + gain.k[i] * vj;
-            }
+            ss.update(a, &gain.k, vj);
         }
         for j in 0..kc {
             for l in 0..=j {
@@ -323,6 +366,7 @@ pub(super) fn run_filter(
         }
         gain.advance(ss)?;
     }
+    out.sum_log_f = log_f.total();
     if !(out.wyy.is_finite() && out.sum_log_f.is_finite()) {
         return Err(ArimaError::NonFinite {
             context: "Kalman filter innovations",
