@@ -60,13 +60,15 @@ fn autocovariances(phi: &[f64], theta: &[f64], psi: &[f64]) -> Result<Vec<f64>, 
     Ok(sol.iter().copied().collect())
 }
 
-/// P = Var(α_t) for unit innovation variance (row-major r × r); `phi` and
-/// `theta` the expanded polynomials the state space was built from.
-pub(super) fn stationary_cov(
-    ss: &StateSpace,
-    phi: &[f64],
-    theta: &[f64],
-) -> Result<Vec<f64>, ArimaError> {
+/// α_t = M z_t and Var(z) (see the module docs): M (r × width) and Var(z)
+/// (width × width), row-major, width = p + r.
+struct LaggedForm {
+    width: usize,
+    m: Vec<f64>,
+    v: Vec<f64>,
+}
+
+fn lagged_form(ss: &StateSpace, phi: &[f64], theta: &[f64]) -> Result<LaggedForm, ArimaError> {
     let r = ss.r;
     let p = phi.len();
     let psi = psi_weights(phi, theta, r.max(theta.len() + 1));
@@ -76,7 +78,6 @@ pub(super) fn stationary_cov(
         Vec::new()
     };
     let width = p + r;
-    // M (r × width) and Var(z) (width × width), row-major.
     let mut m = vec![0.0; r * width];
     for i in 0..r {
         for k in 0..p.min(r - i) {
@@ -100,6 +101,27 @@ pub(super) fn stationary_cov(
     for l in 0..r {
         v[(p + l) * width + p + l] = 1.0;
     }
+    Ok(LaggedForm { width, m, v })
+}
+
+fn checked(out: Vec<f64>) -> Result<Vec<f64>, ArimaError> {
+    if !out.iter().all(|x| x.is_finite()) || !super::positive(out[0]) {
+        return Err(ArimaError::NonFinite {
+            context: "initial state covariance",
+        });
+    }
+    Ok(out)
+}
+
+/// P = Var(α_t) for unit innovation variance (row-major r × r); `phi` and
+/// `theta` the expanded polynomials the state space was built from.
+pub(super) fn stationary_cov(
+    ss: &StateSpace,
+    phi: &[f64],
+    theta: &[f64],
+) -> Result<Vec<f64>, ArimaError> {
+    let r = ss.r;
+    let LaggedForm { width, m, v } = lagged_form(ss, phi, theta)?;
     // A = M V, then P = A M′ (symmetric: the upper triangle is mirrored).
     let mut a = vec![0.0; r * width];
     for i in 0..r {
@@ -123,12 +145,39 @@ pub(super) fn stationary_cov(
             out[j * r + i] = s;
         }
     }
-    if !out.iter().all(|x| x.is_finite()) || !super::positive(out[0]) {
-        return Err(ArimaError::NonFinite {
-            context: "initial state covariance",
-        });
-    }
-    Ok(out)
+    checked(out)
+}
+
+/// The first column of [`stationary_cov`], P e_1 = M Var(z) M′ e_1: all
+/// that the likelihood's filter needs (O(width²) instead of O(r·width²)).
+pub(super) fn stationary_column(
+    ss: &StateSpace,
+    phi: &[f64],
+    theta: &[f64],
+) -> Result<Vec<f64>, ArimaError> {
+    let r = ss.r;
+    let LaggedForm { width, m, v } = lagged_form(ss, phi, theta)?;
+    // b = Var(z) M′ e_1 (Var(z) is symmetric), then M b.
+    let m0 = &m[..width];
+    let b: Vec<f64> = (0..width)
+        .map(|k| {
+            v[k * width..(k + 1) * width]
+                .iter()
+                .zip(m0)
+                .map(|(a, c)| a * c)
+                .sum()
+        })
+        .collect();
+    let out = (0..r)
+        .map(|i| {
+            m[i * width..(i + 1) * width]
+                .iter()
+                .zip(&b)
+                .map(|(a, c)| a * c)
+                .sum()
+        })
+        .collect();
+    checked(out)
 }
 
 #[cfg(test)]
@@ -150,6 +199,14 @@ mod tests {
             let ss = StateSpace::new(phi, theta);
             let kron = ss.stationary_cov().unwrap();
             let ours = stationary_cov(&ss, phi, theta).unwrap();
+            let column = stationary_column(&ss, phi, theta).unwrap();
+            for (i, c) in column.iter().enumerate() {
+                let a = kron[i * ss.r];
+                assert!(
+                    (a - c).abs() < 1e-10 * (1.0 + a.abs()),
+                    "{phi:?} {theta:?}: {a} vs {c}"
+                );
+            }
             for (a, b) in kron.iter().zip(&ours) {
                 assert!(
                     (a - b).abs() < 1e-10 * (1.0 + a.abs()),

@@ -3,7 +3,7 @@
 //! integrated back (d times, and D times at the season), plus the
 //! regressors' known future values.
 
-use super::kalman::{run_filter, FilterOut, StateSpace};
+use super::kalman::{run_filter, FilterOut, Initial, StateSpace};
 use super::{check_order, check_params, difference, difference_order, ArimaError, ArimaFit};
 
 /// Filter `y` (which may extend beyond the estimation sample) with the fit's
@@ -128,8 +128,8 @@ fn error_forecast(
     let s2 = fit.params.sigma2;
     let x: Vec<f64> = difference(y, d).iter().map(|v| v - mu).collect();
     let ss = StateSpace::new(&fit.params.ar, &fit.params.ma);
-    let p0 = ss.stationary_cov()?;
-    let fo = run_filter(&ss, &p0, &x, &[])?;
+    let start = Initial::Full(ss.stationary_cov()?);
+    let fo = run_filter(&ss, &start, &x, &[])?;
     let (wf, cov) = differenced_forecasts(&ss, &fo, mu, max_h);
     let psi = integration_weights(d, max_h);
     let levels = undifference(y, d, wf)?;
@@ -178,8 +178,8 @@ fn seasonal_error_forecast(
     };
     let x: Vec<f64> = difference_order(y, order).iter().map(|v| v - mu).collect();
     let (phi, theta) = fit.params.expanded(s.m);
-    let (ss, p0) = super::kalman::state_space(&phi, &theta, true)?;
-    let fo = run_filter(&ss, &p0, &x, &[])?;
+    let (ss, start) = super::kalman::state_space(&phi, &theta, true, true)?;
+    let fo = run_filter(&ss, &start, &x, &[])?;
     let (wf, cov) = differenced_forecasts(&ss, &fo, mu, max_h);
     let psi = super::poly::integration_weights(order.d, s.m, s.d, max_h);
     // Undo the differences in reverse order: D seasonal ones, then d.

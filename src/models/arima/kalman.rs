@@ -36,6 +36,26 @@ impl StateSpace {
         }
     }
 
+    /// a ← T a + k v, in place (each a[i + 1] is read before it is written).
+    fn update(&self, a: &mut [f64], k: &[f64], v: f64) {
+        let r = self.r;
+        let a0 = a[0];
+        for i in 0..r - 1 {
+            a[i] = (self.phi[i] * a0 + a[i + 1]) + k[i] * v;
+        }
+        a[r - 1] = self.phi[r - 1] * a0 + k[r - 1] * v;
+    }
+
+    /// x ← T x, in place.
+    fn advance(&self, x: &mut [f64]) {
+        let r = self.r;
+        let x0 = x[0];
+        for i in 0..r - 1 {
+            x[i] = self.phi[i] * x0 + x[i + 1];
+        }
+        x[r - 1] = self.phi[r - 1] * x0;
+    }
+
     /// out = T P T' + R R' (row-major r×r), using `m` as scratch for T P.
     pub(super) fn propagate(&self, p: &[f64], m: &mut [f64], out: &mut [f64]) {
         let r = self.r;
@@ -121,6 +141,25 @@ impl StateSpace {
     }
 }
 
+/// The initial state covariance the filter starts from (unit innovation
+/// variance): its first column, which is all the likelihood needs, or the
+/// whole matrix, when the covariance at the end is wanted (forecasts).
+pub(super) enum Initial {
+    /// P_1 e_1 (length r)
+    Column(Vec<f64>),
+    /// P_1 (row-major r × r, symmetric)
+    Full(Vec<f64>),
+}
+
+impl Initial {
+    fn column(&self, r: usize) -> Vec<f64> {
+        match self {
+            Initial::Column(c) => c.clone(),
+            Initial::Full(p) => (0..r).map(|i| p[i * r]).collect(),
+        }
+    }
+}
+
 /// Sums accumulated by the filter (unit innovation variance).
 #[derive(Default)]
 pub(super) struct FilterOut {
@@ -136,36 +175,167 @@ pub(super) struct FilterOut {
     pub(super) uxx: Vec<f64>,
     /// predicted state of the data column after the last observation
     pub(super) a_y: Vec<f64>,
-    /// its covariance (unit innovation variance)
+    /// its covariance (unit innovation variance); empty when the filter
+    /// started from [`Initial::Column`]
     pub(super) p: Vec<f64>,
 }
 
 /// Relative tolerance for switching to the steady-state filter.
 const STEADY_TOL: f64 = 1e-13;
 
+/// The covariance recursion in Chandrasekhar form (Morf, Sidhu & Kailath
+/// 1974; Herbst 2015): for a time-invariant model started from its
+/// stationary covariance P_1 = T P_1 T′ + R R′, the increments
+/// P_{t+1} − P_t = M_t W_t W_t′ have rank one, so F_t = P_t[0][0] and the
+/// unnormalised gain K̄_t = T P_t e_1 follow in O(r) per step instead of
+/// the O(r²) of propagating P. With u = T W_t and g = W_t[0]:
+/// F_{t+1} = F_t + M_t g², K̄_{t+1} = K̄_t + M_t g u,
+/// W_{t+1} = u − K̄_t g / F_t, M_{t+1} = M_t F_t / F_{t+1};
+/// W_1 = K̄_1, M_1 = −1/F_1 (the stationary equation).
+struct Gain {
+    /// F_t
+    f: f64,
+    /// K̄_t / F_t, the gain the state update uses
+    k: Vec<f64>,
+    kbar: Vec<f64>,
+    w: Vec<f64>,
+    m: f64,
+    /// F_1, the scale of the steady-state test
+    scale: f64,
+    /// P_t in full, when asked for
+    p: Option<Vec<f64>>,
+    steady: bool,
+}
+
+impl Gain {
+    fn new(ss: &StateSpace, start: &Initial) -> Result<Self, ArimaError> {
+        let r = ss.r;
+        let col = start.column(r);
+        let f = col[0];
+        let mut kbar = vec![0.0; r];
+        ss.transition(&col, &mut kbar);
+        let p = match start {
+            Initial::Full(p) => Some(p.clone()),
+            Initial::Column(_) => None,
+        };
+        let mut g = Gain {
+            f,
+            k: vec![0.0; r],
+            w: kbar.clone(),
+            kbar,
+            m: -1.0 / f,
+            scale: f.max(1.0),
+            p,
+            steady: false,
+        };
+        g.check()?;
+        Ok(g)
+    }
+
+    /// F_t finite and positive; the normalised gain from K̄_t.
+    fn check(&mut self) -> Result<(), ArimaError> {
+        if !(self.f.is_finite() && self.f > 0.0) {
+            return Err(ArimaError::NonFinite {
+                context: "Kalman filter prediction variance",
+            });
+        }
+        let inv = 1.0 / self.f;
+        for (k, kb) in self.k.iter_mut().zip(&self.kbar) {
+            *k = kb * inv;
+        }
+        Ok(())
+    }
+
+    /// From step t to t + 1 (nothing once steady).
+    fn advance(&mut self, ss: &StateSpace) -> Result<(), ArimaError> {
+        if self.steady {
+            return Ok(());
+        }
+        let r = ss.r;
+        let (m, g) = (self.m, self.w[0]);
+        if let Some(p) = self.p.as_mut() {
+            for i in 0..r {
+                let mwi = m * self.w[i];
+                for j in 0..r {
+                    p[i * r + j] += mwi * self.w[j];
+                }
+            }
+        }
+        let wmax = self.w.iter().fold(0.0f64, |a, wi| a.max(wi * wi));
+        ss.advance(&mut self.w);
+        let f_next = self.f + m * g * g;
+        let kg = g / self.f;
+        let mg = m * g;
+        for (w, kbar) in self.w.iter_mut().zip(self.kbar.iter_mut()) {
+            let u = *w;
+            *w = u - *kbar * kg;
+            *kbar += mg * u;
+        }
+        self.m = m * self.f / f_next;
+        self.f = f_next;
+        self.check()?;
+        // The increment just applied was below the tolerance: P has converged.
+        if (m.abs() * wmax) <= STEADY_TOL * self.scale {
+            self.steady = true;
+        }
+        Ok(())
+    }
+}
+
+/// Σ ln F_t as the logarithm of running products (one logarithm per
+/// stretch of the product within 1e±150, not one per step).
+struct LogSum {
+    sum: f64,
+    product: f64,
+}
+
+impl Default for LogSum {
+    fn default() -> Self {
+        LogSum {
+            sum: 0.0,
+            product: 1.0,
+        }
+    }
+}
+
+impl LogSum {
+    fn add(&mut self, f: f64) {
+        if (1e-100..1e100).contains(&f) {
+            self.product *= f;
+            if !(1e-150..1e150).contains(&self.product) {
+                self.sum += self.product.ln();
+                self.product = 1.0;
+            }
+        } else {
+            self.sum += f.ln();
+        }
+    }
+
+    fn total(&self) -> f64 {
+        self.sum + self.product.ln()
+    }
+}
+
 /// Kalman filter over `x`, with regressor columns (a column of ones for the
 /// GLS mean, differenced regressors) run through the same gains in
-/// lockstep. The covariance recursion stops once it has converged.
+/// lockstep. The gain follows the Chandrasekhar recursion ([`Gain`]) and
+/// stops once the covariance has converged.
 ///
-/// One function because it is the likelihood's inner loop: the state, its
-/// covariance and the regressors' states live in local buffers updated
-/// together at every step; split, they would be passed on every step.
+/// One function because it is the likelihood's inner loop: the state and
+/// the regressors' states live in local buffers updated together at every
+/// step; split, they would be passed on every step.
 pub(super) fn run_filter(
     ss: &StateSpace,
-    p0: &[f64],
+    start: &Initial,
     x: &[f64],
     columns: &[Vec<f64>],
 ) -> Result<FilterOut, ArimaError> {
     let r = ss.r;
     let kc = columns.len();
-    let mut p = p0.to_vec();
-    let mut pn = vec![0.0; r * r];
-    let mut m = vec![0.0; r * r];
-    let mut k = vec![0.0; r];
+    let mut gain = Gain::new(ss, start)?;
     let mut a_y = vec![0.0; r];
     let mut a_x = vec![vec![0.0; r]; kc];
     let mut v = vec![0.0; kc];
-    let mut tmp = vec![0.0; r];
     let mut out = FilterOut {
         wxy: vec![0.0; kc],
         wxx: vec![0.0; kc * kc],
@@ -173,40 +343,20 @@ pub(super) fn run_filter(
         uxx: vec![0.0; kc * kc],
         ..FilterOut::default()
     };
-    let mut steady = false;
-    let mut f = p[0];
-    let mut log_f = 0.0;
+    let mut log_f = LogSum::default();
     for (t, &xt) in x.iter().enumerate() {
-        if !steady || t == 0 {
-            f = p[0];
-            if !(f.is_finite() && f > 0.0) {
-                return Err(ArimaError::NonFinite {
-                    context: "Kalman filter prediction variance",
-                });
-            }
-            log_f = f.ln();
-            // K = T P Z' / F, Z = e_1
-            for i in 0..r {
-                k[i] = (ss.phi[i] * p[0] + if i + 1 < r { p[(i + 1) * r] } else { 0.0 }) / f;
-            }
-        }
-        out.sum_log_f += log_f;
+        let f = gain.f;
+        log_f.add(f);
         let vy = xt - a_y[0];
         out.wyy += vy * vy / f;
         out.uyy += vy * vy;
-        ss.transition(&a_y, &mut tmp);
-        for i in 0..r {
-            a_y[i] = tmp[i] + k[i] * vy;
-        }
+        ss.update(&mut a_y, &gain.k, vy);
         for (j, (col, a)) in columns.iter().zip(a_x.iter_mut()).enumerate() {
             let vj = col[t] - a[0];
             v[j] = vj;
             out.wxy[j] += vy * vj / f;
             out.uxy[j] += vy * vj;
-            ss.transition(a, &mut tmp);
-            for i in 0..r {
-                a[i] = tmp[i] + k[i] * vj;
-            }
+            ss.update(a, &gain.k, vj);
         }
         for j in 0..kc {
             for l in 0..=j {
@@ -214,24 +364,9 @@ pub(super) fn run_filter(
                 out.uxx[j * kc + l] += v[j] * v[l];
             }
         }
-        if !steady {
-            ss.propagate(&p, &mut m, &mut pn);
-            let mut diff: f64 = 0.0;
-            let mut scale: f64 = 1.0;
-            for i in 0..r {
-                for j in 0..r {
-                    let v = pn[i * r + j] - k[i] * k[j] * f;
-                    pn[i * r + j] = v;
-                    diff = diff.max((v - p[i * r + j]).abs());
-                    scale = scale.max(v.abs());
-                }
-            }
-            std::mem::swap(&mut p, &mut pn);
-            if diff <= STEADY_TOL * scale {
-                steady = true;
-            }
-        }
+        gain.advance(ss)?;
     }
+    out.sum_log_f = log_f.total();
     if !(out.wyy.is_finite() && out.sum_log_f.is_finite()) {
         return Err(ArimaError::NonFinite {
             context: "Kalman filter innovations",
@@ -244,7 +379,7 @@ pub(super) fn run_filter(
         }
     }
     out.a_y = a_y;
-    out.p = p;
+    out.p = gain.p.unwrap_or_default();
     Ok(out)
 }
 
@@ -260,20 +395,22 @@ pub(super) struct Profile {
 pub(super) const LN_2PI: f64 = 1.837_877_066_409_345_3;
 
 /// The state space of expanded polynomials and its stationary covariance:
-/// the Kronecker solution for the non-seasonal model (its numbers as they
-/// always were), the autocovariance route for the seasonal one.
+/// the Kronecker solution for the non-seasonal model, the autocovariance
+/// route for the seasonal one; in full (`full`, for the covariance at the
+/// end of the data) or only its first column (the likelihood).
 pub(super) fn state_space(
     phi: &[f64],
     theta: &[f64],
     seasonal: bool,
-) -> Result<(StateSpace, Vec<f64>), ArimaError> {
+    full: bool,
+) -> Result<(StateSpace, Initial), ArimaError> {
     let ss = StateSpace::new(phi, theta);
-    let p0 = if seasonal {
-        super::covariance::stationary_cov(&ss, phi, theta)?
-    } else {
-        ss.stationary_cov()?
+    let start = match (seasonal, full) {
+        (true, true) => Initial::Full(super::covariance::stationary_cov(&ss, phi, theta)?),
+        (true, false) => Initial::Column(super::covariance::stationary_column(&ss, phi, theta)?),
+        (false, _) => Initial::Full(ss.stationary_cov()?),
     };
-    Ok((ss, p0))
+    Ok((ss, start))
 }
 
 /// The exact log-likelihood of `w` with the regression coefficients of
@@ -286,8 +423,8 @@ pub(super) fn profile(
     theta: &[f64],
     seasonal: bool,
 ) -> Result<Profile, ArimaError> {
-    let (ss, p0) = state_space(phi, theta, seasonal)?;
-    let fo = run_filter(&ss, &p0, w, columns)?;
+    let (ss, start) = state_space(phi, theta, seasonal, false)?;
+    let fo = run_filter(&ss, &start, w, columns)?;
     let n = w.len() as f64;
     let (beta, ss_w, ss_u) = super::regression::concentrate(&fo)?;
     let sigma2 = ss_w / n;
@@ -308,4 +445,73 @@ pub(super) fn profile(
         sigma2,
         is_mse: (ss_u / n).max(0.0),
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The textbook covariance recursion P_{t+1} = T P_t T′ + R R′ − K̄ K̄′/F
+    /// (Durbin & Koopman 2012, §4.3), run for `steps`: (Σ ln F_t, P_end).
+    fn plain_recursion(ss: &StateSpace, p0: &[f64], steps: usize) -> (f64, Vec<f64>) {
+        let r = ss.r;
+        let (mut p, mut m, mut pn) = (p0.to_vec(), vec![0.0; r * r], vec![0.0; r * r]);
+        let mut sum_log_f = 0.0;
+        for _ in 0..steps {
+            let f = p[0];
+            sum_log_f += f.ln();
+            let col: Vec<f64> = (0..r).map(|i| p[i * r]).collect();
+            let mut kbar = vec![0.0; r];
+            ss.transition(&col, &mut kbar);
+            ss.propagate(&p, &mut m, &mut pn);
+            for i in 0..r {
+                for j in 0..r {
+                    pn[i * r + j] -= kbar[i] * kbar[j] / f;
+                }
+            }
+            std::mem::swap(&mut p, &mut pn);
+        }
+        (sum_log_f, p)
+    }
+
+    #[test]
+    fn chandrasekhar_gain_equals_the_plain_covariance_recursion() {
+        // The same recursion rewritten (algebraic identity): Σ ln F and
+        // the covariance at the end agree with the O(r²) form, for short
+        // samples (before the steady state) and long ones (after it).
+        let cases: [(&[f64], &[f64], bool); 4] = [
+            (&[0.6], &[0.3], false),
+            (&[0.5, -0.3], &[0.4, 0.2], false),
+            // airline-like: (1 − 0.4L)(1 − 0.6L¹²) expanded
+            (
+                &[],
+                &[-0.4, 0., 0., 0., 0., 0., 0., 0., 0., 0., 0., -0.6, 0.24],
+                true,
+            ),
+            (
+                &[0.3, 0., 0., 0.5, -0.15],
+                &[0.2, 0., 0., -0.7, -0.14],
+                true,
+            ),
+        ];
+        for (phi, theta, seasonal) in cases {
+            for steps in [3usize, 40, 400] {
+                let (ss, full) = state_space(phi, theta, seasonal, true).unwrap();
+                let Initial::Full(p0) = &full else { panic!() };
+                let x = vec![0.0; steps];
+                let fo = run_filter(&ss, &full, &x, &[]).unwrap();
+                let (want_log_f, want_p) = plain_recursion(&ss, p0, steps);
+                assert!((fo.sum_log_f - want_log_f).abs() < 1e-10 * (1.0 + want_log_f.abs()));
+                for (a, b) in fo.p.iter().zip(&want_p) {
+                    assert!(
+                        (a - b).abs() < 1e-10,
+                        "{phi:?} {theta:?} {steps}: {a} vs {b}"
+                    );
+                }
+                let (_, column) = state_space(phi, theta, seasonal, false).unwrap();
+                let fc = run_filter(&ss, &column, &x, &[]).unwrap();
+                assert!((fc.sum_log_f - fo.sum_log_f).abs() < 1e-12 * (1.0 + want_log_f.abs()));
+            }
+        }
+    }
 }

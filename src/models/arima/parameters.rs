@@ -62,10 +62,10 @@ fn loglik(order: &ArimaOrder, w: &[f64], columns: &[Vec<f64>], x: &[f64]) -> f64
     if sigma2.is_nan() || sigma2 <= 0.0 {
         return f64::NAN;
     }
-    let Ok((ss, p0)) = state_space(&phi, &theta, seasonal) else {
+    let Ok((ss, start)) = state_space(&phi, &theta, seasonal, false) else {
         return f64::NAN;
     };
-    let Ok(fo) = run_filter(&ss, &p0, w, columns) else {
+    let Ok(fo) = run_filter(&ss, &start, w, columns) else {
         return f64::NAN;
     };
     let k = beta.len();

@@ -1,7 +1,7 @@
 //! ARIMA against statsmodels' reference values (tests/reference/arima/,
 //! written by generate_arima.py) and against closed forms.
 
-use super::kalman::{profile, run_filter, StateSpace, LN_2PI};
+use super::kalman::{profile, run_filter, Initial, StateSpace, LN_2PI};
 use super::reparam::{coef_to_pacf, pacf_to_coef};
 use super::*;
 use serde_json::Value;
@@ -22,8 +22,8 @@ fn loglik(y: &[f64], order: &ArimaOrder, params: &ArimaParams) -> Result<f64, Ar
     };
     let x: Vec<f64> = difference(y, order.d).iter().map(|v| v - mu).collect();
     let ss = StateSpace::new(&params.ar, &params.ma);
-    let p0 = ss.stationary_cov()?;
-    let fo = run_filter(&ss, &p0, &x, &[])?;
+    let start = Initial::Full(ss.stationary_cov()?);
+    let fo = run_filter(&ss, &start, &x, &[])?;
     let n = x.len() as f64;
     let s2 = params.sigma2;
     let ll = -0.5 * (n * LN_2PI + n * s2.ln() + fo.sum_log_f + fo.wyy / s2);
