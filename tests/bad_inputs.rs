@@ -428,11 +428,6 @@ fn catalogue() -> Vec<Case> {
             &["exp.yaml:14:18", "'x' is not known ahead", "family: ardl", "docs/arima.md"],
         ),
         case(
-            "arima aicc with several seasonal d",
-            add_candidate("  - family: arima\n    select: aicc\n    d: [1]\n    seasonal: {p: [0], d: [0, 1], q: [1]}\n"),
-            &["exp.yaml:13:13", "no seasonal unit-root test", "list one value under seasonal.d"],
-        ),
-        case(
             "ardl with a dummy",
             add_candidate("  - family: ardl\n    lags: [1]\n    predictors: [law]\n    predictor_lags: [1]\n")
                 .replacen("candidates:\n", "dummies:\n  - {name: law, step: 2001Q1}\ncandidates:\n", 1),

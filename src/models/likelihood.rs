@@ -437,14 +437,26 @@ pub(crate) struct SelectedFit {
 impl ArimaSelect {
     /// (d, D) for this window's sample.
     fn differences(&self, y: &[f64]) -> (usize, usize) {
-        use crate::numerics::stationarity::kpss_rejects;
+        use super::arima::differenced;
+        use crate::numerics::stationarity::{canova_hansen_rejects, kpss_rejects};
         let tested = self.criterion == crate::spec::ArimaCriterion::Aicc;
-        // spec refuses several D with aicc (no seasonal unit-root test yet).
-        let sd = self.seasonal_ds[0];
+        let mut sd = self.seasonal_ds[0];
+        if tested && self.seasonal_ds.len() > 1 {
+            // Canova–Hansen needs no unit root at frequency 0: when the
+            // listed d allow one, it sees the first differences.
+            let first = usize::from(self.ds.iter().any(|&d| d >= 1));
+            let base = differenced(y, first, self.m, 0);
+            for &next in &self.seasonal_ds[1..] {
+                if !canova_hansen_rejects(&differenced(&base, 0, self.m, sd), self.m) {
+                    break;
+                }
+                sd = next;
+            }
+        }
         let mut d = self.ds[0];
         if tested && self.ds.len() > 1 {
             for &next in &self.ds[1..] {
-                if !kpss_rejects(&super::arima::differenced(y, d, self.m, sd)) {
+                if !kpss_rejects(&differenced(y, d, self.m, sd)) {
                     break;
                 }
                 d = next;

@@ -117,18 +117,6 @@ pub(super) fn decode_arima(
                 );
                 return;
             }
-            if criterion == ArimaCriterion::Aicc
-                && seasonal.as_ref().is_some_and(|s| s.ds.len() > 1)
-            {
-                // A seasonal unit-root test (Canova–Hansen, OCSB) is not
-                // implemented and checked against a reference yet.
-                ctx.error_see(
-                    n,
-                    format!("{path}: select: aicc chooses d by the KPSS test but has no seasonal unit-root test to choose D yet; list one value under seasonal.d (or use select: aic, bic or hqic, which gives one candidate per D)"),
-                    crate::error::pages::ARIMA,
-                );
-                return;
-            }
             expand_select(criterion, ps, ds, qs, seasonal, entry, out);
         }
         None => expand_arima(&ps, &ds, &qs, seasonal.as_ref(), &entry, out),
@@ -264,7 +252,8 @@ fn expand_arima(
 
 /// `select`: with aic, bic or hqic one candidate per d (and D),
 /// `arima(bic,2,1,2)` or `arima(bic,2,1,2)(1,1,1)12`; with aicc one
-/// candidate, `arima(aicc)`, whose d and D a unit-root test chooses.
+/// candidate, `arima(aicc)`, whose d (KPSS) and D (Canova–Hansen) are
+/// chosen by a test in every window.
 fn expand_select(
     criterion: ArimaCriterion,
     ps: Vec<usize>,
