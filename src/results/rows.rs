@@ -226,16 +226,13 @@ impl Rows {
     /// detail (the predictors' diagnostics stay; they serve every target).
     pub fn forget(&mut self, t: usize, grid: &Grid) {
         let name = grid.targets[t].as_str();
-        let own = |subject: &str| {
-            subject == name
-                || subject.strip_prefix(name).is_some_and(|cell| {
-                    grid.candidates.iter().any(|c| {
-                        grid.schemes.iter().any(|s| {
-                            cell.len() == c.len() + s.len() + 2 && cell == format!("/{c}/{s}")
-                        })
-                    })
-                })
-        };
+        // Its diagnostics' subjects: the target, and its cells' ids.
+        let cells: std::collections::HashSet<String> = grid
+            .candidates
+            .iter()
+            .flat_map(|c| grid.schemes.iter().map(move |s| format!("{name}/{c}/{s}")))
+            .collect();
+        let own = |subject: &str| subject == name || cells.contains(subject);
         self.diagnostics
             .retain(|d| d.kind == "predictor" || !own(&d.subject));
         let (gone, kept): (Vec<_>, Vec<_>) = std::mem::take(&mut self.scores)
