@@ -104,10 +104,8 @@ impl TargetPart {
     /// The part as the final choice shows it.
     pub fn settle(mut self, shown: Shown) -> TargetPart {
         self.shown = shown;
-        if !shown.detail {
-            self.entry = Value::Null;
-            self.rows.clear();
-        } else {
+        self = self.settle_detail();
+        if shown.detail {
             self.entry["detail"] = json!(shown.detail);
             self.entry["charts"] = json!(shown.charts);
         }
@@ -117,6 +115,17 @@ impl TargetPart {
             (true, false) => self.plain.take().or(self.full),
         };
         self.plain = None;
+        self
+    }
+
+    /// A target without detail keeps its verdict's readings (the overall
+    /// count); the verdict itself is left to the tables, so that the report
+    /// and its memory do not grow with every target beyond the detailed ones.
+    fn settle_detail(mut self) -> TargetPart {
+        if !self.shown.detail {
+            self.entry = Value::Null;
+            self.rows.clear();
+        }
         self
     }
 
@@ -306,19 +315,6 @@ fn target_part(ix: &Index, t: usize, draw: bool, shown: Shown, fin: bool) -> Tar
         rows,
     }
     .settle_detail()
-}
-
-impl TargetPart {
-    /// A target without detail keeps its verdict's readings (the overall
-    /// count); the verdict itself is left to the tables, so that the report
-    /// and its memory do not grow with every target beyond the detailed ones.
-    fn settle_detail(mut self) -> TargetPart {
-        if !self.shown.detail {
-            self.entry = Value::Null;
-            self.rows.clear();
-        }
-        self
-    }
 }
 
 /// The data the report templates read, as template values (see
